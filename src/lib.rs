@@ -1,0 +1,8 @@
+//! causeway: magnification maps and finite-source light curves for gravitational microlensing.
+
+pub mod error;
+pub mod lens;
+pub mod map;
+pub mod table;
+
+pub use error::{Error, Result};
