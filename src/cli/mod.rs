@@ -1,0 +1,118 @@
+//! The command line: clap definitions and one small function per command; no physics here.
+//!
+//! Each command lives in its own file with an `Args` struct and a `run` function. Shared option
+//! groups (the lens, threads) are defined here.
+
+use crate::error::{Error, Result};
+use crate::lens::LensSystem;
+use clap::{Args, Parser, Subcommand};
+use std::path::PathBuf;
+
+/// Command-line entry: parsed options.
+#[derive(Debug, Parser)]
+#[command(
+    name = "causeway",
+    version,
+    about = "Magnification maps and finite-source light curves for gravitational microlensing",
+    long_about = "Builds magnification maps of point-mass lenses by inverse ray shooting, keeps \
+                  them, and draws finite-source light curves from them.\n\nLengths are in \
+                  Einstein radii of the total lens mass; a binary is given by --s and --q, any \
+                  other lens by --lenses FILE (CSV with header x,y,mass).",
+    after_help = "Examples:\n  causeway demo\n  causeway map --s 1.1 --q 1e-3 --center 0.2,0 --width 0.5 --pixels 1000 --out planet.fits --png planet.png"
+)]
+pub struct Cli {
+    /// The command to run.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The commands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Build one magnification map by inverse ray shooting.
+    Map(map::MapArgs),
+    /// Run the built-in demo: an invented planetary event, its map and picture.
+    Demo(demo::DemoArgs),
+}
+
+/// Runs a parsed command line.
+pub fn run(cli: Cli) -> Result<()> {
+    match cli.command {
+        Command::Map(args) => map::run(args),
+        Command::Demo(args) => demo::run(args),
+    }
+}
+
+pub mod demo;
+pub mod map;
+
+/// The lens: a binary from (s, q) or any set of point masses from a CSV file.
+#[derive(Debug, Clone, Args)]
+pub struct LensArgs {
+    /// Binary separation s (Einstein radii of the total mass).
+    #[arg(
+        long,
+        allow_negative_numbers = true,
+        requires = "q",
+        conflicts_with = "lenses"
+    )]
+    pub s: Option<f64>,
+    /// Binary mass ratio q = m2/m1 > 0.
+    #[arg(long, allow_negative_numbers = true, requires = "s")]
+    pub q: Option<f64>,
+    /// Lens CSV file with header x,y,mass (masses relative; normalised on load).
+    #[arg(long, value_name = "FILE")]
+    pub lenses: Option<PathBuf>,
+}
+
+impl LensArgs {
+    /// The lens system these options describe.
+    pub fn lens_system(&self) -> Result<LensSystem> {
+        match (&self.lenses, self.s, self.q) {
+            (Some(path), None, None) => LensSystem::read_csv(path),
+            (None, Some(s), Some(q)) => LensSystem::binary(s, q),
+            _ => Err(Error::input(
+                "give the lens as --s S --q Q (a binary) or --lenses FILE (CSV x,y,mass)",
+            )),
+        }
+    }
+}
+
+/// Parallelism: how many threads.
+#[derive(Debug, Clone, Args)]
+pub struct ThreadArgs {
+    /// Worker threads (default: all cores; RAYON_NUM_THREADS is honoured too).
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
+}
+
+impl ThreadArgs {
+    /// Sets up the global thread pool. Call once, before any parallel work.
+    pub fn install(&self) -> Result<()> {
+        if let Some(n) = self.threads {
+            if n == 0 {
+                return Err(Error::input("--threads: must be at least 1"));
+            }
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(n)
+                .build_global()
+                .map_err(|e| Error::input(format!("--threads: {e}")))?;
+        }
+        Ok(())
+    }
+}
+
+/// Parses `X,Y` (for example `-0.3,0.1`).
+pub fn parse_pair(s: &str) -> std::result::Result<(f64, f64), String> {
+    let (a, b) = s
+        .split_once(',')
+        .ok_or_else(|| format!("expected X,Y, got '{s}'"))?;
+    let parse = |t: &str| {
+        t.trim()
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite())
+            .ok_or_else(|| format!("'{t}' is not a finite number"))
+    };
+    Ok((parse(a)?, parse(b)?))
+}
