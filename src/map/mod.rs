@@ -77,7 +77,7 @@ impl Window {
         let n = self.pixels as f64;
         let fx = (x - x0) / self.pixel_size();
         let fy = (y - y0) / self.pixel_size();
-        (fx >= 0.0 && fx < n && fy >= 0.0 && fy < n).then(|| (fx as usize, fy as usize))
+        (fx >= 0.0 && fx < n && fy >= 0.0 && fy < n).then_some((fx as usize, fy as usize))
     }
 
     /// Whether the point lies in the window (closed on the lower edges, open on the upper).
