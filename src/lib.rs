@@ -19,6 +19,7 @@
 pub mod cli;
 pub mod engine;
 pub mod error;
+pub mod fsutil;
 pub mod lens;
 pub mod map;
 pub mod table;
