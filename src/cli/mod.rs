@@ -58,7 +58,7 @@ pub struct LensArgs {
     )]
     pub s: Option<f64>,
     /// Binary mass ratio q = m2/m1 > 0.
-    #[arg(long, allow_negative_numbers = true, requires = "s")]
+    #[arg(long, allow_hyphen_values = true, requires = "s")]
     pub q: Option<f64>,
     /// Lens CSV file with header x,y,mass (masses relative; normalised on load).
     #[arg(long, value_name = "FILE")]
