@@ -87,8 +87,35 @@ pub fn read_fits(path: &Path) -> Result<MagnificationMap> {
     decode(&bytes).map_err(|msg| Error::input(format!("{}: {msg}", path.display())))
 }
 
-/// The whole file: header, then data, each padded to whole blocks.
+/// The whole file: header, then data, each padded to whole blocks, then the checksums.
 fn encode(map: &MagnificationMap) -> Result<Vec<u8>> {
+    let mut h = map_header(map)?;
+    let datasum_at = h.placeholder();
+    let checksum_at = h.placeholder();
+    let mut bytes = h.finish();
+
+    let data_start = bytes.len();
+    let data_len = padded(4 * map.data.len());
+    bytes.reserve(data_len);
+    for v in map.data.iter() {
+        bytes.extend_from_slice(&v.to_be_bytes());
+    }
+    bytes.resize(data_start + data_len, 0);
+
+    // The checksum convention: DATASUM first, then CHECKSUM over the whole HDU with
+    // CHECKSUM = '0000000000000000', finally replaced by the encoded complement.
+    let datasum = checksum::ones_sum(&bytes[data_start..]);
+    let card = string_card("DATASUM", &datasum.to_string(), "data unit checksum")?;
+    bytes[datasum_at..datasum_at + CARD].copy_from_slice(&card);
+    let card = string_card("CHECKSUM", "0000000000000000", "HDU checksum")?;
+    bytes[checksum_at..checksum_at + CARD].copy_from_slice(&card);
+    let code = checksum::encode_complement(checksum::ones_sum(&bytes));
+    bytes[checksum_at + 11..checksum_at + 27].copy_from_slice(&code);
+    Ok(bytes)
+}
+
+/// Every card but the checksums and END, after checking that the map can be written.
+fn map_header(map: &MagnificationMap) -> Result<Header> {
     let w = &map.window;
     let p = &map.provenance;
     let n = w.pixels;
@@ -153,27 +180,7 @@ fn encode(map: &MagnificationMap) -> Result<Vec<u8>> {
     h.string("CW_VERS", &p.version, "causeway version")?;
     h.string("DATE", &p.build_time, "build time, UTC")?;
     h.float("BUILDSEC", p.build_seconds, "build duration, seconds")?;
-    let datasum_at = h.placeholder();
-    let checksum_at = h.placeholder();
-    let mut bytes = h.finish();
-
-    let data_start = bytes.len();
-    bytes.reserve(padded(4 * n * n));
-    for v in map.data.iter() {
-        bytes.extend_from_slice(&v.to_be_bytes());
-    }
-    bytes.resize(data_start + padded(4 * n * n), 0);
-
-    // The checksum convention: DATASUM first, then CHECKSUM over the whole HDU with
-    // CHECKSUM = '0000000000000000', finally replaced by the encoded complement.
-    let datasum = checksum::ones_sum(&bytes[data_start..]);
-    let card = string_card("DATASUM", &datasum.to_string(), "data unit checksum")?;
-    bytes[datasum_at..datasum_at + CARD].copy_from_slice(&card);
-    let card = string_card("CHECKSUM", "0000000000000000", "HDU checksum")?;
-    bytes[checksum_at..checksum_at + CARD].copy_from_slice(&card);
-    let code = checksum::encode_complement(checksum::ones_sum(&bytes));
-    bytes[checksum_at + 11..checksum_at + 27].copy_from_slice(&code);
-    Ok(bytes)
+    Ok(h)
 }
 
 /// A count as a FITS integer.
@@ -305,25 +312,21 @@ fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
         Some(Err(e)) => return Err(format!("not a readable FITS file: {e}")),
     };
     let header = Keywords(hdu.get_header());
-    if header.integer("BITPIX")? != -32 {
+    let bitpix = header.integer("BITPIX")?;
+    if bitpix != -32 {
         return Err(format!(
-            "BITPIX = {}: causeway maps are float32 (-32)",
-            header.integer("BITPIX")?
+            "BITPIX = {bitpix}: causeway maps are float32 (-32)"
         ));
     }
-    if header.integer("NAXIS")? != 2 {
-        return Err(format!(
-            "NAXIS = {}: a map is a 2-D image",
-            header.integer("NAXIS")?
-        ));
+    let naxis = header.integer("NAXIS")?;
+    if naxis != 2 {
+        return Err(format!("NAXIS = {naxis}: a map is a 2-D image"));
     }
     let n = header.count("WIN_PIX")?;
     for key in ["NAXIS1", "NAXIS2"] {
-        if header.count(key)? != n {
-            return Err(format!(
-                "{key} = {} disagrees with WIN_PIX = {n}",
-                header.count(key)?
-            ));
+        let len = header.count(key)?;
+        if len != n {
+            return Err(format!("{key} = {len} disagrees with WIN_PIX = {n}"));
         }
     }
     if n == 0 {
@@ -332,13 +335,18 @@ fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
     let window = read_window(&header, n)?;
 
     let data_start = hdu.get_data_unit_byte_offset() as usize;
-    let data_end = data_start + padded(4 * n * n);
-    if bytes.len() < data_end {
+    let data_end = n
+        .checked_mul(n)
+        .and_then(|pixels| pixels.checked_mul(4))
+        .filter(|&len| len <= bytes.len())
+        .map(|len| data_start + padded(len))
+        .filter(|&end| end <= bytes.len());
+    let Some(data_end) = data_end else {
         return Err(format!(
-            "truncated: {} bytes, the data need {data_end}",
+            "truncated: {} bytes, too few for {n} x {n} float32 pixels",
             bytes.len()
         ));
-    }
+    };
     verify_checksums(&header, &bytes[..data_end], data_start)?;
     let provenance = read_provenance(&header)?;
 

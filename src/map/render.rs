@@ -100,9 +100,15 @@ fn render(map: &MagnificationMap, overlay: &Overlay) -> RgbImage {
     let scale = LogScale::of(map.data.iter().copied());
     let bar = ColourBar::for_pixels(n);
     let width = n + bar.as_ref().map_or(0, ColourBar::width);
+    let palette = Palette::new();
     let mut image = RgbImage::from_pixel(width as u32, n as u32, MARGIN_COLOUR);
-    for ((iy, ix), &v) in map.data.indexed_iter() {
-        image.put_pixel(ix as u32, (n - 1 - iy) as u32, colour(scale.position(v)));
+    let stride = 3 * width;
+    for (iy, values) in map.data.outer_iter().enumerate() {
+        let start = (n - 1 - iy) * stride;
+        let row = &mut image.as_mut()[start..start + 3 * n];
+        for (px, &v) in row.chunks_exact_mut(3).zip(values.iter()) {
+            px.copy_from_slice(&palette.at(scale.position(v)).0);
+        }
     }
     let mut canvas = Canvas::new(&mut image, n, (n / 1024) as i64);
     for curve in &overlay.curves {
@@ -123,14 +129,36 @@ fn render(map: &MagnificationMap, overlay: &Overlay) -> RgbImage {
         }
     }
     if let Some(bar) = bar {
-        bar.draw(&mut image, n, &scale);
+        bar.draw(&mut image, n, &scale, &palette);
     }
     image
 }
 
-fn colour(t: f64) -> Rgb<u8> {
-    let c = GRADIENT.eval_continuous(t);
-    Rgb([c.r, c.g, c.b])
+/// The gradient sampled at 4096 evenly spaced points, 0 and 1 included: a table look-up is
+/// much cheaper per pixel than evaluating the gradient, and finer than 8-bit colour can show.
+struct Palette(Vec<Rgb<u8>>);
+
+impl Palette {
+    const SIZE: usize = 4096;
+
+    fn new() -> Self {
+        let last = (Self::SIZE - 1) as f64;
+        Palette(
+            (0..Self::SIZE)
+                .map(|k| {
+                    let c = GRADIENT.eval_continuous(k as f64 / last);
+                    Rgb([c.r, c.g, c.b])
+                })
+                .collect(),
+        )
+    }
+
+    /// Colour at `t` in [0, 1].
+    fn at(&self, t: f64) -> Rgb<u8> {
+        // Nearest entry: `+ 0.5` then truncation rounds the non-negative index, and is much
+        // cheaper than f64::round.
+        self.0[(t.clamp(0.0, 1.0) * (Self::SIZE - 1) as f64 + 0.5) as usize]
+    }
 }
 
 /// Maps magnifications to [0, 1] by log10 between two limits.
@@ -273,13 +301,13 @@ impl ColourBar {
         self.unit * (10 + 4 * Self::LABEL_CHARS)
     }
 
-    fn draw(&self, image: &mut RgbImage, n: usize, scale: &LogScale) {
+    fn draw(&self, image: &mut RgbImage, n: usize, scale: &LogScale, palette: &Palette) {
         let u = self.unit;
         let (tick_x, bar_x, label_x) = (n + 2 * u, n + 4 * u, n + 10 * u);
         for row in 0..n {
             let t = 1.0 - (row as f64 + 0.5) / n as f64;
             for x in bar_x..bar_x + 4 * u {
-                image.put_pixel(x as u32, row as u32, colour(t));
+                image.put_pixel(x as u32, row as u32, palette.at(t));
             }
         }
         // Ticks at the powers of ten inside the range.
