@@ -33,6 +33,8 @@ pub enum Command {
     Map(map::MapArgs),
     /// Run the built-in demo: an invented planetary event, its map and picture.
     Demo(demo::DemoArgs),
+    /// Grid builds of maps over (s, q) into the store, and store upkeep.
+    Library(library::LibraryArgs),
 }
 
 /// Runs a parsed command line.
@@ -40,10 +42,12 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Map(args) => map::run(args),
         Command::Demo(args) => demo::run(args),
+        Command::Library(args) => library::run(args),
     }
 }
 
 pub mod demo;
+pub mod library;
 pub mod map;
 
 /// The lens: a binary from (s, q) or any set of point masses from a CSV file.

@@ -45,7 +45,9 @@ impl Axis {
             Axis::Linear { linear: (a, b, n) } => spaced(a, b, n, |x| x, |x| x),
             Axis::Log { log: (a, b, n) } => {
                 if !(a > 0.0 && b > 0.0) {
-                    return Err(bad(format!("log spacing needs positive ends, got {a} and {b}")));
+                    return Err(bad(format!(
+                        "log spacing needs positive ends, got {a} and {b}"
+                    )));
                 }
                 spaced(a, b, n, f64::ln, f64::exp)
             }
@@ -148,10 +150,16 @@ impl std::str::FromStr for Shard {
     /// assert!("0/5".parse::<Shard>().is_err());
     /// ```
     fn from_str(s: &str) -> std::result::Result<Self, String> {
-        let (k, n) = s.split_once('/').ok_or_else(|| format!("expected K/N, got '{s}'"))?;
+        let (k, n) = s
+            .split_once('/')
+            .ok_or_else(|| format!("expected K/N, got '{s}'"))?;
         let (k, n): (usize, usize) = (
-            k.trim().parse().map_err(|_| format!("'{k}' is not a shard number"))?,
-            n.trim().parse().map_err(|_| format!("'{n}' is not a shard count"))?,
+            k.trim()
+                .parse()
+                .map_err(|_| format!("'{k}' is not a shard number"))?,
+            n.trim()
+                .parse()
+                .map_err(|_| format!("'{n}' is not a shard count"))?,
         );
         if n == 0 || k == 0 || k > n {
             return Err(format!("shard {k}/{n}: need 1 <= K <= N"));
@@ -175,13 +183,19 @@ impl LibrarySpec {
         let file: SpecFile = toml::from_str(text).map_err(|e| {
             let line = e
                 .span()
-                .map(|sp| text[..sp.start.min(text.len())].lines().count().max(1))
+                .map(|sp| text[..sp.start.min(text.len())].matches('\n').count() + 1)
                 .unwrap_or(1);
-            let msg = e.message().lines().next().unwrap_or("invalid spec").to_string();
+            let msg = e
+                .message()
+                .lines()
+                .next()
+                .unwrap_or("invalid spec")
+                .to_string();
             Error::input(format!("{origin}:{line}: {msg}"))
         })?;
         let named = |e: Error| Error::input(format!("{origin}: {e}"));
-        let window = Window::new(file.window.center, file.window.width, file.pixels).map_err(named)?;
+        let window =
+            Window::new(file.window.center, file.window.width, file.pixels).map_err(named)?;
         engine::by_name(&file.engine, file.rays).map_err(named)?;
         Ok(LibrarySpec {
             s: file.s.values("s").map_err(named)?,

@@ -15,7 +15,7 @@ mod index;
 mod key;
 pub mod library;
 
-pub use index::Entry;
+pub use index::{header as index_header, Entry};
 pub use key::{MapKey, KEY_FORMAT};
 
 use crate::error::{Error, Result};
@@ -183,10 +183,10 @@ impl Store {
                 continue;
             }
             if let Err(err) = read_fits(&path).and_then(|m| check_key(&m, &path)) {
-                problems.push(Problem {
-                    path,
-                    reason: err.to_string(),
-                });
+                let text = err.to_string();
+                let prefix = format!("{}: ", path.display());
+                let reason = text.strip_prefix(&prefix).unwrap_or(&text).to_string();
+                problems.push(Problem { path, reason });
             }
         }
         for path in self.map_files()? {
