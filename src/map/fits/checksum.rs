@@ -21,7 +21,7 @@ fn fold(mut s: u64) -> u32 {
 /// Ones' complement sum of `bytes` read as big-endian 32-bit words; the length must be a
 /// multiple of 4 (FITS blocks of 2880 bytes always are).
 pub(super) fn ones_sum(bytes: &[u8]) -> u32 {
-    debug_assert!(bytes.len() % 4 == 0);
+    debug_assert!(bytes.len().is_multiple_of(4));
     // A u64 holds 2^32 words before it can overflow; fold well before that.
     bytes.chunks(4 << 20).fold(0, |acc, chunk| {
         let s: u64 = chunk
