@@ -14,9 +14,11 @@ use crate::lens::LensSystem;
 use crate::map::{utc_now, MagnificationMap, Provenance, Window};
 use ndarray::Array2;
 
+mod lattice;
 mod rays;
 
-pub use rays::{ray_budget, shooting_radius, RayShooting};
+pub use lattice::shooting_radius;
+pub use rays::{ray_budget, RayShooting};
 
 /// What an engine produced: pixel data and its cost.
 #[derive(Debug, Clone, PartialEq)]
