@@ -13,6 +13,7 @@
 //!   curve crosses the cell), or a corner is not finite (a lens sits on it), or
 //! - the image of its centre lies more than [`CENTRE_TOLERANCE`] pixels from the mean of the
 //!   corner images (a second-order test on the mapping's curvature).
+//!
 //! A cell still failing at the deepest level deposits its whole area at the pixel of its centre's
 //! image, as one ray would.
 //!
@@ -219,6 +220,15 @@ fn well_formed(q: &[Point; 4]) -> bool {
     true
 }
 
+/// An image-plane cell: lower-left corner, side, and how many splits made it.
+#[derive(Debug, Clone, Copy)]
+struct Square {
+    x: f64,
+    y: f64,
+    size: f64,
+    depth: u32,
+}
+
 struct Mapper<'a> {
     lattice: &'a Lattice,
 }
@@ -271,16 +281,8 @@ impl Mapper<'_> {
 
     /// Deposits one cell: lower-left image-plane corner (x, y), side `size`, corner images
     /// `q` (counter-clockwise from lower left), centre image `centre`.
-    fn cell(
-        &self,
-        x: f64,
-        y: f64,
-        size: f64,
-        q: [Point; 4],
-        centre: Point,
-        depth: u32,
-        acc: &mut Accumulator,
-    ) {
+    fn cell(&self, square: Square, q: [Point; 4], centre: Point, acc: &mut Accumulator) {
+        let Square { x, y, size, depth } = square;
         let n = self.lattice.n;
         let units = FULL >> (2 * depth);
         let mean = (
@@ -323,7 +325,13 @@ impl Mapper<'_> {
         ];
         for (sx, sy, sq) in subs {
             let c = self.map(sx + quarter, sy + quarter);
-            self.cell(sx, sy, hs, sq, c, depth + 1, acc);
+            let sub = Square {
+                x: sx,
+                y: sy,
+                size: hs,
+                depth: depth + 1,
+            };
+            self.cell(sub, sq, c, acc);
         }
     }
 
@@ -356,7 +364,13 @@ impl Mapper<'_> {
             to_pixels(&sx[..L], &sy[..L], &mut centres);
             for c in 0..L {
                 let q = [below[c], below[c + 1], above[c + 1], above[c]];
-                self.cell(corner_x[c], y, h, q, centres[c], 0, acc);
+                let square = Square {
+                    x: corner_x[c],
+                    y,
+                    size: h,
+                    depth: 0,
+                };
+                self.cell(square, q, centres[c], acc);
             }
             std::mem::swap(&mut below, &mut above);
         }
