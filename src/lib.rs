@@ -21,6 +21,7 @@ pub mod engine;
 pub mod error;
 pub mod lens;
 pub mod map;
+pub mod solve;
 pub mod table;
 
 pub use error::{Error, Result};
