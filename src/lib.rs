@@ -16,6 +16,7 @@
 //! assert!(map.mean() > 1.0);
 //! ```
 
+pub mod caustics;
 pub mod cli;
 pub mod engine;
 pub mod error;
