@@ -9,8 +9,7 @@ use std::path::Path;
 /// s_c^8 = (1+q)^2/(27 q) (1 - s_c^4)^3 with scipy.optimize.brentq, and
 /// s_w = sqrt((1+q^(1/3))^3/(1+q)) (Erdl & Schneider 1993; Dominik 1999, A&A 349, 108).
 /// Just inside and just outside each boundary (s 1e-4 relative away; 1e-5 passes as well) the
-/// traced curves give the expected
-/// topology, for q from 1e-6 to 1 and q = 10.
+/// traced curves give the expected topology, for q from 1e-6 to 1 and q = 10.
 #[test]
 fn topology_boundaries() {
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/topology.csv");

@@ -4,6 +4,12 @@
 //! `ndarray::Array2<f32>` indexed `[[iy, ix]]`: the first index runs along y, the second along x,
 //! and `[[0, 0]]` is the lower-left pixel (smallest x and y), the order FITS uses.
 
+pub mod fits;
+pub mod render;
+
+pub use fits::{read_fits, write_fits};
+pub use render::{render_png, Overlay};
+
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
 use ndarray::Array2;
@@ -77,7 +83,7 @@ impl Window {
         let n = self.pixels as f64;
         let fx = (x - x0) / self.pixel_size();
         let fy = (y - y0) / self.pixel_size();
-        (fx >= 0.0 && fx < n && fy >= 0.0 && fy < n).then(|| (fx as usize, fy as usize))
+        (fx >= 0.0 && fx < n && fy >= 0.0 && fy < n).then_some((fx as usize, fy as usize))
     }
 
     /// Whether the point lies in the window (closed on the lower edges, open on the upper).

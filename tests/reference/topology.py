@@ -15,6 +15,8 @@ import sys
 
 from scipy.optimize import brentq
 
+from refcheck import emit
+
 HERE = os.path.dirname(os.path.abspath(__file__))
 OUT = os.path.join(HERE, "topology.csv")
 QS = [1.0, 0.5, 0.1, 1e-2, 1e-3, 1e-4, 1e-5, 1e-6, 10.0]
@@ -36,21 +38,7 @@ def rows():
 def main():
     data = rows()
     assert abs(data[0][1] - 1 / math.sqrt(2)) < 1e-12 and abs(data[0][2] - 2) < 1e-12
-    if "--check" in sys.argv:
-        with open(OUT) as f:
-            old = [l.split(",") for l in f.read().splitlines() if l and not l.startswith("#")][1:]
-        bad = sum(1 for a, b in zip(old, data)
-                  if any(abs(float(x) - y) > 1e-12 * abs(y) for x, y in zip(a, b)))
-        bad += abs(len(old) - len(data))
-        print(f"topology.csv: {len(data) - bad} passed, {bad} failed")
-        sys.exit(1 if bad else 0)
-    with open(OUT, "w") as f:
-        f.write("# Binary caustic topology boundaries from tests/reference/topology.py "
-                "(scipy.optimize.brentq on the Erdl & Schneider / Dominik 1999 equation).\n")
-        f.write("q,s_close,s_wide\n")
-        for q, sc, sw in data:
-            f.write(f"{q!r},{sc!r},{sw!r}\n")
-    print(f"wrote {len(data)} rows to {OUT}")
+    emit(OUT, ["q", "s_close", "s_wide"], data)
 
 
 if __name__ == "__main__":

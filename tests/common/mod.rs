@@ -1,0 +1,71 @@
+//! Helpers shared by the integration tests.
+#![allow(dead_code)]
+
+use causeway::table::Table;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+/// The crate root.
+pub fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+/// A committed reference table under tests/reference/.
+pub fn reference(name: &str, columns: &[&str]) -> Table {
+    Table::read(&root().join("tests/reference").join(name), columns, &[])
+        .unwrap_or_else(|e| panic!("reading reference {name}: {e}"))
+}
+
+/// The Python interpreter with the reference libraries: $CAUSEWAY_PYTHON, else ./.venv/bin/python.
+/// Panics (the test fails) when neither exists: these checks must not be skipped silently.
+pub fn python() -> PathBuf {
+    if let Ok(p) = std::env::var("CAUSEWAY_PYTHON") {
+        return PathBuf::from(p);
+    }
+    let venv = root().join(".venv/bin/python");
+    assert!(
+        venv.exists(),
+        "no Python with numpy/scipy/astropy: set CAUSEWAY_PYTHON or run the README's test command, \
+         which creates .venv"
+    );
+    venv
+}
+
+/// Runs a Python snippet with arguments; returns stdout, panicking with stderr on failure.
+pub fn run_python(code: &str, args: &[&str]) -> String {
+    let out = Command::new(python())
+        .arg("-c")
+        .arg(code)
+        .args(args)
+        .output()
+        .expect("starting python");
+    assert!(
+        out.status.success(),
+        "python failed: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8(out.stdout).unwrap()
+}
+
+/// The causeway binary built for these tests.
+pub fn causeway() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_causeway"))
+}
+
+/// A fresh empty directory for one test.
+pub fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("causeway-test-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+/// Files in a directory (names), sorted.
+pub fn listing(dir: &Path) -> Vec<String> {
+    let mut names: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    names
+}
