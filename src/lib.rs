@@ -16,12 +16,14 @@
 //! assert!(map.mean() > 1.0);
 //! ```
 
+pub mod caustics;
 pub mod cli;
 pub mod engine;
 pub mod error;
 pub mod fsutil;
 pub mod lens;
 pub mod map;
+pub mod solve;
 pub mod store;
 pub mod table;
 
