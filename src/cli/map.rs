@@ -1,6 +1,7 @@
 //! `causeway map`: build one magnification map and write its FITS file (and PNG).
 
 use super::{parse_pair, LensArgs, ThreadArgs};
+use crate::caustics::caustic_curves;
 use crate::engine::{self, Engine};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
@@ -176,7 +177,13 @@ pub fn write_outputs(map: &MagnificationMap, out: &Path, png: Option<&Path>) -> 
     write_fits(map, out)?;
     eprintln!("wrote {}", out.display());
     if let Some(png) = png {
-        render_png(map, &Overlay::from_lens(&map.provenance.lens), png)?;
+        let lens = &map.provenance.lens;
+        let mut overlay = Overlay::from_lens(lens);
+        match caustic_curves(lens) {
+            Ok(curves) => overlay.curves = curves,
+            Err(e) => eprintln!("warning: caustics not drawn: {e}"),
+        }
+        render_png(map, &overlay, png)?;
         eprintln!("wrote {}", png.display());
     }
     Ok(())
