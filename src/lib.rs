@@ -17,10 +17,12 @@
 //! ```
 
 pub mod cli;
+pub mod curve;
 pub mod engine;
 pub mod error;
 pub mod lens;
 pub mod map;
+pub mod source;
 pub mod table;
 
 pub use error::{Error, Result};
