@@ -164,7 +164,7 @@ pub fn resolution_warning(map: &MagnificationMap, profile: &SourceProfile) -> Op
     let w = &map.window;
     let rho_px = profile.rho / w.pixel_size();
     (profile.rho > 0.0 && rho_px < MIN_RHO_PIXELS).then(|| {
-        let needed = (MIN_RHO_PIXELS * w.width / profile.rho).ceil() as usize;
+        let needed = (MIN_RHO_PIXELS * w.width / profile.rho * (1.0 - 1e-12)).ceil() as usize;
         format!(
             "warning: --rho {} covers only {:.2} pixels of radius on this map (pixel {:e}); \
              below {MIN_RHO_PIXELS} pixels the pixel structure dominates: a map of at least \
