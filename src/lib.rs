@@ -20,9 +20,11 @@ pub mod cli;
 pub mod curve;
 pub mod engine;
 pub mod error;
+pub mod fsutil;
 pub mod lens;
 pub mod map;
 pub mod source;
+pub mod store;
 pub mod table;
 
 pub use error::{Error, Result};

@@ -4,6 +4,8 @@ use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::engine::{self, Engine};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
+use crate::map::fits::write_fits;
+use crate::map::render::{render_png, Overlay};
 use crate::map::{MagnificationMap, Window};
 use clap::Args;
 use std::path::{Path, PathBuf};
@@ -23,7 +25,7 @@ pub struct MapArgs {
     #[arg(long, value_parser = parse_pair, allow_hyphen_values = true, value_name = "X,Y")]
     pub center: (f64, f64),
     /// Window side length in Einstein radii.
-    #[arg(long, value_name = "W")]
+    #[arg(long, value_name = "W", allow_hyphen_values = true)]
     pub width: f64,
     /// Pixels per side.
     #[arg(long, value_name = "N")]
@@ -35,7 +37,12 @@ pub struct MapArgs {
     #[arg(long, value_name = "FILE.png")]
     pub png: Option<PathBuf>,
     /// Rays per unlensed pixel area.
-    #[arg(long, default_value_t = 100.0, value_name = "R")]
+    #[arg(
+        long,
+        default_value_t = 100.0,
+        value_name = "R",
+        allow_hyphen_values = true
+    )]
     pub rays: f64,
     /// Map engine.
     #[arg(long, default_value = "rays", value_name = "E")]
@@ -166,8 +173,13 @@ pub fn progress_bar(what: &str) -> indicatif::ProgressBar {
 
 /// Writes the FITS file and the optional PNG.
 pub fn write_outputs(map: &MagnificationMap, out: &Path, png: Option<&Path>) -> Result<()> {
-    let _ = (map, out, png);
-    Err(Error::Numerical("FITS output is not merged yet".into()))
+    write_fits(map, out)?;
+    eprintln!("wrote {}", out.display());
+    if let Some(png) = png {
+        render_png(map, &Overlay::from_lens(&map.provenance.lens), png)?;
+        eprintln!("wrote {}", png.display());
+    }
+    Ok(())
 }
 
 /// The built-in demo: an invented planetary system (a giant planet, q = 2e-3, just outside the
@@ -175,8 +187,8 @@ pub fn write_outputs(map: &MagnificationMap, out: &Path, png: Option<&Path>) -> 
 pub fn demo(out: &Path, pixels: usize) -> Result<()> {
     std::fs::create_dir_all(out).map_err(|e| Error::io(out, e))?;
     let lens = LensSystem::binary(1.25, 2e-3)?;
-    let window = Window::new((0.22, 0.0), 0.6, pixels)?;
-    eprintln!("demo: binary s = 1.25, q = 2e-3; window 0.6 wide centred on (0.22, 0)");
+    let window = Window::new((0.23, 0.0), 0.64, pixels)?;
+    eprintln!("demo: binary s = 1.25, q = 2e-3; window 0.64 wide centred on (0.23, 0)");
     let engine = engine::RayShooting::try_new(200.0)?;
     let map = build_reported(&engine, &lens, &window, default_memory_limit())?;
     write_outputs(

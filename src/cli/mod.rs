@@ -33,6 +33,8 @@ pub enum Command {
     Map(map::MapArgs),
     /// Run the built-in demo: an invented planetary event, its map and picture.
     Demo(demo::DemoArgs),
+    /// Grid builds of maps over (s, q) into the store, and store upkeep.
+    Library(library::LibraryArgs),
 }
 
 /// Runs a parsed command line.
@@ -40,10 +42,12 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Map(args) => map::run(args),
         Command::Demo(args) => demo::run(args),
+        Command::Library(args) => library::run(args),
     }
 }
 
 pub mod demo;
+pub mod library;
 pub mod map;
 
 /// The lens: a binary from (s, q) or any set of point masses from a CSV file.
@@ -58,7 +62,7 @@ pub struct LensArgs {
     )]
     pub s: Option<f64>,
     /// Binary mass ratio q = m2/m1 > 0.
-    #[arg(long, allow_negative_numbers = true, requires = "s")]
+    #[arg(long, allow_hyphen_values = true, requires = "s")]
     pub q: Option<f64>,
     /// Lens CSV file with header x,y,mass (masses relative; normalised on load).
     #[arg(long, value_name = "FILE")]

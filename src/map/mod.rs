@@ -4,6 +4,12 @@
 //! `ndarray::Array2<f32>` indexed `[[iy, ix]]`: the first index runs along y, the second along x,
 //! and `[[0, 0]]` is the lower-left pixel (smallest x and y), the order FITS uses.
 
+pub mod fits;
+pub mod render;
+
+pub use fits::{read_fits, write_fits};
+pub use render::{render_png, Overlay};
+
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
 use ndarray::Array2;

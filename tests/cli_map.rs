@@ -1,0 +1,122 @@
+//! `causeway map` from the outside: bad input gets one line naming the culprit, exit status 2,
+//! and no file on disk (DESIGN.md, "Stable command-line interface").
+
+mod common;
+
+use std::path::Path;
+
+/// Runs `causeway map` with the given arguments in `dir`; returns (status, stderr).
+fn map_in(dir: &Path, args: &[&str]) -> (i32, String) {
+    let out = common::causeway()
+        .current_dir(dir)
+        .arg("map")
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+const GOOD: &[&str] = &[
+    "--center", "0,0", "--width", "1", "--pixels", "20", "--out", "m.fits",
+];
+
+fn with(overrides: &[(&str, &str)], extra: &[&str]) -> Vec<String> {
+    let mut args: Vec<String> = GOOD.iter().map(|s| s.to_string()).collect();
+    for (opt, val) in overrides {
+        let i = args.iter().position(|a| a == opt).unwrap();
+        args[i + 1] = val.to_string();
+    }
+    args.extend(extra.iter().map(|s| s.to_string()));
+    args
+}
+
+#[test]
+fn bad_input_exits_2_naming_the_culprit_and_writes_nothing() {
+    let dir = common::scratch("cli-map-bad");
+    std::fs::write(dir.join("neg.csv"), "x,y,mass\n0,0,1\n0.5,0.1,-0.2\n").unwrap();
+    std::fs::write(dir.join("broken.csv"), "x,y,mass\n0,0,1\n0.5,zero,1\n").unwrap();
+    std::fs::write(dir.join("twin.csv"), "x,y,mass\n0.1,0,1\n0.1,0,2\n").unwrap();
+    std::fs::write(dir.join("empty.csv"), "x,y,mass\n").unwrap();
+    let binary = ["--s", "1", "--q", "1e-3"];
+    let cases: Vec<(Vec<String>, &str)> = vec![
+        (with(&[], &["--s", "1", "--q", "0"]), "--q"),
+        (with(&[], &["--s", "1", "--q", "-1e-3"]), "--q"),
+        (with(&[], &["--s", "nan", "--q", "1e-3"]), "--s"),
+        (with(&[("--width", "NaN")], &binary), "--width"),
+        (with(&[("--width", "-1")], &binary), "--width"),
+        (with(&[("--center", "nan,0")], &binary), "--center"),
+        (with(&[("--pixels", "0")], &binary), "--pixels"),
+        (
+            with(&[], &["--s", "1", "--q", "1e-3", "--rays", "0"]),
+            "--rays",
+        ),
+        (
+            with(&[], &["--s", "1", "--q", "1e-3", "--bogus", "1"]),
+            "--bogus",
+        ),
+        (with(&[], &["--lenses", "neg.csv"]), "neg.csv:3"),
+        (with(&[], &["--lenses", "broken.csv"]), "broken.csv:3"),
+        (with(&[], &["--lenses", "twin.csv"]), "twin.csv:3"),
+        (with(&[], &["--lenses", "empty.csv"]), "empty.csv"),
+        (with(&[], &["--lenses", "missing.csv"]), "missing.csv"),
+        (
+            with(&[], &["--s", "1", "--q", "1e-3", "--engine", "magic"]),
+            "--engine",
+        ),
+        (with(&[("--pixels", "1000000")], &binary), "--pixels"),
+        (
+            with(
+                &[("--pixels", "4000")],
+                &["--s", "1", "--q", "1e-3", "--max-memory", "1M"],
+            ),
+            "--max-memory",
+        ),
+        (with(&[("--out", "m.txt")], &binary), "--out"),
+    ];
+    for (args, culprit) in cases {
+        let (code, stderr) = map_in(&dir, &args.iter().map(String::as_str).collect::<Vec<_>>());
+        assert_eq!(code, 2, "{args:?}: exit {code}, stderr {stderr}");
+        assert!(
+            stderr.contains(culprit),
+            "{args:?}: message does not name {culprit}: {stderr}"
+        );
+        let lines = stderr.lines().filter(|l| !l.trim().is_empty()).count();
+        // clap prints a usage hint after its one-line error; our own errors are one line.
+        assert!(lines <= 4, "{args:?}: too long a message: {stderr}");
+        let files = common::listing(&dir);
+        assert_eq!(
+            files,
+            ["broken.csv", "empty.csv", "neg.csv", "twin.csv"],
+            "{args:?} left files"
+        );
+    }
+}
+
+#[test]
+fn negative_numbers_and_equals_forms_work_as_typed() {
+    let dir = common::scratch("cli-map-forms");
+    let (code, stderr) = map_in(
+        &dir,
+        &[
+            "--s=1.1",
+            "--q",
+            "1e-3",
+            "--center",
+            "-0.3,0.1",
+            "--width=0.2",
+            "--pixels",
+            "8",
+            "--out",
+            "a.fits",
+        ],
+    );
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stderr.contains("rays shot"),
+        "closing line missing: {stderr}"
+    );
+    assert!(dir.join("a.fits").exists());
+}
