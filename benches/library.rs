@@ -13,19 +13,27 @@ const SPEC: &str = "s = { log = [0.5, 2.0, 5] }\nq = { log = [1e-4, 1e-1, 5] }\n
                     rays = 100\n[window]\ncenter = [0.0, 0.0]\nwidth = 2.0\n";
 
 fn fresh_store(tag: &str) -> Store {
-    let dir = std::env::temp_dir().join(format!("causeway-bench-library-{}-{tag}", std::process::id()));
+    let dir = std::env::temp_dir().join(format!(
+        "causeway-bench-library-{}-{tag}",
+        std::process::id()
+    ));
     let _ = std::fs::remove_dir_all(&dir);
     Store::open(&dir).unwrap()
 }
 
 fn pool(threads: usize) -> rayon::ThreadPool {
-    rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap()
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .unwrap()
 }
 
 fn bench(c: &mut Criterion) {
     let spec = LibrarySpec::parse(SPEC, "bench").unwrap();
     let mut group = c.benchmark_group("library_5x5_500px");
-    group.sample_size(10).measurement_time(Duration::from_secs(60));
+    group
+        .sample_size(10)
+        .measurement_time(Duration::from_secs(60));
     group.bench_function("whole_grid_1_thread", |b| {
         b.iter_custom(|iters| {
             let mut total = Duration::ZERO;

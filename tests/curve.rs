@@ -108,7 +108,10 @@ fn profile_of(row: &[f64]) -> SourceProfile {
     let law = match row[0] as i32 {
         0 => LimbDarkening::Uniform,
         1 => LimbDarkening::Linear { u: row[1] },
-        _ => LimbDarkening::SquareRoot { c: row[1], d: row[2] },
+        _ => LimbDarkening::SquareRoot {
+            c: row[1],
+            d: row[2],
+        },
     };
     SourceProfile::new(row[4], law).unwrap()
 }
@@ -117,7 +120,9 @@ fn profile_of(row: &[f64]) -> SourceProfile {
 const RAYS: f64 = 400.0;
 fn single_lens_map() -> MagnificationMap {
     let window = Window::new((0.05, 0.0), 0.4, 200).unwrap();
-    RayShooting::new(RAYS).build(&LensSystem::single(), &window).unwrap()
+    RayShooting::new(RAYS)
+        .build(&LensSystem::single(), &window)
+        .unwrap()
 }
 
 #[test]
@@ -132,10 +137,16 @@ fn uniform_disk_reads_match_witt_mao() {
             assert!((expect - (1.0 + 4.0 / (rho * rho)).sqrt()).abs() < 1e-12 * expect);
         }
         let reader = DirectReader::new(&map, &profile_of(&row));
-        let Some(got) = reader.read(u, 0.0) else { continue };
+        let Some(got) = reader.read(u, 0.0) else {
+            continue;
+        };
         let tol = single_lens_tolerance(&map, RAYS, u, rho);
         let err = (got - expect).abs();
-        eprintln!("u {u}: {got} vs {expect}: err {:.2e} rel, tol {:.2e}", err / expect, tol / expect);
+        eprintln!(
+            "u {u}: {got} vs {expect}: err {:.2e} rel, tol {:.2e}",
+            err / expect,
+            tol / expect
+        );
         assert!(err <= tol, "u = {u}: {got} vs {expect} (allowed {tol:e})");
         checked += 1;
     }
@@ -166,8 +177,15 @@ fn limb_darkened_reads_match_the_annulus_integral() {
                 .sum::<f64>()
                 + 1e-4 * expect;
             let err = (got - expect).abs();
-            eprintln!("law {law} u {u}: err {:.2e} rel, tol {:.2e}", err / expect, tol / expect);
-            assert!(err <= tol, "law {law}, u = {u}: {got} vs {expect} (allowed {tol:e})");
+            eprintln!(
+                "law {law} u {u}: err {:.2e} rel, tol {:.2e}",
+                err / expect,
+                tol / expect
+            );
+            assert!(
+                err <= tol,
+                "law {law}, u = {u}: {got} vs {expect} (allowed {tol:e})"
+            );
             // Limb darkening matters here: the uniform disk differs by more than the allowance.
             if u == 0.0 {
                 let uniform = reference_rows(0.0).into_iter().find(|r| r[3] == u).unwrap()[5];
@@ -192,7 +210,9 @@ fn binary_map(rays: f64) -> (LensSystem, MagnificationMap) {
 fn scatter(count: usize, lo: f64, hi: f64) -> Vec<(f64, f64)> {
     let mut state = 0x2545_f491_4f6c_dd1du64;
     let mut next = || {
-        state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+        state = state
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
         lo + (hi - lo) * ((state >> 11) as f64 / (1u64 << 53) as f64)
     };
     (0..count).map(|_| (next(), next())).collect()
@@ -221,16 +241,24 @@ fn direct_and_preconvolved_agree() {
                 let c = conv.at_center(ix, iy).unwrap();
                 assert!((a - c).abs() <= 1e-12 * a, "centre ({ix},{iy}): {a} vs {c}");
                 let b = conv.read(x, y).unwrap();
-                assert!((a - b).abs() <= 1e-12 * a, "read at centre ({ix},{iy}): {a} vs {b}");
+                assert!(
+                    (a - b).abs() <= 1e-12 * a,
+                    "read at centre ({ix},{iy}): {a} vs {b}"
+                );
             }
         }
         let (mut inside, mut total) = (0, 0);
         let mut ratios = Vec::new();
         let mut worst_rel = 0.0f64;
         for (x, y) in scatter(3000, -0.22, 0.22) {
-            let Some(bound) = conv.interpolation_bound(x, y) else { continue };
+            let Some(bound) = conv.interpolation_bound(x, y) else {
+                continue;
+            };
             let err = (conv.read(x, y).unwrap() - direct.read(x, y).unwrap()).abs();
-            assert!(err <= 3.0 * bound + 1e-12, "({x}, {y}): err {err:e}, bound {bound:e}");
+            assert!(
+                err <= 3.0 * bound + 1e-12,
+                "({x}, {y}): err {err:e}, bound {bound:e}"
+            );
             ratios.push(err / bound);
             worst_rel = worst_rel.max(err / direct.read(x, y).unwrap());
             worst = worst.max(err / bound.max(1e-300));
@@ -287,7 +315,11 @@ fn off_map_continuation_matches_witt_mao_and_the_map_across_the_seam() {
             let e = small_source(&lens, &profile_of(row), u, 0.0).unwrap();
             assert!(e.accurate(tol), "u = {u}: error estimate {:e}", e.error);
             let err = (e.magnification - expect).abs() / expect;
-            assert!(err <= tol, "law {law} u = {u}: {} vs {expect} ({err:e})", e.magnification);
+            assert!(
+                err <= tol,
+                "law {law} u = {u}: {} vs {expect} ({err:e})",
+                e.magnification
+            );
             // The correction matters: the point source alone is off by more than tol at u=0.2.
             if u == 0.2 {
                 assert!((e.point - expect).abs() / expect > 10.0 * tol);
@@ -311,15 +343,26 @@ fn off_map_continuation_matches_witt_mao_and_the_map_across_the_seam() {
         .iter()
         .rposition(|s| s.method == Method::Direct)
         .unwrap();
-    assert!(curve.samples[..=last_map].iter().all(|s| s.method == Method::Direct));
-    assert!(curve.samples[last_map + 1..].iter().all(|s| s.method == Method::Expansion));
+    assert!(curve.samples[..=last_map]
+        .iter()
+        .all(|s| s.method == Method::Direct));
+    assert!(curve.samples[last_map + 1..]
+        .iter()
+        .all(|s| s.method == Method::Expansion));
     // The source (radius 0.02) leaves the map (x < 0.25) between x = 0.225 and 0.23.
-    assert!((points[last_map].0 - 0.225).abs() < 1e-9, "{}", points[last_map].0);
+    assert!(
+        (points[last_map].0 - 0.225).abs() < 1e-9,
+        "{}",
+        points[last_map].0
+    );
     let (x, y) = points[last_map];
     let from_map = curve.samples[last_map].magnification;
     let expanded = small_source(&lens, &profile, x, y).unwrap().magnification;
     let allowed = single_lens_tolerance(&map, RAYS, x.hypot(y), 0.02) + tol * expanded;
-    assert!((from_map - expanded).abs() <= allowed, "{from_map} vs {expanded}");
+    assert!(
+        (from_map - expanded).abs() <= allowed,
+        "{from_map} vs {expanded}"
+    );
 }
 
 #[test]
@@ -361,7 +404,10 @@ fn straight_line_conventions() {
                 0 | 180 => (x, y * sign),
                 _ => (x * sign, y),
             };
-            assert!((px - ex).abs() < 1e-12 && (py - ey).abs() < 1e-12, "{deg} {sign}: {px},{py}");
+            assert!(
+                (px - ex).abs() < 1e-12 && (py - ey).abs() < 1e-12,
+                "{deg} {sign}: {px},{py}"
+            );
             // At t0 the source is at distance |u0| from the origin.
             let (qx, qy) = line.position(5.0);
             assert!((qx.hypot(qy) - 0.3).abs() < 1e-12);
@@ -372,13 +418,19 @@ fn straight_line_conventions() {
 #[test]
 fn small_sources_are_flagged_with_the_resolution_that_would_do() {
     let window = Window::new((0.5, 0.0), 0.2, 20).unwrap();
-    let map = RayShooting::new(4.0).build(&LensSystem::single(), &window).unwrap();
+    let map = RayShooting::new(4.0)
+        .build(&LensSystem::single(), &window)
+        .unwrap();
     let curve = Sampler::new(SourceProfile::uniform(0.02).unwrap()) // 2 pixels of radius
         .map(&map)
         .sample(&[(0.5, 0.0)])
         .unwrap();
     assert_eq!(curve.warnings.len(), 1);
-    assert!(curve.warnings[0].contains("at least 30 pixels"), "{}", curve.warnings[0]);
+    assert!(
+        curve.warnings[0].contains("at least 30 pixels"),
+        "{}",
+        curve.warnings[0]
+    );
     let fine = Sampler::new(SourceProfile::uniform(0.03).unwrap())
         .map(&map)
         .sample(&[(0.5, 0.0)])

@@ -78,7 +78,9 @@ pub struct Expansion {
 impl Expansion {
     /// Whether the expansion is trusted to relative tolerance `tol`.
     pub fn accurate(&self, tol: f64) -> bool {
-        self.images_agree && self.magnification.is_finite() && self.error <= tol * self.magnification
+        self.images_agree
+            && self.magnification.is_finite()
+            && self.error <= tol * self.magnification
     }
 }
 

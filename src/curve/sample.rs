@@ -68,8 +68,16 @@ pub(crate) fn disk_mean(data: &[f32], n: usize, u: f64, v: f64, r: f64) -> Optio
         // Half-chords: pixels within `full` of u (in x) lie wholly inside the disk; pixels
         // beyond `touch` miss it.
         let far = y0.abs().max(y1.abs());
-        let near = if y0 <= 0.0 && y1 >= 0.0 { 0.0 } else { y0.abs().min(y1.abs()) };
-        let full = if far < r { (r2 - far * far).sqrt() } else { -1.0 };
+        let near = if y0 <= 0.0 && y1 >= 0.0 {
+            0.0
+        } else {
+            y0.abs().min(y1.abs())
+        };
+        let full = if far < r {
+            (r2 - far * far).sqrt()
+        } else {
+            -1.0
+        };
         let touch = (r2 - near * near).max(0.0).sqrt();
         let (jx0, jx1) = (
             ((u - touch).floor().max(0.0)) as usize,
