@@ -437,3 +437,245 @@ fn small_sources_are_flagged_with_the_resolution_that_would_do() {
         .unwrap();
     assert!(fine.warnings.is_empty());
 }
+
+/// Runs `causeway curve` with `args` in `dir`; returns (status, stdout, stderr).
+fn curve_cli(dir: &std::path::Path, args: &[&str]) -> (i32, String, String) {
+    let out = common::causeway()
+        .arg("curve")
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8(out.stdout).unwrap(),
+        String::from_utf8(out.stderr).unwrap(),
+    )
+}
+
+#[test]
+fn cli_prints_the_curve_with_methods_and_reuses_the_stored_map() {
+    let dir = common::scratch("curve-cli");
+    std::fs::write(dir.join("single.csv"), "x,y,mass\n0,0,1\n").unwrap();
+    let args = [
+        "--lenses",
+        "single.csv",
+        "--t0",
+        "10",
+        "--u0",
+        "-0.01",
+        "--te",
+        "20",
+        "--alpha",
+        "90",
+        "--time-range",
+        "0,20,41",
+        "--rho",
+        "0.02",
+        "--fs",
+        "2",
+        "--fb",
+        "0.5",
+        "--store",
+        "st",
+        "--rays",
+        "100",
+        "--png",
+        "c.png",
+    ];
+    let (code, out, err) = curve_cli(&dir, &args);
+    assert_eq!(code, 0, "{err}");
+    assert!(err.contains("building a map"), "{err}");
+    let lines: Vec<&str> = out.lines().collect();
+    assert_eq!(lines[0], "t,x,y,magnification,method,flux,magnitude");
+    assert_eq!(lines.len(), 42);
+    let t = causeway::table::Table::parse(
+        &out,
+        "stdout",
+        &["t", "x", "y", "magnification", "flux", "magnitude"],
+        &[],
+    )
+    .unwrap();
+    for (row, line) in t.rows.iter().zip(&lines[1..]) {
+        let (tt, x, y, a, flux, mag) = (row[0], row[1], row[2], row[3], row[4], row[5]);
+        // alpha = 90 deg, u0 = -0.01: the source moves along +y at x = +0.01 (DESIGN.md).
+        assert!((x - 0.01).abs() < 1e-15 && (y - (tt - 10.0) / 20.0).abs() < 1e-15);
+        assert!((flux - (2.0 * a + 0.5)).abs() < 1e-12 * flux);
+        // Default zero point 22 (src/cli/curve.rs).
+        assert!((mag - (22.0 - 2.5 * flux.log10())).abs() < 1e-12);
+        let method = line.rsplit(',').nth(2).unwrap();
+        let u = x.hypot(y);
+        // Near the lens the map serves the curve, far away the expansion does.
+        if u < 0.03 {
+            assert!(method == "direct" || method == "convolved", "{line}");
+        }
+        if u > 0.3 {
+            assert_eq!(method, "expansion", "{line}");
+        }
+    }
+    // Far from the lens the finite-source effect is small: at u = 0.5 Witt & Mao differs from
+    // Paczynski by 2e-4 (finite_source.csv), so the curve must be within 1e-3 of Paczynski.
+    let row = t.rows.iter().find(|r| (r[2] - 0.5).abs() < 1e-9).unwrap();
+    let point = paczynski(row[1].hypot(row[2]));
+    assert!((row[3] / point - 1.0).abs() < 1e-3, "{} vs {point}", row[3]);
+    assert!(dir.join("c.png").exists());
+    // The same command again reuses the stored map, and prints the same curve.
+    let (code, again, err) = curve_cli(&dir, &args);
+    assert_eq!(code, 0, "{err}");
+    assert!(err.contains("using stored map"), "{err}");
+    assert_eq!(again, out);
+}
+
+#[test]
+fn cli_reads_a_map_file_and_a_path_file() {
+    let dir = common::scratch("curve-map");
+    let status = common::causeway()
+        .args([
+            "map",
+            "--lenses",
+            "single.csv",
+            "--center",
+            "0.3,0",
+            "--width",
+            "0.2",
+            "--pixels",
+            "50",
+            "--rays",
+            "100",
+            "--out",
+            "m.fits",
+        ])
+        .current_dir({
+            std::fs::write(dir.join("single.csv"), "x,y,mass\n0,0,1\n").unwrap();
+            &dir
+        })
+        .status()
+        .unwrap();
+    assert!(status.success());
+    std::fs::write(dir.join("path.csv"), "x,y\n0.3,0\n0.31,0.01\n").unwrap();
+    let (code, out, err) = curve_cli(
+        &dir,
+        &["--map", "m.fits", "--path", "path.csv", "--rho", "0.02"],
+    );
+    assert_eq!(code, 0, "{err}");
+    let lines: Vec<&str> = out.lines().collect();
+    assert_eq!(lines[0], "x,y,magnification,method");
+    assert!(
+        lines[1].starts_with("0.3,0,") && lines[1].ends_with(",direct"),
+        "{}",
+        lines[1]
+    );
+    // Witt & Mao at u = 0.3, rho = 0.02: within a percent of Paczynski's 3.4 here.
+    let a: f64 = lines[1].split(',').nth(2).unwrap().parse().unwrap();
+    assert!((a / paczynski(0.3) - 1.0).abs() < 0.01, "{a}");
+}
+
+#[test]
+fn cli_bad_input_is_one_line_exit_2_and_no_output() {
+    let dir = common::scratch("curve-bad");
+    std::fs::write(dir.join("single.csv"), "x,y,mass\n0,0,1\n").unwrap();
+    std::fs::write(dir.join("path.csv"), "x,y\n0.3,0\n0.4,oops\n").unwrap();
+    let base = ["--lenses", "single.csv", "--store", "st"];
+    let cases: [(&[&str], &str); 6] = [
+        (&["--path", "path.csv", "--rho", "0.01"], "path.csv:3"),
+        (&["--path", "p.csv", "--rho", "-1"], "--rho"),
+        (
+            &[
+                "--t0",
+                "0",
+                "--u0",
+                "0.1",
+                "--te",
+                "10",
+                "--alpha",
+                "0",
+                "--time-range",
+                "0,1,5",
+                "--ld",
+                "1.5",
+            ],
+            "--ld",
+        ),
+        (
+            &[
+                "--t0",
+                "0",
+                "--u0",
+                "0.1",
+                "--te",
+                "10",
+                "--alpha",
+                "0",
+                "--time-range",
+                "0,1,5",
+                "--ld-sqrt",
+                "0.5,-0.1",
+            ],
+            "--ld-sqrt",
+        ),
+        (
+            &[
+                "--t0",
+                "0",
+                "--u0",
+                "0.1",
+                "--te",
+                "0",
+                "--alpha",
+                "0",
+                "--time-range",
+                "0,1,5",
+            ],
+            "--te",
+        ),
+        (
+            &["--t0", "0", "--u0", "0.1", "--te", "10", "--alpha", "0"],
+            "--time-range",
+        ),
+    ];
+    for (extra, culprit) in cases {
+        let args: Vec<&str> = base.iter().chain(extra.iter()).copied().collect();
+        let (code, out, err) = curve_cli(&dir, &args);
+        assert_eq!(code, 2, "{args:?}: {err}");
+        assert!(out.is_empty(), "{args:?}: {out}");
+        assert_eq!(err.trim().lines().count(), 1, "{err}");
+        assert!(err.contains(culprit), "{args:?}: {err}");
+    }
+    assert_eq!(common::listing(&dir), vec!["path.csv", "single.csv"]);
+}
+
+#[test]
+fn curves_do_not_depend_on_thread_count() {
+    // Determinism promise (DESIGN.md), for both evaluations and the continuation.
+    let (_, map) = binary_map(4.0);
+    let lens = LensSystem::single();
+    let mut points = scatter(500, -0.25, 0.25);
+    points.push((0.5, 0.5)); // off the map: the single-lens continuation
+    let profile = SourceProfile::new(0.02, LimbDarkening::Linear { u: 0.5 }).unwrap();
+    for evaluation in [Evaluation::Direct, Evaluation::Convolved] {
+        let curves: Vec<_> = [1, 2, 3]
+            .iter()
+            .map(|&n| {
+                let pool = rayon::ThreadPoolBuilder::new()
+                    .num_threads(n)
+                    .build()
+                    .unwrap();
+                pool.install(|| {
+                    Sampler::new(profile)
+                        .map(&map)
+                        .lens(&lens)
+                        .evaluation(evaluation)
+                        .sample(&points)
+                        .unwrap()
+                })
+            })
+            .collect();
+        for c in &curves[1..] {
+            assert!(c.samples.iter().zip(&curves[0].samples).all(|(a, b)| a
+                .magnification
+                .to_bits()
+                == b.magnification.to_bits()
+                && a.method == b.method));
+        }
+    }
+}
