@@ -249,6 +249,19 @@ fn signed_area(x: f64, y: f64, r: f64) -> f64 {
     }
 }
 
+/// Signed area of the disk of radius `r` about the origin within `[0, x] x [y0, y1]` (negative
+/// for `x < 0`): the overlap of a rectangle `[x0, x1] x [y0, y1]` with the disk is
+/// `disk_strip_area(x1, ..) - disk_strip_area(x0, ..)`, so a row of pixels shares its corners.
+///
+/// ```
+/// use causeway::source::{disk_rect_overlap, disk_strip_area};
+/// let a = disk_strip_area(0.7, -0.2, 0.9, 1.0) - disk_strip_area(-0.4, -0.2, 0.9, 1.0);
+/// assert!((a - disk_rect_overlap(0.0, 0.0, 1.0, -0.4, 0.7, -0.2, 0.9)).abs() < 1e-15);
+/// ```
+pub fn disk_strip_area(x: f64, y0: f64, y1: f64, r: f64) -> f64 {
+    signed_area(x, y1, r) - signed_area(x, y0, r)
+}
+
 /// Exact area of the intersection of the disk of radius `r` about `(cx, cy)` with the
 /// rectangle `[x0, x1] x [y0, y1]`.
 ///

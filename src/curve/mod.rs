@@ -121,19 +121,20 @@ pub struct Curve {
 
 /// Estimated cost, in nanoseconds, of one direct read of a profile (uniform disks of the given
 /// radii in pixels): interior pixels are summed (about 1 ns each), rim pixels get a closed-form
-/// overlap (about 30 ns each, some 8 r of them per disk). Measured by benches/curve.rs.
+/// overlap (about 50 ns each, some 8 (r + 1) of them per disk). Calibrated on benches/curve.rs.
 fn direct_cost(disks: &[(f64, f64)]) -> f64 {
     disks
         .iter()
-        .map(|&(r, _)| std::f64::consts::PI * r * r + 30.0 * 8.0 * (r + 1.0))
+        .map(|&(r, _)| std::f64::consts::PI * r * r + 50.0 * 8.0 * (r + 1.0))
         .sum()
 }
 
 /// Estimated cost, in nanoseconds, of pre-convolving a map of `pixels` per side: three 2-D FFTs
-/// and two transposes of size `L^2` (benches/curve.rs).
+/// and two transposes of size `L^2`, about `7 L^2 log2 L` ns in all (calibrated on
+/// benches/curve.rs: 66 ms at L = 1000).
 fn convolve_cost(pixels: usize) -> f64 {
     let l = pixels as f64;
-    3.0 * 5.0 * l * l * l.log2().max(1.0)
+    7.0 * l * l * l.log2().max(1.0)
 }
 
 /// The evaluation [`Evaluation::Auto`] picks for `points` reads of `map` with `profile`:

@@ -24,7 +24,7 @@
 //! value: a caustic's `1/sqrt` divergence is cut to its mean over a pixel.
 
 use crate::map::MagnificationMap;
-use crate::source::{disk_rect_overlap, SourceProfile};
+use crate::source::{disk_strip_area, SourceProfile};
 
 /// Number of uniform disks (Gauss–Legendre nodes) used for a limb-darkened source of radius
 /// `rho_px` pixels: 32 plus one per pixel of radius, at most 128.
@@ -84,13 +84,21 @@ pub(crate) fn disk_mean(data: &[f32], n: usize, u: f64, v: f64, r: f64) -> Optio
             ((u + touch).floor().min(last)) as usize,
         );
         let mut inner = 0.0f64;
+        // Strip area at the left edge of the next rim pixel, when already computed.
+        let mut left: Option<(usize, f64)> = None;
         for (ix, &val) in row.iter().enumerate().take(jx1 + 1).skip(jx0) {
             let (x0, x1) = (ix as f64 - u, ix as f64 + 1.0 - u);
             if full > 0.0 && x0 >= -full && x1 <= full {
                 inner += val as f64;
-            } else {
-                sum += disk_rect_overlap(0.0, 0.0, r, x0, x1, y0, y1) * val as f64;
+                continue;
             }
+            let g0 = match left {
+                Some((k, g)) if k == ix => g,
+                _ => disk_strip_area(x0, y0, y1, r),
+            };
+            let g1 = disk_strip_area(x1, y0, y1, r);
+            sum += (g1 - g0) * val as f64;
+            left = Some((ix + 1, g1));
         }
         sum += inner;
     }
