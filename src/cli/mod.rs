@@ -36,7 +36,7 @@ pub enum Command {
     /// Grid builds of maps over (s, q) into the store, and store upkeep.
     Library(library::LibraryArgs),
     /// Light curve of a finite source along a path or a straight trajectory.
-    Curve(curve::CurveArgs),
+    Curve(Box<curve::CurveArgs>),
 }
 
 /// Runs a parsed command line.
@@ -45,7 +45,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Map(args) => map::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Library(args) => library::run(args),
-        Command::Curve(args) => curve::run(args),
+        Command::Curve(args) => curve::run(*args),
     }
 }
 
