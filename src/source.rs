@@ -58,8 +58,9 @@ pub struct SourceProfile {
 }
 
 impl SourceProfile {
-    /// Checks and builds a profile: `rho >= 0` and finite, coefficients in [0, 1] (and, for the
-    /// square-root law, `c + d <= 1` so the rim is not negative).
+    /// Checks and builds a profile: `rho >= 0` and finite, coefficients in [0, 1] (as DESIGN.md
+    /// has it; a square-root law with `c + d > 1` has a negative rim brightness, which the
+    /// algebra carries through: the total flux `1 - c/3 - d/5` stays positive).
     pub fn new(rho: f64, law: LimbDarkening) -> Result<Self> {
         if !rho.is_finite() || rho < 0.0 {
             return Err(Error::input(format!(
@@ -78,11 +79,6 @@ impl SourceProfile {
                 if !unit(c) || !unit(d) {
                     return Err(Error::input(format!(
                         "--ld-sqrt: c and d must be in [0, 1], got {c},{d}"
-                    )));
-                }
-                if c + d > 1.0 {
-                    return Err(Error::input(format!(
-                        "--ld-sqrt: c + d must be <= 1 (non-negative rim brightness), got {c},{d}"
                     )));
                 }
             }
