@@ -16,6 +16,7 @@
 //! assert!(map.mean() > 1.0);
 //! ```
 
+pub mod caustics;
 pub mod cli;
 pub mod curve;
 pub mod engine;
@@ -23,6 +24,7 @@ pub mod error;
 pub mod fsutil;
 pub mod lens;
 pub mod map;
+pub mod solve;
 pub mod source;
 pub mod store;
 pub mod table;

@@ -4,8 +4,10 @@ use super::library::StoreArgs;
 use super::map::{build_reported, default_memory_limit, parse_size};
 use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::curve::{
-    plan_window, plot_png, read_times, time_range, Evaluation, Sampler, SourcePath, StraightLine,
+    plan_window, plot_png, read_times, time_range, Evaluation, PointMagnification, Sampler,
+    SourcePath, StraightLine,
 };
+use crate::solve::ImageSolver;
 use crate::engine::RayShooting;
 use crate::error::{Error, Result};
 use crate::map::{read_fits, MagnificationMap};
@@ -197,8 +199,17 @@ pub fn run(args: CurveArgs) -> Result<()> {
         EvaluationArg::Direct => Evaluation::Direct,
         EvaluationArg::Convolved => Evaluation::Convolved,
     };
+    // Off the map: the closed form for one lens, else a solver built once.
+    let solver = match lens.len() {
+        1 => None,
+        _ => Some(ImageSolver::new(&lens)?),
+    };
+    let point: &dyn PointMagnification = match &solver {
+        Some(s) => s,
+        None => &lens,
+    };
     let mut sampler = Sampler::new(profile)
-        .lens(&lens)
+        .lens(point)
         .tol(args.tol)
         .evaluation(evaluation)
         .memory_limit(limit);
@@ -252,7 +263,14 @@ fn needed_map(
     points: &[(f64, f64)],
     limit: u64,
 ) -> Result<Option<MagnificationMap>> {
-    let Some(window) = plan_window(lens, profile, points, args.tol, args.pixels_per_rho)? else {
+    let solver;
+    let point: &dyn PointMagnification = if lens.len() == 1 {
+        lens
+    } else {
+        solver = ImageSolver::new(lens)?;
+        &solver
+    };
+    let Some(window) = plan_window(point, profile, points, args.tol, args.pixels_per_rho)? else {
         return Ok(None);
     };
     let engine = RayShooting::try_new(args.rays)?;

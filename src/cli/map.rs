@@ -36,7 +36,7 @@ pub struct MapArgs {
     /// Also draw a PNG picture.
     #[arg(long, value_name = "FILE.png")]
     pub png: Option<PathBuf>,
-    /// Rays per unlensed pixel area.
+    /// Rays per unlensed pixel area (image-plane cells per pixel area with --engine polygon).
     #[arg(
         long,
         default_value_t = 100.0,
@@ -44,7 +44,7 @@ pub struct MapArgs {
         allow_hyphen_values = true
     )]
     pub rays: f64,
-    /// Map engine.
+    /// Map engine: rays (inverse ray shooting) or polygon (inverse polygon mapping).
     #[arg(long, default_value = "rays", value_name = "E")]
     pub engine: String,
     /// Largest working memory allowed, e.g. 4G, 512M or a byte count (default: half the RAM).
