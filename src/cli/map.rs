@@ -202,5 +202,6 @@ pub fn demo(out: &Path, pixels: usize) -> Result<()> {
         &map,
         &out.join("demo-map.fits"),
         Some(&out.join("demo-map.png")),
-    )
+    )?;
+    super::curve::demo_curve(&map, out)
 }
