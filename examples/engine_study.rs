@@ -11,11 +11,11 @@
 use causeway::engine::{by_name, Engine};
 use causeway::lens::LensSystem;
 use causeway::map::Window;
+use causeway::plot::{Axis, Chart, Series, Style};
 use causeway::solve::ImageSolver;
 use causeway::source::gauss_legendre;
 use num_complex::Complex64;
 use rayon::prelude::*;
-use causeway::plot::{Axis, Chart, Series, Style};
 use std::fmt::Write as _;
 use std::path::Path;
 
@@ -74,16 +74,36 @@ fn main() {
         return plot(&csv);
     }
     let cases = [
-        Case { name: "central", s: 0.9, q: 1e-3, center: (-0.9e-3 / 1.001, 0.0), width: 0.2 },
-        Case { name: "planetary", s: 1.3, q: 1e-3, center: (1.3 - 1.0 / 1.3 - 1.3e-3 / 1.001, 0.0), width: 0.2 },
-        Case { name: "resonant", s: 1.0, q: 0.1, center: (0.0, 0.0), width: 1.5 },
+        Case {
+            name: "central",
+            s: 0.9,
+            q: 1e-3,
+            center: (-0.9e-3 / 1.001, 0.0),
+            width: 0.2,
+        },
+        Case {
+            name: "planetary",
+            s: 1.3,
+            q: 1e-3,
+            center: (1.3 - 1.0 / 1.3 - 1.3e-3 / 1.001, 0.0),
+            width: 0.2,
+        },
+        Case {
+            name: "resonant",
+            s: 1.0,
+            q: 0.1,
+            center: (0.0, 0.0),
+            width: 1.5,
+        },
     ];
     let settings: Vec<(&str, f64)> = [30.0, 100.0, 300.0, 1000.0, 3000.0]
         .iter()
         .map(|&r| ("rays", r))
         .chain([0.25, 1.0, 4.0, 16.0].iter().map(|&c| ("polygon", c)))
         .collect();
-    let mut csv = String::from("case,engine,density,pixel_size,build_seconds,pixels_checked,median_error,p99_error\n");
+    let mut csv = String::from(
+        "case,engine,density,pixel_size,build_seconds,pixels_checked,median_error,p99_error\n",
+    );
     for case in &cases {
         let lens = LensSystem::binary(case.s, case.q).unwrap();
         let window = Window::new(case.center, case.width, PIXELS).unwrap();
@@ -91,7 +111,9 @@ fn main() {
         let mut state = 12345u64;
         let picks: Vec<(usize, usize)> = (0..SAMPLES)
             .map(|_| {
-                state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+                state = state
+                    .wrapping_mul(6364136223846793005)
+                    .wrapping_add(1442695040888963407);
                 let v = (state >> 20) as usize;
                 (v % PIXELS, (v / PIXELS) % PIXELS)
             })

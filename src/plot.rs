@@ -156,7 +156,10 @@ impl Chart {
     /// The plotted ranges (in axis units: log10 for log axes).
     fn ranges(&self) -> Result<((f64, f64), (f64, f64))> {
         let finite = |a: &Axis, v: f64| v.is_finite() && (!a.log || v > 0.0);
-        let span = |a: &Axis, pick: fn(&(f64, f64)) -> f64, other: &Axis, opick: fn(&(f64, f64)) -> f64| {
+        let span = |a: &Axis,
+                    pick: fn(&(f64, f64)) -> f64,
+                    other: &Axis,
+                    opick: fn(&(f64, f64)) -> f64| {
             if let Some((lo, hi)) = a.range {
                 return Some((a.value(lo), a.value(hi)));
             }
@@ -168,7 +171,11 @@ impl Chart {
                 .map(|p| a.value(pick(p)));
             let first = it.next()?;
             let (lo, hi) = it.fold((first, first), |(lo, hi), v| (lo.min(v), hi.max(v)));
-            let pad = if hi > lo { 0.04 * (hi - lo) } else { 0.5 * lo.abs().max(1e-12) };
+            let pad = if hi > lo {
+                0.04 * (hi - lo)
+            } else {
+                0.5 * lo.abs().max(1e-12)
+            };
             Some((lo - pad, hi + pad))
         };
         let xr = span(&self.x, |p| p.0, &self.y, |p| p.1);
@@ -203,16 +210,34 @@ impl Chart {
         // Grid, ticks and tick labels.
         for t in ticks(x0, x1, self.x.log) {
             let (px, _) = to_px(t, y0);
-            segment(&mut img, (px, top as f64), (px, (top + h) as f64), GRID, (left, top, w, h));
+            segment(
+                &mut img,
+                (px, top as f64),
+                (px, (top + h) as f64),
+                GRID,
+                (left, top, w, h),
+            );
             let label = tick_label(t, self.x.log);
             let lx = px as i64 - 4 * label.len() as i64;
             text(&mut img, lx, top + h + 8, &label, INK);
         }
         for t in ticks(y0, y1, self.y.log) {
             let (_, py) = to_px(x0, t);
-            segment(&mut img, (left as f64, py), ((left + w) as f64, py), GRID, (left, top, w, h));
+            segment(
+                &mut img,
+                (left as f64, py),
+                ((left + w) as f64, py),
+                GRID,
+                (left, top, w, h),
+            );
             let label = tick_label(t, self.y.log);
-            text(&mut img, left - 8 - 8 * label.len() as i64, py as i64 - 4, &label, INK);
+            text(
+                &mut img,
+                left - 8 - 8 * label.len() as i64,
+                py as i64 - 4,
+                &label,
+                INK,
+            );
         }
         frame(&mut img, left, top, w, h);
         // Series.
@@ -223,7 +248,10 @@ impl Chart {
                 .points
                 .iter()
                 .map(|&(x, y)| {
-                    let ok = x.is_finite() && y.is_finite() && (!self.x.log || x > 0.0) && (!self.y.log || y > 0.0);
+                    let ok = x.is_finite()
+                        && y.is_finite()
+                        && (!self.x.log || x > 0.0)
+                        && (!self.y.log || y > 0.0);
                     ok.then(|| to_px(self.x.value(x), self.y.value(y)))
                 })
                 .collect();
@@ -246,15 +274,39 @@ impl Chart {
             // Legend entry, top right inside the frame.
             let ly = top + 10 + 14 * k as i64;
             let lx = left + w - 10 - 8 * s.name.len() as i64 - 26;
-            segment(&mut img, (lx as f64, ly as f64 + 4.0), (lx as f64 + 18.0, ly as f64 + 4.0), c, clip);
-            segment(&mut img, (lx as f64, ly as f64 + 5.0), (lx as f64 + 18.0, ly as f64 + 5.0), c, clip);
+            segment(
+                &mut img,
+                (lx as f64, ly as f64 + 4.0),
+                (lx as f64 + 18.0, ly as f64 + 4.0),
+                c,
+                clip,
+            );
+            segment(
+                &mut img,
+                (lx as f64, ly as f64 + 5.0),
+                (lx as f64 + 18.0, ly as f64 + 5.0),
+                c,
+                clip,
+            );
             text(&mut img, lx + 24, ly, &s.name, INK);
         }
         // Title and axis labels.
         text(&mut img, left, 14, &self.title, INK);
         let xl = &self.x.label;
-        text(&mut img, left + w / 2 - 4 * xl.len() as i64, top + h + 32, xl, INK);
-        text_vertical(&mut img, 12, top + h / 2 + 4 * self.y.label.len() as i64, &self.y.label, INK);
+        text(
+            &mut img,
+            left + w / 2 - 4 * xl.len() as i64,
+            top + h + 32,
+            xl,
+            INK,
+        );
+        text_vertical(
+            &mut img,
+            12,
+            top + h / 2 + 4 * self.y.label.len() as i64,
+            &self.y.label,
+            INK,
+        );
         Ok(img)
     }
 
@@ -263,8 +315,15 @@ impl Chart {
         let img = self.render()?;
         let mut bytes = Vec::new();
         image::codecs::png::PngEncoder::new(&mut bytes)
-            .write_image(img.as_raw(), img.width(), img.height(), image::ExtendedColorType::Rgb8)
-            .map_err(|e| Error::Numerical(format!("{}: PNG encoding failed: {e}", path.display())))?;
+            .write_image(
+                img.as_raw(),
+                img.width(),
+                img.height(),
+                image::ExtendedColorType::Rgb8,
+            )
+            .map_err(|e| {
+                Error::Numerical(format!("{}: PNG encoding failed: {e}", path.display()))
+            })?;
         write_atomic(path, &bytes)
     }
 }
@@ -280,7 +339,10 @@ fn ticks(lo: f64, hi: f64, log: bool) -> Vec<f64> {
     if log && hi - lo >= 2.0 {
         let step = ((hi - lo) / 8.0).ceil().max(1.0);
         let first = (lo / step).ceil() as i64;
-        return (first..).map(|k| k as f64 * step).take_while(|&t| t <= hi).collect();
+        return (first..)
+            .map(|k| k as f64 * step)
+            .take_while(|&t| t <= hi)
+            .collect();
     }
     if log {
         let mut out = Vec::new();
@@ -296,9 +358,16 @@ fn ticks(lo: f64, hi: f64, log: bool) -> Vec<f64> {
     }
     let raw = (hi - lo) / 6.0;
     let mag = 10f64.powf(raw.log10().floor());
-    let step = [1.0, 2.0, 5.0, 10.0].iter().map(|m| m * mag).find(|s| *s >= raw).unwrap_or(10.0 * mag);
+    let step = [1.0, 2.0, 5.0, 10.0]
+        .iter()
+        .map(|m| m * mag)
+        .find(|s| *s >= raw)
+        .unwrap_or(10.0 * mag);
     let first = (lo / step).ceil() as i64;
-    (first..).map(|k| k as f64 * step).take_while(|&t| t <= hi + 1e-9 * step).collect()
+    (first..)
+        .map(|k| k as f64 * step)
+        .take_while(|&t| t <= hi + 1e-9 * step)
+        .collect()
 }
 
 fn tick_label(t: f64, log: bool) -> String {
@@ -322,18 +391,45 @@ fn put(img: &mut RgbImage, x: i64, y: i64, c: Rgb<u8>, clip: (i64, i64, i64, i64
     }
 }
 
-fn segment(img: &mut RgbImage, a: (f64, f64), b: (f64, f64), c: Rgb<u8>, clip: (i64, i64, i64, i64)) {
-    let steps = (b.0 - a.0).abs().max((b.1 - a.1).abs()).ceil().clamp(1.0, 1e5) as i64;
+fn segment(
+    img: &mut RgbImage,
+    a: (f64, f64),
+    b: (f64, f64),
+    c: Rgb<u8>,
+    clip: (i64, i64, i64, i64),
+) {
+    let steps = (b.0 - a.0)
+        .abs()
+        .max((b.1 - a.1).abs())
+        .ceil()
+        .clamp(1.0, 1e5) as i64;
     for k in 0..=steps {
         let f = k as f64 / steps as f64;
-        put(img, (a.0 + f * (b.0 - a.0)).round() as i64, (a.1 + f * (b.1 - a.1)).round() as i64, c, clip);
+        put(
+            img,
+            (a.0 + f * (b.0 - a.0)).round() as i64,
+            (a.1 + f * (b.1 - a.1)).round() as i64,
+            c,
+            clip,
+        );
     }
 }
 
 fn frame(img: &mut RgbImage, l: i64, t: i64, w: i64, h: i64) {
     let all = (0, 0, WIDTH as i64 - 1, HEIGHT as i64 - 1);
-    for (a, b) in [((l, t), (l + w, t)), ((l, t + h), (l + w, t + h)), ((l, t), (l, t + h)), ((l + w, t), (l + w, t + h))] {
-        segment(img, (a.0 as f64, a.1 as f64), (b.0 as f64, b.1 as f64), INK, all);
+    for (a, b) in [
+        ((l, t), (l + w, t)),
+        ((l, t + h), (l + w, t + h)),
+        ((l, t), (l, t + h)),
+        ((l + w, t), (l + w, t + h)),
+    ] {
+        segment(
+            img,
+            (a.0 as f64, a.1 as f64),
+            (b.0 as f64, b.1 as f64),
+            INK,
+            all,
+        );
     }
 }
 
@@ -386,6 +482,8 @@ mod tests {
         let img = chart.render().unwrap();
         let red = img.pixels().filter(|p| p.0 == [255, 0, 0]).count();
         assert!(red > 300, "{red}");
-        assert!(Chart::new("e", Axis::log("x"), Axis::log("y")).render().is_err());
+        assert!(Chart::new("e", Axis::log("x"), Axis::log("y"))
+            .render()
+            .is_err());
     }
 }
