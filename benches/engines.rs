@@ -9,50 +9,22 @@
 use causeway::engine::accuracy::{choose, rays_for};
 use causeway::engine::by_name;
 use causeway::lens::LensSystem;
+use causeway::map::reference::{sample_pixels, smooth_pixel_mean};
 use causeway::map::{MagnificationMap, Window};
 use causeway::solve::ImageSolver;
-use causeway::source::gauss_legendre;
 use criterion::{criterion_group, criterion_main, Criterion};
-use num_complex::Complex64;
 use rayon::prelude::*;
 
 const TARGET: f64 = 1e-3;
 
 fn median_error(map: &MagnificationMap, lens: &LensSystem) -> f64 {
     let w = map.window;
-    let mut state = 777u64;
-    let picks: Vec<(usize, usize)> = (0..2000)
-        .map(|_| {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            let v = (state >> 20) as usize;
-            (v % w.pixels, (v / w.pixels) % w.pixels)
-        })
-        .collect();
     let solver = ImageSolver::new(lens).unwrap();
-    let mean = |solver: &mut ImageSolver, ix: usize, iy: usize, k: usize| {
-        let (cx, cy) = w.pixel_center(ix, iy);
-        let half = 0.5 * w.pixel_size();
-        let rule = gauss_legendre(k);
-        let mut sum = 0.0;
-        for &(a, wa) in &rule {
-            for &(b, wb) in &rule {
-                sum += wa
-                    * wb
-                    * solver
-                        .magnification(Complex64::new(cx + half * a, cy + half * b))
-                        .unwrap();
-            }
-        }
-        sum / 4.0
-    };
-    let mut errors: Vec<f64> = picks
+    let mut errors: Vec<f64> = sample_pixels(&w, 2000, 777)
         .par_iter()
         .map_with(solver, |s, &(ix, iy)| {
-            let (fine, coarse) = (mean(s, ix, iy, 8), mean(s, ix, iy, 4));
-            ((fine - coarse).abs() < 1e-7 * fine)
-                .then(|| (map.data[[iy, ix]] as f64 / fine - 1.0).abs())
+            let exact = smooth_pixel_mean(s, &w, ix, iy).unwrap()?;
+            Some((map.data[[iy, ix]] as f64 / exact - 1.0).abs())
         })
         .flatten()
         .collect();

@@ -28,57 +28,50 @@ fn pool(threads: usize) -> rayon::ThreadPool {
         .unwrap()
 }
 
+/// Times `run` on a fresh store, `iters` times.
+fn timed(iters: u64, tag: &str, run: impl Fn(&Store)) -> Duration {
+    (0..iters)
+        .map(|_| {
+            let store = fresh_store(tag);
+            let started = Instant::now();
+            run(&store);
+            started.elapsed()
+        })
+        .sum()
+}
+
 fn bench(c: &mut Criterion) {
     let spec = LibrarySpec::parse(SPEC, "bench").unwrap();
+    let whole = |threads: usize| {
+        let points = spec.points().unwrap();
+        move |store: &Store| {
+            pool(threads).install(|| build(store, &points, |_, _| {}).unwrap());
+        }
+    };
     let mut group = c.benchmark_group("library_5x5_500px");
     group
         .sample_size(10)
         .measurement_time(Duration::from_secs(60));
     group.bench_function("whole_grid_1_thread", |b| {
-        b.iter_custom(|iters| {
-            let mut total = Duration::ZERO;
-            for _ in 0..iters {
-                let store = fresh_store("whole");
-                let points = spec.points().unwrap();
-                let started = Instant::now();
-                pool(1).install(|| build(&store, &points, |_, _| {}).unwrap());
-                total += started.elapsed();
-            }
-            total
-        })
+        b.iter_custom(|n| timed(n, "whole1", whole(1)))
     });
     group.bench_function("two_shards_1_thread_each", |b| {
-        b.iter_custom(|iters| {
-            let mut total = Duration::ZERO;
-            for _ in 0..iters {
-                let store = fresh_store("shards");
-                let started = Instant::now();
+        b.iter_custom(|n| {
+            timed(n, "shards", |store| {
                 std::thread::scope(|scope| {
                     for k in 1..=2 {
-                        let (store, spec) = (&store, &spec);
+                        let spec = &spec;
                         scope.spawn(move || {
                             let points = spec.shard(Shard { k, n: 2 }).unwrap();
                             pool(1).install(|| build(store, &points, |_, _| {}).unwrap());
                         });
                     }
                 });
-                total += started.elapsed();
-            }
-            total
+            })
         })
     });
     group.bench_function("whole_grid_2_threads", |b| {
-        b.iter_custom(|iters| {
-            let mut total = Duration::ZERO;
-            for _ in 0..iters {
-                let store = fresh_store("whole2");
-                let points = spec.points().unwrap();
-                let started = Instant::now();
-                pool(2).install(|| build(&store, &points, |_, _| {}).unwrap());
-                total += started.elapsed();
-            }
-            total
-        })
+        b.iter_custom(|n| timed(n, "whole2", whole(2)))
     });
     group.finish();
 }

@@ -10,11 +10,10 @@
 
 use causeway::engine::{by_name, Engine};
 use causeway::lens::LensSystem;
+use causeway::map::reference::{sample_pixels, smooth_pixel_mean};
 use causeway::map::Window;
 use causeway::plot::{Axis, Chart, Series, Style};
 use causeway::solve::ImageSolver;
-use causeway::source::gauss_legendre;
-use num_complex::Complex64;
 use rayon::prelude::*;
 use std::fmt::Write as _;
 use std::path::Path;
@@ -29,21 +28,6 @@ struct Case {
 
 const PIXELS: usize = 500;
 const SAMPLES: usize = 1500;
-
-/// Pixel mean of the point-source magnification by a k x k Gauss-Legendre rule.
-fn pixel_mean(solver: &mut ImageSolver, window: &Window, ix: usize, iy: usize, k: usize) -> f64 {
-    let (cx, cy) = window.pixel_center(ix, iy);
-    let half = 0.5 * window.pixel_size();
-    let rule = gauss_legendre(k);
-    let mut sum = 0.0;
-    for &(xa, wa) in &rule {
-        for &(ya, wb) in &rule {
-            let z = Complex64::new(cx + half * xa, cy + half * ya);
-            sum += wa * wb * solver.magnification(z).expect("solver");
-        }
-    }
-    sum / 4.0
-}
 
 /// Median error against build time, one line per case and engine.
 fn plot(csv: &str) {
@@ -107,24 +91,12 @@ fn main() {
     for case in &cases {
         let lens = LensSystem::binary(case.s, case.q).unwrap();
         let window = Window::new(case.center, case.width, PIXELS).unwrap();
-        // Seeded pixel sample (64-bit LCG, Knuth's MMIX constants).
-        let mut state = 12345u64;
-        let picks: Vec<(usize, usize)> = (0..SAMPLES)
-            .map(|_| {
-                state = state
-                    .wrapping_mul(6364136223846793005)
-                    .wrapping_add(1442695040888963407);
-                let v = (state >> 20) as usize;
-                (v % PIXELS, (v / PIXELS) % PIXELS)
-            })
-            .collect();
+        let picks = sample_pixels(&window, SAMPLES, 12345);
         let solver = ImageSolver::new(&lens).unwrap();
         let reference: Vec<Option<f64>> = picks
             .par_iter()
             .map_with(solver, |solver, &(ix, iy)| {
-                let fine = pixel_mean(solver, &window, ix, iy, 8);
-                let coarse = pixel_mean(solver, &window, ix, iy, 4);
-                ((fine - coarse).abs() < 1e-7 * fine).then_some(fine)
+                smooth_pixel_mean(solver, &window, ix, iy).unwrap()
             })
             .collect();
         let checked = reference.iter().flatten().count();

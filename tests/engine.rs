@@ -171,27 +171,9 @@ fn pixel_data_do_not_depend_on_thread_count() {
     // without the mirror symmetry.
     let binary = LensSystem::binary(1.1, 3e-3).unwrap();
     let triple = LensSystem::new(&[(0.0, 0.0, 1.0), (0.9, 0.2, 1e-3), (-0.3, -0.5, 0.1)]).unwrap();
+    let window = Window::new((0.05, -0.02), 0.6, 120).unwrap();
     for lens in [binary, triple] {
-        let window = Window::new((0.05, -0.02), 0.6, 120).unwrap();
-        let engine = RayShooting::new(50.0);
-        let maps: Vec<_> = [1, 2, 4]
-            .iter()
-            .map(|&t| {
-                let pool = rayon::ThreadPoolBuilder::new()
-                    .num_threads(t)
-                    .build()
-                    .unwrap();
-                pool.install(|| engine.build(&lens, &window).unwrap())
-            })
-            .collect();
-        for m in &maps[1..] {
-            assert!(m
-                .data
-                .iter()
-                .zip(maps[0].data.iter())
-                .all(|(a, b)| a.to_bits() == b.to_bits()));
-            assert_eq!(m.provenance.rays_landed, maps[0].provenance.rays_landed);
-        }
+        common::assert_thread_independent(&RayShooting::new(50.0), &lens, &window);
     }
 }
 

@@ -153,22 +153,5 @@ fn distant_close_binary_looks_like_a_single_lens_of_the_total_mass() {
 fn pixel_data_do_not_depend_on_thread_count() {
     let lens = LensSystem::new(&[(0.0, 0.0, 1.0), (0.9, 0.2, 1e-3), (-0.3, -0.5, 0.1)]).unwrap();
     let window = Window::new((0.05, -0.02), 0.6, 120).unwrap();
-    let engine = PolygonMapping::new(2.0);
-    let maps: Vec<_> = [1, 2, 4]
-        .iter()
-        .map(|&t| {
-            let pool = rayon::ThreadPoolBuilder::new()
-                .num_threads(t)
-                .build()
-                .unwrap();
-            pool.install(|| engine.build(&lens, &window).unwrap())
-        })
-        .collect();
-    for m in &maps[1..] {
-        assert!(m
-            .data
-            .iter()
-            .zip(maps[0].data.iter())
-            .all(|(a, b)| a.to_bits() == b.to_bits()));
-    }
+    common::assert_thread_independent(&PolygonMapping::new(2.0), &lens, &window);
 }

@@ -268,3 +268,45 @@ pub(crate) fn has_avx2() -> bool {
         false
     }
 }
+
+/// One worker's integer histogram (per pixel) and how many contributions it counted.
+pub(crate) struct Tally<T> {
+    pub hist: Vec<T>,
+    pub count: u64,
+}
+
+impl<T: Copy + Default> Tally<T> {
+    pub fn new(npix: usize) -> Self {
+        Tally {
+            hist: vec![T::default(); npix],
+            count: 0,
+        }
+    }
+}
+
+/// Sums the workers' tallies (integers: the order does not matter) and scales the totals into
+/// an `n x n` map; returns the data and the summed count.
+pub(crate) fn merge<T: Copy + Into<u64>>(
+    tallies: Vec<Tally<T>>,
+    n: usize,
+    scale: f64,
+) -> crate::error::Result<(ndarray::Array2<f32>, u64)> {
+    let mut total = vec![0u64; n * n];
+    let mut count = 0;
+    for t in &tallies {
+        count += t.count;
+        for (sum, &v) in total.iter_mut().zip(&t.hist) {
+            *sum += v.into();
+        }
+    }
+    drop(tallies);
+    let values = total.iter().map(|&v| (v as f64 * scale) as f32).collect();
+    let data = ndarray::Array2::from_shape_vec((n, n), values)
+        .map_err(|e| crate::error::Error::Numerical(format!("map shape: {e}")))?;
+    Ok((data, count))
+}
+
+/// Rays (or cells) in a list of leaves.
+pub(crate) fn leaf_cells(leaves: &[Block]) -> u64 {
+    leaves.len() as u64 * (LEAF * LEAF) as u64
+}

@@ -21,12 +21,11 @@
 //! sums are exact integers and the map is bit-identical for any thread count. Peak memory:
 //! `8 n^2` bytes per thread plus `12 n^2`, plus 16 bytes per surviving leaf.
 
-use super::lattice::{for_each_leaf, Block, Lattice, LEAF};
+use super::lattice::{for_each_leaf, leaf_cells, merge, Block, Lattice, Tally, LEAF};
 use super::{Engine, Progress, Traced};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
 use crate::map::Window;
-use ndarray::Array2;
 
 /// Deepest recursive split of a cell (cells down to `h / 2^MAX_DEPTH`).
 pub const MAX_DEPTH: u32 = 6;
@@ -118,8 +117,7 @@ fn clip(poly: &[Point], out: &mut Vec<Point>, axis_x: bool, bound: f64, keep_abo
 
 /// Per-worker accumulator: fixed-point areas per pixel and scratch polygons.
 struct Accumulator {
-    hist: Vec<u64>,
-    deposits: u64,
+    tally: Tally<u64>,
     strip: Vec<Point>,
     scratch: Vec<Point>,
     piece: Vec<Point>,
@@ -128,8 +126,7 @@ struct Accumulator {
 impl Accumulator {
     fn new(npix: usize) -> Self {
         Accumulator {
-            hist: vec![0; npix],
-            deposits: 0,
+            tally: Tally::new(npix),
             strip: Vec::with_capacity(16),
             scratch: Vec::with_capacity(16),
             piece: Vec::with_capacity(16),
@@ -140,8 +137,8 @@ impl Accumulator {
     fn point(&mut self, p: Point, units: u64, n: usize) {
         let nf = n as f64;
         if p.0 >= 0.0 && p.0 < nf && p.1 >= 0.0 && p.1 < nf {
-            self.hist[p.1 as usize * n + p.0 as usize] += units;
-            self.deposits += 1;
+            self.tally.hist[p.1 as usize * n + p.0 as usize] += units;
+            self.tally.count += 1;
         }
     }
 
@@ -163,8 +160,8 @@ impl Accumulator {
         let (r0, r1) = (ymin.floor(), ymax.floor());
         if c0 == c1 && r0 == r1 {
             // Entirely within one pixel (inside the window, by the test above).
-            self.hist[r0 as usize * n + c0 as usize] += units;
-            self.deposits += 1;
+            self.tally.hist[r0 as usize * n + c0 as usize] += units;
+            self.tally.count += 1;
             return;
         }
         let total = twice_area(quad).abs();
@@ -194,8 +191,8 @@ impl Accumulator {
                     continue;
                 }
                 let share = (twice_area(&self.piece).abs() * scale).round() as u64;
-                self.hist[r * n + c] += share;
-                self.deposits += 1;
+                self.tally.hist[r * n + c] += share;
+                self.tally.count += 1;
             }
         }
     }
@@ -400,29 +397,18 @@ impl Engine for PolygonMapping {
         progress.start(leaves.len() as u64);
         let npix = window.pixel_count();
         let mapper = Mapper { lattice: &lattice };
-        let partials = for_each_leaf(
+        let tallies = for_each_leaf(
             &leaves,
             || Accumulator::new(npix),
             |leaf, acc| mapper.leaf(leaf, acc),
             progress,
         );
-        let mut total = vec![0u64; npix];
-        let mut deposits = 0;
-        for acc in &partials {
-            deposits += acc.deposits;
-            for (t, &v) in total.iter_mut().zip(&acc.hist) {
-                *t += v;
-            }
-        }
-        drop(partials);
+        let tallies = tallies.into_iter().map(|a| a.tally).collect();
         let scale = 1.0 / (FULL as f64 * self.cells_per_pixel);
-        let n = window.pixels;
-        let values = total.iter().map(|&v| (v as f64 * scale) as f32).collect();
-        let data = Array2::from_shape_vec((n, n), values)
-            .map_err(|e| Error::Numerical(format!("map shape: {e}")))?;
+        let (data, deposits) = merge(tallies, window.pixels, scale)?;
         Ok(Traced {
             data,
-            rays_shot: leaves.len() as u64 * (LEAF * LEAF) as u64,
+            rays_shot: leaf_cells(&leaves),
             rays_landed: deposits,
         })
     }
@@ -438,12 +424,12 @@ mod tests {
         let mut acc = Accumulator::new(4);
         let q = [(0.0, 0.0), (2.0, 0.0), (2.0, 2.0), (0.0, 2.0)];
         acc.quad(&q, 4000, 2);
-        assert_eq!(acc.hist, vec![1000, 1000, 1000, 1000]);
+        assert_eq!(acc.tally.hist, vec![1000, 1000, 1000, 1000]);
         // A triangle-like sliver: total area is conserved within the window.
         let mut acc = Accumulator::new(9);
         let q = [(0.2, 0.3), (2.7, 0.9), (2.1, 2.8), (0.4, 1.9)];
         acc.quad(&q, 1 << 30, 3);
-        let sum: u64 = acc.hist.iter().sum();
+        let sum: u64 = acc.tally.hist.iter().sum();
         assert!((sum as i64 - (1i64 << 30)).abs() <= 9);
     }
 }

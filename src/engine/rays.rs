@@ -12,12 +12,11 @@
 //! histogram per worker. Peak memory: `4 n^2` bytes per thread plus `12 n^2` for the merge and
 //! output, plus 16 bytes per surviving leaf.
 
-use super::lattice::{for_each_leaf, has_avx2, Block, Lattice, LEAF};
+use super::lattice::{for_each_leaf, has_avx2, leaf_cells, merge, Block, Lattice, Tally, LEAF};
 use super::{Engine, Progress, Traced};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
 use crate::map::Window;
-use ndarray::Array2;
 
 /// Largest accepted density (keeps per-pixel `u32` counts far from overflow).
 const MAX_DENSITY: f64 = 1e8;
@@ -143,29 +142,16 @@ impl Engine for RayShooting {
         progress.start(leaves.len() as u64);
         let npix = window.pixel_count();
         let avx2 = has_avx2();
-        let partials = for_each_leaf(
+        let tallies = for_each_leaf(
             &leaves,
-            || (vec![0u32; npix], 0u64),
-            |leaf, (hist, landed)| *landed += trace_leaf(&lattice, leaf, hist, avx2),
+            || Tally::<u32>::new(npix),
+            |leaf, t| t.count += trace_leaf(&lattice, leaf, &mut t.hist, avx2),
             progress,
         );
-        let mut total = vec![0u64; npix];
-        let mut landed = 0u64;
-        for (hist, l) in &partials {
-            landed += l;
-            for (t, &h) in total.iter_mut().zip(hist) {
-                *t += h as u64;
-            }
-        }
-        drop(partials);
-        let scale = 1.0 / self.rays_per_pixel;
-        let n = window.pixels;
-        let values = total.iter().map(|&c| (c as f64 * scale) as f32).collect();
-        let data = Array2::from_shape_vec((n, n), values)
-            .map_err(|e| Error::Numerical(format!("map shape: {e}")))?;
+        let (data, landed) = merge(tallies, window.pixels, 1.0 / self.rays_per_pixel)?;
         Ok(Traced {
             data,
-            rays_shot: leaves.len() as u64 * (LEAF * LEAF) as u64,
+            rays_shot: leaf_cells(&leaves),
             rays_landed: landed,
         })
     }
@@ -183,6 +169,6 @@ impl Engine for RayShooting {
 /// ```
 pub fn ray_budget(engine: &RayShooting, lens: &LensSystem, window: &Window) -> (u64, u64) {
     let lattice = Lattice::new(lens, window, engine.spacing(window));
-    let traced = lattice.leaves().len() as u64 * (LEAF * LEAF) as u64;
+    let traced = leaf_cells(&lattice.leaves());
     (traced, lattice.region_cells() as u64)
 }

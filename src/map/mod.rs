@@ -5,6 +5,7 @@
 //! and `[[0, 0]]` is the lower-left pixel (smallest x and y), the order FITS uses.
 
 pub mod fits;
+pub mod reference;
 pub mod render;
 
 pub use fits::{read_fits, write_fits};

@@ -69,3 +69,38 @@ pub fn listing(dir: &Path) -> Vec<String> {
     names.sort();
     names
 }
+
+/// Runs `f` on a fresh rayon pool of `threads` threads.
+pub fn with_threads<T: Send>(threads: usize, f: impl FnOnce() -> T + Send) -> T {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .unwrap()
+        .install(f)
+}
+
+/// Builds the same map with 1, 2 and 4 threads and asserts bit-identical pixel data
+/// (DESIGN.md: deterministic whatever the thread count).
+pub fn assert_thread_independent(
+    engine: &dyn causeway::engine::Engine,
+    lens: &causeway::lens::LensSystem,
+    window: &causeway::map::Window,
+) {
+    let maps: Vec<_> = [1, 2, 4]
+        .iter()
+        .map(|&t| with_threads(t, || engine.build(lens, window).unwrap()))
+        .collect();
+    for m in &maps[1..] {
+        let same = m
+            .data
+            .iter()
+            .zip(maps[0].data.iter())
+            .all(|(a, b)| a.to_bits() == b.to_bits());
+        assert!(
+            same,
+            "{}: pixel data differ between thread counts",
+            engine.name()
+        );
+        assert_eq!(m.provenance.rays_landed, maps[0].provenance.rays_landed);
+    }
+}
