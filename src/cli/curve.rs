@@ -199,11 +199,7 @@ pub fn run(args: CurveArgs) -> Result<()> {
         EvaluationArg::Direct => Evaluation::Direct,
         EvaluationArg::Convolved => Evaluation::Convolved,
     };
-    // Off the map: the closed form for one lens, else a solver built once.
-    let solver = match lens.len() {
-        1 => None,
-        _ => Some(ImageSolver::new(&lens)?),
-    };
+    let solver = solver_for(&lens);
     let point: &dyn PointMagnification = match &solver {
         Some(s) => s,
         None => &lens,
@@ -241,6 +237,15 @@ pub fn run(args: CurveArgs) -> Result<()> {
     Ok(())
 }
 
+/// The off-map continuation's point source: a solver built once for two to four lenses; `None`
+/// for one lens (closed form) or more than four (the lens system then reports, when a point
+/// needs it, that the solver does not take that many).
+fn solver_for(lens: &crate::lens::LensSystem) -> Option<ImageSolver> {
+    (lens.len() > 1)
+        .then(|| ImageSolver::new(lens).ok())
+        .flatten()
+}
+
 /// Cumulative distance along a path, from 0.
 fn distances(points: &[(f64, f64)]) -> Vec<f64> {
     let mut d = 0.0;
@@ -263,12 +268,10 @@ fn needed_map(
     points: &[(f64, f64)],
     limit: u64,
 ) -> Result<Option<MagnificationMap>> {
-    let solver;
-    let point: &dyn PointMagnification = if lens.len() == 1 {
-        lens
-    } else {
-        solver = ImageSolver::new(lens)?;
-        &solver
+    let solver = solver_for(lens);
+    let point: &dyn PointMagnification = match &solver {
+        Some(s) => s,
+        None => lens,
     };
     let Some(window) = plan_window(point, profile, points, args.tol, args.pixels_per_rho)? else {
         return Ok(None);
