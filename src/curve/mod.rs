@@ -11,6 +11,17 @@
 //!    ([`small_source`]), where that correction is accurate to the tolerance; elsewhere the
 //!    sampler fails, naming the first such point.
 //!
+//! # Accuracy (derived in the module docs named, measured in tests/curve.rs)
+//! - Map reads under the source: lattice counting noise plus pixelisation, about
+//!   `(d^2/12 rho) |dA/dn|` for a pixel of side `d` (the map holds box means; measured 7e-4 at
+//!   rho = 10 px on a point lens, the Witt & Mao value being the reference).
+//! - Limb darkening: the quadrature over uniform disks is within 1e-4 ([`ld_nodes`]).
+//! - Pre-convolved reads: equal to direct reads at pixel centres (1e-12 here, FFT round-off),
+//!   elsewhere within the bilinear estimate of [`Preconvolved::interpolation_bound`] for at least
+//!   95% of points across a caustic (all within 3 times it).
+//! - Off the map: the hexadecapole error estimate must be below the tolerance (default
+//!   [`Sampler::DEFAULT_TOL`]), and the continuation agrees with the map across the seam.
+//!
 //! ```
 //! use causeway::curve::{Method, Sampler, StraightLine};
 //! use causeway::{engine::{Engine, RayShooting}, lens::LensSystem, map::Window};
