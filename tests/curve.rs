@@ -760,3 +760,65 @@ fn binary_curve_agrees_across_the_seam() {
         );
     }
 }
+
+#[test]
+fn point_source_reads_are_the_map_smoothed_by_about_a_pixel() {
+    // rho = 0: bilinear interpolation between pixel centres (src/curve/sample.rs). For a smooth
+    // A the read is A + (d^2/24) Laplacian(A) (the pixel box) plus at most
+    // (d^2/8)(|A_xx| + |A_yy|) (the interpolation), plus lattice noise (6 sigma, the engine's
+    // model with the pixel pre-image perimeter taken as 4 d times the largest stretch of the
+    // map at the two images, 1/(1 - 1/|z|^2)). Paczynski 1986 is the reference; off the map
+    // the exact point-source value is used (Method::Point).
+    let map = single_lens_map();
+    let d = map.window.pixel_size();
+    let h = d / RAYS.sqrt();
+    let lens = LensSystem::single();
+    let pts: Vec<(f64, f64)> = scatter(300, -0.12, 0.22)
+        .into_iter()
+        .filter(|p| p.0.hypot(p.1) > 0.05)
+        .chain([(0.5, 0.3)])
+        .collect();
+    let curve = Sampler::new(SourceProfile::uniform(0.0).unwrap())
+        .map(&map)
+        .lens(&lens)
+        .sample(&pts)
+        .unwrap();
+    let mut worst = 0.0f64;
+    for (s, &(x, y)) in curve.samples.iter().zip(&pts) {
+        let u = x.hypot(y);
+        if s.method == Method::Point {
+            assert_eq!(s.magnification, paczynski(u));
+            continue;
+        }
+        assert_eq!(s.method, Method::Bilinear);
+        let e = 1e-4;
+        let f = |a: f64, b: f64| paczynski(a.hypot(b));
+        let axx = (f(x + e, y) - 2.0 * f(x, y) + f(x - e, y)) / (e * e);
+        let ayy = (f(x, y + e) - 2.0 * f(x, y) + f(x, y - e)) / (e * e);
+        // Second derivatives grow towards the lens: take them at the near side of the cell.
+        let grow = (u / (u - 1.5 * d)).powi(5);
+        let smooth = d * d * ((axx + ayy).abs() / 24.0 + (axx.abs() + ayy.abs()) / 8.0) * grow;
+        let zp = (1.0 + (1.0 + 4.0 / (u * u)).sqrt()) / 2.0 * u;
+        // Stretch of the lens map at the major image z+ and at the minor one, |z-| = 1/|z+|.
+        let stretch = 1.0 / (1.0 - 1.0 / (zp * zp)).abs() + 1.0 / (1.0 - zp * zp).abs();
+        let cells = 4.0 * (4.0 * d * stretch / h + 2.0);
+        let sigma = (cells / 12.0).sqrt() / RAYS;
+        let err = (s.magnification - paczynski(u)).abs();
+        assert!(
+            err <= smooth + 6.0 * sigma,
+            "({x}, {y}): {} vs {}",
+            s.magnification,
+            paczynski(u)
+        );
+        worst = worst.max(err / (smooth + 6.0 * sigma));
+    }
+    eprintln!("point reads: worst error / allowance {worst:.2}");
+    assert!(
+        curve
+            .samples
+            .iter()
+            .filter(|s| s.method == Method::Bilinear)
+            .count()
+            > 200
+    );
+}
