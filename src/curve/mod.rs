@@ -132,11 +132,11 @@ pub struct Curve {
 
 /// Estimated cost, in nanoseconds, of one direct read of a profile (uniform disks of the given
 /// radii in pixels): interior pixels are summed (about 1 ns each), rim pixels get a closed-form
-/// overlap (about 50 ns each, some 8 (r + 1) of them per disk). Calibrated on benches/curve.rs.
+/// overlap (about 30 ns each, some 8 (r + 1) of them per disk). Calibrated on benches/curve.rs.
 fn direct_cost(disks: &[(f64, f64)]) -> f64 {
     disks
         .iter()
-        .map(|&(r, _)| std::f64::consts::PI * r * r + 50.0 * 8.0 * (r + 1.0))
+        .map(|&(r, _)| std::f64::consts::PI * r * r + 30.0 * 8.0 * (r + 1.0))
         .sum()
 }
 
