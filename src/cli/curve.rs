@@ -222,16 +222,13 @@ pub fn run(args: CurveArgs) -> Result<()> {
             .times
             .clone()
             .unwrap_or_else(|| distances(&path.points));
-        let ((x0, x1), (a0, a1)) = plot_png(&curve.samples, &abscissa, png)?;
-        let what = if path.times.is_some() {
-            "t"
+        let label = if path.times.is_some() {
+            "t (days)"
         } else {
-            "distance along the path"
+            "distance along the path (Einstein radii)"
         };
-        eprintln!(
-            "wrote {}: magnification {a0:.6} to {a1:.6} against {what} {x0} to {x1}",
-            png.display()
-        );
+        plot_png(&curve.samples, &abscissa, label, png)?;
+        eprintln!("wrote {}", png.display());
     }
     print!("{csv}");
     Ok(())
@@ -366,10 +363,7 @@ pub fn demo_curve(map: &MagnificationMap, out: &std::path::Path) -> Result<()> {
     crate::fsutil::write_atomic(&file, csv.as_bytes())?;
     eprintln!("wrote {}", file.display());
     let png = out.join("demo-curve.png");
-    let (_, (a0, a1)) = plot_png(&curve.samples, &times, &png)?;
-    eprintln!(
-        "wrote {}: magnification {a0:.3} to {a1:.3} against t 2.72 to 10.72 days",
-        png.display()
-    );
+    plot_png(&curve.samples, &times, "t (days)", &png)?;
+    eprintln!("wrote {}", png.display());
     Ok(())
 }

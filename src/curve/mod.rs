@@ -51,7 +51,7 @@ mod trajectory;
 pub use continuation::{small_source, Expansion, PointMagnification};
 pub use convolve::Preconvolved;
 pub use plan::{plan_window, POINT_SOURCE_PIXELS};
-pub use plot::{plot_png, PlotRanges};
+pub use plot::plot_png;
 pub use sample::{ld_nodes, point_read, DirectReader};
 pub use trajectory::{parse_times, read_times, time_range, SourcePath, StraightLine};
 
