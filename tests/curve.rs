@@ -679,3 +679,146 @@ fn curves_do_not_depend_on_thread_count() {
         }
     }
 }
+
+#[test]
+fn binary_curve_agrees_across_the_seam() {
+    // A binary curve leaving the map: ray-shooting map reads on one side, the solver's point
+    // source plus the hexadecapole correction (Gould 2008) on the other; two independent
+    // calculations, which must agree where both apply (the last points on the map) to the map
+    // tolerance plus the expansion's. Map tolerance for a binary, as for the single lens (module
+    // documentation), with the pre-image perimeter of the source circle bounded by
+    // 2 pi rho sum_i 1/|1 - |shear(z_i)|| over the images z_i (largest stretch of the lens map
+    // at each image) and |grad A| taken from the solver by central differences.
+    let rays: f64 = 400.0;
+    let (lens, map) = binary_map(rays);
+    let rho = 0.02;
+    let tol = 1e-4;
+    let profile = SourceProfile::uniform(rho).unwrap();
+    let points: Vec<(f64, f64)> = (0..=80)
+        .map(|k| (0.1 + 0.006 * k as f64, 0.12 + 0.004 * k as f64))
+        .collect();
+    let solver = causeway::solve::ImageSolver::new(&lens).unwrap();
+    let curve = Sampler::new(profile)
+        .map(&map)
+        .lens(&solver)
+        .tol(tol)
+        .evaluation(Evaluation::Direct)
+        .sample(&points)
+        .unwrap();
+    let last_map = curve
+        .samples
+        .iter()
+        .rposition(|s| s.method == Method::Direct)
+        .unwrap();
+    assert!(curve.samples[last_map + 1..]
+        .iter()
+        .all(|s| s.method == Method::Expansion));
+    assert!(
+        last_map > 10 && last_map + 10 < points.len(),
+        "seam at {last_map}"
+    );
+    let d = map.window.pixel_size();
+    let h = d / rays.sqrt();
+    let rho_px = rho / d;
+    let a = |x: f64, y: f64| causeway::solve::magnification(&lens, Complex64::new(x, y)).unwrap();
+    for (k, &(x, y)) in points
+        .iter()
+        .enumerate()
+        .take(last_map + 1)
+        .skip(last_map - 4)
+    {
+        let from_map = curve.samples[k].magnification;
+        let e = small_source(&solver, &profile, x, y).unwrap();
+        assert!(e.accurate(tol));
+        let images = causeway::solve::images(&lens, Complex64::new(x, y)).unwrap();
+        let perimeter: f64 = images
+            .iter()
+            .map(|i| 2.0 * PI * rho / (1.0 - lens.shear(i.position).norm()).abs())
+            .sum();
+        let stretch = perimeter / (2.0 * PI * rho);
+        let cells_inner = 4.0 * (4.0 / PI * perimeter / h + 2.0);
+        let cells_pixel = 4.0 * (4.0 * d * stretch / h + 2.0);
+        let rim = 4.0 * (2.0 * rho_px + 1.0);
+        let sigma =
+            ((cells_inner + rim * cells_pixel) / 12.0).sqrt() / (rays * PI * rho_px * rho_px);
+        let eps = 1e-4;
+        let grad =
+            ((a(x + eps, y) - a(x - eps, y)).hypot(a(x, y + eps) - a(x, y - eps))) / (2.0 * eps);
+        let pixelisation = (d * d / 24.0) * (2.0 / rho) * grad + 2f64.sqrt() * grad * d * d / rho;
+        let allowed = 6.0 * sigma + pixelisation + tol * e.magnification;
+        let diff = (from_map - e.magnification).abs();
+        eprintln!(
+            "seam point {k}: map {from_map} expansion {} diff {:.2e} allowed {:.2e}",
+            e.magnification,
+            diff / from_map,
+            allowed / from_map
+        );
+        assert!(
+            diff <= allowed,
+            "point {k}: map {from_map} vs expansion {}",
+            e.magnification
+        );
+    }
+}
+
+#[test]
+fn point_source_reads_are_the_map_smoothed_by_about_a_pixel() {
+    // rho = 0: bilinear interpolation between pixel centres (src/curve/sample.rs). For a smooth
+    // A the read is A + (d^2/24) Laplacian(A) (the pixel box) plus at most
+    // (d^2/8)(|A_xx| + |A_yy|) (the interpolation), plus lattice noise (6 sigma, the engine's
+    // model with the pixel pre-image perimeter taken as 4 d times the largest stretch of the
+    // map at the two images, 1/(1 - 1/|z|^2)). Paczynski 1986 is the reference; off the map
+    // the exact point-source value is used (Method::Point).
+    let map = single_lens_map();
+    let d = map.window.pixel_size();
+    let h = d / RAYS.sqrt();
+    let lens = LensSystem::single();
+    let pts: Vec<(f64, f64)> = scatter(300, -0.12, 0.22)
+        .into_iter()
+        .filter(|p| p.0.hypot(p.1) > 0.05)
+        .chain([(0.5, 0.3)])
+        .collect();
+    let curve = Sampler::new(SourceProfile::uniform(0.0).unwrap())
+        .map(&map)
+        .lens(&lens)
+        .sample(&pts)
+        .unwrap();
+    let mut worst = 0.0f64;
+    for (s, &(x, y)) in curve.samples.iter().zip(&pts) {
+        let u = x.hypot(y);
+        if s.method == Method::Point {
+            assert_eq!(s.magnification, paczynski(u));
+            continue;
+        }
+        assert_eq!(s.method, Method::Bilinear);
+        let e = 1e-4;
+        let f = |a: f64, b: f64| paczynski(a.hypot(b));
+        let axx = (f(x + e, y) - 2.0 * f(x, y) + f(x - e, y)) / (e * e);
+        let ayy = (f(x, y + e) - 2.0 * f(x, y) + f(x, y - e)) / (e * e);
+        // Second derivatives grow towards the lens: take them at the near side of the cell.
+        let grow = (u / (u - 1.5 * d)).powi(5);
+        let smooth = d * d * ((axx + ayy).abs() / 24.0 + (axx.abs() + ayy.abs()) / 8.0) * grow;
+        let zp = (1.0 + (1.0 + 4.0 / (u * u)).sqrt()) / 2.0 * u;
+        // Stretch of the lens map at the major image z+ and at the minor one, |z-| = 1/|z+|.
+        let stretch = 1.0 / (1.0 - 1.0 / (zp * zp)).abs() + 1.0 / (1.0 - zp * zp).abs();
+        let cells = 4.0 * (4.0 * d * stretch / h + 2.0);
+        let sigma = (cells / 12.0).sqrt() / RAYS;
+        let err = (s.magnification - paczynski(u)).abs();
+        assert!(
+            err <= smooth + 6.0 * sigma,
+            "({x}, {y}): {} vs {}",
+            s.magnification,
+            paczynski(u)
+        );
+        worst = worst.max(err / (smooth + 6.0 * sigma));
+    }
+    eprintln!("point reads: worst error / allowance {worst:.2}");
+    assert!(
+        curve
+            .samples
+            .iter()
+            .filter(|s| s.method == Method::Bilinear)
+            .count()
+            > 200
+    );
+}

@@ -199,11 +199,7 @@ pub fn run(args: CurveArgs) -> Result<()> {
         EvaluationArg::Direct => Evaluation::Direct,
         EvaluationArg::Convolved => Evaluation::Convolved,
     };
-    // Off the map: the closed form for one lens, else a solver built once.
-    let solver = match lens.len() {
-        1 => None,
-        _ => Some(ImageSolver::new(&lens)?),
-    };
+    let solver = solver_for(&lens);
     let point: &dyn PointMagnification = match &solver {
         Some(s) => s,
         None => &lens,
@@ -226,19 +222,25 @@ pub fn run(args: CurveArgs) -> Result<()> {
             .times
             .clone()
             .unwrap_or_else(|| distances(&path.points));
-        let ((x0, x1), (a0, a1)) = plot_png(&curve.samples, &abscissa, png)?;
-        let what = if path.times.is_some() {
-            "t"
+        let label = if path.times.is_some() {
+            "t (days)"
         } else {
-            "distance along the path"
+            "distance along the path (Einstein radii)"
         };
-        eprintln!(
-            "wrote {}: magnification {a0:.6} to {a1:.6} against {what} {x0} to {x1}",
-            png.display()
-        );
+        plot_png(&curve.samples, &abscissa, label, png)?;
+        eprintln!("wrote {}", png.display());
     }
     print!("{csv}");
     Ok(())
+}
+
+/// The off-map continuation's point source: a solver built once for two to four lenses; `None`
+/// for one lens (closed form) or more than four (the lens system then reports, when a point
+/// needs it, that the solver does not take that many).
+fn solver_for(lens: &crate::lens::LensSystem) -> Option<ImageSolver> {
+    (lens.len() > 1)
+        .then(|| ImageSolver::new(lens).ok())
+        .flatten()
 }
 
 /// Cumulative distance along a path, from 0.
@@ -263,12 +265,10 @@ fn needed_map(
     points: &[(f64, f64)],
     limit: u64,
 ) -> Result<Option<MagnificationMap>> {
-    let solver;
-    let point: &dyn PointMagnification = if lens.len() == 1 {
-        lens
-    } else {
-        solver = ImageSolver::new(lens)?;
-        &solver
+    let solver = solver_for(lens);
+    let point: &dyn PointMagnification = match &solver {
+        Some(s) => s,
+        None => lens,
     };
     let Some(window) = plan_window(point, profile, points, args.tol, args.pixels_per_rho)? else {
         return Ok(None);
@@ -363,10 +363,7 @@ pub fn demo_curve(map: &MagnificationMap, out: &std::path::Path) -> Result<()> {
     crate::fsutil::write_atomic(&file, csv.as_bytes())?;
     eprintln!("wrote {}", file.display());
     let png = out.join("demo-curve.png");
-    let (_, (a0, a1)) = plot_png(&curve.samples, &times, &png)?;
-    eprintln!(
-        "wrote {}: magnification {a0:.3} to {a1:.3} against t 2.72 to 10.72 days",
-        png.display()
-    );
+    plot_png(&curve.samples, &times, "t (days)", &png)?;
+    eprintln!("wrote {}", png.display());
     Ok(())
 }
