@@ -133,9 +133,9 @@ pub fn curves(lens: &LensSystem) -> Result<Vec<Curve>> {
 /// The caustics as polylines of (x, y) points, for drawing (each closed: last point = first).
 ///
 /// ```
-/// let lens = causeway::lens::LensSystem::binary(1.5, 0.1).unwrap();
+/// let lens = causeway::lens::LensSystem::binary(2.0, 0.1).unwrap();
 /// let lines = causeway::caustics::caustic_curves(&lens).unwrap();
-/// assert_eq!(lines.len(), 2); // wide enough for two caustics
+/// assert_eq!(lines.len(), 2); // wide (s_w = 1.69 at q = 0.1): two caustics
 /// assert_eq!(lines[0].first(), lines[0].last());
 /// ```
 pub fn caustic_curves(lens: &LensSystem) -> Result<Vec<Vec<(f64, f64)>>> {

@@ -5,6 +5,7 @@ use crate::caustics::{self, CausticOptions, Curve};
 use crate::error::{Error, Result};
 use crate::fsutil::write_atomic;
 use crate::lens::LensSystem;
+use crate::map::render;
 use crate::table::fmt_f64;
 use clap::Args;
 use image::{Rgb, RgbImage};
@@ -20,7 +21,7 @@ use std::path::{Path, PathBuf};
         (lens plane); the points of each curve in order, the last repeating the first. For a \
         binary the topology (close, intermediate, wide) is printed on stderr.\n\n\
         The PNG shows the caustics (red) and critical curves (blue) on the same axes, lenses \
-        as black crosses, with tick marks on a frame.\n\n\
+        as black crosses, on a frame with labelled ticks (Einstein radii).\n\n\
         Examples:\n  \
         causeway caustics --s 1.0 --q 1 --out c.csv --png c.png\n  \
         causeway caustics --lenses triple.csv --out triple-caustics.csv"
@@ -112,13 +113,13 @@ pub fn csv_text(curves: &[Curve]) -> String {
 }
 
 const SIZE: u32 = 800;
-const MARGIN: f64 = 50.0;
+const MARGIN: f64 = 60.0;
 const CAUSTIC: Rgb<u8> = Rgb([200, 20, 20]);
 const CRITICAL: Rgb<u8> = Rgb([60, 90, 220]);
 const INK: Rgb<u8> = Rgb([0, 0, 0]);
 
 /// Caustics and critical curves on common, equal-scale axes, white background, framed with
-/// tick marks at round steps (longer every fifth).
+/// tick marks at round steps, every other one longer and labelled (x below, y to the left).
 pub fn picture(lens: &LensSystem, curves: &[Curve]) -> RgbImage {
     let mut img = RgbImage::from_pixel(SIZE, SIZE, Rgb([255, 255, 255]));
     let all = curves
@@ -169,22 +170,45 @@ pub fn picture(lens: &LensSystem, curves: &[Curve]) -> RgbImage {
     ] {
         line(&mut img, a, b, INK);
     }
-    let half = span * (SIZE as f64 - 2.0 * MARGIN) / (SIZE as f64 - 2.0 * MARGIN) / 2.0;
+    // The frame spans the drawing area; ticks every `step`, labelled every other one.
+    let half = (SIZE as f64 / 2.0 - MARGIN) / scale;
     let step = nice_step(span / 8.0);
+    let decimals = (-(step.log10().floor()) as i64).max(0) as usize;
+    let label = |v: f64| {
+        let s = format!("{:.*}", decimals, v);
+        if s.trim_start_matches('-')
+            .chars()
+            .all(|c| c == '0' || c == '.')
+        {
+            "0".to_string()
+        } else {
+            s
+        }
+    };
     for (centre, horizontal) in [(cx, true), (cy, false)] {
         let first = ((centre - half) / step).ceil() as i64;
         let last = ((centre + half) / step).floor() as i64;
         for k in first..=last {
             let v = k as f64 * step;
-            let len = if k % 5 == 0 { 10.0 } else { 5.0 };
+            let len = if k % 2 == 0 { 10.0 } else { 5.0 };
+            let text = label(v);
+            let chars = text.chars().count() as f64;
             if horizontal {
                 let (px, _) = to_px(v, cy);
                 line(&mut img, (px, hi), (px, hi - len), INK);
                 line(&mut img, (px, lo), (px, lo + len), INK);
+                let x = px - 4.0 * chars;
+                if k % 2 == 0 && x >= 0.0 && x + 8.0 * chars < SIZE as f64 {
+                    render::text(&mut img, x as usize, (hi + 8.0) as usize, 2, &text);
+                }
             } else {
                 let (_, py) = to_px(cx, v);
                 line(&mut img, (lo, py), (lo + len, py), INK);
                 line(&mut img, (hi, py), (hi - len, py), INK);
+                let x = lo - 6.0 - 8.0 * chars;
+                if k % 2 == 0 && x >= 0.0 && py >= 5.0 {
+                    render::text(&mut img, x as usize, (py - 5.0) as usize, 2, &text);
+                }
             }
         }
     }

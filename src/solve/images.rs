@@ -51,6 +51,12 @@ impl FastNorm for Complex64 {
     }
 }
 
+/// a < b, false when either is NaN (a NaN residual never counts as progress).
+#[inline]
+fn lower(a: f64, b: f64) -> bool {
+    a.partial_cmp(&b) == Some(std::cmp::Ordering::Less)
+}
+
 /// a - b as an unevaluated sum of two doubles per component (Knuth's TwoSum), so that shifting
 /// the source into a frame loses nothing.
 fn two_diff(a: Complex64, b: Complex64) -> (Complex64, Complex64) {
@@ -244,12 +250,12 @@ impl ImageSolver {
     fn lens_map(&self, pos: &[Complex64; 4], z: Complex64) -> (Complex64, Complex64) {
         let mut defl = ZERO;
         let mut shear = ZERO;
-        for i in 0..self.n {
-            let t = z - pos[i];
+        for (p, &m) in pos[..self.n].iter().zip(&self.mass) {
+            let t = z - p;
             let f = 1.0 / t.norm_sqr();
             // 1/conj(t) = t/|t|^2
             let d = Complex64::new(t.re * f, t.im * f);
-            let md = d * self.mass[i];
+            let md = d * m;
             defl += md;
             shear += md * d;
         }
@@ -294,13 +300,13 @@ impl ImageSolver {
             let mut wn = wn;
             // Damped runs halve a step that does not lower the residual (a few times).
             let mut halvings = 0;
-            while damped && !(res_n < res) && halvings < 20 {
+            while damped && !lower(res_n, res) && halvings < 20 {
                 halvings += 1;
                 wn = w + dw.unscale((1u64 << halvings) as f64);
                 (r_n, k_n) = residual(wn);
                 res_n = r_n.fnorm();
             }
-            if !(res_n < res) {
+            if !lower(res_n, res) {
                 break;
             }
             let step = (wn - w).fnorm();
@@ -461,6 +467,7 @@ impl ImageSolver {
     }
 
     /// Polishes every root, each within a third of its distance to the nearest other root.
+    #[allow(clippy::needless_range_loop)]
     fn polish_all(
         &self,
         frame: usize,
@@ -523,7 +530,7 @@ impl ImageSolver {
     fn valid_set(&self, cands: &[Candidate]) -> bool {
         let k = cands.len();
         let n = self.n;
-        if k < n + 1 || k > 5 * (n - 1) || (k - (n + 1)) % 2 != 0 {
+        if k < n + 1 || k > 5 * (n - 1) || !(k - (n + 1)).is_multiple_of(2) {
             return false;
         }
         let parity: i64 = cands
