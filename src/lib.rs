@@ -18,12 +18,14 @@
 
 pub mod caustics;
 pub mod cli;
+pub mod curve;
 pub mod engine;
 pub mod error;
 pub mod fsutil;
 pub mod lens;
 pub mod map;
 pub mod solve;
+pub mod source;
 pub mod store;
 pub mod table;
 

@@ -1,6 +1,7 @@
 //! `causeway map`: build one magnification map and write its FITS file (and PNG).
 
 use super::{parse_pair, LensArgs, ThreadArgs};
+use crate::caustics::caustic_curves;
 use crate::engine::{self, Engine};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
@@ -36,7 +37,7 @@ pub struct MapArgs {
     /// Also draw a PNG picture.
     #[arg(long, value_name = "FILE.png")]
     pub png: Option<PathBuf>,
-    /// Rays per unlensed pixel area.
+    /// Rays per unlensed pixel area (image-plane cells per pixel area with --engine polygon).
     #[arg(
         long,
         default_value_t = 100.0,
@@ -44,7 +45,7 @@ pub struct MapArgs {
         allow_hyphen_values = true
     )]
     pub rays: f64,
-    /// Map engine.
+    /// Map engine: rays (inverse ray shooting) or polygon (inverse polygon mapping).
     #[arg(long, default_value = "rays", value_name = "E")]
     pub engine: String,
     /// Largest working memory allowed, e.g. 4G, 512M or a byte count (default: half the RAM).
@@ -176,7 +177,13 @@ pub fn write_outputs(map: &MagnificationMap, out: &Path, png: Option<&Path>) -> 
     write_fits(map, out)?;
     eprintln!("wrote {}", out.display());
     if let Some(png) = png {
-        render_png(map, &Overlay::from_lens(&map.provenance.lens), png)?;
+        let lens = &map.provenance.lens;
+        let mut overlay = Overlay::from_lens(lens);
+        match caustic_curves(lens) {
+            Ok(curves) => overlay.curves = curves,
+            Err(e) => eprintln!("warning: caustics not drawn: {e}"),
+        }
+        render_png(map, &overlay, png)?;
         eprintln!("wrote {}", png.display());
     }
     Ok(())
@@ -195,5 +202,6 @@ pub fn demo(out: &Path, pixels: usize) -> Result<()> {
         &map,
         &out.join("demo-map.fits"),
         Some(&out.join("demo-map.png")),
-    )
+    )?;
+    super::curve::demo_curve(&map, out)
 }

@@ -39,6 +39,8 @@ pub enum Command {
     Images(images::ImagesArgs),
     /// Critical curves and caustics as CSV, and a picture.
     Caustics(caustics::CausticsArgs),
+    /// Light curve of a finite source along a path or a straight trajectory.
+    Curve(Box<curve::CurveArgs>),
 }
 
 /// Runs a parsed command line.
@@ -49,10 +51,12 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Library(args) => library::run(args),
         Command::Images(args) => images::run(args),
         Command::Caustics(args) => caustics::run(args),
+        Command::Curve(args) => curve::run(*args),
     }
 }
 
 pub mod caustics;
+pub mod curve;
 pub mod demo;
 pub mod images;
 pub mod library;
