@@ -24,6 +24,7 @@ pub mod error;
 pub mod fsutil;
 pub mod lens;
 pub mod map;
+pub mod plot;
 pub mod solve;
 pub mod source;
 pub mod store;

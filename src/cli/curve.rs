@@ -7,10 +7,10 @@ use crate::curve::{
     plan_window, plot_png, read_times, time_range, Evaluation, PointMagnification, Sampler,
     SourcePath, StraightLine,
 };
-use crate::solve::ImageSolver;
 use crate::engine::RayShooting;
 use crate::error::{Error, Result};
 use crate::map::{read_fits, MagnificationMap};
+use crate::solve::ImageSolver;
 use crate::source::{LimbDarkening, SourceProfile};
 use crate::store::MapKey;
 use crate::table::fmt_f64;

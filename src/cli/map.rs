@@ -48,6 +48,10 @@ pub struct MapArgs {
     /// Map engine: rays (inverse ray shooting) or polygon (inverse polygon mapping).
     #[arg(long, default_value = "rays", value_name = "E")]
     pub engine: String,
+    /// Choose engine and density for this median relative pixel error (e.g. 1e-3), by the rule
+    /// fitted to the engine study (src/engine/accuracy.rs).
+    #[arg(long, value_name = "E", conflicts_with_all = ["rays", "engine"])]
+    pub accuracy: Option<f64>,
     /// Largest working memory allowed, e.g. 4G, 512M or a byte count (default: half the RAM).
     #[arg(long, value_name = "SIZE", value_parser = parse_size)]
     pub max_memory: Option<u64>,
@@ -101,7 +105,14 @@ pub fn run(args: MapArgs) -> Result<()> {
     if let Some(png) = &args.png {
         check_output(png, "png", "--png")?;
     }
-    let engine = engine::by_name(&args.engine, args.rays)?;
+    let engine = match args.accuracy {
+        Some(target) => {
+            let (name, density) = engine::accuracy::choose(&lens, &window, target)?;
+            eprintln!("--accuracy {target}: engine {name}, density {density:.4}");
+            engine::by_name(name, density)?
+        }
+        None => engine::by_name(&args.engine, args.rays)?,
+    };
     let limit = args.max_memory.unwrap_or_else(default_memory_limit);
     let map = build_reported(engine.as_ref(), &lens, &window, limit)?;
     write_outputs(&map, &args.out, args.png.as_deref())

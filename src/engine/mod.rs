@@ -15,6 +15,7 @@ use crate::lens::LensSystem;
 use crate::map::{utc_now, MagnificationMap, Provenance, Window};
 use ndarray::Array2;
 
+pub mod accuracy;
 mod lattice;
 mod polygon;
 mod rays;
