@@ -336,7 +336,7 @@ fn magnification_label(v: f64) -> String {
     s.chars().take(ColourBar::LABEL_CHARS).collect()
 }
 
-/// A 3 x 5 pixel font for digits, the point, the minus sign and the exponent 'e'.
+/// A 3 x 5 pixel font for digits, the point and the exponent 'e'.
 fn glyph(c: char) -> [u8; 5] {
     match c {
         '0' => [0b111, 0b101, 0b101, 0b101, 0b111],
@@ -351,14 +351,12 @@ fn glyph(c: char) -> [u8; 5] {
         '9' => [0b111, 0b101, 0b111, 0b001, 0b111],
         '.' => [0b000, 0b000, 0b000, 0b000, 0b010],
         'e' => [0b000, 0b111, 0b111, 0b100, 0b111],
-        '-' => [0b000, 0b000, 0b111, 0b000, 0b000],
         _ => [0; 5],
     }
 }
 
-/// Writes `s` with its top-left corner at (x, y), each font pixel `u` x `u` (4u wide per
-/// character). The caller keeps the text inside the image.
-pub(crate) fn text(image: &mut RgbImage, x: usize, y: usize, u: usize, s: &str) {
+/// Writes `s` with its top-left corner at (x, y), each font pixel `u` x `u`.
+fn text(image: &mut RgbImage, x: usize, y: usize, u: usize, s: &str) {
     for (i, c) in s.chars().enumerate() {
         for (r, bits) in glyph(c).iter().enumerate() {
             for col in 0..3 {
