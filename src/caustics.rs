@@ -133,9 +133,9 @@ pub fn curves(lens: &LensSystem) -> Result<Vec<Curve>> {
 /// The caustics as polylines of (x, y) points, for drawing (each closed: last point = first).
 ///
 /// ```
-/// let lens = causeway::lens::LensSystem::binary(1.5, 0.1).unwrap();
+/// let lens = causeway::lens::LensSystem::binary(2.0, 0.1).unwrap();
 /// let lines = causeway::caustics::caustic_curves(&lens).unwrap();
-/// assert_eq!(lines.len(), 2); // wide enough for two caustics
+/// assert_eq!(lines.len(), 2); // wide (s_w = 1.69 at q = 0.1): two caustics
 /// assert_eq!(lines[0].first(), lines[0].last());
 /// ```
 pub fn caustic_curves(lens: &LensSystem) -> Result<Vec<Vec<(f64, f64)>>> {
@@ -284,6 +284,8 @@ impl<'a> Tracer<'a> {
         let mut prev: Option<([Complex64; MAX_ROOTS], [Complex64; MAX_ROOTS], f64)> = None;
         let mut phi = 0.0;
         let mut dphi = dphi_max;
+        let mut force = false;
+        let mut forced = 0;
         while phi < TAU {
             self.steps += 1;
             if self.steps > self.max_steps {
@@ -312,7 +314,7 @@ impl<'a> Tracer<'a> {
             }
             let mut new = pred;
             self.roots_at(next_phi, &mut new[..deg])?;
-            let ok = match assign(&pred[..deg], &new[..deg]) {
+            let ok = match assign(&pred[..deg], &new[..deg], !force) {
                 Some(order) => {
                     let mut next = [Complex64::new(0.0, 0.0); MAX_ROOTS];
                     let mut next_c = [Complex64::new(0.0, 0.0); MAX_ROOTS];
@@ -320,44 +322,45 @@ impl<'a> Tracer<'a> {
                         next[j] = new[order[j]];
                         next_c[j] = self.caustic_point(next[j]);
                     }
-                    let good = (0..deg).all(|j| {
-                        let chord = next[j] - cur[j];
-                        let chord_c = next_c[j] - cur_c[j];
-                        // Chords at the rounding level have no direction to speak of.
-                        let turn = |a: Complex64, b: Complex64| {
-                            let floor = 1e-11 * (1.0 + cur[j].norm());
-                            if a.norm() <= floor || b.norm() <= floor {
-                                0.0
-                            } else {
-                                (b * a.conj()).arg().abs()
-                            }
-                        };
-                        let (turn_k, turn_c) = match &prev {
-                            Some((p, pc, _)) => {
-                                (turn(cur[j] - p[j], chord), turn(cur_c[j] - pc[j], chord_c))
-                            }
-                            None => (0.0, 0.0),
-                        };
-                        if turn_k > max_turn {
-                            return false;
-                        }
-                        let Some(sizes) = sizes else {
-                            return true;
-                        };
-                        let (size_k, size_c) = sizes[j];
-                        if chord.norm() > opts.max_chord * size_k {
-                            return false;
-                        }
-                        if size_c > 1e-12 * size_k {
-                            let len = chord_c.norm();
-                            if len > opts.max_chord * size_c
-                                || (turn_c > max_turn && len > opts.min_chord * size_c)
-                            {
+                    let good = force
+                        || (0..deg).all(|j| {
+                            let chord = next[j] - cur[j];
+                            let chord_c = next_c[j] - cur_c[j];
+                            // Chords at the rounding level have no direction to speak of.
+                            let turn = |a: Complex64, b: Complex64| {
+                                let floor = 1e-11 * (1.0 + cur[j].norm());
+                                if a.norm() <= floor || b.norm() <= floor {
+                                    0.0
+                                } else {
+                                    (b * a.conj()).arg().abs()
+                                }
+                            };
+                            let (turn_k, turn_c) = match &prev {
+                                Some((p, pc, _)) => {
+                                    (turn(cur[j] - p[j], chord), turn(cur_c[j] - pc[j], chord_c))
+                                }
+                                None => (0.0, 0.0),
+                            };
+                            if turn_k > max_turn {
                                 return false;
                             }
-                        }
-                        true
-                    });
+                            let Some(sizes) = sizes else {
+                                return true;
+                            };
+                            let (size_k, size_c) = sizes[j];
+                            if chord.norm() > opts.max_chord * size_k {
+                                return false;
+                            }
+                            if size_c > 1e-12 * size_k {
+                                let len = chord_c.norm();
+                                if len > opts.max_chord * size_c
+                                    || (turn_c > max_turn && len > opts.min_chord * size_c)
+                                {
+                                    return false;
+                                }
+                            }
+                            true
+                        });
                     good.then_some((next, next_c))
                 }
                 None => None,
@@ -371,15 +374,24 @@ impl<'a> Tracer<'a> {
                     pass.caustic.push(cur_c);
                     phi = next_phi;
                     dphi = (step * 1.5).min(dphi_max);
+                    force = false;
                 }
                 None => {
-                    dphi = step * 0.5;
-                    if dphi < dphi_min {
-                        return Err(Error::Numerical(format!(
-                            "critical curves: cannot follow the roots past phi = {phi} \
-                             (curves touching: a topology boundary?)"
-                        )));
+                    if step * 0.5 < dphi_min {
+                        // Two roots meet (the curves touch: a topology boundary, to rounding).
+                        // Step on by nearest matching: the branches may then be joined either
+                        // way, as they are at the boundary itself.
+                        force = true;
+                        forced += 1;
+                        if forced > 1000 {
+                            return Err(Error::Numerical(format!(
+                                "critical curves: cannot follow the roots past phi = {phi}"
+                            )));
+                        }
+                    } else {
+                        dphi = step * 0.5;
                     }
+                    continue;
                 }
             }
         }
@@ -391,7 +403,7 @@ impl<'a> Tracer<'a> {
         let deg = self.degree();
         let start = &pass.samples[0];
         let end = pass.samples.last().expect("at least one sample");
-        let order = assign(&end[..deg], &start[..deg]).ok_or_else(|| {
+        let order = assign(&end[..deg], &start[..deg], false).ok_or_else(|| {
             Error::Numerical("critical curves: the branches do not close up at 2 pi".into())
         })?;
         let mut seen = [false; MAX_ROOTS];
@@ -433,9 +445,10 @@ impl<'a> Tracer<'a> {
     }
 }
 
-/// Matches each predicted point to a distinct new point, nearest pairs first; `None` when some
-/// match is not clearly the nearest (its distance above a quarter of the next-nearest).
-fn assign(pred: &[Complex64], new: &[Complex64]) -> Option<[usize; MAX_ROOTS]> {
+/// Matches each predicted point to a distinct new point, nearest pairs first; when `strict`,
+/// `None` if some match is not clearly the nearest (its distance above a quarter of the
+/// next-nearest).
+fn assign(pred: &[Complex64], new: &[Complex64], strict: bool) -> Option<[usize; MAX_ROOTS]> {
     let n = pred.len();
     let mut pairs: Vec<(f64, usize, usize)> = Vec::with_capacity(n * n);
     for (j, p) in pred.iter().enumerate() {
@@ -458,6 +471,9 @@ fn assign(pred: &[Complex64], new: &[Complex64]) -> Option<[usize; MAX_ROOTS]> {
         }
     }
     for j in 0..n {
+        if !strict {
+            break;
+        }
         let d1 = (pred[j] - new[order[j]]).norm();
         let d2 = (0..n)
             .filter(|&k| k != order[j])

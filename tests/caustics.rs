@@ -207,3 +207,14 @@ fn too_many_lenses_and_non_binary_topology_are_refused() {
     let triple = LensSystem::new(&[(0.0, 0.0, 1.0), (1.0, 0.0, 1.0), (0.0, 1.0, 1.0)]).unwrap();
     assert_eq!(caustics::topology(&triple).unwrap_err().exit_code(), 2);
 }
+
+/// Exactly on a topology boundary the curves touch: tracing still ends (the touching branches
+/// are joined one way or the other) instead of failing.
+#[test]
+fn exactly_on_the_boundary_still_traces() {
+    for s in [2.0, std::f64::consts::FRAC_1_SQRT_2] {
+        let lens = LensSystem::binary(s, 1.0).unwrap();
+        let curves = caustics::curves(&lens).unwrap();
+        assert!(!curves.is_empty() && curves.len() <= 3, "s = {s}");
+    }
+}

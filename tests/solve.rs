@@ -144,7 +144,7 @@ fn parity_and_count_rules() {
             let parity: i32 = images.iter().map(|i| i.parity as i32).sum();
             assert_eq!(parity, 1 - n, "{lens} at {zeta}");
             let k = images.len() as i32;
-            assert!(k >= n + 1 && k <= 5 * (n - 1) && (k - n - 1) % 2 == 0);
+            assert!(k > n && k <= 5 * (n - 1) && (k - n - 1) % 2 == 0);
             seen.insert(k);
             for im in images {
                 let res = (lens.source_position(im.position) - zeta).norm();

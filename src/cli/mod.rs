@@ -35,6 +35,10 @@ pub enum Command {
     Demo(demo::DemoArgs),
     /// Grid builds of maps over (s, q) into the store, and store upkeep.
     Library(library::LibraryArgs),
+    /// Point-source images and magnifications of listed source positions (exact, N <= 4).
+    Images(images::ImagesArgs),
+    /// Critical curves and caustics as CSV, and a picture.
+    Caustics(caustics::CausticsArgs),
     /// Light curve of a finite source along a path or a straight trajectory.
     Curve(Box<curve::CurveArgs>),
 }
@@ -45,12 +49,16 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Map(args) => map::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Library(args) => library::run(args),
+        Command::Images(args) => images::run(args),
+        Command::Caustics(args) => caustics::run(args),
         Command::Curve(args) => curve::run(*args),
     }
 }
 
+pub mod caustics;
 pub mod curve;
 pub mod demo;
+pub mod images;
 pub mod library;
 pub mod map;
 

@@ -24,6 +24,10 @@ pub const LOOSE_TOLERANCE: f64 = 1e-6;
 /// lens equation finishes the job.
 const ABERTH_STOP: f64 = 1e-9;
 
+/// The previous call's roots seed the next when the sources are closer than this (Einstein
+/// radii); farther, the fresh guesses of [`ImageSolver`] converge faster.
+const WARM_RADIUS: f64 = 0.05;
+
 /// Newton steps on the lens equation per root, at most.
 const MAX_POLISH: usize = 12;
 
@@ -45,6 +49,12 @@ impl FastNorm for Complex64 {
     fn fnorm(self) -> f64 {
         self.norm_sqr().sqrt()
     }
+}
+
+/// a < b, false when either is NaN (a NaN residual never counts as progress).
+#[inline]
+fn lower(a: f64, b: f64) -> bool {
+    a.partial_cmp(&b) == Some(std::cmp::Ordering::Less)
 }
 
 /// a - b as an unevaluated sum of two doubles per component (Knuth's TwoSum), so that shifting
@@ -133,14 +143,13 @@ pub struct ImageSolver {
     order: [usize; MAX_LENSES + 1],
     roots: [Complex64; MAX_DEGREE],
     warm_degree: usize,
+    /// The source of the previous call: its roots seed this call when it is near.
+    last_source: Complex64,
     images: [Image; MAX_DEGREE],
     count: usize,
 }
 
 const ZERO: Complex64 = Complex64::new(0.0, 0.0);
-
-/// Distinct polished roots kept over all frames for the last-resort selection.
-const POOL: usize = MAX_DEGREE * (MAX_LENSES + 1);
 
 /// A polished root: lens-plane position, Jacobian determinant, residual.
 #[derive(Debug, Clone, Copy)]
@@ -199,6 +208,7 @@ impl ImageSolver {
             order,
             roots: [ZERO; MAX_DEGREE],
             warm_degree: 0,
+            last_source: ZERO,
             images: [blank; MAX_DEGREE],
             count: 0,
         })
@@ -240,12 +250,12 @@ impl ImageSolver {
     fn lens_map(&self, pos: &[Complex64; 4], z: Complex64) -> (Complex64, Complex64) {
         let mut defl = ZERO;
         let mut shear = ZERO;
-        for i in 0..self.n {
-            let t = z - pos[i];
+        for (p, &m) in pos[..self.n].iter().zip(&self.mass) {
+            let t = z - p;
             let f = 1.0 / t.norm_sqr();
             // 1/conj(t) = t/|t|^2
             let d = Complex64::new(t.re * f, t.im * f);
-            let md = d * self.mass[i];
+            let md = d * m;
             defl += md;
             shear += md * d;
         }
@@ -290,13 +300,13 @@ impl ImageSolver {
             let mut wn = wn;
             // Damped runs halve a step that does not lower the residual (a few times).
             let mut halvings = 0;
-            while damped && !(res_n < res) && halvings < 20 {
+            while damped && !lower(res_n, res) && halvings < 20 {
                 halvings += 1;
                 wn = w + dw.unscale((1u64 << halvings) as f64);
                 (r_n, k_n) = residual(wn);
                 res_n = r_n.fnorm();
             }
-            if !(res_n < res) {
+            if !lower(res_n, res) {
                 break;
             }
             let step = (wn - w).fnorm();
@@ -322,47 +332,44 @@ impl ImageSolver {
         }
     }
 
-    /// Fresh initial guesses for the roots (in the polynomial frame): one beside each lens (where
-    /// the minor images sit), one at the major image of a point lens at the centre of mass, the
-    /// rest on a circle of radius 1.1 (where the images near the Einstein ring sit).
+    /// Fresh initial guesses for the roots (in the polynomial frame), one per root, from the
+    /// limit of well-separated lenses: the major image of a point lens of the total mass at the
+    /// centre of mass; beside each lens i its minor image z_i + m_i / conj(zeta - z_i); and for
+    /// each ordered pair i != j the false root z_i - m_i / conj(zeta - z_j). That is
+    /// 1 + N + N(N - 1) = N^2 + 1 guesses, and each lies near the root it stands for unless
+    /// the source is near a caustic.
     fn cold_guesses(&mut self, frame: usize, w: Complex64, poly: &Poly) {
         let deg = poly.degree();
         if deg != self.n * self.n + 1 {
             circle_guesses(poly.coeffs(), &mut self.roots[..deg]);
             return;
         }
-        let mut k = 0;
-        for i in 0..self.n {
-            let p = self.frames[frame].positions[i];
-            let d = w - p;
-            let offset = if d.fnorm() > 1e-3 {
-                (d.conj().inv() * self.mass[i]).unscale(1.0)
+        let pos = self.frames[frame].positions;
+        // m / conj(d), bounded to 0.5 in modulus (a source next to a lens).
+        let pull = |m: f64, d: Complex64| {
+            let a = d.fnorm();
+            if a < 2.0 * m {
+                d.unscale(a.max(1e-300)) * 0.5
             } else {
-                Complex64::new(0.0, 1e-3)
-            };
-            let offset = if offset.fnorm() > 0.5 {
-                offset.unscale(2.0 * offset.fnorm())
-            } else {
-                offset
-            };
-            self.roots[k] = p + offset + Complex64::new(1e-9, 1e-9 * (i as f64 + 1.0));
-            k += 1;
-        }
-        // Around the centre of mass, in this frame.
+                d.unscale(a * a) * m
+            }
+        };
         let com = self.origins[0] - self.origins[frame];
         let wc = w - com;
         let u = wc.fnorm();
-        self.roots[k] = if u > 1e-3 {
+        self.roots[0] = if u > 1e-3 {
             com + wc * (0.5 + 0.5 * (1.0 + 4.0 / (u * u)).sqrt())
         } else {
             com + Complex64::new(0.9, 0.7)
         };
-        k += 1;
-        let rest = deg - k;
-        for j in 0..rest {
-            let angle = std::f64::consts::TAU * (j as f64 + 0.25) / rest as f64 + 0.3;
-            self.roots[k] = com + Complex64::from_polar(1.1, angle);
-            k += 1;
+        let mut k = 1;
+        for i in 0..self.n {
+            for j in 0..self.n {
+                let sign = if i == j { 1.0 } else { -1.0 };
+                let tiny = Complex64::new(1e-9 * (k as f64), 1e-9 * (i as f64 + 1.0));
+                self.roots[k] = pos[i] + pull(self.mass[i], w - pos[j]) * sign + tiny;
+                k += 1;
+            }
         }
     }
 
@@ -376,6 +383,7 @@ impl ImageSolver {
         if self.n == 1 {
             return self.solve_single(zeta);
         }
+        let previous = std::mem::replace(&mut self.last_source, zeta);
         let blank = Candidate {
             w: ZERO,
             frame: 0,
@@ -385,8 +393,8 @@ impl ImageSolver {
         };
         let mut cands = [blank; MAX_DEGREE];
         // Everything polished so far, over all frames, for the last-resort selection.
-        let mut pool = [blank; POOL];
-        let mut pooled = 0;
+        // (A Vec: it allocates only when the first frame fails, which is rare.)
+        let mut pool: Vec<Candidate> = Vec::new();
         let order = self.order;
         for (try_no, &frame) in order[..=self.n].iter().enumerate() {
             let src = two_diff(zeta, self.origins[frame]);
@@ -403,7 +411,9 @@ impl ImageSolver {
             let deg = poly.degree();
             // The primary frame tries a warm start first, when there is one; every frame then
             // tries fresh initial guesses.
-            let warm = try_no == 0 && self.warm_degree == deg;
+            let warm = try_no == 0
+                && self.warm_degree == deg
+                && (zeta - previous).norm_sqr() <= WARM_RADIUS * WARM_RADIUS;
             for attempt in 0..(1 + warm as usize) {
                 if attempt > 0 || !warm {
                     self.cold_guesses(frame, w, &poly);
@@ -431,18 +441,17 @@ impl ImageSolver {
                     return Ok(());
                 }
                 for c in &cands[..deg] {
-                    let dup = pool[..pooled]
+                    let dup = pool
                         .iter()
                         .any(|o| (o.z - c.z).fnorm() <= DUPLICATE * (1.0 + c.z.fnorm()));
-                    if !dup && pooled < POOL && c.residual.is_finite() {
-                        pool[pooled] = *c;
-                        pooled += 1;
+                    if !dup && c.residual.is_finite() {
+                        pool.push(*c);
                     }
                 }
             }
         }
         self.warm_degree = 0;
-        let pool = &mut pool[..pooled];
+        let pool = &mut pool[..];
         let count = self
             .select(zeta, pool, RESIDUAL_TOLERANCE)
             .or_else(|| self.select_loose(zeta, pool));
@@ -458,6 +467,7 @@ impl ImageSolver {
     }
 
     /// Polishes every root, each within a third of its distance to the nearest other root.
+    #[allow(clippy::needless_range_loop)]
     fn polish_all(
         &self,
         frame: usize,
@@ -520,7 +530,7 @@ impl ImageSolver {
     fn valid_set(&self, cands: &[Candidate]) -> bool {
         let k = cands.len();
         let n = self.n;
-        if k < n + 1 || k > 5 * (n - 1) || (k - (n + 1)) % 2 != 0 {
+        if k < n + 1 || k > 5 * (n - 1) || !(k - (n + 1)).is_multiple_of(2) {
             return false;
         }
         let parity: i64 = cands

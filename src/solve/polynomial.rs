@@ -134,6 +134,7 @@ pub struct LensPolynomials {
 
 impl LensPolynomials {
     /// Builds Q and P for at most four lenses given in the shifted frame.
+    #[allow(clippy::needless_range_loop)]
     pub fn new(positions: &[Complex64], masses: &[f64]) -> Self {
         let n = positions.len();
         assert!((1..=4).contains(&n) && masses.len() == n);
@@ -235,6 +236,7 @@ impl LensPolynomials {
 /// B(z) - exp(i phi) A(z) = 0 with A = prod_i (z - z_i)^2 (degree 2N) and
 /// B = sum_i m_i prod_{k != i} (z - z_k)^2 (degree 2N - 2). Positions in the caller's frame;
 /// at most 8 lenses.
+#[allow(clippy::needless_range_loop)]
 pub fn critical_parts(positions: &[Complex64], masses: &[f64]) -> (Poly, Poly) {
     let n = positions.len();
     assert!((1..=8).contains(&n) && masses.len() == n);

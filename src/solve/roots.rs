@@ -73,7 +73,6 @@ pub fn aberth_to(c: &[Complex64], roots: &mut [Complex64], rel: f64) -> Option<u
     }
     let abs = &abs[..=n];
     let eps = f64::EPSILON;
-    let one = Complex64::new(1.0, 0.0);
     for iter in 1..=MAX_ITERATIONS {
         let mut all_done = true;
         for i in 0..n {
@@ -94,8 +93,8 @@ pub fn aberth_to(c: &[Complex64], roots: &mut [Complex64], rel: f64) -> Option<u
                     s += inv(z - r);
                 }
             }
-            let ratio = p * inv(dp);
-            let mut w = ratio * inv(one - ratio * s);
+            // Newton's ratio p/p' damped by the others: (p/p') / (1 - (p/p') s) = p / (p' - p s).
+            let mut w = p * inv(dp - p * s);
             if !(w.re.is_finite() && w.im.is_finite()) {
                 // A zero derivative, or a guess on top of another: nudge it.
                 w = Complex64::new(1e-3 * (1.0 + z.norm()), 1e-3 * (i as f64 + 1.0));
