@@ -216,7 +216,8 @@ pub fn run(args: CurveArgs) -> Result<()> {
     for w in &curve.warnings {
         eprintln!("{w}");
     }
-    let csv = format_csv(&args, &path, &curve.samples)?;
+    let flux = args.fs.map(|fs| (fs, args.fb, args.zero_point));
+    let csv = format_csv(path.times.as_deref(), &curve.samples, flux)?;
     if let Some(png) = &args.png {
         let abscissa = path
             .times
@@ -290,19 +291,19 @@ fn needed_map(
     Ok(Some(map))
 }
 
-/// The output table.
-fn format_csv(
-    args: &CurveArgs,
-    path: &SourcePath,
+/// The output table: `t` when there are times, the samples, and with `flux = (fs, fb, zero
+/// point)` the flux and magnitude columns.
+pub fn format_csv(
+    times: Option<&[f64]>,
     samples: &[crate::curve::Sample],
+    flux: Option<(f64, f64, f64)>,
 ) -> Result<String> {
     let mut out = String::new();
-    let times = path.times.as_deref();
     if times.is_some() {
         out.push_str("t,");
     }
     out.push_str("x,y,magnification,method");
-    if args.fs.is_some() {
+    if flux.is_some() {
         out.push_str(",flux,magnitude");
     }
     out.push('\n');
@@ -318,52 +319,18 @@ fn format_csv(
             fmt_f64(s.magnification),
             s.method.name()
         );
-        if let Some(fs) = args.fs {
-            let flux = fs * s.magnification + args.fb;
+        if let Some((fs, fb, zero_point)) = flux {
+            let flux = fs * s.magnification + fb;
             if flux <= 0.0 {
                 return Err(Error::input(format!(
                     "--fs/--fb: flux {flux} at point {} is not positive (no magnitude)",
                     k + 1
                 )));
             }
-            let mag = args.zero_point - 2.5 * flux.log10();
+            let mag = zero_point - 2.5 * flux.log10();
             let _ = write!(out, ",{},{}", fmt_f64(flux), fmt_f64(mag));
         }
         out.push('\n');
     }
     Ok(out)
-}
-
-/// The demo's light curve: a limb-darkened source (rho = 0.003, u = 0.5) crossing the
-/// planetary caustic of the demo map at 60 degrees (t0 = 0, u0 = -0.388, tE = 30 days), eight
-/// days around the crossing; writes `demo-curve.csv` and `demo-curve.png` into `out`.
-pub fn demo_curve(map: &MagnificationMap, out: &std::path::Path) -> Result<()> {
-    let line = StraightLine::new(0.0, -0.388, 30.0, 60f64.to_radians())?;
-    let times = time_range(2.72, 10.72, 801)?;
-    let path = line.path(&times);
-    let profile = SourceProfile::new(0.003, LimbDarkening::Linear { u: 0.5 })?;
-    let lens = map.provenance.lens.clone();
-    let curve = Sampler::new(profile)
-        .map(map)
-        .lens(&lens)
-        .sample(&path.points)?;
-    let mut csv = String::from("t,x,y,magnification,method\n");
-    for (t, s) in times.iter().zip(&curve.samples) {
-        let _ = writeln!(
-            csv,
-            "{},{},{},{},{}",
-            fmt_f64(*t),
-            fmt_f64(s.x),
-            fmt_f64(s.y),
-            fmt_f64(s.magnification),
-            s.method.name()
-        );
-    }
-    let file = out.join("demo-curve.csv");
-    crate::fsutil::write_atomic(&file, csv.as_bytes())?;
-    eprintln!("wrote {}", file.display());
-    let png = out.join("demo-curve.png");
-    plot_png(&curve.samples, &times, "t (days)", &png)?;
-    eprintln!("wrote {}", png.display());
-    Ok(())
 }

@@ -199,20 +199,3 @@ pub fn write_outputs(map: &MagnificationMap, out: &Path, png: Option<&Path>) -> 
     }
     Ok(())
 }
-
-/// The built-in demo: an invented planetary system (a giant planet, q = 2e-3, just outside the
-/// Einstein ring at s = 1.25); a map spanning the central and the planetary caustic.
-pub fn demo(out: &Path, pixels: usize) -> Result<()> {
-    std::fs::create_dir_all(out).map_err(|e| Error::io(out, e))?;
-    let lens = LensSystem::binary(1.25, 2e-3)?;
-    let window = Window::new((0.23, 0.0), 0.64, pixels)?;
-    eprintln!("demo: binary s = 1.25, q = 2e-3; window 0.64 wide centred on (0.23, 0)");
-    let engine = engine::RayShooting::try_new(200.0)?;
-    let map = build_reported(&engine, &lens, &window, default_memory_limit())?;
-    write_outputs(
-        &map,
-        &out.join("demo-map.fits"),
-        Some(&out.join("demo-map.png")),
-    )?;
-    super::curve::demo_curve(&map, out)
-}
