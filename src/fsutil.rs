@@ -34,6 +34,21 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
     Ok(())
 }
 
+/// Encodes an RGB picture as PNG and writes it atomically (see [`write_atomic`]).
+pub fn write_png(path: &Path, image: &image::RgbImage) -> Result<()> {
+    use image::ImageEncoder;
+    let mut png = Vec::new();
+    image::codecs::png::PngEncoder::new(&mut png)
+        .write_image(
+            image.as_raw(),
+            image.width(),
+            image.height(),
+            image::ExtendedColorType::Rgb8,
+        )
+        .map_err(|e| Error::Numerical(format!("{}: PNG encoding: {e}", path.display())))?;
+    write_atomic(path, &png)
+}
+
 /// A fresh name `.<file name>.<pid>.<counter>.tmp` beside `path`.
 fn temp_path(path: &Path) -> Result<PathBuf> {
     static COUNTER: AtomicU64 = AtomicU64::new(0);

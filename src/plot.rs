@@ -12,9 +12,9 @@
 //! ```
 
 use crate::error::{Error, Result};
-use crate::fsutil::write_atomic;
+use crate::fsutil::write_png;
 use font8x8::UnicodeFonts;
-use image::{ImageEncoder, Rgb, RgbImage};
+use image::{Rgb, RgbImage};
 use std::path::Path;
 
 /// Picture size.
@@ -312,19 +312,7 @@ impl Chart {
 
     /// Draws the chart into a PNG file, atomically.
     pub fn write_png(&self, path: &Path) -> Result<()> {
-        let img = self.render()?;
-        let mut bytes = Vec::new();
-        image::codecs::png::PngEncoder::new(&mut bytes)
-            .write_image(
-                img.as_raw(),
-                img.width(),
-                img.height(),
-                image::ExtendedColorType::Rgb8,
-            )
-            .map_err(|e| {
-                Error::Numerical(format!("{}: PNG encoding failed: {e}", path.display()))
-            })?;
-        write_atomic(path, &bytes)
+        write_png(path, &self.render()?)
     }
 }
 

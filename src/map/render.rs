@@ -8,10 +8,10 @@
 //! with the magnifications at its ends and ticked at powers of ten.
 
 use super::{MagnificationMap, Window};
-use crate::error::{Error, Result};
-use crate::fsutil::write_atomic;
+use crate::error::Result;
+use crate::fsutil::write_png;
 use crate::lens::LensSystem;
-use image::{ImageEncoder, Rgb, RgbImage};
+use image::{Rgb, RgbImage};
 use std::path::Path;
 
 /// Colour of caustic lines: cyan, far from every colour of the gradient.
@@ -81,17 +81,7 @@ impl Overlay {
 /// std::fs::remove_file(&path).unwrap();
 /// ```
 pub fn render_png(map: &MagnificationMap, overlay: &Overlay, path: &Path) -> Result<()> {
-    let image = render(map, overlay);
-    let mut png = Vec::new();
-    image::codecs::png::PngEncoder::new(&mut png)
-        .write_image(
-            image.as_raw(),
-            image.width(),
-            image.height(),
-            image::ExtendedColorType::Rgb8,
-        )
-        .map_err(|e| Error::Numerical(format!("{}: PNG encoding: {e}", path.display())))?;
-    write_atomic(path, &png)
+    write_png(path, &render(map, overlay))
 }
 
 /// The picture: the map's pixels, then the overlay, then the colour bar to the right.
