@@ -22,6 +22,7 @@ pub mod error;
 pub mod fsutil;
 pub mod lens;
 pub mod map;
+pub mod solve;
 pub mod store;
 pub mod table;
 
