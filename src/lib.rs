@@ -17,12 +17,14 @@
 //! ```
 
 pub mod cli;
+pub mod curve;
 pub mod engine;
 pub mod error;
 pub mod fsutil;
 pub mod lens;
 pub mod map;
 pub mod solve;
+pub mod source;
 pub mod store;
 pub mod table;
 

@@ -1,0 +1,353 @@
+//! Light curves: trajectories, and the sampler that reads a map under a finite source.
+//!
+//! A [`Sampler`] turns source positions into magnifications. Each point is served by the first
+//! of these that applies, and says which one did ([`Method`]):
+//!
+//! 1. the map, when the whole source lies on it: [`DirectReader`] (exact disk/pixel overlap
+//!    weights) or [`Preconvolved`] (the map convolved once with the profile by FFT, read
+//!    bilinearly), chosen by the number of points ([`Evaluation::Auto`]); a point source
+//!    (`rho = 0`) is read by bilinear interpolation ([`point_read`]);
+//! 2. off the map, the exact point-source magnification with the small-source correction
+//!    ([`small_source`]), where that correction is accurate to the tolerance; elsewhere the
+//!    sampler fails, naming the first such point.
+//!
+//! ```
+//! use causeway::curve::{Method, Sampler, StraightLine};
+//! use causeway::{engine::{Engine, RayShooting}, lens::LensSystem, map::Window};
+//! use causeway::source::SourceProfile;
+//! let lens = LensSystem::single();
+//! let map = RayShooting::new(100.0)
+//!     .build(&lens, &Window::new((0.0, 0.1), 0.5, 50).unwrap()).unwrap();
+//! let line = StraightLine::new(0.0, 0.1, 10.0, 0.0).unwrap();
+//! let times: Vec<f64> = (-20..=20).map(|k| k as f64).collect();
+//! let path = line.path(&times);
+//! let curve = Sampler::new(SourceProfile::uniform(0.03).unwrap())
+//!     .map(&map)
+//!     .lens(&lens)
+//!     .sample(&path.points)
+//!     .unwrap();
+//! assert_eq!(curve.samples[20].method, Method::Direct);
+//! assert_eq!(curve.samples[0].method, Method::Expansion); // (-2, 0.1): off the map
+//! ```
+
+mod continuation;
+mod convolve;
+mod sample;
+mod trajectory;
+
+pub use continuation::{small_source, Expansion, PointMagnification};
+pub use convolve::Preconvolved;
+pub use sample::{ld_nodes, point_read, DirectReader};
+pub use trajectory::{parse_times, read_times, time_range, SourcePath, StraightLine};
+
+use crate::error::{Error, Result};
+use crate::map::MagnificationMap;
+use crate::source::SourceProfile;
+use rayon::prelude::*;
+
+/// Least source radius, in pixels, that a map resolves honestly.
+pub const MIN_RHO_PIXELS: f64 = 3.0;
+
+/// How finite-source reads of the map are made.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Evaluation {
+    /// Chosen by the number of points (see [`choose_evaluation`]).
+    Auto,
+    /// Exact overlap weights at every point.
+    Direct,
+    /// The map convolved once with the profile, then read bilinearly.
+    Convolved,
+}
+
+/// Which method made a light-curve point (the `method` column).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Method {
+    /// Map read with exact overlap weights.
+    Direct,
+    /// Pre-convolved map, bilinear read.
+    Convolved,
+    /// Point source, bilinear read of the map.
+    Bilinear,
+    /// Off the map: point-source magnification with the small-source correction.
+    Expansion,
+    /// Off the map: exact point-source magnification (`rho = 0`).
+    Point,
+}
+
+impl Method {
+    /// The name printed in the `method` column.
+    ///
+    /// ```
+    /// assert_eq!(causeway::curve::Method::Convolved.name(), "convolved");
+    /// ```
+    pub fn name(&self) -> &'static str {
+        match self {
+            Method::Direct => "direct",
+            Method::Convolved => "convolved",
+            Method::Bilinear => "bilinear",
+            Method::Expansion => "expansion",
+            Method::Point => "point",
+        }
+    }
+}
+
+/// One light-curve point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sample {
+    /// Source position x.
+    pub x: f64,
+    /// Source position y.
+    pub y: f64,
+    /// Magnification.
+    pub magnification: f64,
+    /// What computed it.
+    pub method: Method,
+}
+
+/// A sampled light curve, with the warnings that go with it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Curve {
+    /// One sample per input point, in order.
+    pub samples: Vec<Sample>,
+    /// The evaluation used for finite-source map reads (never `Auto`).
+    pub evaluation: Evaluation,
+    /// Warnings for the user (for example a source too small for the map).
+    pub warnings: Vec<String>,
+}
+
+/// Estimated cost, in nanoseconds, of one direct read of a profile (uniform disks of the given
+/// radii in pixels): interior pixels are summed (about 1 ns each), rim pixels get a closed-form
+/// overlap (about 30 ns each, some 8 r of them per disk). Measured by benches/curve.rs.
+fn direct_cost(disks: &[(f64, f64)]) -> f64 {
+    disks
+        .iter()
+        .map(|&(r, _)| std::f64::consts::PI * r * r + 30.0 * 8.0 * (r + 1.0))
+        .sum()
+}
+
+/// Estimated cost, in nanoseconds, of pre-convolving a map of `pixels` per side: three 2-D FFTs
+/// and two transposes of size `L^2` (benches/curve.rs).
+fn convolve_cost(pixels: usize) -> f64 {
+    let l = pixels as f64;
+    3.0 * 5.0 * l * l * l.log2().max(1.0)
+}
+
+/// The evaluation [`Evaluation::Auto`] picks for `points` reads of `map` with `profile`:
+/// pre-convolved when the FFT costs less than the direct reads it replaces.
+///
+/// ```
+/// use causeway::curve::{choose_evaluation, Evaluation};
+/// use causeway::{engine::{Engine, RayShooting}, lens::LensSystem, map::Window};
+/// use causeway::source::SourceProfile;
+/// let map = RayShooting::new(1.0)
+///     .build(&LensSystem::single(), &Window::new((0.0, 0.0), 1.0, 100).unwrap()).unwrap();
+/// let src = SourceProfile::uniform(0.1).unwrap();
+/// assert_eq!(choose_evaluation(&map, &src, 10), Evaluation::Direct);
+/// assert_eq!(choose_evaluation(&map, &src, 1_000_000), Evaluation::Convolved);
+/// ```
+pub fn choose_evaluation(
+    map: &MagnificationMap,
+    profile: &SourceProfile,
+    points: usize,
+) -> Evaluation {
+    let disks = sample::disks_in_pixels(profile, map.window.pixel_size());
+    if points as f64 * direct_cost(&disks) > convolve_cost(map.window.pixels) {
+        Evaluation::Convolved
+    } else {
+        Evaluation::Direct
+    }
+}
+
+/// The rho-too-small warning, if `profile` covers fewer than [`MIN_RHO_PIXELS`] pixels of
+/// radius on `map`; it names the resolution that would.
+pub fn resolution_warning(map: &MagnificationMap, profile: &SourceProfile) -> Option<String> {
+    let w = &map.window;
+    let rho_px = profile.rho / w.pixel_size();
+    (profile.rho > 0.0 && rho_px < MIN_RHO_PIXELS).then(|| {
+        let needed = (MIN_RHO_PIXELS * w.width / profile.rho).ceil() as usize;
+        format!(
+            "warning: --rho {} covers only {:.2} pixels of radius on this map (pixel {:e}); \
+             below {MIN_RHO_PIXELS} pixels the pixel structure dominates: a map of at least \
+             {needed} pixels across its width {} (pixel <= rho/{MIN_RHO_PIXELS}) would resolve it",
+            profile.rho,
+            rho_px,
+            w.pixel_size(),
+            w.width
+        )
+    })
+}
+
+/// Computes light curves: a map (optional), a lens for the off-map continuation (optional),
+/// a source profile and a tolerance for the continuation.
+#[derive(Clone, Copy)]
+pub struct Sampler<'a> {
+    profile: SourceProfile,
+    map: Option<&'a MagnificationMap>,
+    lens: Option<&'a dyn PointMagnification>,
+    tol: f64,
+    evaluation: Evaluation,
+    memory_limit: u64,
+}
+
+impl<'a> Sampler<'a> {
+    /// Default relative tolerance of the off-map continuation.
+    pub const DEFAULT_TOL: f64 = 1e-4;
+
+    /// A sampler for the source `profile`, with no map and no lens yet.
+    pub fn new(profile: SourceProfile) -> Self {
+        Sampler {
+            profile,
+            map: None,
+            lens: None,
+            tol: Self::DEFAULT_TOL,
+            evaluation: Evaluation::Auto,
+            memory_limit: u64::MAX,
+        }
+    }
+
+    /// Reads this map where the source lies on it.
+    pub fn map(mut self, map: &'a MagnificationMap) -> Self {
+        self.map = Some(map);
+        self
+    }
+
+    /// Continues off the map with this lens's point-source magnification.
+    pub fn lens(mut self, lens: &'a dyn PointMagnification) -> Self {
+        self.lens = Some(lens);
+        self
+    }
+
+    /// Relative tolerance the off-map continuation must meet.
+    pub fn tol(mut self, tol: f64) -> Self {
+        self.tol = tol;
+        self
+    }
+
+    /// How map reads are made.
+    pub fn evaluation(mut self, evaluation: Evaluation) -> Self {
+        self.evaluation = evaluation;
+        self
+    }
+
+    /// Largest working memory (bytes) the pre-convolution may take; beyond it reads are direct.
+    pub fn memory_limit(mut self, bytes: u64) -> Self {
+        self.memory_limit = bytes;
+        self
+    }
+
+    /// Samples the curve at `points` (in parallel; the result does not depend on the thread
+    /// count). Fails on the first point (in order) that neither the map nor the continuation
+    /// can serve to the tolerance.
+    pub fn sample(&self, points: &[(f64, f64)]) -> Result<Curve> {
+        if !(self.tol.is_finite() && self.tol > 0.0) {
+            return Err(Error::input(format!(
+                "--tol: must be finite and > 0, got {}",
+                self.tol
+            )));
+        }
+        let rho = self.profile.rho;
+        let mut warnings = Vec::new();
+        let mut evaluation = Evaluation::Direct;
+        let mut conv = None;
+        if let Some(map) = self.map {
+            warnings.extend(resolution_warning(map, &self.profile));
+            evaluation = match self.evaluation {
+                Evaluation::Auto => choose_evaluation(map, &self.profile, points.len()),
+                e => e,
+            };
+            if rho > 0.0
+                && evaluation == Evaluation::Convolved
+                && Preconvolved::memory_bytes(map.window.pixels) > self.memory_limit
+            {
+                warnings.push(format!(
+                    "warning: pre-convolving the {0}x{0} map needs more memory than allowed; \
+                     reading it directly",
+                    map.window.pixels
+                ));
+                evaluation = Evaluation::Direct;
+            }
+            if rho > 0.0 && evaluation == Evaluation::Convolved {
+                conv = Some(Preconvolved::new(map, &self.profile)?);
+            }
+        }
+        let direct = self.map.map(|m| DirectReader::new(m, &self.profile));
+        let results: Vec<Result<Sample>> = points
+            .par_iter()
+            .enumerate()
+            .map(|(k, &(x, y))| self.sample_one(k, x, y, direct.as_ref(), conv.as_ref()))
+            .collect();
+        let samples = results.into_iter().collect::<Result<Vec<_>>>()?;
+        Ok(Curve {
+            samples,
+            evaluation,
+            warnings,
+        })
+    }
+
+    fn sample_one(
+        &self,
+        k: usize,
+        x: f64,
+        y: f64,
+        direct: Option<&DirectReader>,
+        conv: Option<&Preconvolved>,
+    ) -> Result<Sample> {
+        let done = |magnification, method| {
+            Ok(Sample {
+                x,
+                y,
+                magnification,
+                method,
+            })
+        };
+        if !(x.is_finite() && y.is_finite()) {
+            return Err(Error::input(format!(
+                "point {}: position ({x}, {y}) is not finite",
+                k + 1
+            )));
+        }
+        if let (Some(map), true) = (self.map, self.profile.rho == 0.0) {
+            if let Some(a) = point_read(map, x, y) {
+                return done(a, Method::Bilinear);
+            }
+        }
+        if let Some(a) = conv.and_then(|c| c.read(x, y)) {
+            return done(a, Method::Convolved);
+        }
+        if self.profile.rho > 0.0 {
+            if let Some(a) = direct.and_then(|d| d.read(x, y)) {
+                return done(a, Method::Direct);
+            }
+        }
+        let lens = self.lens.ok_or_else(|| {
+            Error::input(format!(
+                "point {} at ({x}, {y}): the source is not on the map and no lens was given to \
+                 continue the curve",
+                k + 1
+            ))
+        })?;
+        let e = small_source(lens, &self.profile, x, y)?;
+        if !e.accurate(self.tol) {
+            let why = if e.images_agree {
+                format!(
+                    "the small-source correction's error estimate {:.2e} exceeds --tol {:e}",
+                    e.error / e.magnification,
+                    self.tol
+                )
+            } else {
+                "the number of images changes across the source".to_string()
+            };
+            return Err(Error::input(format!(
+                "point {} at ({x}, {y}): off the map near a caustic ({why}); use a map that \
+                 covers it",
+                k + 1
+            )));
+        }
+        let method = if self.profile.rho == 0.0 {
+            Method::Point
+        } else {
+            Method::Expansion
+        };
+        done(e.magnification, method)
+    }
+}
