@@ -1,7 +1,7 @@
 //! The image solver: polynomial roots, polished and checked on the lens equation.
 
 use super::polynomial::{LensPolynomials, Poly, MAX_DEGREE};
-use super::roots::{aberth, circle_guesses};
+use super::roots::{aberth_to, circle_guesses};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
 use num_complex::Complex64;
@@ -20,6 +20,10 @@ pub const RESIDUAL_TOLERANCE: f64 = 1e-10;
 /// parity rules: the set is then chosen among the roots below this bound (see [`ImageSolver`]).
 pub const LOOSE_TOLERANCE: f64 = 1e-6;
 
+/// Aberth-Ehrlich stops a root once its correction is below this, relative; Newton on the
+/// lens equation finishes the job.
+const ABERTH_STOP: f64 = 1e-9;
+
 /// Newton steps on the lens equation per root, at most.
 const MAX_POLISH: usize = 12;
 
@@ -29,6 +33,19 @@ const SECOND_CHANCE: f64 = 1e-3;
 
 /// Two polished roots closer than this (relative to 1 + |z|) are one image.
 const DUPLICATE: f64 = 1e-12;
+
+/// |z| by a square root (faster than the overflow-safe `hypot` of `Complex::norm`; the values
+/// met here are far from overflow).
+trait FastNorm {
+    fn fnorm(self) -> f64;
+}
+
+impl FastNorm for Complex64 {
+    #[inline]
+    fn fnorm(self) -> f64 {
+        self.norm_sqr().sqrt()
+    }
+}
 
 /// a - b as an unevaluated sum of two doubles per component (Knuth's TwoSum), so that shifting
 /// the source into a frame loses nothing.
@@ -222,7 +239,10 @@ impl ImageSolver {
         let mut defl = ZERO;
         let mut shear = ZERO;
         for i in 0..self.n {
-            let d = (z - pos[i]).conj().inv();
+            let t = z - pos[i];
+            let f = 1.0 / t.norm_sqr();
+            // 1/conj(t) = t/|t|^2
+            let d = Complex64::new(t.re * f, t.im * f);
             let md = d * self.mass[i];
             defl += md;
             shear += md * d;
@@ -251,7 +271,7 @@ impl ImageSolver {
         };
         let mut w = w0;
         let (mut r, mut k) = residual(w);
-        let mut res = r.norm();
+        let mut res = r.fnorm();
         for _ in 0..max_iter {
             let det = 1.0 - k.norm_sqr();
             if det == 0.0 || res == 0.0 {
@@ -260,11 +280,11 @@ impl ImageSolver {
             // Solve dw + k conj(dw) = r for dw.
             let dw = (r - k * r.conj()) / det;
             let wn = w + dw;
-            if !wn.is_finite() || (wn - w0).norm() > cap {
+            if !wn.is_finite() || (wn - w0).fnorm() > cap {
                 break;
             }
             let (mut r_n, mut k_n) = residual(wn);
-            let mut res_n = r_n.norm();
+            let mut res_n = r_n.fnorm();
             let mut wn = wn;
             // Damped runs halve a step that does not lower the residual (a few times).
             let mut halvings = 0;
@@ -272,17 +292,17 @@ impl ImageSolver {
                 halvings += 1;
                 wn = w + dw.unscale((1u64 << halvings) as f64);
                 (r_n, k_n) = residual(wn);
-                res_n = r_n.norm();
+                res_n = r_n.fnorm();
             }
             if !(res_n < res) {
                 break;
             }
-            let step = (wn - w).norm();
+            let step = (wn - w).fnorm();
             w = wn;
             k = k_n;
             r = r_n;
             res = res_n;
-            if step <= 4.0 * f64::EPSILON * w.norm() {
+            if step <= 4.0 * f64::EPSILON * w.fnorm() {
                 break;
             }
         }
@@ -313,13 +333,13 @@ impl ImageSolver {
         for i in 0..self.n {
             let p = self.frames[frame].positions[i];
             let d = w - p;
-            let offset = if d.norm() > 1e-3 {
+            let offset = if d.fnorm() > 1e-3 {
                 (d.conj().inv() * self.mass[i]).unscale(1.0)
             } else {
                 Complex64::new(0.0, 1e-3)
             };
-            let offset = if offset.norm() > 0.5 {
-                offset.unscale(2.0 * offset.norm())
+            let offset = if offset.fnorm() > 0.5 {
+                offset.unscale(2.0 * offset.fnorm())
             } else {
                 offset
             };
@@ -329,7 +349,7 @@ impl ImageSolver {
         // Around the centre of mass, in this frame.
         let com = self.origins[0] - self.origins[frame];
         let wc = w - com;
-        let u = wc.norm();
+        let u = wc.fnorm();
         self.roots[k] = if u > 1e-3 {
             com + wc * (0.5 + 0.5 * (1.0 + 4.0 / (u * u)).sqrt())
         } else {
@@ -386,14 +406,15 @@ impl ImageSolver {
                 if attempt > 0 || !warm {
                     self.cold_guesses(frame, w, &poly);
                 }
-                if aberth(poly.coeffs(), &mut self.roots[..deg]).is_none() {
+                let it = aberth_to(poly.coeffs(), &mut self.roots[..deg], ABERTH_STOP);
+                if it.is_none() {
                     continue;
                 }
                 self.polish_all(frame, src, deg, &mut cands);
                 let mut found = self.select(zeta, &mut cands[..deg], RESIDUAL_TOLERANCE);
                 // Roots that came close to the lens equation without reaching it may be a
                 // pair of images the capped polish could not finish: look again.
-                let near = SECOND_CHANCE * (1.0 + zeta.norm());
+                let near = SECOND_CHANCE * (1.0 + zeta.fnorm());
                 let from = found.unwrap_or(0);
                 if cands[from..deg].iter().any(|c| c.residual <= near) {
                     let saved = cands;
@@ -410,7 +431,7 @@ impl ImageSolver {
                 for c in &cands[..deg] {
                     let dup = pool[..pooled]
                         .iter()
-                        .any(|o| (o.z - c.z).norm() <= DUPLICATE * (1.0 + c.z.norm()));
+                        .any(|o| (o.z - c.z).fnorm() <= DUPLICATE * (1.0 + c.z.fnorm()));
                     if !dup && pooled < POOL && c.residual.is_finite() {
                         pool[pooled] = *c;
                         pooled += 1;
@@ -447,7 +468,7 @@ impl ImageSolver {
             let mut nearest = f64::INFINITY;
             for (j, &o) in self.roots[..deg].iter().enumerate() {
                 if j != i {
-                    nearest = nearest.min((r - o).norm());
+                    nearest = nearest.min((r - o).fnorm());
                 }
             }
             let cap = if nearest.is_finite() {
@@ -469,8 +490,8 @@ impl ImageSolver {
         src: (Complex64, Complex64),
         cands: &mut [Candidate],
     ) -> Option<usize> {
-        let tol = RESIDUAL_TOLERANCE * (1.0 + zeta.norm());
-        let near = SECOND_CHANCE * (1.0 + zeta.norm());
+        let tol = RESIDUAL_TOLERANCE * (1.0 + zeta.fnorm());
+        let near = SECOND_CHANCE * (1.0 + zeta.fnorm());
         let mut changed = false;
         for c in cands.iter_mut() {
             if c.residual > tol && c.residual <= near {
@@ -485,7 +506,7 @@ impl ImageSolver {
         for i in 0..cands.len() {
             for j in 0..i {
                 if cands[j].residual.is_finite()
-                    && (cands[i].w - cands[j].w).norm() <= DUPLICATE * (1.0 + cands[i].w.norm())
+                    && (cands[i].w - cands[j].w).fnorm() <= DUPLICATE * (1.0 + cands[i].w.fnorm())
                 {
                     cands[i].residual = f64::INFINITY;
                 }
@@ -510,7 +531,7 @@ impl ImageSolver {
     /// Sorts by residual; the roots below the tolerance, if they form a valid set.
     fn select(&self, zeta: Complex64, cands: &mut [Candidate], tol: f64) -> Option<usize> {
         cands.sort_unstable_by(|a, b| a.residual.total_cmp(&b.residual));
-        let tol = tol * (1.0 + zeta.norm());
+        let tol = tol * (1.0 + zeta.fnorm());
         let k = cands.iter().take_while(|c| c.residual <= tol).count();
         self.valid_set(&cands[..k]).then_some(k)
     }
@@ -519,7 +540,7 @@ impl ImageSolver {
     /// the one followed by the widest gap in log residual.
     fn select_loose(&self, zeta: Complex64, cands: &mut [Candidate]) -> Option<usize> {
         cands.sort_unstable_by(|a, b| a.residual.total_cmp(&b.residual));
-        let tol = LOOSE_TOLERANCE * (1.0 + zeta.norm());
+        let tol = LOOSE_TOLERANCE * (1.0 + zeta.fnorm());
         let floor = 1e-300;
         let mut best: Option<(f64, usize)> = None;
         for k in 1..=cands.len() {
@@ -551,7 +572,7 @@ impl ImageSolver {
     /// N = 1: the two images on the line through lens and source (Paczynski 1986).
     fn solve_single(&mut self, zeta: Complex64) -> Result<()> {
         let d = zeta - self.pos[0];
-        let u = d.norm();
+        let u = d.fnorm();
         if u == 0.0 {
             return Err(Error::Numerical(
                 "the source is exactly behind the lens: its image is the Einstein ring and the \
@@ -583,7 +604,7 @@ impl ImageSolver {
                 jacobian: sign / a,
                 magnification: a,
                 parity: sign as i8,
-                residual: (src - zeta).norm(),
+                residual: (src - zeta).fnorm(),
             };
         }
         self.count = 2;
