@@ -17,6 +17,7 @@
 //! ```
 
 pub mod cli;
+pub mod contour;
 pub mod curve;
 pub mod engine;
 pub mod error;
