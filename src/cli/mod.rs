@@ -35,6 +35,8 @@ pub enum Command {
     Demo(demo::DemoArgs),
     /// Grid builds of maps over (s, q) into the store, and store upkeep.
     Library(library::LibraryArgs),
+    /// Finite-source magnifications at listed points by contour integration.
+    Contour(contour::ContourArgs),
 }
 
 /// Runs a parsed command line.
@@ -43,9 +45,11 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Map(args) => map::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Library(args) => library::run(args),
+        Command::Contour(args) => contour::run(args),
     }
 }
 
+pub mod contour;
 pub mod demo;
 pub mod library;
 pub mod map;

@@ -87,7 +87,13 @@ struct Matching {
 
 /// Greedy pairing by predicted-midpoint disagreement, same parity only. `skip_a`/`skip_b` are
 /// images (a pair) left out. None when the parities do not balance.
-fn pair_up(a: &Node, b: &Node, h: f64, skip_a: Option<(usize, usize)>, skip_b: Option<(usize, usize)>) -> Option<Matching> {
+fn pair_up(
+    a: &Node,
+    b: &Node,
+    h: f64,
+    skip_a: Option<(usize, usize)>,
+    skip_b: Option<(usize, usize)>,
+) -> Option<Matching> {
     let skipped = |s: Option<(usize, usize)>, i: usize| s.is_some_and(|(p, q)| i == p || i == q);
     let mut used_b = [false; MAX_IMAGES];
     let mut to = [usize::MAX; MAX_IMAGES];

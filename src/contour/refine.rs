@@ -83,11 +83,7 @@ impl Boundary<'_> {
                 return Err(Error::Numerical(format!(
                     "contour: cannot link the images of the boundary of the source at ({}, {}) \
                      with rho {} near angle {ta} (images {} and {})",
-                    self.center.re,
-                    self.center.im,
-                    self.rho,
-                    self.nodes[a].len,
-                    self.nodes[b].len
+                    self.center.re, self.center.im, self.rho, self.nodes[a].len, self.nodes[b].len
                 )));
             }
             let m = self.add(0.5 * (ta + tb))?;

@@ -47,12 +47,21 @@ fn hermite(o: Complex64, p0: Complex64, m0: Complex64, p1: Complex64, m1: Comple
 /// tangent directions alone, `|d|^2 sin(turn)/12` (the two agree for a parabola with uniform
 /// parameter speed), and the correction times the mismatch between chord length and tangent
 /// lengths, `| |d|^2 / (|m0| |m1|) - 1 |` (zero when the image moves at a steady speed).
-pub(crate) fn track(o: Complex64, p0: Complex64, m0: Complex64, p1: Complex64, m1: Complex64) -> Piece {
+pub(crate) fn track(
+    o: Complex64,
+    p0: Complex64,
+    m0: Complex64,
+    p1: Complex64,
+    m1: Complex64,
+) -> Piece {
     let (chord, corr) = hermite(o, p0, m0, p1, m1);
     let d2 = (p1 - p0).norm_sqr();
     let n01 = m0.norm() * m1.norm();
     if n01 == 0.0 || d2 == 0.0 {
-        return Piece { area: chord + corr, error: corr.abs() };
+        return Piece {
+            area: chord + corr,
+            error: corr.abs(),
+        };
     }
     let turn = cross(m0, m1) / n01;
     let parabola = d2 * turn / 12.0;
@@ -66,28 +75,47 @@ pub(crate) fn track(o: Complex64, p0: Complex64, m0: Complex64, p1: Complex64, m
 /// The piece that closes an image contour across a critical curve, where a pair of images of
 /// opposite parity appears or vanishes: from `p0` to `p1`, leaving `p0` along the direction `t0`
 /// and arriving at `p1` along `t1` (directions only; the parameter speed there is meaningless,
-/// since it diverges at the critical curve). The tangents are given the chord's length, which
-/// makes the Hermite curve exact for a parabola symmetric about the chord's bisector (the shape
-/// of the contour next to a fold). The error estimate is the correction times the turning
+/// since it diverges at the critical curve). Each tangent is scaled so that its projection on the
+/// chord is the chord itself (as for a curve parametrised by the distance along the chord),
+/// which makes the Hermite curve exact for a parabola whose axis is perpendicular to the chord
+/// (the shape of the contour next to a fold). The error estimate is the correction times the
 /// angle between the two tangents (the relative size of the next term for a smooth arc) plus
-/// its asymmetric part.
-pub(crate) fn join(o: Complex64, p0: Complex64, t0: Complex64, p1: Complex64, t1: Complex64) -> Piece {
-    let len = (p1 - p0).norm();
-    let n0 = t0.norm();
-    let n1 = t1.norm();
-    if len == 0.0 || n0 == 0.0 || n1 == 0.0 || !(n0 * n1).is_finite() {
-        let (chord, _) = hermite(o, p0, t0, p1, t1);
-        return Piece { area: chord, error: 0.0 };
+/// the difference from the estimate with tangents of the chord's length.
+pub(crate) fn join(
+    o: Complex64,
+    p0: Complex64,
+    t0: Complex64,
+    p1: Complex64,
+    t1: Complex64,
+) -> Piece {
+    let d = p1 - p0;
+    let len2 = d.norm_sqr();
+    let scaled = |t: Complex64| {
+        let along = (t.conj() * d).re;
+        let n = t.norm();
+        if along > 0.5 * n * len2.sqrt() {
+            t * (len2 / along)
+        } else if n > 0.0 {
+            t * (len2.sqrt() / n)
+        } else {
+            t
+        }
+    };
+    let (m0, m1) = (scaled(t0), scaled(t1));
+    if len2 == 0.0 || !(m0.is_finite() && m1.is_finite()) {
+        return Piece {
+            area: 0.5 * cross(p0 - o, d),
+            error: 0.0,
+        };
     }
-    let m0 = t0 * (len / n0);
-    let m1 = t1 * (len / n1);
     let (chord, corr) = hermite(o, p0, m0, p1, m1);
-    let turn = cross(m0, m1) / (len * len);
-    let parabola = len * len * turn / 12.0;
+    let len = len2.sqrt();
+    let (u0, u1) = (m0 * (len / m0.norm()), m1 * (len / m1.norm()));
+    let (_, plain) = hermite(o, p0, u0, p1, u1);
     let angle = (m0.conj() * m1).arg().abs();
     Piece {
         area: chord + corr,
-        error: (corr - parabola).abs() + corr.abs() * angle,
+        error: (corr - plain).abs() + corr.abs() * angle,
     }
 }
 
@@ -115,8 +143,9 @@ mod tests {
             let exact = PI * r * r;
             let err = (total.area - exact).abs();
             // Hermite interpolation of a circle: area error about (2 pi / n)^4 / 720 relative.
+            println!("n={n}: error {err:.3e}, estimate {:.3e}", total.error);
             assert!(err < 0.01 * exact * h.powi(4), "n={n}: {err}");
-            assert!(total.error > 0.0 && total.error < 1e-2 * exact);
+            assert!(total.error >= err && total.error < 30.0 * err, "n={n}");
         }
     }
 

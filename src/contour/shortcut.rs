@@ -40,7 +40,8 @@ pub(crate) fn small_source(
     let mut ring = |radius: f64, phase: f64| -> Result<Option<f64>> {
         let mut sum = 0.0;
         for k in 0..4 {
-            let z = center + Complex64::from_polar(radius, phase + k as f64 * std::f64::consts::FRAC_PI_2);
+            let z = center
+                + Complex64::from_polar(radius, phase + k as f64 * std::f64::consts::FRAC_PI_2);
             let images = solver.images(z)?;
             if images.len() != count {
                 return Ok(None);
@@ -49,9 +50,15 @@ pub(crate) fn small_source(
         }
         Ok(Some(0.25 * sum))
     };
-    let Some(half) = ring(0.5 * rho, 0.0)? else { return Ok(None) };
-    let Some(plus) = ring(rho, 0.0)? else { return Ok(None) };
-    let Some(cross) = ring(rho, std::f64::consts::FRAC_PI_4)? else { return Ok(None) };
+    let Some(half) = ring(0.5 * rho, 0.0)? else {
+        return Ok(None);
+    };
+    let Some(plus) = ring(rho, 0.0)? else {
+        return Ok(None);
+    };
+    let Some(cross) = ring(rho, std::f64::consts::FRAC_PI_4)? else {
+        return Ok(None);
+    };
     let a2 = (16.0 * half - plus) / 3.0 - 5.0 * a0;
     let a4 = 0.5 * (plus + cross) - a0 - a2;
     let (m2, m4) = moments;
