@@ -56,38 +56,41 @@ fn single_lens_against_witt_mao_and_quadrature() {
     println!("worst relative error {worst:.2e}");
 }
 
-/// Binary lenses with sources straddling folds and cusps, centred on cusps and on a lens, rho
-/// from 1e-4 to 0.5: against a brute-force count of image-plane lattice points mapped into the
-/// disk (numpy, 1000 lattice spacings per rho; tests/reference/contour_lattice.py). Within 1e-4
-/// relative at tolerance 1e-5, with the shortcut allowed and without it.
+/// Binary lenses with sources straddling folds and cusps, boundaries clipping cusps, sources
+/// centred on cusps and on a lens, rho from 1e-4 to 0.5: against a brute-force count of
+/// image-plane lattice points mapped into the disk (numpy, 1000 lattice spacings per rho, good to
+/// about 1e-5; tests/reference/contour_lattice.py). Within 1e-4 relative at tolerance 1e-5, and
+/// within 2e-4 at the default 1e-4, with the shortcut allowed and without it.
 #[test]
 fn binaries_against_lattice_counts() {
     let table = common::reference(
         "contour_lattice.csv",
-        &["s", "q", "x", "y", "rho", "magnification", "lattice_spread"],
+        &["s", "q", "x", "y", "rho", "magnification"],
     );
-    for shortcut in [false, true] {
-        for (row, line) in table.rows.iter().zip(&table.lines) {
-            let (s, q, x, y, rho, want) = (row[0], row[1], row[2], row[3], row[4], row[5]);
-            let lens = LensSystem::binary(s, q).unwrap();
-            let mut solver = ContourSolver::new(&lens, 1e-5)
-                .unwrap()
-                .with_shortcut(shortcut);
-            let est = solver
-                .magnification(Complex64::new(x, y), &profile(rho, 0.0))
-                .unwrap();
-            let rel = (est.magnification / want - 1.0).abs();
-            println!(
-                "line {line}: s={s} q={q} rho={rho}: {} vs {want}: rel {rel:.2e}, est {:.2e} ({:?})",
-                est.magnification,
-                est.error / want,
-                est.method
-            );
-            assert!(
-                rel < 1e-4,
-                "line {line}: {} vs lattice {want} (shortcut {shortcut})",
-                est.magnification
-            );
+    for (tol, limit) in [(1e-5, 1e-4), (1e-4, 2e-4)] {
+        for shortcut in [false, true] {
+            for (row, line) in table.rows.iter().zip(&table.lines) {
+                let (s, q, x, y, rho, want) = (row[0], row[1], row[2], row[3], row[4], row[5]);
+                let lens = LensSystem::binary(s, q).unwrap();
+                let mut solver = ContourSolver::new(&lens, tol)
+                    .unwrap()
+                    .with_shortcut(shortcut);
+                let est = solver
+                    .magnification(Complex64::new(x, y), &profile(rho, 0.0))
+                    .unwrap();
+                let rel = (est.magnification / want - 1.0).abs();
+                println!(
+                    "tol {tol:e} line {line}: s={s} q={q} rho={rho}: {} vs {want}: rel {rel:.2e}, est {:.2e} ({:?})",
+                    est.magnification,
+                    est.error / want,
+                    est.method
+                );
+                assert!(
+                    rel < limit,
+                    "tol {tol:e} line {line}: {} vs lattice {want} (shortcut {shortcut})",
+                    est.magnification
+                );
+            }
         }
     }
 }
@@ -131,10 +134,16 @@ fn shortcut_far_from_caustics() {
         (est.magnification / want - 1.0).abs() < 1e-4,
         "{est:?} vs {want}"
     );
-    // A source over a caustic must not take it.
+    // A source over a cusp of the caustic (the on-axis cusp of the equal-mass binary s = 1, at
+    // x = 0.34062501931660 from tests/reference/contour_lattice.py) must not take it.
     let lens = LensSystem::binary(1.0, 1.0).unwrap();
-    let est =
-        contour::magnification(&lens, Complex64::new(0.0, 0.0), &profile(0.05, 0.0), 1e-4).unwrap();
+    let est = contour::magnification(
+        &lens,
+        Complex64::new(0.34062501931660, 0.01),
+        &profile(0.05, 0.0),
+        1e-4,
+    )
+    .unwrap();
     assert_eq!(est.method, Method::Contour);
 }
 

@@ -164,9 +164,15 @@ fn best_pair(a: &Node, b: &Node, h: f64, pair_in_b: bool) -> Option<((usize, usi
     best
 }
 
+/// Intervals narrower than this (radians) are linked by the best pairing even when its motion
+/// disagrees with the prediction: there the image positions of a pair about to appear are only
+/// known to about the square root of the working precision, which can exceed the distance
+/// moved, and the interval's area is negligible anyway.
+pub(crate) const FORCE_LINK: f64 = 1e-8;
+
 /// The pieces of the image contours between samples `a` and `b` (b.theta > a.theta): their
 /// summed area and error about the origin `o`. None when the samples are too far apart to link
-/// with confidence.
+/// with confidence (see [`FORCE_LINK`]).
 pub(crate) fn link(a: &Node, b: &Node, o: Complex64) -> Option<Piece> {
     let h = b.theta - a.theta;
     let (pair, m) = match b.len as isize - a.len as isize {
@@ -181,7 +187,7 @@ pub(crate) fn link(a: &Node, b: &Node, o: Complex64) -> Option<Piece> {
         }
         _ => return None,
     };
-    if m.worst > LINK_AGREEMENT {
+    if m.worst > LINK_AGREEMENT && h >= FORCE_LINK {
         return None;
     }
     let mut piece = Piece::default();
@@ -197,17 +203,26 @@ pub(crate) fn link(a: &Node, b: &Node, o: Complex64) -> Option<Piece> {
             track(o, q.z, -q.dz * h, p.z, -p.dz * h)
         };
     }
+    // The pair is joined at the sample where it exists, but it appeared (or vanished) somewhere
+    // inside the interval: the stretch of its two tracks between that sample and the critical
+    // curve is missing. Its area is at most about the chord between the two images times the
+    // distance they move over the interval (the chord shrinks as the square root of the distance
+    // to the critical curve while the speed grows as its inverse), which is added to the error.
+    let swept =
+        |p: &ImagePoint, q: &ImagePoint| (p.z - q.z).norm() * (p.dz.norm() + q.dz.norm()) * h;
     match pair {
         // Appeared: the contour comes back along the negative-parity image and turns onto the
         // positive one.
         Some(((ip, im), true)) => {
             let (p, q) = (b.pts[ip], b.pts[im]);
             piece += join(o, q.z, -q.dz, p.z, p.dz);
+            piece.error += swept(&p, &q);
         }
         // Vanished: the positive-parity image turns back onto the negative one.
         Some(((ip, im), false)) => {
             let (p, q) = (a.pts[ip], a.pts[im]);
             piece += join(o, p.z, p.dz, q.z, -q.dz);
+            piece.error += swept(&p, &q);
         }
         None => {}
     }

@@ -13,6 +13,7 @@
 //!
 //! - `segment`: area and error of one piece of a contour;
 //! - `boundary`: boundary samples, their images, and linking;
+//! - `crossings`: the caustics traced once per lens, and where a boundary crosses them;
 //! - `refine`: the adaptive sampling of one uniform disk;
 //! - `annuli`: limb darkening;
 //! - `shortcut`: the small-source shortcut.
@@ -27,8 +28,8 @@
 //! The point-source magnification with its quadrupole and hexadecapole corrections is taken
 //! instead of contours when all 13 stencil points (the centre, four on the axes at `rho/2` and at
 //! `rho`, four on the diagonals at `rho`) have as many images as the centre, the hexadecapole
-//! term is at most a tenth of the quadrupole term (or below the tolerance), and its size — the
-//! reported error — is at most `tol` times the magnification; for a single lens the disk must also
+//! term is at most a tenth of the quadrupole term (or below the tolerance), and ten times its
+//! size — the reported error — is at most `tol` times the magnification; for a single lens the disk must also
 //! stay three radii clear of the lens.
 //!
 //! ```
@@ -46,6 +47,7 @@
 
 mod annuli;
 mod boundary;
+mod crossings;
 mod refine;
 mod segment;
 mod shortcut;
@@ -56,8 +58,10 @@ use crate::error::{Error, Result};
 use crate::lens::LensSystem;
 use crate::solve::ImageSolver;
 use crate::source::SourceProfile;
+use crossings::CausticTrace;
 use num_complex::Complex64;
 use rayon::prelude::*;
+use std::sync::Arc;
 
 /// The default relative tolerance.
 pub const DEFAULT_TOLERANCE: f64 = 1e-4;
@@ -106,12 +110,14 @@ pub struct Estimate {
 pub struct ContourSolver {
     lens: LensSystem,
     solver: ImageSolver,
+    trace: Arc<CausticTrace>,
     tol: f64,
     shortcut: bool,
 }
 
 impl ContourSolver {
-    /// A solver for `lens` with relative tolerance `tol` (finite, in (0, 0.1]).
+    /// A solver for `lens` with relative tolerance `tol` (finite, in (0, 0.1]). Traces the
+    /// lens's caustics once (a few milliseconds), shared by clones.
     pub fn new(lens: &LensSystem, tol: f64) -> Result<Self> {
         if !(tol.is_finite() && tol > 0.0 && tol <= 0.1) {
             return Err(Error::input(format!(
@@ -121,6 +127,7 @@ impl ContourSolver {
         Ok(ContourSolver {
             lens: lens.clone(),
             solver: ImageSolver::new(lens)?,
+            trace: Arc::new(CausticTrace::new(lens)),
             tol,
             shortcut: true,
         })
@@ -166,12 +173,12 @@ impl ContourSolver {
                 });
             }
         }
-        let (solver, lens) = (&mut self.solver, &self.lens);
+        let (solver, lens, trace) = (&mut self.solver, &self.lens, &*self.trace);
         let (magnification, error) = if source.is_uniform() {
-            refine::uniform_disk(solver, lens, center, rho, self.tol)?
+            refine::uniform_disk(solver, lens, trace, center, rho, self.tol)?
         } else {
             annuli::limb_darkened(source, self.tol, |r, tol| {
-                refine::uniform_disk(solver, lens, center, r, tol)
+                refine::uniform_disk(solver, lens, trace, center, r, tol)
             })?
         };
         Ok(Estimate {

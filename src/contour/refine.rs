@@ -5,9 +5,11 @@
 //! only on the images at its two ends (see [`super::boundary::link`]). The interval with the
 //! largest error estimate is bisected (one more image solve) until the summed estimate is below
 //! `tol` times the area, as in Dominik 2007 and Bozza 2010; intervals whose ends cannot be
-//! linked with confidence are bisected first, whatever their error.
+//! linked with confidence are bisected first, whatever their error. The first samples include
+//! the angles where the boundary crosses the caustics (see `crossings`).
 
 use super::boundary::{link, Node};
+use super::crossings::CausticTrace;
 use super::segment::Piece;
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
@@ -108,14 +110,15 @@ const NUDGE: f64 = 1e-9;
 pub(crate) fn uniform_disk(
     solver: &mut ImageSolver,
     lens: &LensSystem,
+    trace: &CausticTrace,
     center: Complex64,
     rho: f64,
     tol: f64,
 ) -> Result<(f64, f64)> {
-    match sampled_disk(solver, lens, center, rho, tol) {
+    match sampled_disk(solver, lens, trace, center, rho, tol) {
         Err(Error::Numerical(_)) => {
-            let (a1, e1) = sampled_disk(solver, lens, center, rho * (1.0 + NUDGE), tol)?;
-            let (a2, e2) = sampled_disk(solver, lens, center, rho * (1.0 - NUDGE), tol)?;
+            let (a1, e1) = sampled_disk(solver, lens, trace, center, rho * (1.0 + NUDGE), tol)?;
+            let (a2, e2) = sampled_disk(solver, lens, trace, center, rho * (1.0 - NUDGE), tol)?;
             Ok((0.5 * (a1 + a2), e1.max(e2) + 0.5 * (a1 - a2).abs()))
         }
         other => other,
@@ -125,6 +128,7 @@ pub(crate) fn uniform_disk(
 fn sampled_disk(
     solver: &mut ImageSolver,
     lens: &LensSystem,
+    trace: &CausticTrace,
     center: Complex64,
     rho: f64,
     tol: f64,
@@ -137,15 +141,30 @@ fn sampled_disk(
         rho,
         nodes: Vec::with_capacity(4 * INITIAL_SAMPLES),
     };
-    for k in 0..INITIAL_SAMPLES {
-        boundary.add(TAU * k as f64 / INITIAL_SAMPLES as f64)?;
+    // Start from evenly spaced angles, the caustic crossings and the midpoints between
+    // successive crossings (see `crossings`).
+    let mut cuts = Vec::new();
+    trace.crossings(center, rho, &mut cuts);
+    let mut angles: Vec<f64> = (0..INITIAL_SAMPLES)
+        .map(|k| TAU * k as f64 / INITIAL_SAMPLES as f64)
+        .collect();
+    for (k, &a) in cuts.iter().enumerate() {
+        let next = cuts.get(k + 1).copied().unwrap_or(cuts[0] + TAU);
+        let mid = 0.5 * (a + next);
+        angles.push(a);
+        angles.push(if mid >= TAU { mid - TAU } else { mid });
+    }
+    angles.sort_by(f64::total_cmp);
+    angles.dedup_by(|b, a| *b - *a < 1e-9);
+    for &a in &angles {
+        boundary.add(a)?;
     }
     // The last sample closes the loop: the images of theta = 0 again, at theta = 2 pi.
     let mut last = boundary.nodes[0];
     last.theta = TAU;
     boundary.nodes.push(last);
     let mut fresh = Vec::new();
-    for k in 0..INITIAL_SAMPLES {
+    for k in 0..angles.len() {
         boundary.settle(k, k + 1, &mut fresh)?;
     }
     let mut heap: BinaryHeap<Interval> = fresh.drain(..).collect();

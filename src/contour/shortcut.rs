@@ -12,8 +12,8 @@
 //!
 //! **Rule.** The shortcut is taken when all 13 stencil points have as many images as the centre
 //! (no fold of a caustic crosses the stencil), the hexadecapole term is at most a tenth of the
-//! quadrupole one or below the tolerance (the series is converging), and its size `m4 |A4|`,
-//! reported as the error, is at most `tol` times the magnification. For a single lens the disk
+//! quadrupole one or below the tolerance (the series is converging), and ten times its size,
+//! `10 m4 |A4|`, reported as the error, is at most `tol` times the magnification. For a single lens the disk
 //! must also stay three radii clear of the lens (its point caustic). A caustic smaller than the
 //! stencil spacing lying wholly inside the disk can escape the image-count test; the size test
 //! then has to catch it.
@@ -22,6 +22,11 @@ use crate::error::Result;
 use crate::lens::LensSystem;
 use crate::solve::ImageSolver;
 use num_complex::Complex64;
+
+/// The error reported for the shortcut, and tested against the tolerance, is this many times the
+/// size of the hexadecapole term: scans of binaries next to planetary caustics (rho = 0.05)
+/// found the true error up to about five times that size.
+const SAFETY: f64 = 10.0;
 
 /// Estimate `(magnification, error)` by the shortcut, or None when the rule says no.
 pub(crate) fn small_source(
@@ -63,7 +68,7 @@ pub(crate) fn small_source(
     let a4 = 0.5 * (plus + cross) - a0 - a2;
     let (m2, m4) = moments;
     let a = a0 + m2 * a2 + m4 * a4;
-    let error = m4 * a4.abs();
+    let error = SAFETY * m4 * a4.abs();
     let converging = a4.abs() <= 0.1 * a2.abs() || error <= tol * a;
     if converging && error <= tol * a {
         Ok(Some((a, error)))
