@@ -12,7 +12,7 @@
 //! prediction, or a change of more than one pair, means the samples are too far apart: the
 //! caller then bisects.
 
-use super::segment::{join, track, Piece};
+use super::segment::{cross, join, track, Piece};
 use crate::error::Result;
 use crate::lens::LensSystem;
 use crate::solve::ImageSolver;
@@ -22,8 +22,15 @@ use num_complex::Complex64;
 pub(crate) const MAX_IMAGES: usize = 16;
 
 /// A link is accepted when the midpoint predicted from each end agrees to this fraction of the
-/// distance the image moves (`(|dz_a| + |dz_b|) h / 2`).
+/// distance the image moves (`(|dz_a| + |dz_b|) h / 2`), ...
 const LINK_AGREEMENT: f64 = 0.3;
+
+/// ... or when its disagreement is below this fraction of that of any other pairing of either
+/// of its ends (an image moving fast next to a critical curve, but with no rival).
+const UNAMBIGUOUS: f64 = 0.1;
+
+/// Least fraction of chord times speed counted as the unresolved area of an appearing pair.
+const SWEPT_FLOOR: f64 = 0.05;
 
 /// One image of a boundary sample.
 #[derive(Debug, Clone, Copy, Default)]
@@ -79,7 +86,8 @@ impl Node {
 struct Matching {
     /// to[i] = index in b of the partner of a's image i (usize::MAX for a skipped image).
     to: [usize; MAX_IMAGES],
-    /// Largest disagreement of a link, relative to the distance moved.
+    /// Largest disagreement of a link, relative to the distance moved (or scaled so that an
+    /// unambiguous link counts as [`LINK_AGREEMENT`] at most).
     worst: f64,
     /// Sum of the relative disagreements.
     total: f64,
@@ -133,7 +141,19 @@ fn pair_up(
         pending[i] = false;
         used_b[j] = true;
         to[i] = j;
-        worst = worst.max(c);
+        // The nearest alternative for either end of the link.
+        let mut second = f64::INFINITY;
+        for jj in
+            (0..b.len).filter(|&k| k != j && !skipped(skip_b, k) && ib[k].parity == ia[i].parity)
+        {
+            second = second.min(rel(i, jj));
+        }
+        for ii in
+            (0..a.len).filter(|&k| k != i && !skipped(skip_a, k) && ia[k].parity == ib[j].parity)
+        {
+            second = second.min(rel(ii, j));
+        }
+        worst = worst.max(c.min(LINK_AGREEMENT * c / (UNAMBIGUOUS * second)));
         total += c;
         left -= 1;
     }
@@ -205,11 +225,17 @@ pub(crate) fn link(a: &Node, b: &Node, o: Complex64) -> Option<Piece> {
     }
     // The pair is joined at the sample where it exists, but it appeared (or vanished) somewhere
     // inside the interval: the stretch of its two tracks between that sample and the critical
-    // curve is missing. Its area is at most about the chord between the two images times the
-    // distance they move over the interval (the chord shrinks as the square root of the distance
-    // to the critical curve while the speed grows as its inverse), which is added to the error.
-    let swept =
-        |p: &ImagePoint, q: &ImagePoint| (p.z - q.z).norm() * (p.dz.norm() + q.dz.norm()) * h;
+    // curve is missing. Its area is about the area the chord between the two images sweeps over
+    // the interval: the chord times the motion across it, of the pair's midpoint and of the two
+    // images relative to each other (motion along the chord sweeps nothing; the chord shrinks as
+    // the square root of the distance to the critical curve while the speed grows as its
+    // inverse). At least SWEPT_FLOOR of chord times speed is counted, in case the motion turns
+    // across the chord later in the interval.
+    let swept = |p: &ImagePoint, q: &ImagePoint| {
+        let d = p.z - q.z;
+        let across = cross(d, p.dz + q.dz).abs() + cross(d, p.dz - q.dz).abs();
+        (0.5 * across).max(SWEPT_FLOOR * d.norm() * (p.dz.norm() + q.dz.norm())) * h
+    };
     match pair {
         // Appeared: the contour comes back along the negative-parity image and turns onto the
         // positive one.
