@@ -38,6 +38,8 @@ pub(crate) struct ImagePoint {
     pub z: Complex64,
     /// dz / dtheta.
     pub dz: Complex64,
+    /// |dz / dtheta|.
+    pub speed: f64,
     pub parity: i8,
 }
 
@@ -68,9 +70,11 @@ impl Node {
         };
         for (p, im) in node.pts.iter_mut().zip(images) {
             let kappa = lens.shear(im.position);
+            let dz = (dzeta - kappa * dzeta.conj()) / im.jacobian;
             *p = ImagePoint {
                 z: im.position,
-                dz: (dzeta - kappa * dzeta.conj()) / im.jacobian,
+                dz,
+                speed: dz.norm_sqr().sqrt(),
                 parity: im.parity,
             };
         }
@@ -80,6 +84,26 @@ impl Node {
     fn images(&self) -> &[ImagePoint] {
         &self.pts[..self.len]
     }
+}
+
+/// Disagreement of every link a -> b: the distance between the midpoints predicted from each
+/// end, relative to the distance moved.
+type Costs = [[f64; MAX_IMAGES]; MAX_IMAGES];
+
+fn costs(a: &Node, b: &Node, h: f64) -> Costs {
+    let mut c = [[f64::INFINITY; MAX_IMAGES]; MAX_IMAGES];
+    for (row, p) in c.iter_mut().zip(a.images()) {
+        let mid_a = p.z + p.dz * (0.5 * h);
+        let tiny = 1e-14 * (1.0 + p.z.norm_sqr().sqrt());
+        for (cell, q) in row.iter_mut().zip(b.images()) {
+            if q.parity == p.parity {
+                let mid_b = q.z - q.dz * (0.5 * h);
+                let scale = (p.speed + q.speed) * 0.5 * h;
+                *cell = (mid_a - mid_b).norm_sqr().sqrt() / (scale + tiny);
+            }
+        }
+    }
+    c
 }
 
 /// A pairing of the images of `a` with those of `b`, skipping one image pair on one side.
@@ -98,7 +122,7 @@ struct Matching {
 fn pair_up(
     a: &Node,
     b: &Node,
-    h: f64,
+    cost: &Costs,
     skip_a: Option<(usize, usize)>,
     skip_b: Option<(usize, usize)>,
 ) -> Option<Matching> {
@@ -115,14 +139,7 @@ fn pair_up(
         *u = skipped(skip_b, j);
     }
     let (ia, ib) = (a.images(), b.images());
-    let rel = |i: usize, j: usize| {
-        let (p, q) = (ia[i], ib[j]);
-        let mid_a = p.z + p.dz * (0.5 * h);
-        let mid_b = q.z - q.dz * (0.5 * h);
-        let scale = (p.dz.norm() + q.dz.norm()) * 0.5 * h;
-        let tiny = 1e-14 * (1.0 + p.z.norm());
-        (mid_a - mid_b).norm() / (scale + tiny)
-    };
+    let rel = |i: usize, j: usize| cost[i][j];
     let (mut worst, mut total) = (0.0f64, 0.0);
     while left > 0 {
         let mut best = (f64::INFINITY, usize::MAX, usize::MAX);
@@ -162,7 +179,12 @@ fn pair_up(
 
 /// The best choice of an appearing (or vanishing) pair among the images of `side`: one image of
 /// each parity, the rest matched with the other side.
-fn best_pair(a: &Node, b: &Node, h: f64, pair_in_b: bool) -> Option<((usize, usize), Matching)> {
+fn best_pair(
+    a: &Node,
+    b: &Node,
+    cost: &Costs,
+    pair_in_b: bool,
+) -> Option<((usize, usize), Matching)> {
     let side = if pair_in_b { b } else { a };
     let imgs = side.images();
     let mut best: Option<((usize, usize), Matching)> = None;
@@ -170,9 +192,9 @@ fn best_pair(a: &Node, b: &Node, h: f64, pair_in_b: bool) -> Option<((usize, usi
         for im in (0..imgs.len()).filter(|&i| imgs[i].parity < 0) {
             let skip = Some((ip, im));
             let m = if pair_in_b {
-                pair_up(a, b, h, None, skip)
+                pair_up(a, b, cost, None, skip)
             } else {
-                pair_up(a, b, h, skip, None)
+                pair_up(a, b, cost, skip, None)
             };
             if let Some(m) = m {
                 if best.as_ref().is_none_or(|(_, bm)| m.total < bm.total) {
@@ -195,14 +217,15 @@ pub(crate) const FORCE_LINK: f64 = 1e-8;
 /// with confidence (see [`FORCE_LINK`]).
 pub(crate) fn link(a: &Node, b: &Node, o: Complex64) -> Option<Piece> {
     let h = b.theta - a.theta;
+    let cost = costs(a, b, h);
     let (pair, m) = match b.len as isize - a.len as isize {
-        0 => (None, pair_up(a, b, h, None, None)?),
+        0 => (None, pair_up(a, b, &cost, None, None)?),
         2 => {
-            let (p, m) = best_pair(a, b, h, true)?;
+            let (p, m) = best_pair(a, b, &cost, true)?;
             (Some((p, true)), m)
         }
         -2 => {
-            let (p, m) = best_pair(a, b, h, false)?;
+            let (p, m) = best_pair(a, b, &cost, false)?;
             (Some((p, false)), m)
         }
         _ => return None,
@@ -234,7 +257,7 @@ pub(crate) fn link(a: &Node, b: &Node, o: Complex64) -> Option<Piece> {
     let swept = |p: &ImagePoint, q: &ImagePoint| {
         let d = p.z - q.z;
         let across = cross(d, p.dz + q.dz).abs() + cross(d, p.dz - q.dz).abs();
-        (0.5 * across).max(SWEPT_FLOOR * d.norm() * (p.dz.norm() + q.dz.norm())) * h
+        (0.5 * across).max(SWEPT_FLOOR * d.norm_sqr().sqrt() * (p.speed + q.speed)) * h
     };
     match pair {
         // Appeared: the contour comes back along the negative-parity image and turns onto the

@@ -62,7 +62,7 @@ pub(crate) fn track(
 ) -> Piece {
     let (chord, corr) = hermite(o, p0, m0, p1, m1);
     let d2 = (p1 - p0).norm_sqr();
-    let n01 = m0.norm() * m1.norm();
+    let n01 = (m0.norm_sqr() * m1.norm_sqr()).sqrt();
     if n01 == 0.0 || d2 == 0.0 {
         return Piece {
             area: chord + corr,
