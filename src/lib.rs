@@ -16,6 +16,7 @@
 //! assert!(map.mean() > 1.0);
 //! ```
 
+pub mod caustics;
 pub mod cli;
 pub mod contour;
 pub mod curve;
@@ -24,6 +25,7 @@ pub mod error;
 pub mod fsutil;
 pub mod lens;
 pub mod map;
+pub mod plot;
 pub mod solve;
 pub mod source;
 pub mod store;

@@ -58,8 +58,9 @@ pub struct SourceProfile {
 }
 
 impl SourceProfile {
-    /// Checks and builds a profile: `rho >= 0` and finite, coefficients in [0, 1] (and, for the
-    /// square-root law, `c + d <= 1` so the rim is not negative).
+    /// Checks and builds a profile: `rho >= 0` and finite, coefficients in [0, 1] (as DESIGN.md
+    /// has it; a square-root law with `c + d > 1` has a negative rim brightness, which the
+    /// algebra carries through: the total flux `1 - c/3 - d/5` stays positive).
     pub fn new(rho: f64, law: LimbDarkening) -> Result<Self> {
         if !rho.is_finite() || rho < 0.0 {
             return Err(Error::input(format!(
@@ -78,11 +79,6 @@ impl SourceProfile {
                 if !unit(c) || !unit(d) {
                     return Err(Error::input(format!(
                         "--ld-sqrt: c and d must be in [0, 1], got {c},{d}"
-                    )));
-                }
-                if c + d > 1.0 {
-                    return Err(Error::input(format!(
-                        "--ld-sqrt: c + d must be <= 1 (non-negative rim brightness), got {c},{d}"
                     )));
                 }
             }
@@ -247,6 +243,19 @@ fn signed_area(x: f64, y: f64, r: f64) -> f64 {
     } else {
         a
     }
+}
+
+/// Signed area of the disk of radius `r` about the origin within `[0, x] x [y0, y1]` (negative
+/// for `x < 0`): the overlap of a rectangle `[x0, x1] x [y0, y1]` with the disk is
+/// `disk_strip_area(x1, ..) - disk_strip_area(x0, ..)`, so a row of pixels shares its corners.
+///
+/// ```
+/// use causeway::source::{disk_rect_overlap, disk_strip_area};
+/// let a = disk_strip_area(0.7, -0.2, 0.9, 1.0) - disk_strip_area(-0.4, -0.2, 0.9, 1.0);
+/// assert!((a - disk_rect_overlap(0.0, 0.0, 1.0, -0.4, 0.7, -0.2, 0.9)).abs() < 1e-15);
+/// ```
+pub fn disk_strip_area(x: f64, y0: f64, y1: f64, r: f64) -> f64 {
+    signed_area(x, y1, r) - signed_area(x, y0, r)
 }
 
 /// Exact area of the intersection of the disk of radius `r` about `(cx, cy)` with the

@@ -123,8 +123,13 @@ fn parity_and_count_rules() {
         LensSystem::binary(0.8, 0.05).unwrap(),
         LensSystem::binary(1.6, 1e-2).unwrap(),
         LensSystem::new(&[(0.0, 0.0, 1.0), (0.8, 0.2, 0.3), (-0.3, 0.7, 0.2)]).unwrap(),
-        LensSystem::new(&[(0.0, 0.0, 1.0), (0.7, 0.0, 0.5), (0.0, 0.7, 0.5), (-0.7, -0.1, 0.5)])
-            .unwrap(),
+        LensSystem::new(&[
+            (0.0, 0.0, 1.0),
+            (0.7, 0.0, 0.5),
+            (0.0, 0.7, 0.5),
+            (-0.7, -0.1, 0.5),
+        ])
+        .unwrap(),
     ];
     for lens in &lenses {
         let n = lens.len() as i32;
@@ -206,7 +211,13 @@ fn more_than_four_lenses_is_refused() {
 /// Sources next to and exactly on a lens, and exactly on the axis of symmetry.
 #[test]
 fn awkward_sources() {
-    for (s, q) in [(1.0, 1.0), (1.2, 1e-3), (0.7, 1e-7), (20.0, 1e-7), (0.05, 1.0)] {
+    for (s, q) in [
+        (1.0, 1.0),
+        (1.2, 1e-3),
+        (0.7, 1e-7),
+        (20.0, 1e-7),
+        (0.05, 1.0),
+    ] {
         let lens = LensSystem::binary(s, q).unwrap();
         let mut solver = ImageSolver::new(&lens).unwrap();
         for l in lens.lenses() {

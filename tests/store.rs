@@ -219,3 +219,40 @@ fn bad_specs_are_named_with_their_line() {
     }
     assert!(!dir.join("maps").join("index.csv").exists());
 }
+
+#[test]
+fn caustic_window_rules_frame_their_caustics() {
+    // Planetary caustic of a wide planet near s - 1/s from the host, the close planet's two
+    // triangles near x = -(1/s - s) from it (Griest & Safizadeh 1998; Han 2006); the central
+    // caustic at the host.
+    let spec = |rule: &str, s: f64| {
+        let text = format!(
+            "s = [{s}]\nq = [1e-4]\npixels = 50\nrays = 1\nengine = \"polygon\"\n[window]\nrule = \"{rule}\"\nmargin = 1.5\n"
+        );
+        let spec = LibrarySpec::parse(&text, "rule.toml").unwrap();
+        spec.points().unwrap()[0].key.window
+    };
+    let host = |s: f64| -s * 1e-4 / (1.0 + 1e-4);
+    for s in [0.7, 1.6] {
+        let planetary = spec("planetary", s);
+        let expected = host(s) + s - 1.0 / s;
+        assert!(
+            (planetary.center.0 - expected).abs() < 0.1 * (s - 1.0 / s).abs(),
+            "s = {s}: {planetary:?}"
+        );
+        assert_eq!(planetary.center.1, 0.0);
+        let central = spec("central", s);
+        assert!(
+            (central.center.0 - host(s)).abs() < central.width,
+            "s = {s}: {central:?}"
+        );
+        // Central caustic width about 4q/(s - 1/s)^2 (Chung et al. 2005): the window is 1.5x
+        // the caustic's extent, so within a factor of 3 of that.
+        let chung = 4e-4 / (s - 1.0 / s).powi(2);
+        assert!(
+            central.width > 0.5 * chung && central.width < 3.0 * chung,
+            "s = {s}: {} vs {chung}",
+            central.width
+        );
+    }
+}

@@ -1,6 +1,7 @@
 //! `causeway map`: build one magnification map and write its FITS file (and PNG).
 
 use super::{parse_pair, LensArgs, ThreadArgs};
+use crate::caustics::caustic_curves;
 use crate::engine::{self, Engine};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
@@ -36,7 +37,7 @@ pub struct MapArgs {
     /// Also draw a PNG picture.
     #[arg(long, value_name = "FILE.png")]
     pub png: Option<PathBuf>,
-    /// Rays per unlensed pixel area.
+    /// Rays per unlensed pixel area (image-plane cells per pixel area with --engine polygon).
     #[arg(
         long,
         default_value_t = 100.0,
@@ -44,9 +45,13 @@ pub struct MapArgs {
         allow_hyphen_values = true
     )]
     pub rays: f64,
-    /// Map engine.
+    /// Map engine: rays (inverse ray shooting) or polygon (inverse polygon mapping).
     #[arg(long, default_value = "rays", value_name = "E")]
     pub engine: String,
+    /// Choose engine and density for this median relative pixel error (e.g. 1e-3), by the rule
+    /// fitted to the engine study (src/engine/accuracy.rs).
+    #[arg(long, value_name = "E", conflicts_with_all = ["rays", "engine"])]
+    pub accuracy: Option<f64>,
     /// Largest working memory allowed, e.g. 4G, 512M or a byte count (default: half the RAM).
     #[arg(long, value_name = "SIZE", value_parser = parse_size)]
     pub max_memory: Option<u64>,
@@ -100,7 +105,14 @@ pub fn run(args: MapArgs) -> Result<()> {
     if let Some(png) = &args.png {
         check_output(png, "png", "--png")?;
     }
-    let engine = engine::by_name(&args.engine, args.rays)?;
+    let engine = match args.accuracy {
+        Some(target) => {
+            let (name, density) = engine::accuracy::choose(&lens, &window, target)?;
+            eprintln!("--accuracy {target}: engine {name}, density {density:.4}");
+            engine::by_name(name, density)?
+        }
+        None => engine::by_name(&args.engine, args.rays)?,
+    };
     let limit = args.max_memory.unwrap_or_else(default_memory_limit);
     let map = build_reported(engine.as_ref(), &lens, &window, limit)?;
     write_outputs(&map, &args.out, args.png.as_deref())
@@ -176,7 +188,13 @@ pub fn write_outputs(map: &MagnificationMap, out: &Path, png: Option<&Path>) -> 
     write_fits(map, out)?;
     eprintln!("wrote {}", out.display());
     if let Some(png) = png {
-        render_png(map, &Overlay::from_lens(&map.provenance.lens), png)?;
+        let lens = &map.provenance.lens;
+        let mut overlay = Overlay::from_lens(lens);
+        match caustic_curves(lens) {
+            Ok(curves) => overlay.curves = curves,
+            Err(e) => eprintln!("warning: caustics not drawn: {e}"),
+        }
+        render_png(map, &overlay, png)?;
         eprintln!("wrote {}", png.display());
     }
     Ok(())
@@ -195,5 +213,6 @@ pub fn demo(out: &Path, pixels: usize) -> Result<()> {
         &map,
         &out.join("demo-map.fits"),
         Some(&out.join("demo-map.png")),
-    )
+    )?;
+    super::curve::demo_curve(&map, out)
 }

@@ -37,6 +37,8 @@ pub enum Command {
     Library(library::LibraryArgs),
     /// Finite-source magnifications at listed points by contour integration.
     Contour(contour::ContourArgs),
+    /// Light curve of a finite source along a path or a straight trajectory.
+    Curve(Box<curve::CurveArgs>),
 }
 
 /// Runs a parsed command line.
@@ -46,10 +48,12 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Demo(args) => demo::run(args),
         Command::Library(args) => library::run(args),
         Command::Contour(args) => contour::run(args),
+        Command::Curve(args) => curve::run(*args),
     }
 }
 
 pub mod contour;
+pub mod curve;
 pub mod demo;
 pub mod library;
 pub mod map;

@@ -152,16 +152,18 @@ impl Preconvolved {
         let n = self.window.pixels;
         let (u, v) = self.coords(x, y);
         let (i, j) = ((u - 0.5).floor(), (v - 0.5).floor());
-        let (lo, hi) = (self.margin as f64 + 1.0, (n - 1 - self.margin) as f64 - 2.0);
+        let (lo, hi) = (self.margin as f64 + 2.0, (n - 1 - self.margin) as f64 - 3.0);
         if !(i >= lo && j >= lo && i <= hi && j <= hi) {
             return None;
         }
         let (i, j) = (i as usize, j as usize);
         let g = |a: usize, b: usize| self.grid[b * n + a];
         let (mut dxx, mut dyy) = (0.0f64, 0.0f64);
-        for (a, b) in [(i, j), (i + 1, j), (i, j + 1), (i + 1, j + 1)] {
-            dxx = dxx.max((g(a + 1, b) - 2.0 * g(a, b) + g(a - 1, b)).abs());
-            dyy = dyy.max((g(a, b + 1) - 2.0 * g(a, b) + g(a, b - 1)).abs());
+        for b in j - 1..=j + 2 {
+            for a in i - 1..=i + 2 {
+                dxx = dxx.max((g(a + 1, b) - 2.0 * g(a, b) + g(a - 1, b)).abs());
+                dyy = dyy.max((g(a, b + 1) - 2.0 * g(a, b) + g(a, b - 1)).abs());
+            }
         }
         Some((dxx + dyy) / 8.0)
     }

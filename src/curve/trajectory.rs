@@ -136,6 +136,12 @@ pub fn time_range(start: f64, end: f64, count: usize) -> Result<Vec<f64>> {
     }
     let step = (end - start) / (count - 1) as f64;
     Ok((0..count)
-        .map(|k| if k + 1 == count { end } else { start + k as f64 * step })
+        .map(|k| {
+            if k + 1 == count {
+                end
+            } else {
+                start + k as f64 * step
+            }
+        })
         .collect())
 }

@@ -4,7 +4,8 @@
 //! mean magnification over each pixel. [`Engine::build`] wraps that into a
 //! [`MagnificationMap`] with its provenance (timing, counts, version). Engines:
 //!
-//! - [`RayShooting`] (`rays`): inverse ray shooting on a regular image-plane lattice.
+//! - [`RayShooting`] (`rays`): inverse ray shooting on a regular image-plane lattice;
+//! - [`PolygonMapping`] (`polygon`): inverse polygon mapping of image-plane cells.
 //!
 //! To add an engine, implement [`Engine::trace`] and [`Engine::memory_bytes`] in a file of its
 //! own and register its name in [`by_name`].
@@ -14,9 +15,14 @@ use crate::lens::LensSystem;
 use crate::map::{utc_now, MagnificationMap, Provenance, Window};
 use ndarray::Array2;
 
+pub mod accuracy;
+mod lattice;
+mod polygon;
 mod rays;
 
-pub use rays::{ray_budget, shooting_radius, RayShooting};
+pub use lattice::shooting_radius;
+pub use polygon::PolygonMapping;
+pub use rays::{ray_budget, RayShooting};
 
 /// What an engine produced: pixel data and its cost.
 #[derive(Debug, Clone, PartialEq)]
@@ -95,7 +101,7 @@ pub trait Engine: Sync {
 }
 
 /// Names accepted by `--engine`.
-pub const ENGINE_NAMES: &[&str] = &["rays"];
+pub const ENGINE_NAMES: &[&str] = &["rays", "polygon"];
 
 /// The engine called `name` at the given density.
 ///
@@ -107,6 +113,7 @@ pub const ENGINE_NAMES: &[&str] = &["rays"];
 pub fn by_name(name: &str, density: f64) -> Result<Box<dyn Engine>> {
     match name {
         "rays" => Ok(Box::new(RayShooting::try_new(density)?)),
+        "polygon" => Ok(Box::new(PolygonMapping::try_new(density)?)),
         other => Err(Error::input(format!(
             "--engine: unknown engine '{other}' (known: {})",
             ENGINE_NAMES.join(", ")

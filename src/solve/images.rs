@@ -177,7 +177,9 @@ impl ImageSolver {
             let shifted: Vec<Complex64> = (0..n).map(|i| pos[i] - o).collect();
             LensPolynomials::new(&shifted, &mass[..n])
         });
-        let lightest = (0..n).min_by(|&a, &b| mass[a].total_cmp(&mass[b])).unwrap_or(0);
+        let lightest = (0..n)
+            .min_by(|&a, &b| mass[a].total_cmp(&mass[b]))
+            .unwrap_or(0);
         let mut order = [0; MAX_LENSES + 1];
         order[0] = 1 + lightest;
         let mut k = 1;

@@ -314,7 +314,11 @@ mod tests {
         // z = i/sqrt(2)*... : pick z, set exp(i phi) = sum m/(z-z_i)^2 (need not be unit here:
         // the identity B - h A = 0 holds for h = that sum).
         let z = c(0.2, 0.7);
-        let h: Complex64 = pos.iter().zip(&m).map(|(&p, &mi)| mi / ((z - p) * (z - p))).sum();
+        let h: Complex64 = pos
+            .iter()
+            .zip(&m)
+            .map(|(&p, &mi)| mi / ((z - p) * (z - p)))
+            .sum();
         let poly = b.combine(ONE, &a, -h);
         assert!(poly.eval(z).norm() < 1e-14);
     }

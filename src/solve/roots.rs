@@ -129,9 +129,10 @@ pub fn circle_guesses(c: &[Complex64], roots: &mut [Complex64]) {
     }
     let centroid = -c[n - 1] / (c[n] * n as f64);
     // Coefficients of p(z + centroid): only the constant term is needed for the radius.
-    let p0 = c.iter().rev().fold(Complex64::new(0.0, 0.0), |acc, &ck| {
-        acc * centroid + ck
-    });
+    let p0 = c
+        .iter()
+        .rev()
+        .fold(Complex64::new(0.0, 0.0), |acc, &ck| acc * centroid + ck);
     let mut radius = (p0 / c[n]).norm().powf(1.0 / n as f64);
     if !(radius.is_finite() && radius > 0.0) {
         radius = 1.0;
@@ -169,7 +170,10 @@ mod tests {
         circle_guesses(&c, &mut roots);
         aberth(&c, &mut roots).unwrap();
         for w in want {
-            let best = roots.iter().map(|r| (r - w).norm()).fold(f64::MAX, f64::min);
+            let best = roots
+                .iter()
+                .map(|r| (r - w).norm())
+                .fold(f64::MAX, f64::min);
             assert!(best < 1e-8 * (1.0 + w.norm()), "{w}: {best}");
         }
     }

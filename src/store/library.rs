@@ -16,11 +16,24 @@
 //! width = 4.0
 //! ```
 //!
+//! or a window placed on a caustic of each binary and sized to it:
+//!
+//! ```toml
+//! [window]
+//! rule = "planetary"  # or "central"
+//! margin = 1.5        # window side = margin x the caustic's larger extent (default 1.5)
+//! ```
+//!
+//! The central caustic is the one nearest the host (m1); the planetary caustics are the others
+//! (one for a wide binary, the two off-axis triangles of a close one, framed together). A
+//! resonant binary has one caustic, which both rules frame.
+//!
 //! Grid points are numbered q-major (`index = iq * len(s) + is`); shard `K/N` takes the points
 //! whose index is `K - 1` modulo `N`, so the shards of one spec are disjoint and together
 //! make the whole grid.
 
 use super::{MapKey, Store};
+use crate::caustics::caustic_curves;
 use crate::engine::{self, Engine};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
@@ -83,8 +96,100 @@ fn spaced(a: f64, b: f64, n: usize, to: fn(f64) -> f64, from: fn(f64) -> f64) ->
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 struct WindowSpec {
-    center: (f64, f64),
-    width: f64,
+    rule: Option<String>,
+    center: Option<(f64, f64)>,
+    width: Option<f64>,
+    margin: Option<f64>,
+}
+
+/// How each map's window is chosen.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum WindowRule {
+    /// The same window for every map.
+    Fixed(Window),
+    /// Framing the central caustic, `margin` times its extent, with this many pixels.
+    Central { margin: f64, pixels: usize },
+    /// Framing the planetary caustic(s), likewise.
+    Planetary { margin: f64, pixels: usize },
+}
+
+impl WindowSpec {
+    fn rule(&self, pixels: usize) -> Result<WindowRule> {
+        let margin = self.margin.unwrap_or(1.5);
+        if !(margin.is_finite() && margin > 0.0) {
+            return Err(Error::input(format!(
+                "window.margin must be > 0, got {margin}"
+            )));
+        }
+        match (self.rule.as_deref(), self.center, self.width) {
+            (None | Some("fixed"), Some(center), Some(width)) => {
+                Ok(WindowRule::Fixed(Window::new(center, width, pixels)?))
+            }
+            (None | Some("fixed"), _, _) => Err(Error::input(
+                "window: a fixed window needs center = [x, y] and width",
+            )),
+            (Some("central"), None, None) => Ok(WindowRule::Central { margin, pixels }),
+            (Some("planetary"), None, None) => Ok(WindowRule::Planetary { margin, pixels }),
+            (Some("central" | "planetary"), _, _) => Err(Error::input(
+                "window: center and width go with rule = \"fixed\" only",
+            )),
+            (Some(other), _, _) => Err(Error::input(format!(
+                "window.rule: unknown rule '{other}' (fixed, central or planetary)"
+            ))),
+        }
+    }
+}
+
+impl WindowRule {
+    /// The window of the binary (s, q).
+    ///
+    /// ```
+    /// use causeway::{lens::LensSystem, store::library::WindowRule};
+    /// let lens = LensSystem::binary(1.5, 1e-3).unwrap();
+    /// let w = WindowRule::Planetary { margin: 1.5, pixels: 100 }.window(&lens).unwrap();
+    /// // The planetary caustic of a wide planet lies near s - 1/s from the host.
+    /// let host = -1.5 * 1e-3 / 1.001;
+    /// assert!((w.center.0 - (host + 1.5 - 1.0 / 1.5)).abs() < 0.02);
+    /// ```
+    pub fn window(&self, lens: &LensSystem) -> Result<Window> {
+        let (margin, pixels, central) = match *self {
+            WindowRule::Fixed(w) => return Ok(w),
+            WindowRule::Central { margin, pixels } => (margin, pixels, true),
+            WindowRule::Planetary { margin, pixels } => (margin, pixels, false),
+        };
+        let host = lens.lenses()[0].position;
+        let mut curves = caustic_curves(lens)?;
+        let distance = |c: &Vec<(f64, f64)>| {
+            let n = c.len().max(1) as f64;
+            let (x, y) = c.iter().fold((0.0, 0.0), |a, p| (a.0 + p.0, a.1 + p.1));
+            (x / n - host.re).hypot(y / n - host.im)
+        };
+        curves.sort_by(|a, b| distance(a).total_cmp(&distance(b)));
+        let chosen: Vec<&Vec<(f64, f64)>> = if central || curves.len() == 1 {
+            curves.iter().take(1).collect()
+        } else {
+            curves.iter().skip(1).collect()
+        };
+        let points = chosen.iter().flat_map(|c| c.iter());
+        let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+        for &(x, y) in points {
+            x0 = x0.min(x);
+            x1 = x1.max(x);
+            y0 = y0.min(y);
+            y1 = y1.max(y);
+        }
+        if x0 > x1 {
+            return Err(Error::Numerical(format!(
+                "{lens}: no caustic found to frame"
+            )));
+        }
+        let extent = (x1 - x0).max(y1 - y0).max(1e-9);
+        let mut centre = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
+        if lens.symmetric_about_x_axis() && centre.1.abs() < 1e-3 * extent {
+            centre.1 = 0.0; // the framed caustics are symmetric: drop sampling round-off
+        }
+        Window::new(centre, margin * extent, pixels)
+    }
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -110,8 +215,8 @@ pub struct LibrarySpec {
     pub s: Vec<f64>,
     /// Mass ratios.
     pub q: Vec<f64>,
-    /// Window of every map.
-    pub window: Window,
+    /// How each map's window is chosen.
+    pub window: WindowRule,
     /// Engine name.
     pub engine: String,
     /// Engine density.
@@ -194,8 +299,10 @@ impl LibrarySpec {
             Error::input(format!("{origin}:{line}: {msg}"))
         })?;
         let named = |e: Error| Error::input(format!("{origin}: {e}"));
-        let window =
-            Window::new(file.window.center, file.window.width, file.pixels).map_err(named)?;
+        if file.pixels == 0 {
+            return Err(Error::input(format!("{origin}: pixels must be at least 1")));
+        }
+        let window = file.window.rule(file.pixels).map_err(named)?;
         engine::by_name(&file.engine, file.rays).map_err(named)?;
         Ok(LibrarySpec {
             s: file.s.values("s").map_err(named)?,
@@ -218,11 +325,12 @@ impl LibrarySpec {
         for &q in &self.q {
             for &s in &self.s {
                 let lens = LensSystem::binary(s, q)?;
+                let window = self.window.window(&lens)?;
                 out.push(GridPoint {
                     index: out.len(),
                     s,
                     q,
-                    key: MapKey::new(lens, self.window, &self.engine, self.density),
+                    key: MapKey::new(lens, window, &self.engine, self.density),
                 });
             }
         }

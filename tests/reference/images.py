@@ -16,19 +16,24 @@ and near-caustic ones: a caustic point found with numpy.roots of the critical-cu
 sum_i m_i prod_{k!=i} (z-z_k)^2 = e^{i phi} prod_k (z-z_k)^2, mapped through the lens equation,
 moved by 1e-3 to 1e-1 of the caustic's size in a random direction.
 
+Columns: s, q (binary parameters; 0 for the lens lists), n, then x, y, m of up to four lenses
+(masses normalised; zero padding), the source (zeta_x, zeta_y), the image count, the
+magnification, kind (0: random source within 2 theta_E, 1: near a caustic, 2: next to a lens) and
+sensitivity: the relative change of the magnification for a source moved by eps (1 + |zeta|),
+the floor that double-precision rounding of the lens equation sets on any solver.
+
 Writes images.csv beside this file. `python3 images.py --check` regenerates the values and
-compares them with the committed file instead (exit status 1 on disagreement beyond round-off).
-Needs numpy and mpmath.
+compares them with the committed file instead (refcheck.py). Needs numpy and mpmath.
 """
 
-import csv
 import math
 import os
-import sys
 
 import mpmath
 import numpy as np
 from numpy.polynomial import polynomial as P
+
+from refcheck import emit
 
 mpmath.mp.dps = 40
 
@@ -258,32 +263,7 @@ HEADER = ["s", "q", "n"] + [f"{c}{i}" for i in range(1, 5) for c in ("x", "y", "
 
 
 def main():
-    data = rows()
-    if "--check" in sys.argv:
-        with open(OUT) as f:
-            old = [r for r in csv.reader(f) if r and not r[0].startswith("#")][1:]
-        bad = 0
-        if len(old) != len(data):
-            print(f"row count differs: committed {len(old)}, regenerated {len(data)}")
-            sys.exit(1)
-        for a, b in zip(old, data):
-            fa = [float(v) for v in a]
-            if int(fa[-4]) != b[-4] or abs(fa[-3] - b[-3]) > 1e-12 * abs(b[-3]):
-                bad += 1
-                print("differs:", a, b)
-        print(f"images.csv: {len(data) - bad} passed, {bad} failed")
-        sys.exit(1 if bad else 0)
-    with open(OUT, "w", newline="") as f:
-        f.write("# Point-source images, reference values from tests/reference/images.py "
-                "(numpy.roots + 40-digit Newton polish on the lens equation).\n")
-        f.write("# kind: 0 random source within 2 theta_E, 1 near a caustic, 2 next to a lens.\n")
-        f.write("# sensitivity: relative change of the magnification for a source moved by "
-                "eps (1 + |zeta|).\n")
-        w = csv.writer(f, lineterminator="\n")
-        w.writerow(HEADER)
-        for r in data:
-            w.writerow([repr(v) if isinstance(v, float) else v for v in r])
-    print(f"wrote {len(data)} rows to {OUT}")
+    emit(OUT, HEADER, rows())
 
 
 if __name__ == "__main__":

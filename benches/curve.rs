@@ -1,0 +1,121 @@
+//! Finite-source light-curve throughput at rho = 10 pixels, one thread, in points per second.
+//!
+//! - `direct_uniform`: exact overlap weights (interior pixels summed, rim pixels in closed form),
+//!   against `baseline_every_pixel_overlap`, the same read computing the closed-form overlap for
+//!   every pixel of the disk's bounding square;
+//! - `direct_linear_ld`: the same for a linear limb-darkened source (a sum of uniform disks);
+//! - `convolved_read`: bilinear reads of the pre-convolved map (the one-time FFT convolution is
+//!   timed separately as `convolve_map`).
+//!
+//! Map: binary s = 1, q = 0.1, 1000 x 1000 pixels over 2 theta_E (values do not change speed).
+//! Run: `cargo bench --bench curve`
+
+use causeway::curve::{DirectReader, Evaluation, Preconvolved, Sampler};
+use causeway::engine::{Engine, RayShooting};
+use causeway::lens::LensSystem;
+use causeway::map::{MagnificationMap, Window};
+use causeway::source::{disk_rect_overlap, LimbDarkening, SourceProfile};
+use criterion::{criterion_group, criterion_main, Criterion, Throughput};
+use std::hint::black_box;
+
+const POINTS: usize = 20_000;
+
+/// Uniform-disk read computing the overlap of every pixel of the bounding square.
+fn baseline(map: &MagnificationMap, rho: f64, x: f64, y: f64) -> f64 {
+    let w = &map.window;
+    let d = w.pixel_size();
+    let (x0, y0) = w.origin();
+    let (u, v, r) = ((x - x0) / d, (y - y0) / d, rho / d);
+    let mut sum = 0.0;
+    for iy in (v - r).floor() as usize..=(v + r).floor() as usize {
+        for ix in (u - r).floor() as usize..=(u + r).floor() as usize {
+            let (a, b) = (ix as f64, iy as f64);
+            sum += disk_rect_overlap(u, v, r, a, a + 1.0, b, b + 1.0) * map.data[[iy, ix]] as f64;
+        }
+    }
+    sum / (std::f64::consts::PI * r * r)
+}
+
+fn points() -> Vec<(f64, f64)> {
+    let mut state = 12345u64;
+    let mut next = || {
+        state = state
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        -0.9 + 1.8 * ((state >> 11) as f64 / (1u64 << 53) as f64)
+    };
+    (0..POINTS).map(|_| (next(), next())).collect()
+}
+
+fn bench(c: &mut Criterion) {
+    let lens = LensSystem::binary(1.0, 0.1).unwrap();
+    let window = Window::new((0.0, 0.0), 2.0, 1000).unwrap();
+    let map = RayShooting::new(1.0).build(&lens, &window).unwrap();
+    let rho = 10.0 * window.pixel_size();
+    let uniform = SourceProfile::uniform(rho).unwrap();
+    let linear = SourceProfile::new(rho, LimbDarkening::Linear { u: 0.6 }).unwrap();
+    let pts = points();
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .unwrap();
+
+    let mut group = c.benchmark_group("curve_rho_10px");
+    group.sample_size(10);
+    group.throughput(Throughput::Elements(POINTS as u64));
+    group.bench_function("baseline_every_pixel_overlap", |b| {
+        b.iter(|| {
+            pts.iter()
+                .map(|&(x, y)| baseline(&map, rho, x, y))
+                .sum::<f64>()
+        })
+    });
+    let direct = DirectReader::new(&map, &uniform);
+    group.bench_function("direct_uniform", |b| {
+        b.iter(|| {
+            pts.iter()
+                .map(|&(x, y)| direct.read(x, y).unwrap())
+                .sum::<f64>()
+        })
+    });
+    let direct_ld = DirectReader::new(&map, &linear);
+    group.bench_function("direct_linear_ld", |b| {
+        b.iter(|| {
+            pts.iter()
+                .map(|&(x, y)| direct_ld.read(x, y).unwrap())
+                .sum::<f64>()
+        })
+    });
+    let conv = Preconvolved::new(&map, &uniform).unwrap();
+    group.bench_function("convolved_read", |b| {
+        b.iter(|| {
+            pts.iter()
+                .map(|&(x, y)| conv.read(x, y).unwrap())
+                .sum::<f64>()
+        })
+    });
+    group.bench_function("sampler_auto_1_thread", |b| {
+        b.iter(|| {
+            pool.install(|| {
+                Sampler::new(uniform)
+                    .map(&map)
+                    .evaluation(Evaluation::Auto)
+                    .sample(&pts)
+                    .unwrap()
+            })
+        })
+    });
+    group.finish();
+
+    let mut once = c.benchmark_group("convolve_map_1000px");
+    once.sample_size(10);
+    for (name, profile) in [("uniform", uniform), ("linear_ld", linear)] {
+        once.bench_function(name, |b| {
+            b.iter(|| pool.install(|| black_box(Preconvolved::new(&map, &profile).unwrap())))
+        });
+    }
+    once.finish();
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);

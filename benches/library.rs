@@ -1,0 +1,87 @@
+//! Library builds: wall time of a 5 x 5 grid of 500^2 maps, and, as a stand-in for cluster
+//! scaling, two shards built at once with one thread each against the whole grid with one
+//! thread, measured in the same run.
+//!
+//! Run: `cargo bench --bench library`
+
+use causeway::store::library::{build, LibrarySpec, Shard};
+use causeway::store::Store;
+use criterion::{criterion_group, criterion_main, Criterion};
+use std::time::{Duration, Instant};
+
+const SPEC: &str = "s = { log = [0.5, 2.0, 5] }\nq = { log = [1e-4, 1e-1, 5] }\npixels = 500\n\
+                    rays = 100\n[window]\ncenter = [0.0, 0.0]\nwidth = 2.0\n";
+
+fn fresh_store(tag: &str) -> Store {
+    let dir = std::env::temp_dir().join(format!(
+        "causeway-bench-library-{}-{tag}",
+        std::process::id()
+    ));
+    let _ = std::fs::remove_dir_all(&dir);
+    Store::open(&dir).unwrap()
+}
+
+fn pool(threads: usize) -> rayon::ThreadPool {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .unwrap()
+}
+
+fn bench(c: &mut Criterion) {
+    let spec = LibrarySpec::parse(SPEC, "bench").unwrap();
+    let mut group = c.benchmark_group("library_5x5_500px");
+    group
+        .sample_size(10)
+        .measurement_time(Duration::from_secs(60));
+    group.bench_function("whole_grid_1_thread", |b| {
+        b.iter_custom(|iters| {
+            let mut total = Duration::ZERO;
+            for _ in 0..iters {
+                let store = fresh_store("whole");
+                let points = spec.points().unwrap();
+                let started = Instant::now();
+                pool(1).install(|| build(&store, &points, |_, _| {}).unwrap());
+                total += started.elapsed();
+            }
+            total
+        })
+    });
+    group.bench_function("two_shards_1_thread_each", |b| {
+        b.iter_custom(|iters| {
+            let mut total = Duration::ZERO;
+            for _ in 0..iters {
+                let store = fresh_store("shards");
+                let started = Instant::now();
+                std::thread::scope(|scope| {
+                    for k in 1..=2 {
+                        let (store, spec) = (&store, &spec);
+                        scope.spawn(move || {
+                            let points = spec.shard(Shard { k, n: 2 }).unwrap();
+                            pool(1).install(|| build(store, &points, |_, _| {}).unwrap());
+                        });
+                    }
+                });
+                total += started.elapsed();
+            }
+            total
+        })
+    });
+    group.bench_function("whole_grid_2_threads", |b| {
+        b.iter_custom(|iters| {
+            let mut total = Duration::ZERO;
+            for _ in 0..iters {
+                let store = fresh_store("whole2");
+                let points = spec.points().unwrap();
+                let started = Instant::now();
+                pool(2).install(|| build(&store, &points, |_, _| {}).unwrap());
+                total += started.elapsed();
+            }
+            total
+        })
+    });
+    group.finish();
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);

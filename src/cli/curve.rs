@@ -1,0 +1,369 @@
+//! `causeway curve`: the light curve of a finite source along a path or a straight trajectory.
+
+use super::library::StoreArgs;
+use super::map::{build_reported, default_memory_limit, parse_size};
+use super::{parse_pair, LensArgs, ThreadArgs};
+use crate::curve::{
+    plan_window, plot_png, read_times, time_range, Evaluation, PointMagnification, Sampler,
+    SourcePath, StraightLine,
+};
+use crate::engine::RayShooting;
+use crate::error::{Error, Result};
+use crate::map::{read_fits, MagnificationMap};
+use crate::solve::ImageSolver;
+use crate::source::{LimbDarkening, SourceProfile};
+use crate::store::MapKey;
+use crate::table::fmt_f64;
+use clap::{Args, ValueEnum};
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+/// Magnitude zero point used when `--zero-point` is not given: flux 1 is magnitude 22.
+pub const DEFAULT_ZERO_POINT: f64 = 22.0;
+
+/// Options of `causeway curve`.
+#[derive(Debug, Args)]
+#[command(
+    allow_negative_numbers = true,
+    after_help = "Examples:\n  \
+        causeway curve --map planet.fits --t0 0 --u0 0.05 --te 30 --alpha 40 --time-range -20,20,2001 --rho 0.002 --ld 0.6\n  \
+        causeway curve --s 1.25 --q 2e-3 --path path.csv --rho 0.003 --png curve.png\n\n\
+        The CSV on stdout has t (when times exist), x, y, magnification and method: direct or \
+        convolved (map read under the source), bilinear (point source on the map), expansion \
+        (off the map: point source plus hexadecapole correction) or point (off the map, rho = 0); \
+        with --fs also flux = fs A + fb and magnitude = zp - 2.5 log10(flux), zp 22 by default."
+)]
+pub struct CurveArgs {
+    /// Magnification map (FITS) to read.
+    #[arg(long, value_name = "FILE.fits", conflicts_with_all = ["s", "q", "lenses"])]
+    pub map: Option<PathBuf>,
+    #[command(flatten)]
+    pub lens: LensArgs,
+    /// Source positions: CSV with header x,y or t,x,y.
+    #[arg(long, value_name = "FILE", conflicts_with_all = ["t0", "u0", "te", "alpha", "times", "time_range"])]
+    pub path: Option<PathBuf>,
+    /// Time of closest approach to the origin (days).
+    #[arg(long, value_name = "T0")]
+    pub t0: Option<f64>,
+    /// Signed impact parameter (Einstein radii).
+    #[arg(long, value_name = "U0")]
+    pub u0: Option<f64>,
+    /// Einstein timescale (days).
+    #[arg(long, value_name = "TE")]
+    pub te: Option<f64>,
+    /// Direction of motion, degrees from the x axis.
+    #[arg(long, value_name = "DEG")]
+    pub alpha: Option<f64>,
+    /// Times: CSV with header t.
+    #[arg(long, value_name = "FILE", conflicts_with = "time_range")]
+    pub times: Option<PathBuf>,
+    /// Times: START,END,COUNT evenly spaced, ends included.
+    #[arg(long, value_name = "START,END,COUNT", allow_hyphen_values = true)]
+    pub time_range: Option<String>,
+    /// Source radius (Einstein radii); 0 for a point source.
+    #[arg(long, default_value_t = 0.0, value_name = "R")]
+    pub rho: f64,
+    /// Linear limb-darkening coefficient u in [0, 1].
+    #[arg(long, value_name = "U", conflicts_with = "ld_sqrt")]
+    pub ld: Option<f64>,
+    /// Square-root limb-darkening coefficients c,d in [0, 1].
+    #[arg(long, value_name = "C,D", value_parser = parse_pair)]
+    pub ld_sqrt: Option<(f64, f64)>,
+    /// Relative tolerance of the off-map continuation.
+    #[arg(long, default_value_t = Sampler::DEFAULT_TOL, value_name = "T")]
+    pub tol: f64,
+    /// How map reads under the source are made.
+    #[arg(long, value_enum, default_value_t = EvaluationArg::Auto)]
+    pub evaluation: EvaluationArg,
+    /// Source flux: adds the columns flux = fs A + fb and magnitude.
+    #[arg(long, value_name = "FS")]
+    pub fs: Option<f64>,
+    /// Blend flux (with --fs).
+    #[arg(long, value_name = "FB", requires = "fs", default_value_t = 0.0)]
+    pub fb: f64,
+    /// Magnitude of unit flux.
+    #[arg(long, value_name = "ZP", default_value_t = DEFAULT_ZERO_POINT)]
+    pub zero_point: f64,
+    /// Also plot the curve (magnification against time, or against distance along the path).
+    #[arg(long, value_name = "FILE.png")]
+    pub png: Option<PathBuf>,
+    /// With a lens: map pixels per source radius.
+    #[arg(long, default_value_t = 10.0, value_name = "P")]
+    pub pixels_per_rho: f64,
+    /// With a lens: rays per unlensed pixel area of the map built.
+    #[arg(long, default_value_t = 400.0, value_name = "R")]
+    pub rays: f64,
+    /// Largest working memory allowed, e.g. 4G (default: half the RAM).
+    #[arg(long, value_name = "SIZE", value_parser = parse_size)]
+    pub max_memory: Option<u64>,
+    #[command(flatten)]
+    pub store: StoreArgs,
+    #[command(flatten)]
+    pub threads: ThreadArgs,
+}
+
+/// `--evaluation` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum EvaluationArg {
+    /// Pre-convolve when there are enough points to pay for it.
+    Auto,
+    /// Exact overlap weights at every point.
+    Direct,
+    /// Convolve the map once, then interpolate.
+    Convolved,
+}
+
+impl CurveArgs {
+    fn profile(&self) -> Result<SourceProfile> {
+        let law = match (self.ld, self.ld_sqrt) {
+            (Some(u), None) => LimbDarkening::Linear { u },
+            (None, Some((c, d))) => LimbDarkening::SquareRoot { c, d },
+            _ => LimbDarkening::Uniform,
+        };
+        SourceProfile::new(self.rho, law)
+    }
+
+    fn path(&self) -> Result<SourcePath> {
+        if let Some(p) = &self.path {
+            return SourcePath::read(p);
+        }
+        let (Some(t0), Some(u0), Some(te), Some(alpha)) = (self.t0, self.u0, self.te, self.alpha)
+        else {
+            return Err(Error::input(
+                "give the source path as --path FILE, or --t0 --u0 --te --alpha with --times \
+                 FILE or --time-range START,END,COUNT",
+            ));
+        };
+        let line = StraightLine::new(t0, u0, te, alpha.to_radians())?;
+        let times = match (&self.times, &self.time_range) {
+            (Some(f), None) => read_times(f)?,
+            (None, Some(r)) => parse_range(r)?,
+            _ => {
+                return Err(Error::input(
+                    "a straight trajectory needs --times FILE or --time-range START,END,COUNT",
+                ))
+            }
+        };
+        Ok(line.path(&times))
+    }
+}
+
+/// Parses `START,END,COUNT`.
+fn parse_range(s: &str) -> Result<Vec<f64>> {
+    let bad = || Error::input(format!("--time-range: expected START,END,COUNT, got '{s}'"));
+    let parts: Vec<&str> = s.split(',').map(str::trim).collect();
+    let [a, b, n] = parts.as_slice() else {
+        return Err(bad());
+    };
+    let (a, b): (f64, f64) = (a.parse().map_err(|_| bad())?, b.parse().map_err(|_| bad())?);
+    time_range(a, b, n.parse().map_err(|_| bad())?)
+}
+
+/// Runs `causeway curve`.
+pub fn run(args: CurveArgs) -> Result<()> {
+    args.threads.install()?;
+    let profile = args.profile()?;
+    let path = args.path()?;
+    for (name, v) in [
+        ("--fs", args.fs.unwrap_or(1.0)),
+        ("--fb", args.fb),
+        ("--zero-point", args.zero_point),
+    ] {
+        if !v.is_finite() {
+            return Err(Error::input(format!("{name}: must be finite, got {v}")));
+        }
+    }
+    if let Some(png) = &args.png {
+        if png.extension().and_then(|e| e.to_str()) != Some("png") {
+            return Err(Error::input(format!(
+                "--png: expected a .png file name, got '{}'",
+                png.display()
+            )));
+        }
+    }
+    let limit = args.max_memory.unwrap_or_else(default_memory_limit);
+    let (map, lens) = match &args.map {
+        Some(file) => {
+            let map = read_fits(file)?;
+            let lens = map.provenance.lens.clone();
+            (Some(map), lens)
+        }
+        None => {
+            let lens = args.lens.lens_system()?;
+            let map = needed_map(&args, &lens, &profile, &path.points, limit)?;
+            (map, lens)
+        }
+    };
+    let evaluation = match args.evaluation {
+        EvaluationArg::Auto => Evaluation::Auto,
+        EvaluationArg::Direct => Evaluation::Direct,
+        EvaluationArg::Convolved => Evaluation::Convolved,
+    };
+    let solver = solver_for(&lens);
+    let point: &dyn PointMagnification = match &solver {
+        Some(s) => s,
+        None => &lens,
+    };
+    let mut sampler = Sampler::new(profile)
+        .lens(point)
+        .tol(args.tol)
+        .evaluation(evaluation)
+        .memory_limit(limit);
+    if let Some(m) = &map {
+        sampler = sampler.map(m);
+    }
+    let curve = sampler.sample(&path.points)?;
+    for w in &curve.warnings {
+        eprintln!("{w}");
+    }
+    let csv = format_csv(&args, &path, &curve.samples)?;
+    if let Some(png) = &args.png {
+        let abscissa = path
+            .times
+            .clone()
+            .unwrap_or_else(|| distances(&path.points));
+        let label = if path.times.is_some() {
+            "t (days)"
+        } else {
+            "distance along the path (Einstein radii)"
+        };
+        plot_png(&curve.samples, &abscissa, label, png)?;
+        eprintln!("wrote {}", png.display());
+    }
+    print!("{csv}");
+    Ok(())
+}
+
+/// The off-map continuation's point source: a solver built once for two to four lenses; `None`
+/// for one lens (closed form) or more than four (the lens system then reports, when a point
+/// needs it, that the solver does not take that many).
+fn solver_for(lens: &crate::lens::LensSystem) -> Option<ImageSolver> {
+    (lens.len() > 1)
+        .then(|| ImageSolver::new(lens).ok())
+        .flatten()
+}
+
+/// Cumulative distance along a path, from 0.
+fn distances(points: &[(f64, f64)]) -> Vec<f64> {
+    let mut d = 0.0;
+    let mut out = Vec::with_capacity(points.len());
+    for (k, p) in points.iter().enumerate() {
+        if k > 0 {
+            d += (p.0 - points[k - 1].0).hypot(p.1 - points[k - 1].1);
+        }
+        out.push(d);
+    }
+    out
+}
+
+/// The map the path needs (none when the continuation serves it all), from the store when it
+/// is there, else built and stored.
+fn needed_map(
+    args: &CurveArgs,
+    lens: &crate::lens::LensSystem,
+    profile: &SourceProfile,
+    points: &[(f64, f64)],
+    limit: u64,
+) -> Result<Option<MagnificationMap>> {
+    let solver = solver_for(lens);
+    let point: &dyn PointMagnification = match &solver {
+        Some(s) => s,
+        None => lens,
+    };
+    let Some(window) = plan_window(point, profile, points, args.tol, args.pixels_per_rho)? else {
+        return Ok(None);
+    };
+    let engine = RayShooting::try_new(args.rays)?;
+    let store = args.store.open()?;
+    let key = MapKey::new(lens.clone(), window, "rays", args.rays);
+    if let Some(map) = store.get(&key)? {
+        eprintln!("using stored map {}", store.path_of(&key).display());
+        return Ok(Some(map));
+    }
+    eprintln!(
+        "building a map: {0} x {0} pixels over {1} centred on ({2}, {3})",
+        window.pixels, window.width, window.center.0, window.center.1
+    );
+    let map = build_reported(&engine, lens, &window, limit)?;
+    let file = store.put(&map)?;
+    eprintln!("stored {}", file.display());
+    Ok(Some(map))
+}
+
+/// The output table.
+fn format_csv(
+    args: &CurveArgs,
+    path: &SourcePath,
+    samples: &[crate::curve::Sample],
+) -> Result<String> {
+    let mut out = String::new();
+    let times = path.times.as_deref();
+    if times.is_some() {
+        out.push_str("t,");
+    }
+    out.push_str("x,y,magnification,method");
+    if args.fs.is_some() {
+        out.push_str(",flux,magnitude");
+    }
+    out.push('\n');
+    for (k, s) in samples.iter().enumerate() {
+        if let Some(t) = times {
+            let _ = write!(out, "{},", fmt_f64(t[k]));
+        }
+        let _ = write!(
+            out,
+            "{},{},{},{}",
+            fmt_f64(s.x),
+            fmt_f64(s.y),
+            fmt_f64(s.magnification),
+            s.method.name()
+        );
+        if let Some(fs) = args.fs {
+            let flux = fs * s.magnification + args.fb;
+            if flux <= 0.0 {
+                return Err(Error::input(format!(
+                    "--fs/--fb: flux {flux} at point {} is not positive (no magnitude)",
+                    k + 1
+                )));
+            }
+            let mag = args.zero_point - 2.5 * flux.log10();
+            let _ = write!(out, ",{},{}", fmt_f64(flux), fmt_f64(mag));
+        }
+        out.push('\n');
+    }
+    Ok(out)
+}
+
+/// The demo's light curve: a limb-darkened source (rho = 0.003, u = 0.5) crossing the
+/// planetary caustic of the demo map at 60 degrees (t0 = 0, u0 = -0.388, tE = 30 days), eight
+/// days around the crossing; writes `demo-curve.csv` and `demo-curve.png` into `out`.
+pub fn demo_curve(map: &MagnificationMap, out: &std::path::Path) -> Result<()> {
+    let line = StraightLine::new(0.0, -0.388, 30.0, 60f64.to_radians())?;
+    let times = time_range(2.72, 10.72, 801)?;
+    let path = line.path(&times);
+    let profile = SourceProfile::new(0.003, LimbDarkening::Linear { u: 0.5 })?;
+    let lens = map.provenance.lens.clone();
+    let curve = Sampler::new(profile)
+        .map(map)
+        .lens(&lens)
+        .sample(&path.points)?;
+    let mut csv = String::from("t,x,y,magnification,method\n");
+    for (t, s) in times.iter().zip(&curve.samples) {
+        let _ = writeln!(
+            csv,
+            "{},{},{},{},{}",
+            fmt_f64(*t),
+            fmt_f64(s.x),
+            fmt_f64(s.y),
+            fmt_f64(s.magnification),
+            s.method.name()
+        );
+    }
+    let file = out.join("demo-curve.csv");
+    crate::fsutil::write_atomic(&file, csv.as_bytes())?;
+    eprintln!("wrote {}", file.display());
+    let png = out.join("demo-curve.png");
+    plot_png(&curve.samples, &times, "t (days)", &png)?;
+    eprintln!("wrote {}", png.display());
+    Ok(())
+}
