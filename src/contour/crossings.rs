@@ -7,18 +7,10 @@
 //! the traced caustic and the midpoints between successive crossings: each stretch of the
 //! boundary inside or outside a caustic then holds a sample.
 //!
-//! The critical curves are the roots of `B(z) - e^{i phi} A(z)` (Witt 1990; see
-//! [`crate::solve::polynomial::critical_parts`]) for phases phi round the circle, each root
-//! followed from phase to phase by warm-started Aberth iterations; their images under the lens
-//! equation are the caustics.
+//! The caustics come from [`crate::caustics`] (adaptively sampled, cusps resolved).
 
 use crate::lens::LensSystem;
-use crate::solve::polynomial::{critical_parts, Poly};
-use crate::solve::roots::{aberth, circle_guesses};
 use num_complex::Complex64;
-
-/// Phases sampled round the critical curves.
-const PHASES: usize = 2048;
 
 /// Segments per bounding box.
 const CHUNK: usize = 32;
@@ -32,38 +24,17 @@ pub(crate) struct CausticTrace {
 }
 
 impl CausticTrace {
-    /// Traces the caustics of `lens` (none for a single lens, whose caustic is a point).
+    /// Traces the caustics of `lens` with [`crate::caustics::curves`] (none for a single lens,
+    /// whose caustic is a point). A lens whose caustics cannot be traced gets an empty trace:
+    /// the boundary sampling then relies on its even start and refinement alone.
     pub fn new(lens: &LensSystem) -> CausticTrace {
-        let n = lens.len();
-        if n < 2 {
+        if lens.len() < 2 {
             return CausticTrace::default();
         }
-        let pos: Vec<Complex64> = lens.lenses().iter().map(|l| l.position).collect();
-        let mass: Vec<f64> = lens.lenses().iter().map(|l| l.mass).collect();
-        let (a, b) = critical_parts(&pos, &mass);
-        let deg = 2 * n;
-        let mut roots = vec![Complex64::new(0.0, 0.0); deg];
-        let mut tracks: Vec<Vec<Complex64>> = vec![Vec::with_capacity(PHASES + 1); deg];
-        for k in 0..=PHASES {
-            let phase =
-                Complex64::from_polar(1.0, std::f64::consts::TAU * k as f64 / PHASES as f64);
-            let poly: Poly = b.combine(Complex64::new(1.0, 0.0), &a, -phase);
-            if k == 0 {
-                circle_guesses(poly.coeffs(), &mut roots);
-            }
-            if aberth(poly.coeffs(), &mut roots).is_none() {
-                circle_guesses(poly.coeffs(), &mut roots);
-                if aberth(poly.coeffs(), &mut roots).is_none() {
-                    continue;
-                }
-            }
-            for (t, &z) in tracks.iter_mut().zip(&roots) {
-                t.push(lens.source_position(z));
-            }
-        }
+        let curves = crate::caustics::curves(lens).unwrap_or_default();
         let mut segments = Vec::new();
-        for t in &tracks {
-            segments.extend(t.windows(2).map(|w| (w[0], w[1])));
+        for c in &curves {
+            segments.extend(c.caustic.windows(2).map(|w| (w[0], w[1])));
         }
         segments.retain(|(p, q)| p.is_finite() && q.is_finite());
         let boxes = segments
