@@ -18,6 +18,7 @@
 
 pub mod caustics;
 pub mod cli;
+pub mod contour;
 pub mod curve;
 pub mod engine;
 pub mod error;

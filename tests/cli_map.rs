@@ -45,6 +45,7 @@ fn bad_input_exits_2_naming_the_culprit_and_writes_nothing() {
         (with(&[], &["--s", "1", "--q", "0"]), "--q"),
         (with(&[], &["--s", "1", "--q", "-1e-3"]), "--q"),
         (with(&[], &["--s", "nan", "--q", "1e-3"]), "--s"),
+        (with(&[], &["--s", "-1", "--q", "1e-3"]), "--s"),
         (with(&[("--width", "NaN")], &binary), "--width"),
         (with(&[("--width", "-1")], &binary), "--width"),
         (with(&[("--center", "nan,0")], &binary), "--center"),

@@ -39,6 +39,8 @@ pub enum Command {
     Images(images::ImagesArgs),
     /// Critical curves and caustics as CSV, and a picture.
     Caustics(caustics::CausticsArgs),
+    /// Finite-source magnifications at listed points by contour integration.
+    Contour(contour::ContourArgs),
     /// Light curve of a finite source along a path or a straight trajectory.
     Curve(Box<curve::CurveArgs>),
 }
@@ -51,11 +53,13 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Library(args) => library::run(args),
         Command::Images(args) => images::run(args),
         Command::Caustics(args) => caustics::run(args),
+        Command::Contour(args) => contour::run(args),
         Command::Curve(args) => curve::run(*args),
     }
 }
 
 pub mod caustics;
+pub mod contour;
 pub mod curve;
 pub mod demo;
 pub mod images;
@@ -68,7 +72,7 @@ pub struct LensArgs {
     /// Binary separation s (Einstein radii of the total mass).
     #[arg(
         long,
-        allow_negative_numbers = true,
+        allow_hyphen_values = true,
         requires = "q",
         conflicts_with = "lenses"
     )]

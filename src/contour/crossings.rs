@@ -1,0 +1,121 @@
+//! Where a source boundary crosses the caustics: a polyline of the caustics, traced once per
+//! lens, and the angles at which a circle cuts it.
+//!
+//! A boundary that dips across a caustic between two boundary samples (over a cusp, say) gives
+//! both samples the same number of images, and the little image loop in between would be missed
+//! by linking alone. So the samples of every disk start with the angles where the boundary meets
+//! the traced caustic and the midpoints between successive crossings: each stretch of the
+//! boundary inside or outside a caustic then holds a sample.
+//!
+//! The caustics come from [`crate::caustics`] (adaptively sampled, cusps resolved).
+
+use crate::lens::LensSystem;
+use num_complex::Complex64;
+
+/// Segments per bounding box.
+const CHUNK: usize = 32;
+
+/// The caustics of a lens as line segments, in chunks with bounding boxes.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct CausticTrace {
+    segments: Vec<(Complex64, Complex64)>,
+    /// Per chunk: (min corner, max corner).
+    boxes: Vec<(Complex64, Complex64)>,
+}
+
+impl CausticTrace {
+    /// Traces the caustics of `lens` with [`crate::caustics::curves`] (none for a single lens,
+    /// whose caustic is a point). A lens whose caustics cannot be traced gets an empty trace:
+    /// the boundary sampling then relies on its even start and refinement alone.
+    pub fn new(lens: &LensSystem) -> CausticTrace {
+        if lens.len() < 2 {
+            return CausticTrace::default();
+        }
+        let curves = crate::caustics::curves(lens).unwrap_or_default();
+        let mut segments = Vec::new();
+        for c in &curves {
+            segments.extend(c.caustic.windows(2).map(|w| (w[0], w[1])));
+        }
+        segments.retain(|(p, q)| p.is_finite() && q.is_finite());
+        let boxes = segments
+            .chunks(CHUNK)
+            .map(|c| {
+                c.iter().fold(
+                    (
+                        Complex64::new(f64::INFINITY, f64::INFINITY),
+                        Complex64::new(f64::NEG_INFINITY, f64::NEG_INFINITY),
+                    ),
+                    |(lo, hi), (p, q)| {
+                        (
+                            Complex64::new(lo.re.min(p.re).min(q.re), lo.im.min(p.im).min(q.im)),
+                            Complex64::new(hi.re.max(p.re).max(q.re), hi.im.max(p.im).max(q.im)),
+                        )
+                    },
+                )
+            })
+            .collect();
+        CausticTrace { segments, boxes }
+    }
+
+    /// Angles in [0, 2 pi) at which the circle `|zeta - c| = rho` meets the traced caustics,
+    /// sorted.
+    pub fn crossings(&self, c: Complex64, rho: f64, out: &mut Vec<f64>) {
+        out.clear();
+        for (k, (lo, hi)) in self.boxes.iter().enumerate() {
+            if c.re + rho < lo.re || c.re - rho > hi.re || c.im + rho < lo.im || c.im - rho > hi.im
+            {
+                continue;
+            }
+            let end = ((k + 1) * CHUNK).min(self.segments.len());
+            for &(p, q) in &self.segments[k * CHUNK..end] {
+                // |p - c + t d|^2 = rho^2 for t in [0, 1].
+                let (w, d) = (p - c, q - p);
+                let aa = d.norm_sqr();
+                if aa == 0.0 {
+                    continue;
+                }
+                let bb = (w.conj() * d).re;
+                let cc = w.norm_sqr() - rho * rho;
+                let disc = bb * bb - aa * cc;
+                if disc < 0.0 {
+                    continue;
+                }
+                let root = disc.sqrt();
+                for t in [(-bb - root) / aa, (-bb + root) / aa] {
+                    if (0.0..=1.0).contains(&t) {
+                        let angle = (w + d * t).arg();
+                        out.push(if angle < 0.0 {
+                            angle + std::f64::consts::TAU
+                        } else {
+                            angle
+                        });
+                    }
+                }
+            }
+        }
+        out.sort_by(f64::total_cmp);
+        out.dedup();
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The equal-mass binary at s = 1 has an on-axis cusp at x = 0.34062501931660
+    /// (tests/reference/contour_lattice.py, numpy.roots of the critical-curve polynomial): a
+    /// small circle about it crosses the two folds that meet there, once each, at angles mirror
+    /// images of each other about the axis and on the side of the caustic (towards the origin).
+    #[test]
+    fn crossings_round_a_cusp() {
+        let trace = CausticTrace::new(&LensSystem::binary(1.0, 1.0).unwrap());
+        let mut out = Vec::new();
+        trace.crossings(Complex64::new(0.34062501931660, 0.0), 0.01, &mut out);
+        assert_eq!(out.len(), 2, "{out:?}");
+        let tau = std::f64::consts::TAU;
+        assert!((out[0] + out[1] - tau).abs() < 1e-3, "{out:?}");
+        assert!(out[0] > std::f64::consts::FRAC_PI_2 && out[0] < std::f64::consts::PI);
+        trace.crossings(Complex64::new(3.0, 0.0), 0.1, &mut out);
+        assert!(out.is_empty());
+    }
+}

@@ -1,0 +1,222 @@
+//! Contour-integration magnifications against outside references.
+
+mod common;
+
+use causeway::contour::{self, ContourSolver, Method};
+use causeway::lens::LensSystem;
+use causeway::source::{LimbDarkening, SourceProfile};
+use num_complex::Complex64;
+
+fn profile(rho: f64, ld: f64) -> SourceProfile {
+    let law = if ld == 0.0 {
+        LimbDarkening::Uniform
+    } else {
+        LimbDarkening::Linear { u: ld }
+    };
+    SourceProfile::new(rho, law).unwrap()
+}
+
+/// Single lens: uniform disks against the closed form of Witt & Mao 1994 (scipy.special elliptic
+/// integrals, cross-checked by a scipy.integrate quadrature), limb-darkened disks against a
+/// two-dimensional scipy.integrate quadrature; tests/reference/contour_single.py. Contours
+/// only (no shortcut), at tolerance 1e-5: within 1e-4 relative, and the reported error bounds
+/// the true one within a factor of ten.
+#[test]
+fn single_lens_against_witt_mao_and_quadrature() {
+    let table = common::reference("contour_single.csv", &["u", "rho", "ld", "magnification"]);
+    let lens = LensSystem::single();
+    let mut solver = ContourSolver::new(&lens, 1e-5)
+        .unwrap()
+        .with_shortcut(false);
+    let mut worst = 0.0f64;
+    for (row, line) in table.rows.iter().zip(&table.lines) {
+        let (u, rho, ld, want) = (row[0], row[1], row[2], row[3]);
+        let est = solver
+            .magnification(Complex64::new(u, 0.0), &profile(rho, ld))
+            .unwrap();
+        let rel = (est.magnification / want - 1.0).abs();
+        worst = worst.max(rel);
+        println!(
+            "line {line}: u={u} rho={rho} ld={ld}: {} vs {want}: rel {rel:.2e}, est {:.2e}",
+            est.magnification,
+            est.error / want
+        );
+        assert!(
+            rel < 1e-4,
+            "line {line}: u={u} rho={rho} ld={ld}: {} vs {want}",
+            est.magnification
+        );
+        assert!(
+            (est.magnification - want).abs() <= 10.0 * est.error + 1e-12 * want,
+            "line {line}: error estimate {} but off by {}",
+            est.error,
+            est.magnification - want
+        );
+    }
+    println!("worst relative error {worst:.2e}");
+}
+
+/// Binary lenses with sources straddling folds and cusps, boundaries clipping cusps, sources
+/// centred on cusps and on a lens, rho from 1e-4 to 0.5: against a brute-force count of
+/// image-plane lattice points mapped into the disk (numpy, 1000 lattice spacings per rho, good to
+/// about 1e-5; tests/reference/contour_lattice.py). Within 1e-4 relative at tolerance 1e-5, and
+/// within 2e-4 at the default 1e-4, with the shortcut allowed and without it.
+#[test]
+fn binaries_against_lattice_counts() {
+    let table = common::reference(
+        "contour_lattice.csv",
+        &["s", "q", "x", "y", "rho", "magnification"],
+    );
+    for (tol, limit) in [(1e-5, 1e-4), (1e-4, 2e-4)] {
+        for shortcut in [false, true] {
+            for (row, line) in table.rows.iter().zip(&table.lines) {
+                let (s, q, x, y, rho, want) = (row[0], row[1], row[2], row[3], row[4], row[5]);
+                let lens = LensSystem::binary(s, q).unwrap();
+                let mut solver = ContourSolver::new(&lens, tol)
+                    .unwrap()
+                    .with_shortcut(shortcut);
+                let est = solver
+                    .magnification(Complex64::new(x, y), &profile(rho, 0.0))
+                    .unwrap();
+                let rel = (est.magnification / want - 1.0).abs();
+                println!(
+                    "tol {tol:e} line {line}: s={s} q={q} rho={rho}: {} vs {want}: rel {rel:.2e}, est {:.2e} ({:?})",
+                    est.magnification,
+                    est.error / want,
+                    est.method
+                );
+                assert!(
+                    rel < limit,
+                    "tol {tol:e} line {line}: {} vs lattice {want} (shortcut {shortcut})",
+                    est.magnification
+                );
+            }
+        }
+    }
+}
+
+/// rho = 0 is the point source: the solver's magnification (itself checked against numpy and
+/// mpmath in tests/solve.rs), bit for bit.
+#[test]
+fn zero_radius_is_the_point_source() {
+    let lens = LensSystem::binary(1.2, 1e-3).unwrap();
+    let z = Complex64::new(0.3, 0.02);
+    let est = contour::magnification(&lens, z, &profile(0.0, 0.0), 1e-4).unwrap();
+    assert_eq!(est.method, Method::PointSource);
+    assert_eq!(
+        est.magnification,
+        causeway::solve::magnification(&lens, z).unwrap()
+    );
+}
+
+/// Far from caustics the shortcut is taken and agrees with the contour result within the
+/// tolerance; small-source expansion of Pejcha & Heyrovsky 2009 / Gould 2008 (the single-lens
+/// truth is Witt & Mao 1994, tests/reference/contour_single.csv line for u = 1, rho = 0.1).
+#[test]
+fn shortcut_far_from_caustics() {
+    let table = common::reference("contour_single.csv", &["u", "rho", "ld", "magnification"]);
+    let (i, _) = table
+        .rows
+        .iter()
+        .enumerate()
+        .find(|(_, r)| r[0] == 1.0 && r[1] == 0.1 && r[2] == 0.0)
+        .unwrap();
+    let want = table.rows[i][3];
+    let est = contour::magnification(
+        &LensSystem::single(),
+        Complex64::new(0.0, 1.0),
+        &profile(0.1, 0.0),
+        1e-4,
+    )
+    .unwrap();
+    assert_eq!(est.method, Method::SmallSource);
+    assert!(
+        (est.magnification / want - 1.0).abs() < 1e-4,
+        "{est:?} vs {want}"
+    );
+    // A source over a cusp of the caustic (the on-axis cusp of the equal-mass binary s = 1, at
+    // x = 0.34062501931660 from tests/reference/contour_lattice.py) must not take it.
+    let lens = LensSystem::binary(1.0, 1.0).unwrap();
+    let est = contour::magnification(
+        &lens,
+        Complex64::new(0.34062501931660, 0.01),
+        &profile(0.05, 0.0),
+        1e-4,
+    )
+    .unwrap();
+    assert_eq!(est.method, Method::Contour);
+}
+
+/// Results do not depend on the thread count or on the order of the points.
+#[test]
+fn batch_is_deterministic() {
+    let lens = LensSystem::binary(1.0, 1.0).unwrap();
+    let centers: Vec<Complex64> = (0..40)
+        .map(|k| Complex64::new(-0.5 + 0.025 * k as f64, 0.01))
+        .collect();
+    let source = profile(0.02, 0.5);
+    let all = contour::magnifications(&lens, &centers, &source, 1e-4).unwrap();
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .unwrap();
+    let one = pool.install(|| contour::magnifications(&lens, &centers, &source, 1e-4).unwrap());
+    assert_eq!(all, one);
+    let single = contour::magnification(&lens, centers[17], &source, 1e-4).unwrap();
+    assert_eq!(single, all[17]);
+}
+
+/// The command: CSV columns, one row per input row; bad input exits with status 2 and a
+/// one-line message naming the culprit.
+#[test]
+fn command_line() {
+    let dir = common::scratch("contour-cli");
+    let points = dir.join("points.csv");
+    std::fs::write(&points, "x,y\n0.5,0\n0,0.1\n").unwrap();
+    let out = common::causeway()
+        .args([
+            "contour", "--s", "1", "--q", "1", "--rho", "0.01", "--points",
+        ])
+        .arg(&points)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    let t =
+        causeway::table::Table::parse(&text, "stdout", &["x", "y", "magnification", "error"], &[])
+            .unwrap();
+    assert_eq!(t.rows.len(), 2);
+    assert_eq!(t.rows[1][..2], [0.0, 0.1]);
+    let bad = |extra: &[&str], needle: &str| {
+        let out = common::causeway()
+            .args(["contour", "--s", "1", "--q", "1", "--points"])
+            .arg(&points)
+            .args(extra)
+            .output()
+            .unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{extra:?}: {err}");
+        assert!(
+            err.contains(needle) && err.trim().lines().count() == 1,
+            "{extra:?}: {err}"
+        );
+        assert!(out.stdout.is_empty());
+    };
+    bad(&["--rho", "-0.1"], "--rho");
+    bad(&["--rho", "0.1", "--ld", "1.5"], "--ld");
+    bad(&["--rho", "0.1", "--tol", "0"], "--tol");
+    std::fs::write(dir.join("broken.csv"), "x,y\n0.1,0\n0.2,nan\n").unwrap();
+    let out = common::causeway()
+        .args([
+            "contour", "--s", "1", "--q", "1", "--rho", "0.01", "--points",
+        ])
+        .arg(dir.join("broken.csv"))
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("broken.csv:3"));
+}
