@@ -39,36 +39,10 @@ pub struct CurveArgs {
     pub map: Option<PathBuf>,
     #[command(flatten)]
     pub lens: LensArgs,
-    /// Source positions: CSV with header x,y or t,x,y.
-    #[arg(long, value_name = "FILE", conflicts_with_all = ["t0", "u0", "te", "alpha", "times", "time_range"])]
-    pub path: Option<PathBuf>,
-    /// Time of closest approach to the origin (days).
-    #[arg(long, value_name = "T0")]
-    pub t0: Option<f64>,
-    /// Signed impact parameter (Einstein radii).
-    #[arg(long, value_name = "U0")]
-    pub u0: Option<f64>,
-    /// Einstein timescale (days).
-    #[arg(long, value_name = "TE")]
-    pub te: Option<f64>,
-    /// Direction of motion, degrees from the x axis.
-    #[arg(long, value_name = "DEG")]
-    pub alpha: Option<f64>,
-    /// Times: CSV with header t.
-    #[arg(long, value_name = "FILE", conflicts_with = "time_range")]
-    pub times: Option<PathBuf>,
-    /// Times: START,END,COUNT evenly spaced, ends included.
-    #[arg(long, value_name = "START,END,COUNT", allow_hyphen_values = true)]
-    pub time_range: Option<String>,
-    /// Source radius (Einstein radii); 0 for a point source.
-    #[arg(long, default_value_t = 0.0, value_name = "R")]
-    pub rho: f64,
-    /// Linear limb-darkening coefficient u in [0, 1].
-    #[arg(long, value_name = "U", conflicts_with = "ld_sqrt")]
-    pub ld: Option<f64>,
-    /// Square-root limb-darkening coefficients c,d in [0, 1].
-    #[arg(long, value_name = "C,D", value_parser = parse_pair)]
-    pub ld_sqrt: Option<(f64, f64)>,
+    #[command(flatten)]
+    pub trajectory: TrajectoryArgs,
+    #[command(flatten)]
+    pub source: SourceArgs,
     /// Relative tolerance of the off-map continuation.
     #[arg(long, default_value_t = Sampler::DEFAULT_TOL, value_name = "T")]
     pub tol: f64,
@@ -102,6 +76,47 @@ pub struct CurveArgs {
     pub threads: ThreadArgs,
 }
 
+/// Where the source goes: a path file, or a straight trajectory at listed or evenly spaced
+/// times (shared by `curve` and `compare`).
+#[derive(Debug, Clone, Args)]
+pub struct TrajectoryArgs {
+    /// Source positions: CSV with header x,y or t,x,y.
+    #[arg(long, value_name = "FILE", conflicts_with_all = ["t0", "u0", "te", "alpha", "times", "time_range"])]
+    pub path: Option<PathBuf>,
+    /// Time of closest approach to the origin (days).
+    #[arg(long, value_name = "T0")]
+    pub t0: Option<f64>,
+    /// Signed impact parameter (Einstein radii).
+    #[arg(long, value_name = "U0")]
+    pub u0: Option<f64>,
+    /// Einstein timescale (days).
+    #[arg(long, value_name = "TE")]
+    pub te: Option<f64>,
+    /// Direction of motion, degrees from the x axis.
+    #[arg(long, value_name = "DEG")]
+    pub alpha: Option<f64>,
+    /// Times: CSV with header t.
+    #[arg(long, value_name = "FILE", conflicts_with = "time_range")]
+    pub times: Option<PathBuf>,
+    /// Times: START,END,COUNT evenly spaced, ends included.
+    #[arg(long, value_name = "START,END,COUNT", allow_hyphen_values = true)]
+    pub time_range: Option<String>,
+}
+
+/// The source: radius and limb darkening (shared by `curve` and `compare`).
+#[derive(Debug, Clone, Args)]
+pub struct SourceArgs {
+    /// Source radius (Einstein radii); 0 for a point source.
+    #[arg(long, default_value_t = 0.0, value_name = "R")]
+    pub rho: f64,
+    /// Linear limb-darkening coefficient u in [0, 1].
+    #[arg(long, value_name = "U", conflicts_with = "ld_sqrt")]
+    pub ld: Option<f64>,
+    /// Square-root limb-darkening coefficients c,d in [0, 1].
+    #[arg(long, value_name = "C,D", value_parser = parse_pair)]
+    pub ld_sqrt: Option<(f64, f64)>,
+}
+
 /// `--evaluation` values.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum EvaluationArg {
@@ -113,8 +128,9 @@ pub enum EvaluationArg {
     Convolved,
 }
 
-impl CurveArgs {
-    fn profile(&self) -> Result<SourceProfile> {
+impl SourceArgs {
+    /// The source profile these options describe (checked).
+    pub fn profile(&self) -> Result<SourceProfile> {
         let law = match (self.ld, self.ld_sqrt) {
             (Some(u), None) => LimbDarkening::Linear { u },
             (None, Some((c, d))) => LimbDarkening::SquareRoot { c, d },
@@ -122,8 +138,12 @@ impl CurveArgs {
         };
         SourceProfile::new(self.rho, law)
     }
+}
 
-    fn path(&self) -> Result<SourcePath> {
+impl TrajectoryArgs {
+    /// The source path these options describe: read from `--path`, or the straight line at the
+    /// `--times` / `--time-range` times.
+    pub fn path(&self) -> Result<SourcePath> {
         if let Some(p) = &self.path {
             return SourcePath::read(p);
         }
@@ -162,8 +182,8 @@ fn parse_range(s: &str) -> Result<Vec<f64>> {
 /// Runs `causeway curve`.
 pub fn run(args: CurveArgs) -> Result<()> {
     args.threads.install()?;
-    let profile = args.profile()?;
-    let path = args.path()?;
+    let profile = args.source.profile()?;
+    let path = args.trajectory.path()?;
     for (name, v) in [
         ("--fs", args.fs.unwrap_or(1.0)),
         ("--fb", args.fb),
@@ -199,23 +219,11 @@ pub fn run(args: CurveArgs) -> Result<()> {
         EvaluationArg::Direct => Evaluation::Direct,
         EvaluationArg::Convolved => Evaluation::Convolved,
     };
-    let solver = solver_for(&lens);
-    let point: &dyn PointMagnification = match &solver {
-        Some(s) => s,
-        None => &lens,
-    };
-    let mut sampler = Sampler::new(profile)
-        .lens(point)
+    let sampler = Sampler::new(profile)
         .tol(args.tol)
         .evaluation(evaluation)
         .memory_limit(limit);
-    if let Some(m) = &map {
-        sampler = sampler.map(m);
-    }
-    let curve = sampler.sample(&path.points)?;
-    for w in &curve.warnings {
-        eprintln!("{w}");
-    }
+    let curve = sample_reported(sampler, map.as_ref(), &lens, &path.points)?;
     let flux = args.fs.map(|fs| (fs, args.fb, args.zero_point));
     let csv = format_csv(path.times.as_deref(), &curve.samples, flux)?;
     if let Some(png) = &args.png {
@@ -235,6 +243,30 @@ pub fn run(args: CurveArgs) -> Result<()> {
     Ok(())
 }
 
+/// Samples `points` with `sampler` on `map` (when there is one), the off-map continuation
+/// using `lens`; prints the sampler's warnings on stderr.
+pub(super) fn sample_reported(
+    sampler: Sampler,
+    map: Option<&MagnificationMap>,
+    lens: &crate::lens::LensSystem,
+    points: &[(f64, f64)],
+) -> Result<crate::curve::Curve> {
+    let solver = solver_for(lens);
+    let point: &dyn PointMagnification = match &solver {
+        Some(s) => s,
+        None => lens,
+    };
+    let mut sampler = sampler.lens(point);
+    if let Some(m) = map {
+        sampler = sampler.map(m);
+    }
+    let curve = sampler.sample(points)?;
+    for w in &curve.warnings {
+        eprintln!("{w}");
+    }
+    Ok(curve)
+}
+
 /// The off-map continuation's point source: a solver built once for two to four lenses; `None`
 /// for one lens (closed form) or more than four (the lens system then reports, when a point
 /// needs it, that the solver does not take that many).
@@ -245,7 +277,7 @@ fn solver_for(lens: &crate::lens::LensSystem) -> Option<ImageSolver> {
 }
 
 /// Cumulative distance along a path, from 0.
-fn distances(points: &[(f64, f64)]) -> Vec<f64> {
+pub(super) fn distances(points: &[(f64, f64)]) -> Vec<f64> {
     let mut d = 0.0;
     let mut out = Vec::with_capacity(points.len());
     for (k, p) in points.iter().enumerate() {

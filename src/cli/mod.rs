@@ -43,6 +43,8 @@ pub enum Command {
     Contour(contour::ContourArgs),
     /// Light curve of a finite source along a path or a straight trajectory.
     Curve(Box<curve::CurveArgs>),
+    /// A light curve read from a map against contour integration at the same points.
+    Compare(Box<compare::CompareArgs>),
 }
 
 /// Runs a parsed command line.
@@ -55,10 +57,12 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Caustics(args) => caustics::run(args),
         Command::Contour(args) => contour::run(args),
         Command::Curve(args) => curve::run(*args),
+        Command::Compare(args) => compare::run(*args),
     }
 }
 
 pub mod caustics;
+pub mod compare;
 pub mod contour;
 pub mod curve;
 pub mod demo;
