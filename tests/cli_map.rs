@@ -7,16 +7,8 @@ use std::path::Path;
 
 /// Runs `causeway map` with the given arguments in `dir`; returns (status, stderr).
 fn map_in(dir: &Path, args: &[&str]) -> (i32, String) {
-    let out = common::causeway()
-        .current_dir(dir)
-        .arg("map")
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
+    let (code, _, stderr) = common::run_cli(dir, "map", args);
+    (code, stderr)
 }
 
 const GOOD: &[&str] = &[

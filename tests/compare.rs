@@ -26,17 +26,7 @@ fn write_single_lens_map(dir: &Path) {
 
 /// Runs `causeway compare` with `args` in `dir`; returns (status, stdout, stderr).
 fn compare_cli(dir: &Path, args: &[&str]) -> (i32, String, String) {
-    let out = common::causeway()
-        .arg("compare")
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8(out.stdout).unwrap(),
-        String::from_utf8(out.stderr).unwrap(),
-    )
+    common::run_cli(dir, "compare", args)
 }
 
 /// The CSV body as rows of fields (header checked against `header`).

@@ -440,17 +440,7 @@ fn small_sources_are_flagged_with_the_resolution_that_would_do() {
 
 /// Runs `causeway curve` with `args` in `dir`; returns (status, stdout, stderr).
 fn curve_cli(dir: &std::path::Path, args: &[&str]) -> (i32, String, String) {
-    let out = common::causeway()
-        .arg("curve")
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8(out.stdout).unwrap(),
-        String::from_utf8(out.stderr).unwrap(),
-    )
+    common::run_cli(dir, "curve", args)
 }
 
 #[test]

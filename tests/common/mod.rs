@@ -104,3 +104,18 @@ pub fn assert_thread_independent(
         assert_eq!(m.provenance.rays_landed, maps[0].provenance.rays_landed);
     }
 }
+
+/// Runs `causeway COMMAND ARGS...` in `dir`; returns (exit status, stdout, stderr).
+pub fn run_cli(dir: &Path, command: &str, args: &[&str]) -> (i32, String, String) {
+    let out = causeway()
+        .arg(command)
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
