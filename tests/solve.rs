@@ -1,5 +1,7 @@
 //! Point-source images against outside references.
 
+mod common;
+
 use causeway::lens::LensSystem;
 use causeway::solve::{self, ImageSolver};
 use causeway::table::Table;
@@ -256,4 +258,30 @@ fn batch_is_deterministic() {
         let a = solve::magnification(&lens, z).unwrap();
         assert!((a - one[i]).abs() <= 1e-11 * a);
     }
+}
+
+#[test]
+fn a_source_exactly_on_a_cusp_still_has_images() {
+    // Cusp of s = 1.2, q = 1e-3 on the axis, found with scipy in tests/reference/contour_lattice.py
+    // (row planet_cusp_centre_1e-3). At the cusp images merge; the solver returns the one-sided
+    // limit: a consistent set (3 or 5 images, parity rule of Rhie 1997 / Petters et al. 2001)
+    // with a diverging magnification.
+    let table = common::reference("contour_lattice.csv", &["s", "q", "x", "y", "rho"]);
+    let row = table
+        .rows
+        .iter()
+        .find(|r| r[0] == 1.2 && r[4] == 1e-3 && r[3] == 0.0)
+        .unwrap();
+    let lens = causeway::lens::LensSystem::binary(row[0], row[1]).unwrap();
+    let images =
+        causeway::solve::images(&lens, num_complex::Complex64::new(row[2], row[3])).unwrap();
+    assert!(
+        images.len() == 3 || images.len() == 5,
+        "{} images",
+        images.len()
+    );
+    let parity: i32 = images.iter().map(|i| i.parity as i32).sum();
+    assert_eq!(parity, 1 - 2);
+    let a: f64 = images.iter().map(|i| i.magnification).sum();
+    assert!(a > 1e4, "magnification {a}");
 }

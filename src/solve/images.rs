@@ -227,8 +227,31 @@ impl ImageSolver {
     /// The images of a point source at `zeta`, sorted by x then y. The slice lives in the
     /// solver's workspace until the next call.
     pub fn images(&mut self, zeta: Complex64) -> Result<&[Image]> {
-        self.solve(zeta)?;
+        self.solve_or_nudge(zeta)?;
         Ok(&self.images[..self.count])
+    }
+
+    /// Solves for `zeta`; where no consistent image set exists because the source sits exactly
+    /// on a caustic (at a cusp, images merge and the count is undefined), solves for the nearest
+    /// of four sources moved by 1e-10 (1 + |zeta|), the one-sided limits of the image set.
+    fn solve_or_nudge(&mut self, zeta: Complex64) -> Result<()> {
+        let first = match self.solve(zeta) {
+            Ok(()) => return Ok(()),
+            Err(e) => e,
+        };
+        let step = 1e-10 * (1.0 + zeta.norm());
+        for dir in [
+            Complex64::new(1.0, 0.0),
+            Complex64::new(0.0, 1.0),
+            Complex64::new(-1.0, 0.0),
+            Complex64::new(0.0, -1.0),
+        ] {
+            self.reset();
+            if self.solve(zeta + dir * step).is_ok() {
+                return Ok(());
+            }
+        }
+        Err(first)
     }
 
     /// Point-source magnification at `zeta`: sum over images of 1/|det J|. A source exactly
@@ -237,7 +260,7 @@ impl ImageSolver {
         if self.n == 1 && zeta == self.pos[0] {
             return Ok(f64::INFINITY);
         }
-        self.solve(zeta)?;
+        self.solve_or_nudge(zeta)?;
         Ok(self.images[..self.count]
             .iter()
             .map(|i| i.magnification)
