@@ -1,5 +1,7 @@
 //! Critical curves, caustics and binary topology against outside references.
 
+mod common;
+
 use causeway::caustics::{self, Curve, Topology};
 use causeway::lens::LensSystem;
 use causeway::table::Table;
@@ -39,13 +41,7 @@ fn curves_are_critical_and_closed() {
         LensSystem::binary(20.0, 1e-7).unwrap(),
         LensSystem::binary(1.0, 1e-7).unwrap(),
         LensSystem::new(&[(0.0, 0.0, 1.0), (1.1, 0.0, 1e-3), (0.3, 0.8, 3e-4)]).unwrap(),
-        LensSystem::new(&[
-            (0.0, 0.0, 1.0),
-            (0.7, 0.0, 0.5),
-            (0.0, 0.7, 0.5),
-            (-0.7, -0.1, 0.5),
-        ])
-        .unwrap(),
+        common::quadruple(),
     ];
     for lens in &lenses {
         let curves = caustics::curves(lens).unwrap();

@@ -125,13 +125,7 @@ fn parity_and_count_rules() {
         LensSystem::binary(0.8, 0.05).unwrap(),
         LensSystem::binary(1.6, 1e-2).unwrap(),
         LensSystem::new(&[(0.0, 0.0, 1.0), (0.8, 0.2, 0.3), (-0.3, 0.7, 0.2)]).unwrap(),
-        LensSystem::new(&[
-            (0.0, 0.0, 1.0),
-            (0.7, 0.0, 0.5),
-            (0.0, 0.7, 0.5),
-            (-0.7, -0.1, 0.5),
-        ])
-        .unwrap(),
+        common::quadruple(),
     ];
     for lens in &lenses {
         let n = lens.len() as i32;

@@ -365,9 +365,12 @@ pub fn build(
     mut progress: impl FnMut(&GridPoint, bool),
 ) -> Result<BuildSummary> {
     let mut summary = BuildSummary::default();
+    // Read the index once; an entry another builder adds meanwhile is only recorded again.
+    let indexed: std::collections::HashSet<String> =
+        store.entries()?.into_iter().map(|e| e.file).collect();
     for p in points {
         if let Some(map) = store.get(&p.key).ok().flatten() {
-            if !store.entries()?.iter().any(|e| e.file == p.key.file_name()) {
+            if !indexed.contains(&p.key.file_name()) {
                 store.record(super::Entry::of_map(&map, &p.key.file_name()))?;
             }
             summary.skipped += 1;

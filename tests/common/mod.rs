@@ -119,3 +119,15 @@ pub fn run_cli(dir: &Path, command: &str, args: &[&str]) -> (i32, String, String
         String::from_utf8_lossy(&out.stderr).into_owned(),
     )
 }
+
+/// A four-lens system (the solver's largest N) used by several tests: a host and three
+/// companions of half its mass around it.
+pub fn quadruple() -> causeway::lens::LensSystem {
+    causeway::lens::LensSystem::new(&[
+        (0.0, 0.0, 1.0),
+        (0.7, 0.0, 0.5),
+        (0.0, 0.7, 0.5),
+        (-0.7, -0.1, 0.5),
+    ])
+    .unwrap()
+}
