@@ -22,6 +22,7 @@ pub mod contour;
 pub mod curve;
 pub mod engine;
 pub mod error;
+pub mod fit;
 pub mod fsutil;
 pub mod lens;
 pub mod map;

@@ -1,0 +1,17 @@
+//! Fitting photometry: data sets, the single-lens baseline, the grid search over a map library,
+//! and the refinement of its best candidates.
+//!
+//! - `photometry`: data-set files (magnitudes or fluxes), per-set limb darkening and error scale;
+//! - `fluxes`: source and blend fluxes by linear least squares, chi^2;
+//! - `model`: the event model (binary lens, source, trajectory) and its exact magnifications;
+//! - `optimize`: local minimisation and curvature uncertainties;
+//! - `single`: the single-lens point-source fit that seeds the search;
+//! - `simulate`: synthetic photometry of a model;
+//! - `scales`: physical scales (theta_E, proper motion, masses, separation);
+//! - `search`: the grid search over the maps of a library;
+//! - `refine`: local refinement with exact magnifications.
+
+pub mod fluxes;
+pub mod model;
+pub mod optimize;
+pub mod photometry;

@@ -1,0 +1,168 @@
+//! Local minimisation of chi^2 (Nelder-Mead simplex, from the argmin crate) and parameter
+//! uncertainties from its curvature.
+//!
+//! The simplex is restarted once from its own minimum (common practice: a collapsed simplex can
+//! stop short of the minimum). Uncertainties are the square roots of the diagonal of
+//! `C = 2 H^-1`, `H` the Hessian of chi^2 by central differences (for chi^2, the inverse of half
+//! the Hessian is the covariance: Press et al., Numerical Recipes, section 15.6).
+
+use crate::error::{Error, Result};
+use argmin::core::{CostFunction, Executor, State};
+use argmin::solver::neldermead::NelderMead;
+
+/// Value returned for parameters outside the model's domain, so the simplex turns back.
+pub const INFEASIBLE: f64 = 1e300;
+
+struct Objective<'a>(&'a (dyn Fn(&[f64]) -> f64 + Sync));
+
+impl CostFunction for Objective<'_> {
+    type Param = Vec<f64>;
+    type Output = f64;
+    fn cost(&self, p: &Self::Param) -> std::result::Result<f64, argmin::core::Error> {
+        let v = (self.0)(p);
+        Ok(if v.is_finite() { v } else { INFEASIBLE })
+    }
+}
+
+/// A local minimum: parameters, value, and evaluations spent.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Minimum {
+    /// Parameters at the minimum.
+    pub x: Vec<f64>,
+    /// Function value there.
+    pub value: f64,
+    /// Function evaluations spent.
+    pub evaluations: u64,
+}
+
+/// Minimises `f` from `x0` with an initial simplex of steps `step` along each axis, until the
+/// spread of the simplex values is below `tolerance` (or `max_iters` iterations).
+///
+/// ```
+/// use causeway::fit::optimize::minimize;
+/// let rosen = |p: &[f64]| (1.0 - p[0]).powi(2) + 100.0 * (p[1] - p[0] * p[0]).powi(2);
+/// let m = minimize(&rosen, &[-1.2, 1.0], &[0.1, 0.1], 1e-12, 5000).unwrap();
+/// assert!((m.x[0] - 1.0).abs() < 1e-4 && (m.x[1] - 1.0).abs() < 1e-4);
+/// ```
+pub fn minimize(
+    f: &(dyn Fn(&[f64]) -> f64 + Sync),
+    x0: &[f64],
+    step: &[f64],
+    tolerance: f64,
+    max_iters: u64,
+) -> Result<Minimum> {
+    let mut x = x0.to_vec();
+    let mut evaluations = 0;
+    let mut value = f64::INFINITY;
+    for _ in 0..2 {
+        let mut simplex = vec![x.clone()];
+        for (i, &h) in step.iter().enumerate() {
+            let mut v = x.clone();
+            v[i] += h;
+            simplex.push(v);
+        }
+        let solver = NelderMead::new(simplex)
+            .with_sd_tolerance(tolerance)
+            .map_err(|e| Error::Numerical(format!("minimiser setup: {e}")))?;
+        let result = Executor::new(Objective(f), solver)
+            .configure(|state| state.max_iters(max_iters))
+            .run()
+            .map_err(|e| Error::Numerical(format!("minimiser: {e}")))?;
+        let state = result.state();
+        evaluations += state.get_func_counts().values().sum::<u64>();
+        if let Some(best) = state.get_best_param() {
+            if state.get_best_cost() <= value {
+                x = best.clone();
+                value = state.get_best_cost();
+            }
+        }
+    }
+    Ok(Minimum {
+        x,
+        value,
+        evaluations,
+    })
+}
+
+/// Covariance `2 H^-1` of the parameters at a minimum of a chi^2 `f`, with the Hessian `H` from
+/// central differences of steps `h`. `None` where `H` is not positive definite (a flat or
+/// saddle direction).
+///
+/// ```
+/// use causeway::fit::optimize::covariance;
+/// // chi^2 = (x/2)^2 + (y/3)^2 has sigma_x = 2, sigma_y = 3.
+/// let chi2 = |p: &[f64]| (p[0] / 2.0).powi(2) + (p[1] / 3.0).powi(2);
+/// let c = covariance(&chi2, &[0.0, 0.0], &[0.1, 0.1]).unwrap();
+/// assert!((c[0][0].sqrt() - 2.0).abs() < 1e-9 && (c[1][1].sqrt() - 3.0).abs() < 1e-9);
+/// ```
+pub fn covariance(
+    f: &(dyn Fn(&[f64]) -> f64 + Sync),
+    x: &[f64],
+    h: &[f64],
+) -> Option<Vec<Vec<f64>>> {
+    let n = x.len();
+    let at = |moves: &[(usize, f64)]| {
+        let mut p = x.to_vec();
+        for &(i, d) in moves {
+            p[i] += d * h[i];
+        }
+        f(&p)
+    };
+    let f0 = f(x);
+    let mut hess = vec![vec![0.0; n]; n];
+    for i in 0..n {
+        hess[i][i] = (at(&[(i, 1.0)]) - 2.0 * f0 + at(&[(i, -1.0)])) / (h[i] * h[i]);
+        for j in 0..i {
+            let v = (at(&[(i, 1.0), (j, 1.0)])
+                - at(&[(i, 1.0), (j, -1.0)])
+                - at(&[(i, -1.0), (j, 1.0)])
+                + at(&[(i, -1.0), (j, -1.0)]))
+                / (4.0 * h[i] * h[j]);
+            hess[i][j] = v;
+            hess[j][i] = v;
+        }
+    }
+    let inverse = invert_positive_definite(&hess)?;
+    Some(
+        inverse
+            .into_iter()
+            .map(|row| row.into_iter().map(|v| 2.0 * v).collect())
+            .collect(),
+    )
+}
+
+/// Inverse of a symmetric positive-definite matrix by Cholesky factorisation; `None` if it is
+/// not positive definite or not finite.
+fn invert_positive_definite(a: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {
+    let n = a.len();
+    let mut l = vec![vec![0.0; n]; n];
+    for i in 0..n {
+        for j in 0..=i {
+            let sum: f64 = a[i][j] - (0..j).map(|k| l[i][k] * l[j][k]).sum::<f64>();
+            if i == j {
+                if !(sum.is_finite() && sum > 0.0) {
+                    return None;
+                }
+                l[i][i] = sum.sqrt();
+            } else {
+                l[i][j] = sum / l[j][j];
+            }
+        }
+    }
+    // Columns of L^-1, then A^-1 = L^-T L^-1.
+    let mut linv = vec![vec![0.0; n]; n];
+    for c in 0..n {
+        for i in c..n {
+            let rhs = if i == c { 1.0 } else { 0.0 };
+            let sum: f64 = (c..i).map(|k| l[i][k] * linv[k][c]).sum();
+            linv[i][c] = (rhs - sum) / l[i][i];
+        }
+    }
+    let mut inv = vec![vec![0.0; n]; n];
+    for i in 0..n {
+        for j in 0..n {
+            inv[i][j] = (i.max(j)..n).map(|k| linv[k][i] * linv[k][j]).sum();
+        }
+    }
+    Some(inv)
+}
