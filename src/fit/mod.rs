@@ -15,3 +15,5 @@ pub mod fluxes;
 pub mod model;
 pub mod optimize;
 pub mod photometry;
+pub mod refine;
+pub mod search;

@@ -85,8 +85,10 @@ pub fn minimize(
 }
 
 /// Covariance `2 H^-1` of the parameters at a minimum of a chi^2 `f`, with the Hessian `H` from
-/// central differences of steps `h`. `None` where `H` is not positive definite (a flat or
-/// saddle direction).
+/// central differences. The step along each axis starts at `h` and is adapted (up to four
+/// times) until the second difference raises chi^2 by between 0.3 and 3, about one standard
+/// deviation: far enough above the round-off of chi^2, near enough to stay quadratic. `None`
+/// where `H` is not positive definite (a flat or saddle direction).
 ///
 /// ```
 /// use causeway::fit::optimize::covariance;
@@ -101,6 +103,32 @@ pub fn covariance(
     h: &[f64],
 ) -> Option<Vec<Vec<f64>>> {
     let n = x.len();
+    let f0 = f(x);
+    let mut h = h.to_vec();
+    for i in 0..n {
+        for _ in 0..4 {
+            let mut p = x.to_vec();
+            p[i] = x[i] + h[i];
+            let up = f(&p);
+            p[i] = x[i] - h[i];
+            let rise = up + f(&p) - 2.0 * f0;
+            if !rise.is_finite() || rise > 3.0 {
+                h[i] *= if rise.is_finite() {
+                    (1.0 / rise).sqrt()
+                } else {
+                    0.1
+                };
+            } else if rise < 0.3 {
+                h[i] *= if rise > 0.0 {
+                    (1.0 / rise).sqrt().min(10.0)
+                } else {
+                    10.0
+                };
+            } else {
+                break;
+            }
+        }
+    }
     let at = |moves: &[(usize, f64)]| {
         let mut p = x.to_vec();
         for &(i, d) in moves {
@@ -108,7 +136,6 @@ pub fn covariance(
         }
         f(&p)
     };
-    let f0 = f(x);
     let mut hess = vec![vec![0.0; n]; n];
     for i in 0..n {
         hess[i][i] = (at(&[(i, 1.0)]) - 2.0 * f0 + at(&[(i, -1.0)])) / (h[i] * h[i]);

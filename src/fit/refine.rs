@@ -1,0 +1,186 @@
+//! Refinement of search candidates: a local minimisation of chi^2 over
+//! (s, q, alpha, u0, t0, tE, rho) with exact magnifications, and uncertainties from its
+//! curvature.
+//!
+//! Every chi^2 here comes from [`BinaryModel::magnifications`]: the point-source magnification
+//! with its small-source correction far from caustics and contour integration near them, to the
+//! relative tolerance given, so the result does not depend on map pixels. The minimiser works
+//! on `(ln s, ln q, alpha, u0, t0, ln tE, ln rho)` (positive quantities stay positive); the
+//! uncertainties are mapped back to the natural parameters to first order.
+
+use super::fluxes::{fit_fluxes, FluxFit};
+use super::model::{BinaryModel, Trajectory};
+use super::optimize::{covariance, minimize, INFEASIBLE};
+use super::photometry::DataSet;
+use crate::error::Result;
+use std::f64::consts::{PI, TAU};
+use std::sync::atomic::{AtomicU64, Ordering};
+
+/// Names of the model parameters, in the order of [`Refined::sigma`].
+pub const PARAMETERS: [&str; 7] = ["s", "q", "alpha", "u0", "t0", "tE", "rho"];
+
+/// A refined minimum.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Refined {
+    /// The model at the minimum (with `u0 >= 0`, alpha in `[0, 2 pi)`).
+    pub model: BinaryModel,
+    /// Uncertainties of [`PARAMETERS`] (NaN where the curvature is not positive definite).
+    pub sigma: [f64; 7],
+    /// chi^2 at the minimum.
+    pub chi2: f64,
+    /// Source and blend fluxes of each data set.
+    pub fluxes: Vec<FluxFit>,
+    /// chi^2 evaluations spent.
+    pub evaluations: u64,
+}
+
+/// chi^2 of `model` over all data sets with exact magnifications, and the fluxes of each set.
+pub fn exact_chi2(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<(f64, Vec<FluxFit>)> {
+    let mut fluxes = Vec::with_capacity(data.len());
+    for set in data {
+        let a = model.magnifications(&set.times, set.limb_darkening, tol)?;
+        fluxes.push(fit_fluxes(set, &a));
+    }
+    Ok((fluxes.iter().map(|f| f.chi2).sum(), fluxes))
+}
+
+fn to_vector(m: &BinaryModel) -> Vec<f64> {
+    let l = m.trajectory.line();
+    vec![
+        m.s.ln(),
+        m.q.ln(),
+        l.alpha,
+        l.u0,
+        l.t0,
+        l.te.ln(),
+        m.rho.ln(),
+    ]
+}
+
+fn from_vector(p: &[f64]) -> Result<BinaryModel> {
+    Ok(BinaryModel {
+        s: p[0].exp(),
+        q: p[1].exp(),
+        rho: p[6].exp(),
+        trajectory: Trajectory::straight(p[4], p[3], p[5].exp(), p[2])?,
+    })
+}
+
+/// The same curve with `u0 >= 0` and alpha in `[0, 2 pi)` (the mirror twin when `u0 < 0`).
+pub fn canonical(model: &BinaryModel) -> BinaryModel {
+    let tr = if model.trajectory.line().u0 < 0.0 {
+        model.trajectory.mirrored()
+    } else {
+        model.trajectory
+    };
+    let l = *tr.line();
+    BinaryModel {
+        trajectory: Trajectory::straight(l.t0, l.u0, l.te, l.alpha.rem_euclid(TAU))
+            .expect("a valid trajectory stays valid"),
+        ..*model
+    }
+}
+
+/// Refines `start` by minimising the exact chi^2 (relative magnification tolerance `tol`),
+/// then measures the curvature at the minimum.
+pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -> Result<Refined> {
+    let evaluations = AtomicU64::new(0);
+    let chi2_to = |tol: f64| {
+        let evaluations = &evaluations;
+        move |p: &[f64]| {
+            evaluations.fetch_add(1, Ordering::Relaxed);
+            match from_vector(p) {
+                Ok(m) => exact_chi2(data, &m, tol).map_or(INFEASIBLE, |c| c.0),
+                Err(_) => INFEASIBLE,
+            }
+        }
+    };
+    let x0 = to_vector(start);
+    let te = start.trajectory.line().te;
+    let u0 = start.trajectory.line().u0.abs();
+    let step = [0.02, 0.1, 0.01, 0.02 * u0.max(0.01), 0.005 * te, 0.02, 0.1];
+    // Stop when the simplex's chi^2 values agree to 0.01.
+    let found = minimize(&chi2_to(tol), &x0, &step, 0.01, max_iters)?;
+    // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.
+    let h: Vec<f64> = step.iter().map(|s| 0.05 * s).collect();
+    let cov = covariance(&chi2_to(0.1 * tol), &found.x, &h);
+    let model = canonical(&from_vector(&found.x)?);
+    let (chi2_min, fluxes) = exact_chi2(data, &model, tol)?;
+    // Natural parameters from the minimiser's: d s = s d(ln s), and so on.
+    let scale = [
+        model.s,
+        model.q,
+        1.0,
+        1.0,
+        1.0,
+        model.trajectory.line().te,
+        model.rho,
+    ];
+    let mut sigma = [f64::NAN; 7];
+    if let Some(c) = cov {
+        for i in 0..7 {
+            sigma[i] = scale[i] * c[i][i].sqrt();
+        }
+    }
+    Ok(Refined {
+        model,
+        sigma,
+        chi2: chi2_min,
+        fluxes,
+        evaluations: evaluations.into_inner() + 1,
+    })
+}
+
+/// Whether two refined models are the same minimum: every parameter within three times the
+/// larger of their uncertainties (at least a tenth of the fixed limits below), or, where those
+/// are unknown, within fixed limits: 1% in s, 5% in q, 0.01 rad in alpha, 1% of max(u0, 0.01)
+/// in u0, 1% of tE in t0 and tE, 10% in rho.
+pub fn same_minimum(a: &Refined, b: &Refined) -> bool {
+    let (ma, mb) = (&a.model, &b.model);
+    let (la, lb) = (ma.trajectory.line(), mb.trajectory.line());
+    let dalpha = {
+        let d = (la.alpha - lb.alpha).rem_euclid(TAU);
+        d.min(TAU - d)
+    };
+    let diffs = [
+        (ma.s - mb.s).abs(),
+        (ma.q - mb.q).abs(),
+        dalpha,
+        (la.u0 - lb.u0).abs(),
+        (la.t0 - lb.t0).abs(),
+        (la.te - lb.te).abs(),
+        (ma.rho - mb.rho).abs(),
+    ];
+    let fallback = [
+        0.01 * ma.s,
+        0.05 * ma.q,
+        0.01,
+        0.01 * la.u0.abs().max(0.01),
+        0.01 * la.te,
+        0.01 * la.te,
+        0.1 * ma.rho,
+    ];
+    diffs.iter().enumerate().all(|(i, &d)| {
+        let sig = a.sigma[i].max(b.sigma[i]);
+        let limit = if sig.is_finite() {
+            (3.0 * sig).max(fallback[i] * 0.1)
+        } else {
+            fallback[i]
+        };
+        d <= limit
+    }) && dalpha < PI
+}
+
+/// Whether two minima form a close/wide pair: separations on either side of 1 with
+/// `|ln s1 + ln s2| < 0.25` (s2 about 1/s1) and mass ratios within a factor of 3.
+///
+/// ```
+/// use causeway::fit::refine::close_wide;
+/// assert!(close_wide((0.8, 1e-3), (1.25, 1.2e-3)));
+/// assert!(!close_wide((0.8, 1e-3), (0.9, 1e-3)));
+/// ```
+pub fn close_wide(a: (f64, f64), b: (f64, f64)) -> bool {
+    (a.0 < 1.0) != (b.0 < 1.0)
+        && (a.0.ln() + b.0.ln()).abs() < 0.25
+        && (a.1 / b.1).ln().abs() < 3f64.ln()
+}

@@ -1,0 +1,645 @@
+//! The grid search: for every (s, q) map of a library, a grid of trajectories around the
+//! single-lens seed, finite-source curves from the pre-convolved map at each trial rho, chi^2
+//! for each; the best few per map kept.
+//!
+//! # The grid rule
+//!
+//! Let `rho_min` be the smallest trial rho and `R = width / sqrt(2)` the half-diagonal of the
+//! map's window. Trajectories are taken at
+//! - `alpha` in `[0, 2 pi)` with step at most `2 rho_min / R`, and
+//! - `u0 >= 0` in `[u0* - D, u0* + D]`, `D = max(u0_span u0*, u0_floor)`, step at most
+//!   `2 rho_min`, keeping for each alpha only the u0 whose line passes within `R` of the
+//!   window's centre,
+//!
+//! for every `tE = tE* f` (the factors of [`GridRule::te_factors`]) and `t0 = t0* + k tE*`
+//! (the shifts of [`GridRule::t0_shifts`]), starred values from the seed. Two neighbouring
+//! lines through the window are then nowhere in it more than `2 rho_min` apart (the alpha step
+//! turns a line about the window's centre, moving its points in the window by at most
+//! `R dalpha <= 2 rho_min`; the u0 step moves it by at most `2 rho_min`), so every point of the
+//! window lies within `rho_min` of a grid line: a caustic crossed by any line through the window
+//! is touched by the source of a grid trajectory, and no crossing is stepped over.
+//!
+//! Negative `u0` are not searched: a binary is symmetric about its axis, and `(u0, alpha)` and
+//! `(-u0, -alpha)` give the same curve, so the twin minima are one (reported with `u0 >= 0`).
+//! Lines that cross the window at no observed time are skipped: the map adds nothing to them.
+//!
+//! # Magnifications in the search
+//!
+//! Where the source lies on the map (within the pre-convolution's margin), the pre-convolved
+//! map is read bilinearly. Elsewhere the sampler's continuation is taken at its zeroth order,
+//! the exact point-source magnification (it does not depend on rho, so one evaluation serves
+//! every trial rho), computed at a subset of the times and interpolated linearly in between
+//! where the midpoint of every interval agrees with the interpolation to
+//! [`GridRule::interpolation_tol`] and no interval spans more than [`MAX_STRIDE`] points. What
+//! is interpolated is the ratio of the binary's magnification to the host's alone (Paczynski's
+//! formula for m1 at its position), which stays near 1 and flat wherever the companion matters
+//! little; the host's peak is then not interpolated at all. The
+//! search only ranks; the refinement ([`super::refine`]) recomputes every point exactly.
+
+use super::fluxes::fit_fluxes;
+use super::model::{paczynski, BinaryModel, Trajectory};
+use super::photometry::DataSet;
+use crate::curve::Preconvolved;
+use crate::error::{Error, Result};
+use crate::lens::{LensSystem, PointLens};
+use crate::map::{read_fits, MagnificationMap, Window};
+use crate::solve::ImageSolver;
+use crate::source::{LimbDarkening, SourceProfile};
+use crate::store::library::LibrarySpec;
+use crate::store::Store;
+use num_complex::Complex64;
+use rayon::prelude::*;
+use std::f64::consts::TAU;
+use std::path::PathBuf;
+use std::sync::atomic::{AtomicU64, Ordering};
+
+/// Largest number of points between two exact point-source evaluations off the map.
+pub const MAX_STRIDE: usize = 64;
+
+/// The seed of the search: the single-lens fit's trajectory.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Seed {
+    /// Time of closest approach (days).
+    pub t0: f64,
+    /// Impact parameter (>= 0).
+    pub u0: f64,
+    /// Einstein timescale (days).
+    pub te: f64,
+}
+
+/// How the trajectory grid is laid out (see the module documentation).
+#[derive(Debug, Clone, PartialEq)]
+pub struct GridRule {
+    /// Trial source radii.
+    pub rhos: Vec<f64>,
+    /// Half-range of u0, relative to the seed's u0.
+    pub u0_span: f64,
+    /// Least half-range of u0 (absolute).
+    pub u0_floor: f64,
+    /// Factors on the seed's tE.
+    pub te_factors: Vec<f64>,
+    /// Shifts of t0 in units of the seed's tE.
+    pub t0_shifts: Vec<f64>,
+    /// Distinct trajectories kept per map.
+    pub keep: usize,
+    /// Relative tolerance of the off-map interpolation.
+    pub interpolation_tol: f64,
+}
+
+impl Default for GridRule {
+    fn default() -> Self {
+        GridRule {
+            rhos: vec![1e-3, 2e-3, 4e-3],
+            u0_span: 0.2,
+            u0_floor: 0.005,
+            te_factors: vec![1.0],
+            t0_shifts: vec![0.0],
+            keep: 3,
+            interpolation_tol: 1e-3,
+        }
+    }
+}
+
+impl GridRule {
+    /// Checks the rule's values.
+    pub fn validate(&self) -> Result<()> {
+        let bad = |m: String| Err(Error::input(m));
+        if self.rhos.is_empty() || self.rhos.iter().any(|&r| !(r.is_finite() && r > 0.0)) {
+            return bad(format!(
+                "--rho: trial radii must be finite and > 0, got {:?}",
+                self.rhos
+            ));
+        }
+        if !(self.u0_span.is_finite() && self.u0_span >= 0.0) {
+            return bad(format!("--u0-span: must be >= 0, got {}", self.u0_span));
+        }
+        if !(self.u0_floor.is_finite() && self.u0_floor >= 0.0) {
+            return bad(format!("--u0-floor: must be >= 0, got {}", self.u0_floor));
+        }
+        if self.te_factors.is_empty()
+            || self.te_factors.iter().any(|&f| !(f.is_finite() && f > 0.0))
+        {
+            return bad(format!(
+                "--te-factors: must be finite and > 0, got {:?}",
+                self.te_factors
+            ));
+        }
+        if self.t0_shifts.is_empty() || self.t0_shifts.iter().any(|f| !f.is_finite()) {
+            return bad(format!(
+                "--t0-shifts: must be finite, got {:?}",
+                self.t0_shifts
+            ));
+        }
+        if self.keep == 0 {
+            return bad("--keep: must be at least 1".into());
+        }
+        Ok(())
+    }
+
+    fn rho_min(&self) -> f64 {
+        self.rhos.iter().copied().fold(f64::INFINITY, f64::min)
+    }
+
+    /// The (alpha, u0) lines of the grid for a window (see the module documentation).
+    ///
+    /// ```
+    /// use causeway::fit::search::{GridRule, Seed};
+    /// use causeway::map::Window;
+    /// let rule = GridRule { rhos: vec![0.005], ..GridRule::default() };
+    /// let seed = Seed { t0: 0.0, u0: 0.1, te: 20.0 };
+    /// let w = Window::new((0.3, 0.0), 0.1, 100).unwrap();
+    /// let lines = rule.lines(&w, &seed);
+    /// // Every line passes within the half-diagonal of the window's centre...
+    /// let r = 0.05 * 2f64.sqrt();
+    /// assert!(lines.iter().all(|&(a, u0)| (-0.3 * a.sin() - u0).abs() <= r + 1e-12));
+    /// // ...and u0 stays within 20% of the seed's.
+    /// assert!(lines.iter().all(|&(_, u0)| (0.08 - 1e-12..=0.12 + 1e-12).contains(&u0)));
+    /// ```
+    pub fn lines(&self, window: &Window, seed: &Seed) -> Vec<(f64, f64)> {
+        let step = 2.0 * self.rho_min();
+        let reach = window.width / std::f64::consts::SQRT_2;
+        let n_alpha = ((TAU * reach / step).ceil() as usize).max(8);
+        let half = (self.u0_span * seed.u0).max(self.u0_floor);
+        let (lo, hi) = ((seed.u0 - half).max(0.0), seed.u0 + half);
+        let n_u = ((hi - lo) / step).ceil().max(1.0);
+        let du = (hi - lo) / n_u;
+        let (cx, cy) = window.center;
+        let mut out = Vec::new();
+        for k in 0..n_alpha {
+            let alpha = k as f64 * TAU / n_alpha as f64;
+            // The line's u0 is its offset from the origin along n = (-sin, cos).
+            let pc = -cx * alpha.sin() + cy * alpha.cos();
+            let first = ((pc - reach - lo) / du).ceil().max(0.0) as usize;
+            let last = ((pc + reach - lo) / du).floor().min(n_u) as i64;
+            for j in first as i64..=last {
+                out.push((alpha, lo + j as f64 * du));
+            }
+        }
+        out
+    }
+}
+
+/// One map of a library to search.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LibraryMap {
+    /// Separation.
+    pub s: f64,
+    /// Mass ratio.
+    pub q: f64,
+    /// The map's FITS file.
+    pub path: PathBuf,
+}
+
+/// A trial model and its chi^2.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Candidate {
+    /// The model.
+    pub model: BinaryModel,
+    /// chi^2 over all data sets (fluxes solved).
+    pub chi2: f64,
+}
+
+/// What the search found on one map.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MapOutcome {
+    /// Separation.
+    pub s: f64,
+    /// Mass ratio.
+    pub q: f64,
+    /// The best distinct candidates, best first (empty if no trajectory could be evaluated).
+    pub candidates: Vec<Candidate>,
+    /// Trajectories evaluated (each at every trial rho).
+    pub trajectories: u64,
+    /// Light-curve points evaluated (trajectories x rho x data points).
+    pub points: u64,
+    /// Remarks for the user (trial radii the map cannot resolve, and the like).
+    pub notes: Vec<String>,
+}
+
+impl MapOutcome {
+    /// chi^2 of the best candidate (infinite if none).
+    pub fn best_chi2(&self) -> f64 {
+        self.candidates.first().map_or(f64::INFINITY, |c| c.chi2)
+    }
+}
+
+/// Searches every map of `library` (in parallel; the outcome does not depend on the thread
+/// count), calling `progress` after each map.
+pub fn search(
+    data: &[DataSet],
+    seed: &Seed,
+    library: &[LibraryMap],
+    rule: &GridRule,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<MapOutcome>> {
+    rule.validate()?;
+    library
+        .par_iter()
+        .map(|entry| {
+            let map = read_fits(&entry.path)?;
+            let outcome = search_map(data, seed, &map, rule);
+            progress();
+            outcome
+        })
+        .collect()
+}
+
+/// Pre-convolved maps for each distinct limb-darkening law of the data and each trial rho.
+struct Readers {
+    /// The heavier lens (m1), whose own magnification the off-map curve is scaled by.
+    host: PointLens,
+    /// `convolved[law][rho]`: `None` where the map cannot hold that source.
+    convolved: Vec<Vec<Option<Preconvolved>>>,
+    /// The law index of each data set.
+    set_law: Vec<usize>,
+}
+
+impl Readers {
+    fn new(
+        map: &MagnificationMap,
+        data: &[DataSet],
+        rule: &GridRule,
+        notes: &mut Vec<String>,
+    ) -> Result<Readers> {
+        let mut laws: Vec<LimbDarkening> = Vec::new();
+        let set_law = data
+            .iter()
+            .map(|d| match laws.iter().position(|l| *l == d.limb_darkening) {
+                Some(i) => i,
+                None => {
+                    laws.push(d.limb_darkening);
+                    laws.len() - 1
+                }
+            })
+            .collect();
+        let pixel = map.window.pixel_size();
+        let mut convolved = Vec::new();
+        for &law in &laws {
+            let mut row = Vec::new();
+            for &rho in &rule.rhos {
+                let fits = rho >= pixel && 4.0 * rho < map.window.width;
+                if !fits {
+                    notes.push(format!(
+                        "rho {rho} skipped on the map of s = {}, q = {}: it needs 1 pixel \
+                         ({pixel:e}) <= rho < width/4",
+                        map_s(map),
+                        map_q(map)
+                    ));
+                }
+                row.push(if fits {
+                    Some(Preconvolved::new(map, &SourceProfile::new(rho, law)?)?)
+                } else {
+                    None
+                });
+            }
+            convolved.push(row);
+        }
+        Ok(Readers {
+            host: map.provenance.lens.lenses()[0],
+            convolved,
+            set_law,
+        })
+    }
+}
+
+fn map_s(map: &MagnificationMap) -> f64 {
+    map.provenance
+        .lens
+        .binary_parameters()
+        .map_or(f64::NAN, |b| b.0)
+}
+
+fn map_q(map: &MagnificationMap) -> f64 {
+    map.provenance
+        .lens
+        .binary_parameters()
+        .map_or(f64::NAN, |b| b.1)
+}
+
+/// Times during which the straight line of `tr` lies in `window`, if any.
+fn crossing(tr: &Trajectory, window: &Window) -> Option<(f64, f64)> {
+    let l = tr.line();
+    let (sn, cs) = l.alpha.sin_cos();
+    let (x0, y0) = window.origin();
+    let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
+    // x(tau) = tau cos - u0 sin, y(tau) = tau sin + u0 cos.
+    for (slope, offset, a, b) in [
+        (cs, -l.u0 * sn, x0, x0 + window.width),
+        (sn, l.u0 * cs, y0, y0 + window.width),
+    ] {
+        if slope.abs() < 1e-15 {
+            if offset < a || offset > b {
+                return None;
+            }
+        } else {
+            let (t1, t2) = ((a - offset) / slope, (b - offset) / slope);
+            lo = lo.max(t1.min(t2));
+            hi = hi.min(t1.max(t2));
+        }
+    }
+    (lo <= hi).then(|| (l.t0 + lo * l.te, l.t0 + hi * l.te))
+}
+
+/// Searches one map.
+pub fn search_map(
+    data: &[DataSet],
+    seed: &Seed,
+    map: &MagnificationMap,
+    rule: &GridRule,
+) -> Result<MapOutcome> {
+    let lens: &LensSystem = &map.provenance.lens;
+    let (s, q) = lens
+        .binary_parameters()
+        .ok_or_else(|| Error::input("search: library maps must be of binary lenses"))?;
+    let mut notes = Vec::new();
+    let readers = Readers::new(map, data, rule, &mut notes)?;
+    let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
+    all_times.sort_by(f64::total_cmp);
+    let grid = rule.lines(&map.window, seed);
+    let mut lines = Vec::new();
+    for &f in &rule.te_factors {
+        for &shift in &rule.t0_shifts {
+            for &(alpha, u0) in &grid {
+                let tr = Trajectory::straight(seed.t0 + shift * seed.te, u0, seed.te * f, alpha)?;
+                if let Some((a, b)) = crossing(&tr, &map.window) {
+                    let k = all_times.partition_point(|&t| t < a);
+                    if k < all_times.len() && all_times[k] <= b {
+                        lines.push(tr);
+                    }
+                }
+            }
+        }
+    }
+    let solver = ImageSolver::new(lens)?;
+    let points = AtomicU64::new(0);
+    let evaluated: Vec<Option<(f64, usize)>> = lines
+        .par_iter()
+        .map_init(
+            || solver.clone(),
+            |solver, tr| {
+                let chi2 = trajectory_chi2(solver, data, &readers, tr, rule).ok()?;
+                points.fetch_add((chi2.len() * all_times.len()) as u64, Ordering::Relaxed);
+                chi2.iter()
+                    .enumerate()
+                    .filter(|(_, c)| c.is_finite())
+                    .min_by(|a, b| a.1.total_cmp(b.1))
+                    .map(|(i, &c)| (c, i))
+            },
+        )
+        .collect();
+    let mut ranked: Vec<(f64, usize, usize)> = evaluated
+        .iter()
+        .enumerate()
+        .filter_map(|(i, e)| e.map(|(c, r)| (c, i, r)))
+        .collect();
+    ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    let (d_alpha, d_u0) = (
+        2.0 * rule.rho_min() * std::f64::consts::SQRT_2 / map.window.width,
+        2.0 * rule.rho_min(),
+    );
+    let mut candidates: Vec<Candidate> = Vec::new();
+    for (chi2, i, r) in ranked {
+        let model = BinaryModel {
+            s,
+            q,
+            rho: rule.rhos[r],
+            trajectory: lines[i],
+        };
+        let distinct = candidates
+            .iter()
+            .all(|c| distinct(&c.model.trajectory, &lines[i], d_alpha, d_u0));
+        if distinct {
+            candidates.push(Candidate { model, chi2 });
+            if candidates.len() == rule.keep {
+                break;
+            }
+        }
+    }
+    Ok(MapOutcome {
+        s,
+        q,
+        candidates,
+        trajectories: lines.len() as u64,
+        points: points.into_inner(),
+        notes,
+    })
+}
+
+/// Whether two grid trajectories are more than five grid steps apart in alpha or u0, or differ
+/// in t0 or tE.
+fn distinct(a: &Trajectory, b: &Trajectory, d_alpha: f64, d_u0: f64) -> bool {
+    let (a, b) = (a.line(), b.line());
+    let da = (a.alpha - b.alpha).rem_euclid(TAU);
+    da.min(TAU - da) > 5.0 * d_alpha
+        || (a.u0 - b.u0).abs() > 5.0 * d_u0
+        || a.t0 != b.t0
+        || a.te != b.te
+}
+
+/// chi^2 of a trajectory at each trial rho (infinite where that rho could not be read).
+fn trajectory_chi2(
+    solver: &mut ImageSolver,
+    data: &[DataSet],
+    readers: &Readers,
+    tr: &Trajectory,
+    rule: &GridRule,
+) -> Result<Vec<f64>> {
+    let host = &readers.host;
+    let mut chi2 = vec![0.0; rule.rhos.len()];
+    let mut a = Vec::new();
+    for (set, &law) in data.iter().zip(&readers.set_law) {
+        let positions = tr.positions(&set.times);
+        let row = &readers.convolved[law];
+        // Off the map for the largest readable rho is off the map for all.
+        let widest = row.iter().rev().flatten().next();
+        let needed: Vec<bool> = positions
+            .iter()
+            .map(|&(x, y)| widest.is_none_or(|c| c.read(x, y).is_none()))
+            .collect();
+        let point = point_curve(
+            solver,
+            host,
+            &set.times,
+            &positions,
+            &needed,
+            rule.interpolation_tol,
+        )?;
+        for (r, conv) in row.iter().enumerate() {
+            let Some(conv) = conv else {
+                chi2[r] = f64::INFINITY;
+                continue;
+            };
+            a.clear();
+            a.extend(
+                positions
+                    .iter()
+                    .zip(&point)
+                    .map(|(&(x, y), &p)| conv.read(x, y).unwrap_or(p)),
+            );
+            if a.iter().any(|v| v.is_nan()) {
+                return Err(Error::Numerical(
+                    "search: point-source value missing".into(),
+                ));
+            }
+            chi2[r] += fit_fluxes(set, &a).chi2;
+        }
+    }
+    Ok(chi2)
+}
+
+/// Point-source magnifications at the points marked `needed` (NaN elsewhere), exact at a subset
+/// and interpolated linearly in time between (see the module documentation).
+fn point_curve(
+    solver: &mut ImageSolver,
+    host: &PointLens,
+    times: &[f64],
+    positions: &[(f64, f64)],
+    needed: &[bool],
+    tol: f64,
+) -> Result<Vec<f64>> {
+    let n = times.len();
+    let host_alone = |i: usize| {
+        let (x, y) = positions[i];
+        let u = (Complex64::new(x, y) - host.position).norm() / host.mass.sqrt();
+        paczynski(u.max(1e-12))
+    };
+    // The ratio to the host's own magnification is interpolated: it is flat where the
+    // companion matters little, which is most of an off-map curve.
+    let mut a = vec![f64::NAN; n];
+    let mut eval = |i: usize, a: &mut Vec<f64>| -> Result<f64> {
+        if a[i].is_nan() {
+            let (x, y) = positions[i];
+            a[i] = solver.magnification(Complex64::new(x, y))? / host_alone(i);
+        }
+        Ok(a[i])
+    };
+    let mut i = 0;
+    while i < n {
+        if !needed[i] {
+            i += 1;
+            continue;
+        }
+        let lo = i;
+        while i + 1 < n && needed[i + 1] {
+            i += 1;
+        }
+        let hi = i;
+        eval(lo, &mut a)?;
+        eval(hi, &mut a)?;
+        let mut stack = vec![(lo, hi)];
+        while let Some((l, h)) = stack.pop() {
+            if h - l <= 1 {
+                continue;
+            }
+            let m = (l + h) / 2;
+            let am = eval(m, &mut a)?;
+            let lin = |a: &[f64], k: usize, p: usize, r: usize| {
+                a[p] + (a[r] - a[p]) * (times[k] - times[p]) / (times[r] - times[p])
+            };
+            if h - l > MAX_STRIDE || (am - lin(&a, m, l, h)).abs() > tol * am {
+                stack.push((m, h));
+                stack.push((l, m));
+            } else {
+                for k in l + 1..m {
+                    a[k] = lin(&a, k, l, m);
+                }
+                for k in m + 1..h {
+                    a[k] = lin(&a, k, m, h);
+                }
+            }
+        }
+        i += 1;
+    }
+    for (i, v) in a.iter_mut().enumerate() {
+        if needed[i] {
+            *v *= host_alone(i);
+        }
+    }
+    Ok(a)
+}
+
+/// Indices of the outcomes whose best chi^2 is no worse than that of any neighbour in the
+/// (s, q) grid (the grid of the distinct s and q values; neighbours are the up to eight maps
+/// one step away in index): the distinct local minima of the search, best first.
+///
+/// ```
+/// use causeway::fit::search::{local_minima, MapOutcome};
+/// let at = |s: f64, q: f64, chi2: f64| MapOutcome { s, q, candidates: vec![causeway::fit::search::Candidate {
+///     chi2, model: causeway::fit::model::BinaryModel { s, q, rho: 1e-3,
+///         trajectory: causeway::fit::model::Trajectory::straight(0.0, 0.1, 10.0, 0.0).unwrap() } }],
+///     trajectories: 1, points: 1, notes: vec![] };
+/// let grid = vec![at(0.8, 1e-3, 5.0), at(1.0, 1e-3, 9.0), at(1.25, 1e-3, 4.0)];
+/// assert_eq!(local_minima(&grid), vec![2, 0]);
+/// ```
+pub fn local_minima(outcomes: &[MapOutcome]) -> Vec<usize> {
+    let axis = |f: &dyn Fn(&MapOutcome) -> f64| {
+        let mut v: Vec<f64> = outcomes.iter().map(f).collect();
+        v.sort_by(f64::total_cmp);
+        v.dedup();
+        v
+    };
+    let (ss, qs) = (axis(&|o| o.s), axis(&|o| o.q));
+    let index = |o: &MapOutcome| {
+        (
+            ss.partition_point(|&v| v < o.s) as i64,
+            qs.partition_point(|&v| v < o.q) as i64,
+        )
+    };
+    let cells: Vec<(i64, i64)> = outcomes.iter().map(index).collect();
+    let mut minima: Vec<usize> = (0..outcomes.len())
+        .filter(|&i| {
+            let c = outcomes[i].best_chi2();
+            c.is_finite()
+                && (0..outcomes.len()).all(|j| {
+                    let (di, dj) = (cells[i].0 - cells[j].0, cells[i].1 - cells[j].1);
+                    let near = j != i && di.abs() <= 1 && dj.abs() <= 1;
+                    let other = outcomes[j].best_chi2();
+                    !near || other > c || (other == c && j > i)
+                })
+        })
+        .collect();
+    minima.sort_by(|&a, &b| outcomes[a].best_chi2().total_cmp(&outcomes[b].best_chi2()));
+    minima
+}
+
+/// The maps of a library spec in `store` (which must hold them: build them first), grid order.
+pub fn maps_of_spec(store: &Store, spec: &LibrarySpec) -> Result<Vec<LibraryMap>> {
+    spec.points()?
+        .into_iter()
+        .map(|p| {
+            let path = store.path_of(&p.key);
+            if !path.exists() {
+                return Err(Error::input(format!(
+                    "search: the store {} lacks the map of s = {}, q = {} (build the library first)",
+                    store.root().display(),
+                    p.s,
+                    p.q
+                )));
+            }
+            Ok(LibraryMap { s: p.s, q: p.q, path })
+        })
+        .collect()
+}
+
+/// Every binary map listed in the index of `store`, ordered by (q, s).
+pub fn maps_of_store(store: &Store) -> Result<Vec<LibraryMap>> {
+    let mut maps: Vec<LibraryMap> = store
+        .entries()?
+        .into_iter()
+        .filter_map(|e| {
+            Some(LibraryMap {
+                s: e.s?,
+                q: e.q?,
+                path: store.root().join(&e.file),
+            })
+        })
+        .collect();
+    maps.sort_by(|a, b| a.q.total_cmp(&b.q).then(a.s.total_cmp(&b.s)));
+    if maps.is_empty() {
+        return Err(Error::input(format!(
+            "search: the store {} lists no binary maps",
+            store.root().display()
+        )));
+    }
+    Ok(maps)
+}
