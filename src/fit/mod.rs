@@ -15,3 +15,4 @@ pub mod fluxes;
 pub mod model;
 pub mod optimize;
 pub mod photometry;
+pub mod single;
