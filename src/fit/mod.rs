@@ -15,4 +15,5 @@ pub mod fluxes;
 pub mod model;
 pub mod optimize;
 pub mod photometry;
+pub mod simulate;
 pub mod single;

@@ -212,11 +212,11 @@ fn peak_times(data: &[DataSet]) -> Vec<f64> {
         times.push(d.times[brightest]);
         let base = median(&d.flux);
         let (mut sw, mut swt) = (0.0, 0.0);
-        for i in 0..n {
-            let excess = smooth[i] - base;
+        for (i, (&f, &t)) in smooth.iter().zip(&d.times).enumerate() {
+            let excess = f - base;
             if excess > 3.0 * d.sigma(i) {
                 sw += excess;
-                swt += excess * d.times[i];
+                swt += excess * t;
             }
         }
         if sw > 0.0 {
