@@ -72,6 +72,7 @@ pub mod demo;
 pub mod images;
 pub mod library;
 pub mod map;
+pub mod physical;
 pub mod simulate;
 
 /// The lens: a binary from (s, q) or any set of point masses from a CSV file.

@@ -15,5 +15,6 @@ pub mod fluxes;
 pub mod model;
 pub mod optimize;
 pub mod photometry;
+pub mod scales;
 pub mod simulate;
 pub mod single;
