@@ -14,6 +14,10 @@ use std::path::PathBuf;
 #[derive(Debug, Args)]
 #[command(
     allow_negative_numbers = true,
+    // The shared lens and trajectory groups also offer a lens file and a path; a simulated event
+    // is a binary on a straight line.
+    mut_arg("lenses", |a| a.hide(true)),
+    mut_arg("path", |a| a.hide(true)),
     after_help = "Writes CSV t,mag,mag_err (or t,flux,flux_err with --flux): the model flux \
         fs A + fb, A exact (contour integration near caustics), with Gaussian noise of the given \
         constant error, drawn from a stream seeded by --seed (the same seed gives the same file, \
