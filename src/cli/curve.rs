@@ -147,6 +147,12 @@ impl TrajectoryArgs {
         if let Some(p) = &self.path {
             return SourcePath::read(p);
         }
+        let (line, times) = self.straight()?;
+        Ok(line.path(&times))
+    }
+
+    /// The straight line of `--t0 --u0 --te --alpha` and its `--times` / `--time-range` times.
+    pub fn straight(&self) -> Result<(StraightLine, Vec<f64>)> {
         let (Some(t0), Some(u0), Some(te), Some(alpha)) = (self.t0, self.u0, self.te, self.alpha)
         else {
             return Err(Error::input(
@@ -164,7 +170,7 @@ impl TrajectoryArgs {
                 ))
             }
         };
-        Ok(line.path(&times))
+        Ok((line, times))
     }
 }
 

@@ -45,6 +45,8 @@ pub enum Command {
     Curve(Box<curve::CurveArgs>),
     /// A light curve read from a map against contour integration at the same points.
     Compare(Box<compare::CompareArgs>),
+    /// Synthetic photometry of a binary-lens model (exact magnifications, seeded noise).
+    Simulate(Box<simulate::SimulateArgs>),
 }
 
 /// Runs a parsed command line.
@@ -58,6 +60,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Contour(args) => contour::run(args),
         Command::Curve(args) => curve::run(*args),
         Command::Compare(args) => compare::run(*args),
+        Command::Simulate(args) => simulate::run(*args),
     }
 }
 
@@ -69,6 +72,8 @@ pub mod demo;
 pub mod images;
 pub mod library;
 pub mod map;
+pub mod physical;
+pub mod simulate;
 
 /// The lens: a binary from (s, q) or any set of point masses from a CSV file.
 #[derive(Debug, Clone, Args)]

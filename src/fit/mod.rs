@@ -16,4 +16,7 @@ pub mod model;
 pub mod optimize;
 pub mod photometry;
 pub mod refine;
+pub mod scales;
 pub mod search;
+pub mod simulate;
+pub mod single;
