@@ -94,6 +94,8 @@ pub struct Series {
     pub style: Style,
     /// Colour; from [`PALETTE`] in order when `None`.
     pub colour: Option<[u8; 3]>,
+    /// Half-width of the square markers, in pixels.
+    pub marker: i64,
 }
 
 impl Series {
@@ -104,7 +106,14 @@ impl Series {
             points,
             style: Style::Line,
             colour: None,
+            marker: 2,
         }
+    }
+
+    /// A series with markers of another half-width (pixels).
+    pub fn marker_size(mut self, half_width: i64) -> Self {
+        self.marker = half_width.max(0);
+        self
     }
 
     /// A series with another style.
@@ -263,9 +272,10 @@ impl Chart {
                 }
             }
             if s.style != Style::Line {
+                let m = s.marker;
                 for p in pts.iter().flatten() {
-                    for dy in -2..=2 {
-                        for dx in -2..=2 {
+                    for dy in -m..=m {
+                        for dx in -m..=m {
                             put(&mut img, p.0 as i64 + dx, p.1 as i64 + dy, c, clip);
                         }
                     }
@@ -316,7 +326,35 @@ impl Chart {
     }
 }
 
-fn plot_size() -> (i64, i64) {
+/// Draws charts one above the other into one PNG at `path`, written atomically.
+///
+/// ```
+/// use causeway::plot::{write_stacked_png, Axis, Chart, Series};
+/// let mut a = Chart::new("top", Axis::linear("x"), Axis::linear("y"));
+/// a.add(Series::line("a", vec![(0.0, 0.0), (1.0, 1.0)]));
+/// let path = std::env::temp_dir().join(format!("causeway-doc-stack-{}.png", std::process::id()));
+/// write_stacked_png(&[a.clone(), a], &path).unwrap();
+/// assert_eq!(image::open(&path).unwrap().height(), 2 * 560);
+/// std::fs::remove_file(&path).unwrap();
+/// ```
+pub fn write_stacked_png(charts: &[Chart], path: &Path) -> Result<()> {
+    let parts = charts
+        .iter()
+        .map(Chart::render)
+        .collect::<Result<Vec<_>>>()?;
+    let height = parts.iter().map(|p| p.height()).sum();
+    let mut image = RgbImage::new(WIDTH, height);
+    let mut y = 0;
+    for part in &parts {
+        image::GenericImage::copy_from(&mut image, part, 0, y)
+            .map_err(|e| Error::Numerical(format!("{}: {e}", path.display())))?;
+        y += part.height();
+    }
+    write_png(path, &image)
+}
+
+/// Pixels of the plot area inside a chart's frame: (width, height).
+pub fn plot_size() -> (i64, i64) {
     let (l, r, t, b) = MARGINS;
     (WIDTH as i64 - l - r, HEIGHT as i64 - t - b)
 }

@@ -7,12 +7,10 @@ use super::ThreadArgs;
 use crate::contour::{self, Estimate};
 use crate::curve::{Sample, Sampler};
 use crate::error::{Error, Result};
-use crate::fsutil::write_png;
 use crate::map::read_fits;
-use crate::plot::{Axis, Chart, Series, Style};
+use crate::plot::{write_stacked_png, Axis, Chart, Series, Style};
 use crate::table::fmt_f64;
 use clap::Args;
-use image::{GenericImage, RgbImage};
 use num_complex::Complex64;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -277,14 +275,5 @@ pub fn plot_png(pairs: &[Pair], abscissa: &[f64], x_label: &str, path: &Path) ->
         )
         .styled(Style::LineMarkers),
     );
-    let (top, bottom) = (curves.render()?, residual.render()?);
-    let mut image = RgbImage::new(top.width(), top.height() + bottom.height());
-    let stack = |image: &mut RgbImage, part: &RgbImage, y: u32| {
-        image
-            .copy_from(part, 0, y)
-            .map_err(|e| Error::Numerical(format!("--png: {e}")))
-    };
-    stack(&mut image, &top, 0)?;
-    stack(&mut image, &bottom, top.height())?;
-    write_png(path, &image)
+    write_stacked_png(&[curves, residual], path)
 }
