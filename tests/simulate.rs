@@ -113,18 +113,24 @@ fn noiseless_point_source_is_paczynski() {
 }
 
 #[test]
-fn noiseless_uniform_disk_matches_witt_mao() {
-    // Uniform-disk single-lens magnifications of tests/reference/finite_source.csv (the closed
-    // form of Witt & Mao 1994, checked there by scipy quadrature): the source at distance u from
-    // the lens at t = t0.
+fn noiseless_finite_sources_match_the_single_lens_references() {
+    // Single-lens magnifications of tests/reference/finite_source.csv: uniform disks (the closed
+    // form of Witt & Mao 1994, checked there by scipy quadrature) and linearly limb-darkened
+    // ones (the annulus integral of Lee et al. 2009 by scipy quadrature); the source at distance
+    // u from the lens at t = t0.
     let table = reference(
         "finite_source.csv",
         &["law", "ld_a", "ld_b", "u", "rho", "magnification"],
     );
-    let rows: Vec<&Vec<f64>> = table.rows.iter().filter(|r| r[0] == 0.0).collect();
-    assert!(rows.len() >= 8);
+    let rows: Vec<&Vec<f64>> = table.rows.iter().filter(|r| r[0] <= 1.0).collect();
+    assert!(rows.len() >= 16);
     for r in rows {
         let (u, rho, expected) = (r[3], r[4], r[5]);
+        let law = if r[0] == 0.0 {
+            LimbDarkening::Uniform
+        } else {
+            LimbDarkening::Linear { u: r[1] }
+        };
         let model = BinaryModel {
             s: 5.0,
             q: 1e-9,
@@ -134,13 +140,13 @@ fn noiseless_uniform_disk_matches_witt_mao() {
         let sim = Simulation {
             noise: Noise::Flux { sigma: 1e-12 },
             tol: 1e-7,
-            ..Simulation::new(model, LimbDarkening::Uniform)
+            ..Simulation::new(model, law)
         };
         let out = sim.synthesize(&[0.0, 1.0, 2.0]).unwrap();
         let a = out.values[0]; // fs = 1, fb = 0
         assert!(
             (a - expected).abs() < 1e-5 * expected,
-            "u = {u}, rho = {rho}: {a} against {expected}"
+            "{law:?}, u = {u}, rho = {rho}: {a} against {expected}"
         );
     }
 }
