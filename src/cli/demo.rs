@@ -1,8 +1,11 @@
 //! `causeway demo`: the built-in demo on an invented planetary event.
 //!
-//! A giant planet (q = 2e-3) just outside the Einstein ring of its host (s = 1.25): a map
-//! spanning the central and the planetary caustic, its picture with the caustics drawn, and the
-//! light curve of a limb-darkened source crossing the planetary caustic.
+//! Two parts. First the maps: a giant planet (q = 2e-3) just outside the Einstein ring of its
+//! host (s = 1.25), a map spanning the central and the planetary caustic, its picture with the
+//! caustics drawn, and the light curve of a limb-darkened source crossing the planetary caustic.
+//! Then the whole fitting job on another invented event: its photometry is simulated (a planet
+//! of q = 3e-3 at s = 1.3, the source crossing its planetary caustic), a small library of maps
+//! around it is built, searched and refined, and the recovered model is printed and drawn.
 
 use super::curve::format_csv;
 use super::map::{build_reported, default_memory_limit, write_outputs};
@@ -12,7 +15,7 @@ use crate::error::{Error, Result};
 use crate::lens::LensSystem;
 use crate::map::{MagnificationMap, Window};
 use crate::source::{LimbDarkening, SourceProfile};
-use clap::Args;
+use clap::{Args, Parser};
 use std::path::{Path, PathBuf};
 
 /// Options of `causeway demo`.
@@ -25,6 +28,9 @@ pub struct DemoArgs {
     /// Pixels per side of the demo map.
     #[arg(long, default_value_t = 1000)]
     pub pixels: usize,
+    /// Only the maps part (skip the simulated event's search).
+    #[arg(long)]
+    pub maps_only: bool,
 }
 
 /// Runs the demo.
@@ -41,7 +47,79 @@ pub fn run(args: DemoArgs) -> Result<()> {
         &out.join("demo-map.fits"),
         Some(&out.join("demo-map.png")),
     )?;
-    light_curve(&map, out)
+    light_curve(&map, out)?;
+    if args.maps_only {
+        return Ok(());
+    }
+    fitting_job(out)
+}
+
+/// The invented event of the fitting part: s = 1.3, q = 3e-3, rho = 0.003 (linear limb
+/// darkening u = 0.5), t0 = 0, u0 = 0.15, tE = 25 d, alpha = 343.56 degrees; 600 points over
+/// 120 days with 0.01 mag errors, a blend of 20% of the source flux.
+pub const DEMO_EVENT: [(&str, &str); 9] = [
+    ("--s", "1.3"),
+    ("--q", "3e-3"),
+    ("--rho", "0.003"),
+    ("--ld", "0.5"),
+    ("--t0", "0"),
+    ("--u0", "0.15"),
+    ("--te", "25"),
+    ("--alpha", "343.56"),
+    ("--fb", "0.2"),
+];
+
+/// The library of the fitting part: 3 x 3 maps around the event's (s, q), windows on the
+/// planetary caustic.
+const DEMO_LIBRARY: &str =
+    "# The demo's library: maps framing the planetary caustic of each binary.\n\
+    s = { log = [1.2, 1.4, 3] }\n\
+    q = { log = [1.5e-3, 6e-3, 3] }\n\
+    pixels = 600\n\
+    rays = 1\n\
+    engine = \"polygon\"\n\
+    [window]\n\
+    rule = \"planetary\"\n";
+
+/// Simulates the demo event, writes its library spec, and runs `causeway search` on them.
+fn fitting_job(out: &Path) -> Result<()> {
+    let file = |name: &str| out.join(name).display().to_string();
+    eprintln!("demo: simulating an invented planetary event (s = 1.3, q = 3e-3)");
+    let mut simulate = vec!["causeway".to_string(), "simulate".into()];
+    for (k, v) in DEMO_EVENT {
+        simulate.extend([k.to_string(), v.to_string()]);
+    }
+    simulate.extend(["--time-range", "-60,60,600", "--out"].map(String::from));
+    simulate.push(file("event.csv"));
+    super::run(
+        super::Cli::try_parse_from(&simulate).map_err(|e| Error::Numerical(e.to_string()))?,
+    )?;
+    crate::fsutil::write_atomic(&out.join("library.toml"), DEMO_LIBRARY.as_bytes())?;
+    eprintln!("demo: searching a 3 x 3 library of 600^2 maps for it");
+    let search = [
+        "causeway".to_string(),
+        "search".into(),
+        file("event.csv"),
+        "--library".into(),
+        file("library.toml"),
+        "--store".into(),
+        file("maps"),
+        "--ld".into(),
+        "0.5".into(),
+        "--rho".into(),
+        "0.002,0.004".into(),
+        "--refine".into(),
+        "2".into(),
+        "--max-iters".into(),
+        "300".into(),
+        "--out".into(),
+        file("minima.csv"),
+        "--chi2-map".into(),
+        file("chi2-map.png"),
+        "--plot".into(),
+        file("best-model.png"),
+    ];
+    super::run(super::Cli::try_parse_from(&search).map_err(|e| Error::Numerical(e.to_string()))?)
 }
 
 /// The demo's light curve: a limb-darkened source (rho = 0.003, u = 0.5) crossing the

@@ -47,6 +47,8 @@ pub enum Command {
     Compare(Box<compare::CompareArgs>),
     /// Synthetic photometry of a binary-lens model (exact magnifications, seeded noise).
     Simulate(Box<simulate::SimulateArgs>),
+    /// Fit photometry with binary-lens models: single-lens seed, grid search over a map library, refinement.
+    Search(Box<search::SearchArgs>),
 }
 
 /// Runs a parsed command line.
@@ -61,6 +63,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Curve(args) => curve::run(*args),
         Command::Compare(args) => compare::run(*args),
         Command::Simulate(args) => simulate::run(*args),
+        Command::Search(args) => search::run(*args),
     }
 }
 
@@ -73,6 +76,7 @@ pub mod images;
 pub mod library;
 pub mod map;
 pub mod physical;
+pub mod search;
 pub mod simulate;
 
 /// The lens: a binary from (s, q) or any set of point masses from a CSV file.

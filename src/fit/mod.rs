@@ -9,13 +9,19 @@
 //! - `simulate`: synthetic photometry of a model;
 //! - `scales`: physical scales (theta_E, proper motion, masses, separation);
 //! - `search`: the grid search over the maps of a library;
-//! - `refine`: local refinement with exact magnifications.
+//! - `refine`: local refinement with exact magnifications;
+//! - `minima`: from search outcomes to distinct refined minima, close/wide pairs, error scales;
+//! - `report`: the ranked table of minima (CSV) and its summary;
+//! - `plots`: the chi^2 map over (s, q) and the best model over the data (PNG).
 
 pub mod fluxes;
+pub mod minima;
 pub mod model;
 pub mod optimize;
 pub mod photometry;
+pub mod plots;
 pub mod refine;
+pub mod report;
 pub mod scales;
 pub mod search;
 pub mod simulate;

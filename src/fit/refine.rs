@@ -99,8 +99,20 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
     let te = start.trajectory.line().te;
     let u0 = start.trajectory.line().u0.abs();
     let step = [0.02, 0.1, 0.01, 0.02 * u0.max(0.01), 0.005 * te, 0.02, 0.1];
-    // Stop when the simplex's chi^2 values agree to 0.01.
-    let found = minimize(&chi2_to(tol), &x0, &step, 0.01, max_iters)?;
+    // Stop when the simplex's chi^2 values agree to 0.01; start afresh from the minimum (up
+    // to four rounds) while that still gains more than 0.1.
+    let objective = chi2_to(tol);
+    let mut found = minimize(&objective, &x0, &step, 0.01, max_iters)?;
+    for _ in 0..3 {
+        let again = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
+        let gain = found.value - again.value;
+        if gain > 0.0 {
+            found = again;
+        }
+        if gain <= 0.1 {
+            break;
+        }
+    }
     // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.
     let h: Vec<f64> = step.iter().map(|s| 0.05 * s).collect();
     let cov = covariance(&chi2_to(0.1 * tol), &found.x, &h);

@@ -38,6 +38,7 @@
 
 use super::fluxes::fit_fluxes;
 use super::model::{paczynski, BinaryModel, Trajectory};
+use super::optimize::minimize;
 use super::photometry::DataSet;
 use crate::curve::Preconvolved;
 use crate::error::{Error, Result};
@@ -55,6 +56,8 @@ use std::sync::atomic::{AtomicU64, Ordering};
 
 /// Largest number of points between two exact point-source evaluations off the map.
 pub const MAX_STRIDE: usize = 64;
+/// Iteration limit of the polish of each kept candidate on its map.
+pub const POLISH_ITERATIONS: u64 = 300;
 
 /// The seed of the search: the single-lens fit's trajectory.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -92,7 +95,7 @@ impl Default for GridRule {
             rhos: vec![1e-3, 2e-3, 4e-3],
             u0_span: 0.2,
             u0_floor: 0.005,
-            te_factors: vec![1.0],
+            te_factors: vec![0.85, 1.0, 1.15],
             t0_shifts: vec![0.0],
             keep: 3,
             interpolation_tol: 1e-3,
@@ -415,6 +418,14 @@ pub fn search_map(
             }
         }
     }
+    // Each kept candidate is polished on the map: a local minimisation of the same map-based
+    // chi^2 over (alpha, u0, t0, ln tE) at its rho, from the grid point.
+    let polished: Vec<Candidate> = candidates
+        .par_iter()
+        .map(|c| polish(&solver, data, &readers, rule, c, (d_alpha, d_u0)))
+        .collect::<Result<_>>()?;
+    let mut candidates = polished;
+    candidates.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
     Ok(MapOutcome {
         s,
         q,
@@ -422,6 +433,46 @@ pub fn search_map(
         trajectories: lines.len() as u64,
         points: points.into_inner(),
         notes,
+    })
+}
+
+/// Polishes a grid candidate on the map (see [`search_map`]); keeps the grid point if the
+/// minimisation finds nothing better.
+fn polish(
+    solver: &ImageSolver,
+    data: &[DataSet],
+    readers: &Readers,
+    rule: &GridRule,
+    start: &Candidate,
+    (d_alpha, d_u0): (f64, f64),
+) -> Result<Candidate> {
+    let r = rule
+        .rhos
+        .iter()
+        .position(|&x| x == start.model.rho)
+        .unwrap_or(0);
+    let solver = std::sync::Mutex::new(solver.clone());
+    let chi2 = |p: &[f64]| -> f64 {
+        let Ok(tr) = Trajectory::straight(p[2], p[1], p[3].exp(), p[0]) else {
+            return f64::INFINITY;
+        };
+        let mut solver = solver.lock().unwrap_or_else(|e| e.into_inner());
+        trajectory_chi2(&mut solver, data, readers, &tr, rule).map_or(f64::INFINITY, |c| c[r])
+    };
+    let l = start.model.trajectory.line();
+    let x0 = [l.alpha, l.u0, l.t0, l.te.ln()];
+    let step = [d_alpha, d_u0, 0.01 * l.te, 0.03];
+    let found = minimize(&chi2, &x0, &step, 0.01, POLISH_ITERATIONS)?;
+    if found.value >= start.chi2 {
+        return Ok(*start);
+    }
+    let p = &found.x;
+    Ok(Candidate {
+        model: BinaryModel {
+            trajectory: Trajectory::straight(p[2], p[1], p[3].exp(), p[0])?,
+            ..start.model
+        },
+        chi2: found.value,
     })
 }
 

@@ -1,0 +1,124 @@
+//! From search outcomes to distinct refined minima: the (s, q) local minima of the search are
+//! refined, minima that converge to the same model are merged, close/wide pairs are marked, and
+//! the error-bar scale of each data set is measured at the best model.
+
+use super::photometry::DataSet;
+use super::refine::{close_wide, refine, same_minimum, Refined};
+use super::search::{local_minima, MapOutcome};
+use crate::error::{Error, Result};
+use rayon::prelude::*;
+
+/// One distinct minimum, ranked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Minimum {
+    /// The refined model.
+    pub refined: Refined,
+    /// chi^2 of the map-based search candidate it started from.
+    pub search_chi2: f64,
+    /// Rank (1-based) of its close/wide partner, if one was found.
+    pub partner: Option<usize>,
+}
+
+/// How many search candidates are refined, and how.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RefineOptions {
+    /// Local minima of the search grid to refine (best first).
+    pub candidates: usize,
+    /// Relative tolerance of the exact magnifications.
+    pub tol: f64,
+    /// Iteration limit of each minimisation.
+    pub max_iters: u64,
+}
+
+impl Default for RefineOptions {
+    fn default() -> Self {
+        RefineOptions {
+            candidates: 4,
+            tol: 1e-4,
+            max_iters: 600,
+        }
+    }
+}
+
+/// Refines the best (s, q)-grid local minima of `outcomes` (in parallel), merges those that
+/// reach the same model, ranks them by chi^2 and marks close/wide pairs. `progress` is called
+/// after each refinement.
+pub fn refine_minima(
+    data: &[DataSet],
+    outcomes: &[MapOutcome],
+    options: &RefineOptions,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<Minimum>> {
+    let starts: Vec<_> = local_minima(outcomes)
+        .into_iter()
+        .take(options.candidates)
+        .map(|i| outcomes[i].candidates[0])
+        .collect();
+    if starts.is_empty() {
+        return Err(Error::Numerical(
+            "search: no trajectory of any map could be evaluated".into(),
+        ));
+    }
+    let refined: Vec<(Refined, f64)> = starts
+        .par_iter()
+        .map(|c| {
+            let r = refine(data, &c.model, options.tol, options.max_iters);
+            progress();
+            r.map(|r| (r, c.chi2))
+        })
+        .collect::<Result<_>>()?;
+    let mut order: Vec<usize> = (0..refined.len()).collect();
+    order.sort_by(|&a, &b| {
+        refined[a]
+            .0
+            .chi2
+            .total_cmp(&refined[b].0.chi2)
+            .then(a.cmp(&b))
+    });
+    let mut minima: Vec<Minimum> = Vec::new();
+    for i in order {
+        let (r, search_chi2) = &refined[i];
+        if minima.iter().all(|m| !same_minimum(&m.refined, r)) {
+            minima.push(Minimum {
+                refined: r.clone(),
+                search_chi2: *search_chi2,
+                partner: None,
+            });
+        }
+    }
+    for i in 0..minima.len() {
+        let a = &minima[i].refined.model;
+        minima[i].partner = (0..minima.len())
+            .filter(|&j| j != i)
+            .find(|&j| {
+                let b = &minima[j].refined.model;
+                close_wide((a.s, a.q), (b.s, b.q))
+            })
+            .map(|j| j + 1);
+    }
+    Ok(minima)
+}
+
+/// Error-bar scale of each data set at a model: `sqrt(chi2_k / (N_k - 2))`, the factor that
+/// brings the set's chi^2 per degree of freedom to 1 (its two fluxes counted against it;
+/// common practice). A set of 2 points or fewer keeps scale 1.
+///
+/// ```
+/// use causeway::fit::{fluxes::FluxFit, minima::error_scales, photometry::DataSet};
+/// let d = DataSet::parse("t,flux,flux_err\n0,1,1\n1,1,1\n2,1,1\n3,1,1\n4,1,1\n6,1,1\n", "d.csv", 22.0).unwrap();
+/// let f = FluxFit { fs: 1.0, fb: 0.0, chi2: 16.0 };
+/// assert_eq!(error_scales(&[d], &[f]), vec![2.0]);
+/// ```
+pub fn error_scales(data: &[DataSet], fluxes: &[super::fluxes::FluxFit]) -> Vec<f64> {
+    data.iter()
+        .zip(fluxes)
+        .map(|(d, f)| {
+            let dof = d.len().saturating_sub(2);
+            if dof == 0 {
+                1.0
+            } else {
+                (f.chi2 / dof as f64).sqrt()
+            }
+        })
+        .collect()
+}
