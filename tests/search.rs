@@ -55,6 +55,7 @@ fn a_planetary_caustic_crossing_is_recovered() {
         t0: 0.3,
         u0: 0.16,
         te: 24.5,
+        anomaly: None,
     };
     let rule = GridRule {
         rhos: vec![1.5e-3, 3e-3, 6e-3],

@@ -4,7 +4,7 @@
 //! host (s = 1.25), a map spanning the central and the planetary caustic, its picture with the
 //! caustics drawn, and the light curve of a limb-darkened source crossing the planetary caustic.
 //! Then the whole fitting job on another invented event: its photometry is simulated (a planet
-//! of q = 3e-3 at s = 1.3, the source crossing its planetary caustic), a small library of maps
+//! of q = 3e-3 at s = 1.3, a uniform source crossing its planetary caustic), a small library of maps
 //! around it is built, searched and refined, and the recovered model is printed and drawn.
 
 use super::curve::format_csv;
@@ -54,14 +54,12 @@ pub fn run(args: DemoArgs) -> Result<()> {
     fitting_job(out)
 }
 
-/// The invented event of the fitting part: s = 1.3, q = 3e-3, rho = 0.003 (linear limb
-/// darkening u = 0.5), t0 = 0, u0 = 0.15, tE = 25 d, alpha = 343.56 degrees; 600 points over
+/// The invented event of the fitting part: s = 1.3, q = 3e-3, rho = 0.003 (uniform), t0 = 0, u0 = 0.15, tE = 25 d, alpha = 343.56 degrees; 600 points over
 /// 120 days with 0.01 mag errors, a blend of 20% of the source flux.
-pub const DEMO_EVENT: [(&str, &str); 9] = [
+pub const DEMO_EVENT: [(&str, &str); 8] = [
     ("--s", "1.3"),
     ("--q", "3e-3"),
     ("--rho", "0.003"),
-    ("--ld", "0.5"),
     ("--t0", "0"),
     ("--u0", "0.15"),
     ("--te", "25"),
@@ -104,14 +102,12 @@ fn fitting_job(out: &Path) -> Result<()> {
         file("library.toml"),
         "--store".into(),
         file("maps"),
-        "--ld".into(),
-        "0.5".into(),
         "--rho".into(),
         "0.002,0.004".into(),
         "--refine".into(),
-        "2".into(),
+        "1".into(),
         "--max-iters".into(),
-        "300".into(),
+        "200".into(),
         "--out".into(),
         file("minima.csv"),
         "--chi2-map".into(),

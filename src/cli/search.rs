@@ -207,11 +207,10 @@ pub fn run(args: SearchArgs) -> Result<()> {
         single.t0, single.u0, single.te, single.chi2, single.points
     );
     let maps = library_maps(&args.library, &args.store)?;
-    let seed = Seed {
-        t0: single.t0,
-        u0: single.u0,
-        te: single.te,
-    };
+    let seed = Seed::of_fit(&single, &data);
+    if let Some(t) = seed.anomaly {
+        eprintln!("largest departure from the single lens at t = {t:.3}");
+    }
     let bar = progress_bar("search");
     bar.set_length(maps.len() as u64);
     let started = std::time::Instant::now();

@@ -176,14 +176,20 @@ fn invert_positive_definite(a: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {
             }
         }
     }
-    // Columns of L^-1, then A^-1 = L^-T L^-1.
+    // L^-1 row by row (forward substitution), then A^-1 = L^-T L^-1.
     let mut linv = vec![vec![0.0; n]; n];
-    for c in 0..n {
-        for i in c..n {
-            let rhs = if i == c { 1.0 } else { 0.0 };
-            let sum: f64 = (c..i).map(|k| l[i][k] * linv[k][c]).sum();
-            linv[i][c] = (rhs - sum) / l[i][i];
-        }
+    for i in 0..n {
+        let row: Vec<f64> = (0..n)
+            .map(|c| {
+                if c > i {
+                    return 0.0;
+                }
+                let rhs = if i == c { 1.0 } else { 0.0 };
+                let sum: f64 = (c..i).map(|k| l[i][k] * linv[k][c]).sum();
+                (rhs - sum) / l[i][i]
+            })
+            .collect();
+        linv[i] = row;
     }
     let mut inv = vec![vec![0.0; n]; n];
     for i in 0..n {

@@ -40,6 +40,7 @@ use super::fluxes::fit_fluxes;
 use super::model::{paczynski, BinaryModel, Trajectory};
 use super::optimize::minimize;
 use super::photometry::DataSet;
+use super::single::SingleLensFit;
 use crate::curve::Preconvolved;
 use crate::error::{Error, Result};
 use crate::lens::{LensSystem, PointLens};
@@ -68,6 +69,52 @@ pub struct Seed {
     pub u0: f64,
     /// Einstein timescale (days).
     pub te: f64,
+    /// Time of the strongest departure of the data from the single-lens fit, if known.
+    pub anomaly: Option<f64>,
+}
+
+impl Seed {
+    /// The seed of a single-lens fit: its trajectory, and the time where the data depart from
+    /// it most (the largest run of 5 normalised residuals, summed in quadrature).
+    ///
+    /// ```
+    /// use causeway::fit::{photometry::DataSet, search::Seed, single::fit_single_lens};
+    /// let mut text = String::from("t,flux,flux_err\n");
+    /// for k in 0..200 {
+    ///     let t = -50.0 + 0.5 * k as f64;
+    ///     let u = (0.01 + (t / 20.0f64).powi(2)).sqrt();
+    ///     let a = (u * u + 2.0) / (u * (u * u + 4.0).sqrt());
+    ///     let bump = if (t - 15.0).abs() < 1.0 { 0.5 } else { 0.0 };
+    ///     text += &format!("{t},{},0.01\n", a + bump);
+    /// }
+    /// let data = vec![DataSet::parse(&text, "d.csv", 22.0).unwrap()];
+    /// let seed = Seed::of_fit(&fit_single_lens(&data).unwrap(), &data);
+    /// assert!((seed.anomaly.unwrap() - 15.0).abs() <= 1.0);
+    /// ```
+    pub fn of_fit(fit: &SingleLensFit, data: &[DataSet]) -> Seed {
+        let mut best = (0.0, None);
+        for (set, f) in data.iter().zip(&fit.fluxes) {
+            let r: Vec<f64> = (0..set.len())
+                .map(|i| {
+                    let tau = (set.times[i] - fit.t0) / fit.te;
+                    let a = paczynski(tau.hypot(fit.u0).max(1e-12));
+                    ((set.flux[i] - f.fs * a - f.fb) / set.sigma(i)).powi(2)
+                })
+                .collect();
+            for (i, w) in r.windows(5).enumerate() {
+                let score: f64 = w.iter().sum();
+                if score > best.0 {
+                    best = (score, Some(set.times[i + 2]));
+                }
+            }
+        }
+        Seed {
+            t0: fit.t0,
+            u0: fit.u0,
+            te: fit.te,
+            anomaly: best.1,
+        }
+    }
 }
 
 /// How the trajectory grid is laid out (see the module documentation).
@@ -149,7 +196,7 @@ impl GridRule {
     /// use causeway::fit::search::{GridRule, Seed};
     /// use causeway::map::Window;
     /// let rule = GridRule { rhos: vec![0.005], ..GridRule::default() };
-    /// let seed = Seed { t0: 0.0, u0: 0.1, te: 20.0 };
+    /// let seed = Seed { t0: 0.0, u0: 0.1, te: 20.0, anomaly: None };
     /// let w = Window::new((0.3, 0.0), 0.1, 100).unwrap();
     /// let lines = rule.lines(&w, &seed);
     /// // Every line passes within the half-diagonal of the window's centre...
@@ -340,7 +387,7 @@ fn crossing(tr: &Trajectory, window: &Window) -> Option<(f64, f64)> {
             hi = hi.min(t1.max(t2));
         }
     }
-    (lo <= hi).then(|| (l.t0 + lo * l.te, l.t0 + hi * l.te))
+    (lo <= hi).then_some((l.t0 + lo * l.te, l.t0 + hi * l.te))
 }
 
 /// Searches one map.
@@ -359,15 +406,32 @@ pub fn search_map(
     let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
     all_times.sort_by(f64::total_cmp);
     let grid = rule.lines(&map.window, seed);
+    let sharpest = readers.convolved[0].iter().flatten().next();
     let mut lines = Vec::new();
+    let observed = |tr: &Trajectory| {
+        crossing(tr, &map.window).is_some_and(|(a, b)| {
+            let k = all_times.partition_point(|&t| t < a);
+            k < all_times.len() && all_times[k] <= b
+        })
+    };
     for &f in &rule.te_factors {
         for &shift in &rule.t0_shifts {
             for &(alpha, u0) in &grid {
-                let tr = Trajectory::straight(seed.t0 + shift * seed.te, u0, seed.te * f, alpha)?;
-                if let Some((a, b)) = crossing(&tr, &map.window) {
-                    let k = all_times.partition_point(|&t| t < a);
-                    if k < all_times.len() && all_times[k] <= b {
-                        lines.push(tr);
+                let te = seed.te * f;
+                let tr = Trajectory::straight(seed.t0 + shift * seed.te, u0, te, alpha)?;
+                if observed(&tr) {
+                    lines.push(tr);
+                }
+                // The same line timed so that its strongest feature on the map falls at the
+                // anomaly seen in the data.
+                if let (Some(ta), Some(conv), 0.0) = (seed.anomaly, sharpest, shift) {
+                    if let Some(tau) =
+                        strongest_feature(&tr, &map.window, conv, &readers.host, rule.rho_min())
+                    {
+                        let timed = Trajectory::straight(ta - tau * te, u0, te, alpha)?;
+                        if observed(&timed) {
+                            lines.push(timed);
+                        }
                     }
                 }
             }
@@ -434,6 +498,36 @@ pub fn search_map(
         points: points.into_inner(),
         notes,
     })
+}
+
+/// Where along the line of `tr` (as `tau`, the line's own time in units of tE from its closest
+/// approach) its magnification on the map most exceeds the host's alone, sampled every
+/// `rho / 2` across the window; `None` if it never exceeds it by 5%.
+fn strongest_feature(
+    tr: &Trajectory,
+    window: &Window,
+    conv: &Preconvolved,
+    host: &PointLens,
+    rho: f64,
+) -> Option<f64> {
+    let l = tr.line();
+    let (a, b) = crossing(tr, window)?;
+    let (tau0, tau1) = ((a - l.t0) / l.te, (b - l.t0) / l.te);
+    let n = ((tau1 - tau0) / (0.5 * rho)).ceil().min(1e5) as usize;
+    let (sn, cs) = l.alpha.sin_cos();
+    let mut best = (1.05, None);
+    for k in 0..=n {
+        let tau = tau0 + (tau1 - tau0) * k as f64 / n.max(1) as f64;
+        let (x, y) = (tau * cs - l.u0 * sn, tau * sn + l.u0 * cs);
+        if let Some(a) = conv.read(x, y) {
+            let u = (Complex64::new(x, y) - host.position).norm() / host.mass.sqrt();
+            let excess = a / paczynski(u.max(1e-12));
+            if excess > best.0 {
+                best = (excess, Some(tau));
+            }
+        }
+    }
+    best.1
 }
 
 /// Polishes a grid candidate on the map (see [`search_map`]); keeps the grid point if the
