@@ -84,28 +84,21 @@ pub fn minimize(
     })
 }
 
-/// Covariance `2 H^-1` of the parameters at a minimum of a chi^2 `f`, with the Hessian `H` from
-/// central differences. The step along each axis starts at `h` and is adapted (up to four
-/// times) until the second difference raises chi^2 by between 0.3 and 3, about one standard
-/// deviation: far enough above the round-off of chi^2, near enough to stay quadratic. `None`
-/// where `H` is not positive definite (a flat or saddle direction).
+/// Steps for [`covariance`] along each axis of a chi^2 `f` at `x`: starting at `h`, adapted (up
+/// to four times per axis) until the second difference raises chi^2 by between 0.3 and 3,
+/// about one standard deviation: far enough above the round-off of chi^2, near enough to stay
+/// quadratic.
 ///
 /// ```
-/// use causeway::fit::optimize::covariance;
-/// // chi^2 = (x/2)^2 + (y/3)^2 has sigma_x = 2, sigma_y = 3.
-/// let chi2 = |p: &[f64]| (p[0] / 2.0).powi(2) + (p[1] / 3.0).powi(2);
-/// let c = covariance(&chi2, &[0.0, 0.0], &[0.1, 0.1]).unwrap();
-/// assert!((c[0][0].sqrt() - 2.0).abs() < 1e-9 && (c[1][1].sqrt() - 3.0).abs() < 1e-9);
+/// use causeway::fit::optimize::curvature_steps;
+/// let chi2 = |p: &[f64]| (p[0] / 2.0).powi(2);
+/// let h = curvature_steps(&chi2, &[0.0], &[1e-4]);
+/// assert!(h[0] > 0.5 && h[0] < 4.0);
 /// ```
-pub fn covariance(
-    f: &(dyn Fn(&[f64]) -> f64 + Sync),
-    x: &[f64],
-    h: &[f64],
-) -> Option<Vec<Vec<f64>>> {
-    let n = x.len();
+pub fn curvature_steps(f: &(dyn Fn(&[f64]) -> f64 + Sync), x: &[f64], h: &[f64]) -> Vec<f64> {
     let f0 = f(x);
     let mut h = h.to_vec();
-    for i in 0..n {
+    for i in 0..x.len() {
         for _ in 0..4 {
             let mut p = x.to_vec();
             p[i] = x[i] + h[i];
@@ -129,6 +122,27 @@ pub fn covariance(
             }
         }
     }
+    h
+}
+
+/// Covariance `2 H^-1` of the parameters at a minimum of a chi^2 `f`, with the Hessian `H` from
+/// central differences of steps `h` (see [`curvature_steps`] to choose them). `None` where `H`
+/// is not positive definite (a flat or saddle direction).
+///
+/// ```
+/// use causeway::fit::optimize::covariance;
+/// // chi^2 = (x/2)^2 + (y/3)^2 has sigma_x = 2, sigma_y = 3.
+/// let chi2 = |p: &[f64]| (p[0] / 2.0).powi(2) + (p[1] / 3.0).powi(2);
+/// let c = covariance(&chi2, &[0.0, 0.0], &[0.1, 0.1]).unwrap();
+/// assert!((c[0][0].sqrt() - 2.0).abs() < 1e-9 && (c[1][1].sqrt() - 3.0).abs() < 1e-9);
+/// ```
+pub fn covariance(
+    f: &(dyn Fn(&[f64]) -> f64 + Sync),
+    x: &[f64],
+    h: &[f64],
+) -> Option<Vec<Vec<f64>>> {
+    let n = x.len();
+    let f0 = f(x);
     let at = |moves: &[(usize, f64)]| {
         let mut p = x.to_vec();
         for &(i, d) in moves {

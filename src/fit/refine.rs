@@ -10,7 +10,7 @@
 
 use super::fluxes::{fit_fluxes, FluxFit};
 use super::model::{BinaryModel, Trajectory};
-use super::optimize::{covariance, minimize, INFEASIBLE};
+use super::optimize::{covariance, curvature_steps, minimize, INFEASIBLE};
 use super::photometry::DataSet;
 use crate::error::Result;
 use std::f64::consts::{PI, TAU};
@@ -115,7 +115,8 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
     }
     // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.
     let h: Vec<f64> = step.iter().map(|s| 0.05 * s).collect();
-    let cov = covariance(&chi2_to(0.1 * tol), &found.x, &h);
+    let fine = chi2_to(0.1 * tol);
+    let cov = covariance(&fine, &found.x, &curvature_steps(&fine, &found.x, &h));
     let model = canonical(&from_vector(&found.x)?);
     let (chi2_min, fluxes) = exact_chi2(data, &model, tol)?;
     // Natural parameters from the minimiser's: d s = s d(ln s), and so on.
