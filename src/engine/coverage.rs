@@ -28,6 +28,10 @@
 /// A point in pixel coordinates (x, y), continuous, from the grid's lower-left corner.
 pub(crate) type Point = (f64, f64);
 
+/// Largest amount per unit area: row amounts stay exact integers in f64, and far from `i64`
+/// overflow.
+const MAX_SCALE: f64 = (1u64 << 52) as f64;
+
 /// One worker's accumulation buffer: per row, `n + 1` differences between neighbouring pixels.
 pub(crate) struct Coverage {
     n: usize,
@@ -72,8 +76,8 @@ impl Coverage {
 
     /// Shares `units` among the pixels the quadrilateral `quad` overlaps, in proportion to the
     /// exact overlap areas; parts outside the grid are lost. Either orientation; the
-    /// quadrilateral must not cross itself. A degenerate one (no area) adds `units` at its first
-    /// corner.
+    /// quadrilateral must not cross itself. A degenerate one (no area, or less than
+    /// `2 units / 2^52`) adds `units` at its first corner.
     pub fn quad(&mut self, quad: &[Point; 4], units: i64) {
         let nf = self.n as f64;
         let (mut xmin, mut xmax, mut ymin, mut ymax) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
@@ -91,13 +95,13 @@ impl Coverage {
             // Entirely within one pixel of the grid.
             return self.add_pixel(c0 as usize, r0 as usize, units);
         }
-        let twice = twice_area(quad);
-        if !(twice.is_finite() && twice != 0.0) {
-            return self.point(quad[0], units);
-        }
         // Amount per unit of covered area (signed: negative for clockwise polygons, whose
         // winding numbers are -1 inside).
-        let scale = 2.0 * units as f64 / twice;
+        let scale = 2.0 * units as f64 / twice_area(quad);
+        if scale.is_nan() || scale.abs() > MAX_SCALE {
+            // No area, or so little that amounts would leave exact f64 integers.
+            return self.point(quad[0], units);
+        }
         for k in 0..4 {
             self.edge(quad[k], quad[(k + 1) % 4], scale);
         }
@@ -116,6 +120,7 @@ impl Coverage {
             return;
         }
         let dxdy = (b.0 - a.0) / (b.1 - a.1);
+        let dydx = (b.1 - a.1) / (b.0 - a.0);
         let x_at = |y: f64| {
             if y == a.1 {
                 a.0
@@ -125,7 +130,8 @@ impl Coverage {
                 a.0 + (y - a.1) * dxdy
             }
         };
-        let (j0, j1) = (column(lo, nf).max(0), column(hi, nf).min(self.n as i64 - 1));
+        let n = self.n;
+        let (j0, j1) = (column(lo, nf).max(0), column(hi, nf).min(n as i64 - 1));
         for j in j0..=j1 {
             let jf = j as f64;
             // The piece of the edge in row j, in the edge's direction.
@@ -135,58 +141,56 @@ impl Coverage {
                 continue;
             }
             let q = |y: f64| (scale * (y - jf)) as i64;
-            let (xa, xb) = (x_at(ya), x_at(yb));
-            self.row_piece(j as usize, (xa, ya, q(ya)), (xb, yb, q(yb)), &q, dxdy);
+            let row = &mut self.delta[j as usize * (n + 1)..][..n + 1];
+            let (pa, pb) = ((x_at(ya), ya, q(ya)), (x_at(yb), yb, q(yb)));
+            row_piece(row, pa, pb, &q, dydx);
         }
     }
+}
 
-    /// Adds one edge piece within row `r`, from `(x, y, Q(y))` at `a` to `b`, walking across
-    /// the columns it passes.
-    #[inline(always)]
-    fn row_piece(
-        &mut self,
-        r: usize,
-        a: (f64, f64, i64),
-        b: (f64, f64, i64),
-        q: &impl Fn(f64) -> i64,
-        dxdy: f64,
-    ) {
-        let nf = self.n as f64;
-        let (ca, cb) = (column(a.0, nf), column(b.0, nf));
-        if ca == cb {
-            return self.deposit(r, ca, a.2 - b.2, 0.5 * (a.0 + b.0));
-        }
-        let step = if cb > ca { 1 } else { -1 };
-        let (y_lo, y_hi) = (a.1.min(b.1), a.1.max(b.1));
-        let (mut x, mut qy) = (a.0, a.2);
-        let mut c = ca;
-        while c != cb {
-            // Leave column c through its boundary towards b.
-            let boundary = if step > 0 { c + 1 } else { c } as f64;
-            let y = (a.1 + (boundary - a.0) / dxdy).clamp(y_lo, y_hi);
-            let qn = q(y);
-            self.deposit(r, c, qy - qn, 0.5 * (x + boundary));
-            (x, qy) = (boundary, qn);
-            c += step;
-        }
-        self.deposit(r, cb, qy - b.2, 0.5 * (x + b.0));
+/// Adds one edge piece within a row (`n + 1` differences), from `(x, y, Q(y))` at `a` to `b`,
+/// walking across the columns it passes; `dydx` is the edge's slope.
+#[inline(always)]
+fn row_piece(
+    row: &mut [i64],
+    a: (f64, f64, i64),
+    b: (f64, f64, i64),
+    q: &impl Fn(f64) -> i64,
+    dydx: f64,
+) {
+    let nf = (row.len() - 1) as f64;
+    let (ca, cb) = (column(a.0, nf), column(b.0, nf));
+    if ca == cb {
+        return deposit(row, ca, a.2 - b.2, 0.5 * (a.0 + b.0));
     }
+    let step = if cb > ca { 1 } else { -1 };
+    let (y_lo, y_hi) = (a.1.min(b.1), a.1.max(b.1));
+    let (mut x, mut qy) = (a.0, a.2);
+    let mut c = ca;
+    while c != cb {
+        // Leave column c through its boundary towards b.
+        let boundary = if step > 0 { c + 1 } else { c } as f64;
+        let y = (a.1 + (boundary - a.0) * dydx).clamp(y_lo, y_hi);
+        let qn = q(y);
+        deposit(row, c, qy - qn, 0.5 * (x + boundary));
+        (x, qy) = (boundary, qn);
+        c += step;
+    }
+    deposit(row, cb, qy - b.2, 0.5 * (x + b.0));
+}
 
-    /// Adds `amount` for a piece in column `c` of row `r` whose mean x is `mid`: the part
-    /// right of the piece to pixel `c`, the rest carried to `c + 1` and beyond.
-    #[inline(always)]
-    fn deposit(&mut self, r: usize, c: i64, amount: i64, mid: f64) {
-        let n = self.n;
-        let row = r * (n + 1);
-        if c < 0 {
-            self.delta[row] += amount;
-        } else if (c as usize) < n {
-            let f = (mid - c as f64).clamp(0.0, 1.0);
-            let carry = (amount as f64 * f) as i64;
-            let k = row + c as usize;
-            self.delta[k] += amount - carry;
-            self.delta[k + 1] += carry;
-        }
+/// Adds `amount` for a piece in column `c` of a row whose mean x is `mid`: the part right of
+/// the piece to pixel `c`, the rest carried to `c + 1` and beyond (column -1 carries it all;
+/// columns past the last pixel add nothing).
+#[inline(always)]
+fn deposit(row: &mut [i64], c: i64, amount: i64, mid: f64) {
+    if c < 0 {
+        row[0] += amount;
+    } else if (c as usize) + 1 < row.len() {
+        let f = (mid - c as f64).clamp(0.0, 1.0);
+        let carry = (amount as f64 * f) as i64;
+        row[c as usize] += amount - carry;
+        row[c as usize + 1] += carry;
     }
 }
 
@@ -281,6 +285,15 @@ mod tests {
         let mut cov = Coverage::new(2);
         cov.quad(&[(1.0, 1.0), (3.0, 1.0), (3.0, 3.0), (1.0, 3.0)], 4000);
         assert_eq!(totals(&cov), vec![0, 0, 0, 1000]);
+    }
+
+    #[test]
+    fn a_quadrilateral_without_area_counts_as_a_point() {
+        // Four collinear corners across three pixels: all units at the first corner's pixel.
+        let mut cov = Coverage::new(3);
+        cov.quad(&[(0.5, 0.5), (1.5, 1.5), (2.5, 2.5), (1.5, 1.5)], 1000);
+        assert_eq!(totals(&cov), vec![1000, 0, 0, 0, 0, 0, 0, 0, 0]);
+        assert_eq!(cov.deposits, 1);
     }
 
     #[test]

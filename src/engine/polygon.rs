@@ -19,8 +19,9 @@
 //!
 //! Areas are accumulated in fixed point (2^32 units per cell) in per-worker `i64` buffers of
 //! row differences, so sums are exact integers and the map is bit-identical for any thread
-//! count. Peak memory: `8 n (n + 1)` bytes per thread plus `4 n^2` for the output, plus 16 bytes
-//! per surviving leaf.
+//! count. Counts: `rays_shot` is the lattice cells mapped, `rays_landed` the cells and split
+//! cells that added area inside the window. Peak memory: `8 n (n + 1)` bytes per thread plus
+//! `4 n^2` for the output, plus 16 bytes per surviving leaf.
 
 use super::coverage::{merge, Coverage, Point};
 use super::lattice::{for_each_leaf, leaf_cells, Block, Lattice, LEAF};
@@ -166,7 +167,8 @@ impl Mapper<'_> {
             0.25 * (q[0].0 + q[1].0 + q[2].0 + q[3].0),
             0.25 * (q[0].1 + q[1].1 + q[2].1 + q[3].1),
         );
-        let dev = (centre.0 - mean.0).hypot(centre.1 - mean.1);
+        let (ex, ey) = (centre.0 - mean.0, centre.1 - mean.1);
+        let dev = (ex * ex + ey * ey).sqrt();
         if self.out_of_reach(&q, dev) {
             return;
         }
