@@ -287,6 +287,75 @@ mod tests {
         assert_eq!(totals(&cov), vec![0, 0, 0, 1000]);
     }
 
+    /// Area of the convex polygon `poly` within the pixel `[c, c + 1] x [r, r + 1]`, by
+    /// clipping it to the pixel's four half planes (Sutherland and Hodgman 1974, Comm. ACM 17,
+    /// 32) and the shoelace formula: an independent route to the same areas.
+    fn clipped_area(poly: &[Point], c: f64, r: f64) -> f64 {
+        let mut cur = poly.to_vec();
+        let planes: [(fn(&Point) -> f64, f64, f64); 4] = [
+            (|p| p.0, c, 1.0),
+            (|p| p.0, c + 1.0, -1.0),
+            (|p| p.1, r, 1.0),
+            (|p| p.1, r + 1.0, -1.0),
+        ];
+        for (coord, bound, side) in planes {
+            let inside = |p: &Point| (coord(p) - bound) * side >= 0.0;
+            let mut next = Vec::new();
+            for k in 0..cur.len() {
+                let (a, b) = (cur[k], cur[(k + 1) % cur.len()]);
+                if inside(&a) {
+                    next.push(a);
+                }
+                if inside(&a) != inside(&b) {
+                    let t = (bound - coord(&a)) / (coord(&b) - coord(&a));
+                    next.push((a.0 + t * (b.0 - a.0), a.1 + t * (b.1 - a.1)));
+                }
+            }
+            cur = next;
+        }
+        if cur.len() < 3 {
+            0.0
+        } else {
+            0.5 * twice_area(&cur).abs()
+        }
+    }
+
+    #[test]
+    fn shares_match_polygon_clipping_for_random_quadrilaterals() {
+        // Random convex quadrilaterals (corners at random angles on an ellipse, some reaching
+        // past the grid) on a 6 x 6 grid: every pixel's share against the clipped area.
+        let mut seed = 0x2545_f491_4f6c_dd1du64;
+        let mut uniform = || {
+            seed = seed
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let units = 1i64 << 40;
+        for _ in 0..200 {
+            let (cx, cy) = (7.0 * uniform() - 0.5, 7.0 * uniform() - 0.5);
+            let (ax, ay, tilt) = (3.0 * uniform() + 0.01, 3.0 * uniform() + 0.01, uniform());
+            let mut angles: Vec<f64> = (0..4).map(|_| std::f64::consts::TAU * uniform()).collect();
+            angles.sort_by(f64::total_cmp);
+            let quad: [Point; 4] = std::array::from_fn(|k| {
+                let (x, y) = (ax * angles[k].cos(), ay * angles[k].sin());
+                let (s, c) = (3.0 * tilt).sin_cos();
+                (cx + c * x - s * y, cy + s * x + c * y)
+            });
+            let area = 0.5 * twice_area(&quad).abs();
+            let mut cov = Coverage::new(6);
+            cov.quad(&quad, units);
+            for (k, &got) in totals(&cov).iter().enumerate() {
+                let exact = clipped_area(&quad, (k % 6) as f64, (k / 6) as f64) / area;
+                let got = got as f64 / units as f64;
+                assert!(
+                    (got - exact).abs() < 1e-9,
+                    "{quad:?} pixel {k}: {got} vs {exact}"
+                );
+            }
+        }
+    }
+
     #[test]
     fn a_quadrilateral_without_area_counts_as_a_point() {
         // Four collinear corners across three pixels: all units at the first corner's pixel.
