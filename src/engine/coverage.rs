@@ -292,13 +292,15 @@ mod tests {
     /// 32) and the shoelace formula: an independent route to the same areas.
     fn clipped_area(poly: &[Point], c: f64, r: f64) -> f64 {
         let mut cur = poly.to_vec();
-        let planes: [(fn(&Point) -> f64, f64, f64); 4] = [
-            (|p| p.0, c, 1.0),
-            (|p| p.0, c + 1.0, -1.0),
-            (|p| p.1, r, 1.0),
-            (|p| p.1, r + 1.0, -1.0),
+        // (x or y, bound, +1 to keep above or -1 to keep below)
+        let planes = [
+            (true, c, 1.0),
+            (true, c + 1.0, -1.0),
+            (false, r, 1.0),
+            (false, r + 1.0, -1.0),
         ];
-        for (coord, bound, side) in planes {
+        for (on_x, bound, side) in planes {
+            let coord = |p: &Point| if on_x { p.0 } else { p.1 };
             let inside = |p: &Point| (coord(p) - bound) * side >= 0.0;
             let mut next = Vec::new();
             for k in 0..cur.len() {
