@@ -206,22 +206,28 @@ fn twice_area(poly: &[Point]) -> f64 {
 }
 
 /// Sums the workers' buffers (integers: the order does not matter), runs along each row and
-/// scales the totals into an `n x n` map (rows in parallel); returns the data and the summed
-/// deposits. Totals a rounding unit or two below zero are written as zero.
+/// scales the totals into an `n x n` map (rows in parallel); with `fold`, row `r` also receives
+/// row `n - 1 - r` (mirror images). Returns the data and the summed deposits. Totals a rounding
+/// unit or two below zero are written as zero.
 pub(crate) fn merge(
     buffers: Vec<Coverage>,
     n: usize,
     scale: f64,
+    fold: bool,
 ) -> crate::error::Result<(ndarray::Array2<f32>, u64)> {
     use rayon::prelude::*;
     let deposits = buffers.iter().map(|b| b.deposits).sum();
     let mut values = vec![0f32; n * n];
+    let column_delta =
+        |r: usize, c: usize| -> i64 { buffers.iter().map(|b| b.delta[r * (n + 1) + c]).sum() };
     values.par_chunks_mut(n).enumerate().for_each(|(r, out)| {
-        let row = r * (n + 1);
-        let mut run = 0i64;
+        let (mut run, mut mirror) = (0i64, 0i64);
         for (c, v) in out.iter_mut().enumerate() {
-            run += buffers.iter().map(|b| b.delta[row + c]).sum::<i64>();
-            *v = (run.max(0) as f64 * scale) as f32;
+            run += column_delta(r, c);
+            if fold {
+                mirror += column_delta(n - 1 - r, c);
+            }
+            *v = ((run + mirror).max(0) as f64 * scale) as f32;
         }
     });
     drop(buffers);
