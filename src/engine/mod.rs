@@ -16,6 +16,7 @@ use crate::map::{utc_now, MagnificationMap, Provenance, Window};
 use ndarray::Array2;
 
 pub mod accuracy;
+mod coverage;
 mod lattice;
 mod polygon;
 mod rays;

@@ -3,8 +3,8 @@
 //! The image plane is cut into the square cells of [`super::lattice`] (side
 //! `h = pixel / sqrt(C)` for `C` cells per unlensed pixel area). Each cell's four corners are
 //! mapped to the source plane; the cell's area `h^2` is shared among the pixels its image
-//! quadrilateral covers, in proportion to the exact overlap area (the quadrilateral clipped to
-//! each pixel). A pixel's value is the area it received divided by its own area: the mean
+//! quadrilateral covers, in proportion to the exact overlap area (scan-converted edge by edge in
+//! [`super::coverage`]). A pixel's value is the area it received divided by its own area: the mean
 //! magnification over the pixel, without the counting noise of rays.
 //!
 //! The quadrilateral stands for the cell's true image up to the curvature of its edges. A cell is
@@ -17,11 +17,20 @@
 //! A cell still failing at the deepest level deposits its whole area at the pixel of its centre's
 //! image, as one ray would.
 //!
-//! Areas are accumulated in fixed point (2^32 units per cell) in per-worker `u64` histograms, so
-//! sums are exact integers and the map is bit-identical for any thread count. Peak memory:
-//! `8 n^2` bytes per thread plus `12 n^2`, plus 16 bytes per surviving leaf.
+//! With a lens symmetric about the x axis only the upper half plane is mapped
+//! ([`super::lattice`]); each cell's mirror image is deposited too, or, when the window is
+//! centred on the axis as well, added at the end by summing every pixel row with its mirror row
+//! (the mirror image covers row `n - 1 - r` exactly as the cell covers row `r`), which halves
+//! the scan conversion and makes the map exactly symmetric.
+//!
+//! Areas are accumulated in fixed point (2^32 units per cell) in per-worker `i64` buffers of
+//! row differences, so sums are exact integers and the map is bit-identical for any thread
+//! count. Counts: `rays_shot` is the lattice cells mapped, `rays_landed` the cells and split
+//! cells that added area inside the window. Peak memory: `8 n (n + 1)` bytes per thread plus
+//! `4 n^2` for the output, plus 16 bytes per surviving leaf.
 
-use super::lattice::{for_each_leaf, leaf_cells, merge, Block, Lattice, Tally, LEAF};
+use super::coverage::{merge, Coverage, Point};
+use super::lattice::{for_each_leaf, leaf_cells, Block, Lattice, LEAF};
 use super::{Engine, Progress, Traced};
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
@@ -33,7 +42,7 @@ pub const MAX_DEPTH: u32 = 6;
 /// images before the cell is split.
 pub const CENTRE_TOLERANCE: f64 = 0.005;
 /// Fixed-point units of one whole cell's area.
-const FULL: u64 = 1 << 32;
+const FULL: i64 = 1 << 32;
 
 /// The polygon-mapping engine.
 ///
@@ -77,127 +86,6 @@ impl PolygonMapping {
     }
 }
 
-type Point = (f64, f64);
-
-/// Twice the signed area of a polygon (shoelace).
-fn twice_area(poly: &[Point]) -> f64 {
-    let mut a = 0.0;
-    for k in 0..poly.len() {
-        let (x1, y1) = poly[k];
-        let (x2, y2) = poly[(k + 1) % poly.len()];
-        a += x1 * y2 - x2 * y1;
-    }
-    a
-}
-
-/// Clips a polygon to the half plane `coord(p) >= bound` (keep_above) or `<= bound`.
-fn clip(poly: &[Point], out: &mut Vec<Point>, axis_x: bool, bound: f64, keep_above: bool) {
-    out.clear();
-    let coord = |p: &Point| if axis_x { p.0 } else { p.1 };
-    let inside = |p: &Point| {
-        if keep_above {
-            coord(p) >= bound
-        } else {
-            coord(p) <= bound
-        }
-    };
-    for k in 0..poly.len() {
-        let a = poly[k];
-        let b = poly[(k + 1) % poly.len()];
-        let (ia, ib) = (inside(&a), inside(&b));
-        if ia {
-            out.push(a);
-        }
-        if ia != ib {
-            let t = (bound - coord(&a)) / (coord(&b) - coord(&a));
-            out.push((a.0 + t * (b.0 - a.0), a.1 + t * (b.1 - a.1)));
-        }
-    }
-}
-
-/// Per-worker accumulator: fixed-point areas per pixel and scratch polygons.
-struct Accumulator {
-    tally: Tally<u64>,
-    strip: Vec<Point>,
-    scratch: Vec<Point>,
-    piece: Vec<Point>,
-}
-
-impl Accumulator {
-    fn new(npix: usize) -> Self {
-        Accumulator {
-            tally: Tally::new(npix),
-            strip: Vec::with_capacity(16),
-            scratch: Vec::with_capacity(16),
-            piece: Vec::with_capacity(16),
-        }
-    }
-
-    /// Adds `units` at the pixel holding point `p` (pixel coordinates), if inside.
-    fn point(&mut self, p: Point, units: u64, n: usize) {
-        let nf = n as f64;
-        if p.0 >= 0.0 && p.0 < nf && p.1 >= 0.0 && p.1 < nf {
-            self.tally.hist[p.1 as usize * n + p.0 as usize] += units;
-            self.tally.count += 1;
-        }
-    }
-
-    /// Shares `units` among the pixels covered by the convex quadrilateral `quad` (pixel
-    /// coordinates), in proportion to the overlap areas.
-    fn quad(&mut self, quad: &[Point; 4], units: u64, n: usize) {
-        let nf = n as f64;
-        let (mut xmin, mut xmax, mut ymin, mut ymax) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
-        for p in quad {
-            xmin = xmin.min(p.0);
-            xmax = xmax.max(p.0);
-            ymin = ymin.min(p.1);
-            ymax = ymax.max(p.1);
-        }
-        if xmax < 0.0 || ymax < 0.0 || xmin >= nf || ymin >= nf {
-            return;
-        }
-        let (c0, c1) = (xmin.floor(), xmax.floor());
-        let (r0, r1) = (ymin.floor(), ymax.floor());
-        if c0 == c1 && r0 == r1 {
-            // Entirely within one pixel (inside the window, by the test above).
-            self.tally.hist[r0 as usize * n + c0 as usize] += units;
-            self.tally.count += 1;
-            return;
-        }
-        let total = twice_area(quad).abs();
-        if total <= 0.0 {
-            return self.point(quad[0], units, n);
-        }
-        let scale = units as f64 / total;
-        let cols = (c0.max(0.0) as usize)..=(c1.min(nf - 1.0) as usize);
-        for c in cols {
-            let (lo, hi) = (c as f64, c as f64 + 1.0);
-            clip(quad, &mut self.scratch, true, lo, true);
-            clip(&self.scratch, &mut self.strip, true, hi, false);
-            if self.strip.len() < 3 {
-                continue;
-            }
-            let (mut sy0, mut sy1) = (f64::MAX, f64::MIN);
-            for p in &self.strip {
-                sy0 = sy0.min(p.1);
-                sy1 = sy1.max(p.1);
-            }
-            let rows = (sy0.floor().max(0.0) as usize)..=(sy1.floor().min(nf - 1.0) as usize);
-            for r in rows {
-                let (lo, hi) = (r as f64, r as f64 + 1.0);
-                clip(&self.strip, &mut self.scratch, false, lo, true);
-                clip(&self.scratch, &mut self.piece, false, hi, false);
-                if self.piece.len() < 3 {
-                    continue;
-                }
-                let share = (twice_area(&self.piece).abs() * scale).round() as u64;
-                self.tally.hist[r * n + c] += share;
-                self.tally.count += 1;
-            }
-        }
-    }
-}
-
 /// Is the quadrilateral convex with one orientation, and are its corners finite?
 fn well_formed(q: &[Point; 4]) -> bool {
     let mut sign = 0.0f64;
@@ -228,6 +116,17 @@ struct Square {
 
 struct Mapper<'a> {
     lattice: &'a Lattice,
+    /// Mirror images are added by folding the rows at the merge, not mapped (see
+    /// [`folds`]).
+    fold: bool,
+}
+
+/// True when the lens is symmetric about the x axis and so is the window: pixel row `r` is then
+/// the mirror image of row `n - 1 - r`, and the mirror image of a cell covers row `n - 1 - r`
+/// exactly as the cell covers row `r`. Rasterising each cell once and adding every row to its
+/// mirror row at the end gives the mirror contributions without mapping them.
+fn folds(lattice: &Lattice, window: &Window) -> bool {
+    lattice.mirror && window.center.1 == 0.0
 }
 
 impl Mapper<'_> {
@@ -278,31 +177,31 @@ impl Mapper<'_> {
 
     /// Deposits one cell: lower-left image-plane corner (x, y), side `size`, corner images
     /// `q` (counter-clockwise from lower left), centre image `centre`.
-    fn cell(&self, square: Square, q: [Point; 4], centre: Point, acc: &mut Accumulator) {
+    fn cell(&self, square: Square, q: [Point; 4], centre: Point, acc: &mut Coverage) {
         let Square { x, y, size, depth } = square;
-        let n = self.lattice.n;
         let units = FULL >> (2 * depth);
         let mean = (
             0.25 * (q[0].0 + q[1].0 + q[2].0 + q[3].0),
             0.25 * (q[0].1 + q[1].1 + q[2].1 + q[3].1),
         );
-        let dev = (centre.0 - mean.0).hypot(centre.1 - mean.1);
+        let (ex, ey) = (centre.0 - mean.0, centre.1 - mean.1);
+        let dev = (ex * ex + ey * ey).sqrt();
         if self.out_of_reach(&q, dev) {
             return;
         }
         let good = well_formed(&q) && dev <= CENTRE_TOLERANCE;
         if good || depth == MAX_DEPTH {
             if good {
-                acc.quad(&q, units, n);
+                acc.quad(&q, units);
             } else {
-                acc.point(centre, units, n);
+                acc.point(centre, units);
             }
-            if self.lattice.mirror {
+            if self.lattice.mirror && !self.fold {
                 if good {
-                    acc.quad(&self.mirror(&q), units, n);
+                    acc.quad(&self.mirror(&q), units);
                 } else {
                     let m = self.mirror(&[centre, centre, centre, centre]);
-                    acc.point(m[0], units, n);
+                    acc.point(m[0], units);
                 }
             }
             return;
@@ -333,7 +232,7 @@ impl Mapper<'_> {
     }
 
     /// Maps one leaf of cells row by row.
-    fn leaf(&self, leaf: &Block, acc: &mut Accumulator) {
+    fn leaf(&self, leaf: &Block, acc: &mut Coverage) {
         const L: usize = LEAF as usize;
         let lat = self.lattice;
         let h = lat.spacing;
@@ -388,28 +287,45 @@ impl Engine for PolygonMapping {
         let threads = rayon::current_num_threads() as u64;
         let lattice = Lattice::new(lens, window, self.spacing(window));
         let leaves = (lattice.region_cells() / (LEAF * LEAF) as f64).min(1e12) as u64;
-        npix * (8 * threads + 12) + 16 * leaves
+        npix * (8 * threads + 4) + 8 * window.pixels as u64 * threads + 16 * leaves
     }
 
     fn trace(&self, lens: &LensSystem, window: &Window, progress: &dyn Progress) -> Result<Traced> {
+        self.trace_folding(lens, window, progress, true)
+    }
+}
+
+impl PolygonMapping {
+    /// [`Engine::trace`], folding mirror images into mirror rows where [`folds`] allows and
+    /// `may_fold` is set, else mapping them.
+    fn trace_folding(
+        &self,
+        lens: &LensSystem,
+        window: &Window,
+        progress: &dyn Progress,
+        may_fold: bool,
+    ) -> Result<Traced> {
         let lattice = Lattice::new(lens, window, self.spacing(window));
         let leaves = lattice.leaves();
         progress.start(leaves.len() as u64);
-        let npix = window.pixel_count();
-        let mapper = Mapper { lattice: &lattice };
-        let tallies = for_each_leaf(
+        let fold = may_fold && folds(&lattice, window);
+        let mapper = Mapper {
+            lattice: &lattice,
+            fold,
+        };
+        let buffers = for_each_leaf(
             &leaves,
-            || Accumulator::new(npix),
+            || Coverage::new(window.pixels),
             |leaf, acc| mapper.leaf(leaf, acc),
             progress,
         );
-        let tallies = tallies.into_iter().map(|a| a.tally).collect();
         let scale = 1.0 / (FULL as f64 * self.cells_per_pixel);
-        let (data, deposits) = merge(tallies, window.pixels, scale)?;
+        let (data, deposits) = merge(buffers, window.pixels, scale, fold)?;
         Ok(Traced {
             data,
             rays_shot: leaf_cells(&leaves),
-            rays_landed: deposits,
+            // A folded cell lands in the window exactly when its mirror image does.
+            rays_landed: if fold { 2 * deposits } else { deposits },
         })
     }
 }
@@ -419,17 +335,21 @@ mod tests {
     use super::*;
 
     #[test]
-    fn clipping_a_unit_square_to_quarters() {
-        // Pure geometry: a square of side 2 centred on a pixel corner covers four pixels by 1.
-        let mut acc = Accumulator::new(4);
-        let q = [(0.0, 0.0), (2.0, 0.0), (2.0, 2.0), (0.0, 2.0)];
-        acc.quad(&q, 4000, 2);
-        assert_eq!(acc.tally.hist, vec![1000, 1000, 1000, 1000]);
-        // A triangle-like sliver: total area is conserved within the window.
-        let mut acc = Accumulator::new(9);
-        let q = [(0.2, 0.3), (2.7, 0.9), (2.1, 2.8), (0.4, 1.9)];
-        acc.quad(&q, 1 << 30, 3);
-        let sum: u64 = acc.tally.hist.iter().sum();
-        assert!((sum as i64 - (1i64 << 30)).abs() <= 9);
+    fn folding_rows_matches_mapping_the_mirror_images() {
+        // Internal consistency: a binary on the x axis, window centred on the axis. Folding
+        // rows gives the mirror images' areas by symmetry; mapping the mirror quadrilaterals
+        // computes them directly. The two agree to the f32 rounding of the pixel values, and
+        // only the folded map is exactly symmetric.
+        let lens = LensSystem::binary(1.0, 0.1).unwrap();
+        let window = Window::new((0.1, 0.0), 1.5, 64).unwrap();
+        let engine = PolygonMapping::new(2.0);
+        let folded = engine.trace_folding(&lens, &window, &(), true).unwrap();
+        let mapped = engine.trace_folding(&lens, &window, &(), false).unwrap();
+        assert_eq!(folded.rays_landed, mapped.rays_landed);
+        for ((r, c), &v) in folded.data.indexed_iter() {
+            let w = mapped.data[[r, c]];
+            assert!((v / w - 1.0).abs() < 1e-6, "pixel ({r}, {c}): {v} vs {w}");
+            assert_eq!(v, folded.data[[63 - r, c]]);
+        }
     }
 }
