@@ -33,7 +33,8 @@
 //! [`GridRule::interpolation_tol`] and no interval spans more than [`MAX_STRIDE`] points. What
 //! is interpolated is the ratio of the binary's magnification to the host's alone (Paczynski's
 //! formula for m1 at its position), which stays near 1 and flat wherever the companion matters
-//! little; the host's peak is then not interpolated at all. Only the points observed while the
+//! little; the host's peak is then not interpolated at all. The intervals are taken in time
+//! order, so that consecutive solves start from the previous images. Only the points observed while the
 //! line is in the window (a time span found once per line) are looked up on the maps; the
 //! others are off every map without a look.
 //!
@@ -354,7 +355,7 @@ fn crossing(tr: &Trajectory, window: &Window) -> Option<(f64, f64)> {
             hi = hi.min(t1.max(t2));
         }
     }
-    (lo <= hi).then(|| (l.t0 + lo * l.te, l.t0 + hi * l.te))
+    (lo <= hi).then_some((l.t0 + lo * l.te, l.t0 + hi * l.te))
 }
 
 /// A grid line that crosses the map's window, and the times during which it does.
@@ -553,14 +554,14 @@ impl CurveSums {
 struct Scratch {
     /// Source positions at the data set's times.
     positions: Vec<(f64, f64)>,
+    /// The reads of the map with the widest margin in the window's time span (NaN off it).
+    on_widest: Vec<f64>,
     /// Whether a point needs the point-source magnification.
     needed: Vec<bool>,
     /// The point-source magnifications (NaN where not needed).
     point: Vec<f64>,
     /// The host's own magnification at the needed points.
     host: Vec<f64>,
-    /// Pending intervals of the interpolation.
-    stack: Vec<(usize, usize)>,
     /// chi^2 at each trial rho.
     chi2: Vec<f64>,
 }
@@ -593,12 +594,19 @@ impl Scratch {
             let kb = times.partition_point(|&t| t <= line.span.1);
             let row = &readers.convolved[law];
             // Off the map with the widest margin is off every map (they share the window).
-            let widest = readers.widest[law].map(|r| row[r].as_ref().expect("readable"));
-            self.needed.clear();
-            self.needed
-                .extend(self.positions.iter().enumerate().map(|(i, &(x, y))| {
-                    !(ka..kb).contains(&i) || widest.is_none_or(|c| c.read(x, y).is_none())
+            let widest = readers.widest[law];
+            self.on_widest.clear();
+            self.on_widest
+                .extend(self.positions[ka..kb].iter().map(|&(x, y)| {
+                    widest
+                        .and_then(|r| row[r].as_ref()?.read(x, y))
+                        .unwrap_or(f64::NAN)
                 }));
+            self.needed.clear();
+            self.needed.resize(times.len(), true);
+            for (need, v) in self.needed[ka..kb].iter_mut().zip(&self.on_widest) {
+                *need = v.is_nan();
+            }
             self.point_curve(solver, &readers.host, times, rule.interpolation_tol)?;
             let mut off = CurveSums::default();
             for i in (0..ka).chain(kb..times.len()) {
@@ -611,8 +619,13 @@ impl Scratch {
                 };
                 let mut sums = off;
                 for i in ka..kb {
-                    let (x, y) = self.positions[i];
-                    sums.add(weighted, i, conv.read(x, y).unwrap_or(self.point[i]));
+                    let on = if widest == Some(r) {
+                        self.on_widest[i - ka]
+                    } else {
+                        let (x, y) = self.positions[i];
+                        conv.read(x, y).unwrap_or(f64::NAN)
+                    };
+                    sums.add(weighted, i, if on.is_nan() { self.point[i] } else { on });
                 }
                 if !sums.is_finite() {
                     return Err(Error::Numerical(
@@ -663,7 +676,10 @@ impl Scratch {
         let lin = |a: &[f64], k: usize, p: usize, r: usize| {
             a[p] + (a[r] - a[p]) * (times[k] - times[p]) / (times[r] - times[p])
         };
-        let stack = &mut self.stack;
+        // Each run of needed points is walked in time order, so that consecutive solves are
+        // near one another and warm-start (see ImageSolver): from the last exact point `c`, an
+        // interval of `h` points is accepted when its midpoint agrees with the interpolation,
+        // and halved otherwise; after an accepted interval `h` doubles again, up to MAX_STRIDE.
         let mut i = 0;
         while i < n {
             if !needed[i] {
@@ -676,26 +692,28 @@ impl Scratch {
             }
             let hi = i;
             eval(lo, a)?;
-            eval(hi, a)?;
-            stack.clear();
-            stack.push((lo, hi));
-            while let Some((l, h)) = stack.pop() {
-                if h - l <= 1 {
+            let (mut c, mut h) = (lo, MAX_STRIDE);
+            while c < hi {
+                let e = (c + h).min(hi);
+                if e - c <= 1 {
+                    eval(e, a)?;
+                    (c, h) = (e, (2 * h).min(MAX_STRIDE));
                     continue;
                 }
-                let m = (l + h) / 2;
+                let m = (c + e) / 2;
                 let am = eval(m, a)?;
-                if h - l > MAX_STRIDE || (am - lin(a, m, l, h)).abs() > tol * am {
-                    stack.push((m, h));
-                    stack.push((l, m));
-                } else {
-                    for k in l + 1..m {
-                        a[k] = lin(a, k, l, m);
-                    }
-                    for k in m + 1..h {
-                        a[k] = lin(a, k, m, h);
-                    }
+                eval(e, a)?;
+                if (am - lin(a, m, c, e)).abs() > tol * am {
+                    h = (e - c) / 2;
+                    continue;
                 }
+                for k in c + 1..m {
+                    a[k] = lin(a, k, c, m);
+                }
+                for k in m + 1..e {
+                    a[k] = lin(a, k, m, e);
+                }
+                (c, h) = (e, (2 * h).min(MAX_STRIDE));
             }
             i += 1;
         }
