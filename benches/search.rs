@@ -1,0 +1,170 @@
+//! The grid search of issue 8: wall time to search a 20 x 20 library of 1000^2 maps with one
+//! 2000-point data set on 2 threads, at the default [`GridRule`].
+//!
+//! Library: s log-spaced over [1.1, 1.6] (20 values), q log-spaced over [1e-4, 1e-2]
+//! (20 values), 1000^2 pixels, polygon engine, windows framing the planetary caustic(s)
+//! (margin 1.5). It is built once into `target/bench-store` and reused on later runs (the first
+//! run builds 400 maps: a few minutes).
+//!
+//! Data: 2000 points over [-50, 50] d of an invented wide-planet event (s = 1.35, q = 2e-3,
+//! rho = 2e-3, u0 = 0.12, tE = 25 d, the source crossing the planetary caustic), simulated
+//! once with 0.01 mag noise; the search is seeded by the single-lens fit of these data.
+//!
+//! Measured:
+//! - the whole 400-map search, once, timed with `Instant` (a multi-minute run is too long for
+//!   criterion's ten samples): wall time, trajectories and light-curve points per second;
+//! - a criterion group on a 2 x 2 sub-library around the true (s, q), with a baseline in the
+//!   same run: the same search with every off-map point-source magnification solved exactly
+//!   (`interpolation_tol = 0`, so no point is interpolated).
+//!
+//! Set `CAUSEWAY_BENCH_SUB_ONLY=1` to skip the whole-library run.
+//!
+//! Run: `cargo bench --bench search`
+
+use causeway::fit::model::{BinaryModel, Trajectory};
+use causeway::fit::photometry::DataSet;
+use causeway::fit::search::{maps_of_spec, search, GridRule, LibraryMap, MapOutcome, Seed};
+use causeway::fit::simulate::Simulation;
+use causeway::fit::single::fit_single_lens;
+use causeway::source::LimbDarkening;
+use causeway::store::library::{build, LibrarySpec};
+use causeway::store::Store;
+use criterion::{criterion_group, criterion_main, Criterion, Throughput};
+use std::hint::black_box;
+use std::path::Path;
+use std::time::{Duration, Instant};
+
+const SPEC: &str = "s = { log = [1.1, 1.6, 20] }\nq = { log = [1e-4, 1e-2, 20] }\npixels = 1000\n\
+                    rays = 1\nengine = \"polygon\"\n[window]\nrule = \"planetary\"\n";
+
+const THREADS: usize = 2;
+
+fn pool() -> rayon::ThreadPool {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(THREADS)
+        .build()
+        .unwrap()
+}
+
+/// The library's maps, built into the bench store where missing.
+fn library() -> (LibrarySpec, Vec<LibraryMap>) {
+    let spec = LibrarySpec::parse(SPEC, "bench").unwrap();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("target/bench-store");
+    let store = Store::open(&root).unwrap();
+    if let Ok(maps) = maps_of_spec(&store, &spec) {
+        return (spec, maps); // all present (build would read and verify each one)
+    }
+    let points = spec.points().unwrap();
+    let started = Instant::now();
+    let mut built = 0;
+    let summary = pool()
+        .install(|| {
+            build(&store, &points, |_, new| {
+                if new {
+                    built += 1;
+                    if built % 20 == 0 {
+                        eprintln!("built {built} maps in {:.0?}", started.elapsed());
+                    }
+                }
+            })
+        })
+        .unwrap();
+    if summary.built > 0 {
+        eprintln!(
+            "library: built {} maps, reused {}, in {:.1?}",
+            summary.built,
+            summary.skipped,
+            started.elapsed()
+        );
+    }
+    let maps = maps_of_spec(&store, &spec).unwrap();
+    (spec, maps)
+}
+
+/// The invented event's data set and the single-lens seed fitted to it.
+fn event() -> (DataSet, Seed) {
+    let model = BinaryModel {
+        s: 1.35,
+        q: 2e-3,
+        rho: 2e-3,
+        trajectory: Trajectory::straight(0.0, 0.12, 25.0, std::f64::consts::TAU - 0.2).unwrap(),
+    };
+    let times = causeway::curve::time_range(-50.0, 50.0, 2000).unwrap();
+    let data = pool()
+        .install(|| Simulation::new(model, LimbDarkening::Uniform).run(&times))
+        .unwrap();
+    let single = fit_single_lens(std::slice::from_ref(&data)).unwrap();
+    let seed = Seed {
+        t0: single.t0,
+        u0: single.u0,
+        te: single.te,
+    };
+    (data, seed)
+}
+
+fn run(data: &DataSet, seed: &Seed, maps: &[LibraryMap], rule: &GridRule) -> Vec<MapOutcome> {
+    pool()
+        .install(|| search(std::slice::from_ref(data), seed, maps, rule, &|| {}))
+        .unwrap()
+}
+
+fn totals(outcomes: &[MapOutcome]) -> (u64, u64) {
+    outcomes
+        .iter()
+        .fold((0, 0), |(t, p), o| (t + o.trajectories, p + o.points))
+}
+
+fn bench(c: &mut Criterion) {
+    let (spec, maps) = library();
+    let (data, seed) = event();
+    let rule = GridRule::default();
+    eprintln!("seed {seed:?}; rule {rule:?}; {THREADS} threads");
+    if std::env::var_os("CAUSEWAY_BENCH_SUB_ONLY").is_none() {
+        let started = Instant::now();
+        let outcomes = run(&data, &seed, &maps, &rule);
+        let wall = started.elapsed().as_secs_f64();
+        let (traj, points) = totals(&outcomes);
+        let best = outcomes
+            .iter()
+            .min_by(|a, b| a.best_chi2().total_cmp(&b.best_chi2()))
+            .unwrap();
+        eprintln!(
+            "whole library ({} maps of {}^2): {wall:.1} s wall; {traj} trajectories \
+             ({:.0}/s), {points} light-curve points ({:.3e}/s); best s = {}, q = {}, chi2 = {}",
+            maps.len(),
+            1000,
+            traj as f64 / wall,
+            points as f64 / wall,
+            best.s,
+            best.q,
+            best.best_chi2()
+        );
+    }
+    // The 2 x 2 maps around the truth: s index 10-11 (about 1.35), q index 10-11 (about 1.6e-3).
+    let ns = spec.s.len();
+    let sub: Vec<LibraryMap> = [(10, 10), (11, 10), (10, 11), (11, 11)]
+        .iter()
+        .map(|&(is, iq)| maps[iq * ns + is].clone())
+        .collect();
+    let (traj, points) = totals(&run(&data, &seed, &sub, &rule));
+    eprintln!("2 x 2 sub-library: {traj} trajectories, {points} light-curve points per search");
+    let mut group = c.benchmark_group("search 2x2 of 1000^2, 2000 points, 2 threads");
+    group
+        .sample_size(10)
+        .measurement_time(Duration::from_secs(30))
+        .throughput(Throughput::Elements(traj));
+    let exact = GridRule {
+        interpolation_tol: 0.0,
+        ..rule.clone()
+    };
+    group.bench_function("baseline: exact point source at every off-map point", |b| {
+        b.iter(|| black_box(run(&data, &seed, &sub, &exact)))
+    });
+    group.bench_function("search (default rule)", |b| {
+        b.iter(|| black_box(run(&data, &seed, &sub, &rule)))
+    });
+    group.finish();
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);
