@@ -94,11 +94,7 @@ fn event() -> (DataSet, Seed) {
         .install(|| Simulation::new(model, LimbDarkening::Uniform).run(&times))
         .unwrap();
     let single = fit_single_lens(std::slice::from_ref(&data)).unwrap();
-    let seed = Seed {
-        t0: single.t0,
-        u0: single.u0,
-        te: single.te,
-    };
+    let seed = Seed::of_fit(&single, std::slice::from_ref(&data));
     (data, seed)
 }
 
