@@ -19,6 +19,13 @@
 //! window lies within `rho_min` of a grid line: a caustic crossed by any line through the window
 //! is touched by the source of a grid trajectory, and no crossing is stepped over.
 //!
+//! Each line is tried twice when the data show an anomaly ([`Seed::anomaly`], the time of
+//! their largest departure from the single-lens fit): once with the seed's t0, and once with
+//! the t0 that puts the line's strongest feature on the map (its largest excess over the
+//! host's own magnification, sampled every `rho_min / 2`) at that time. A planetary anomaly
+//! or blending biases the single-lens tE by several percent, which moves a caustic crossing
+//! by many source radii; the timed copy does not depend on it.
+//!
 //! Negative `u0` are not searched: a binary is symmetric about its axis, and `(u0, alpha)` and
 //! `(-u0, -alpha)` give the same curve, so the twin minima are one (reported with `u0 >= 0`).
 //! Lines that cross the window at no observed time are skipped: the map adds nothing to them.
@@ -149,7 +156,7 @@ impl Default for GridRule {
             rhos: vec![1e-3, 2e-3, 4e-3],
             u0_span: 0.2,
             u0_floor: 0.005,
-            te_factors: vec![0.85, 1.0, 1.15],
+            te_factors: vec![1.0],
             t0_shifts: vec![0.0],
             keep: 3,
             interpolation_tol: 1e-3,
