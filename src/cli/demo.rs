@@ -104,6 +104,7 @@ fn fitting_job(out: &Path) -> Result<()> {
         file("maps"),
         "--rho".into(),
         "0.002,0.004".into(),
+        "--timed".into(),
         "--refine".into(),
         "1".into(),
         "--max-iters".into(),

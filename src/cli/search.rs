@@ -69,6 +69,10 @@ pub struct SearchArgs {
     /// Shifts of t0 from the single-lens value, in units of its tE.
     #[arg(long, value_name = "K[,K...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().t0_shifts)]
     pub t0_shifts: Vec<f64>,
+    /// Also try every line timed so that its strongest map feature falls at the data's largest
+    /// departure from the single lens (up to about four times the lines).
+    #[arg(long)]
+    pub timed: bool,
     /// Distinct trajectories kept per map.
     #[arg(long, value_name = "N", default_value_t = GridRule::default().keep)]
     pub keep: usize,
@@ -133,6 +137,7 @@ impl SearchArgs {
             te_factors: self.te_factors.clone(),
             t0_shifts: self.t0_shifts.clone(),
             keep: self.keep,
+            timed: self.timed,
             ..GridRule::default()
         };
         rule.validate()?;

@@ -19,7 +19,8 @@
 //! window lies within `rho_min` of a grid line: a caustic crossed by any line through the window
 //! is touched by the source of a grid trajectory, and no crossing is stepped over.
 //!
-//! Each line is tried twice when the data show an anomaly ([`Seed::anomaly`], the time of
+//! With [`GridRule::timed`] (off by default: it multiplies the lines by up to about four), each
+//! line is tried twice when the data show an anomaly ([`Seed::anomaly`], the time of
 //! their largest departure from the single-lens fit): once with the seed's t0, and once with
 //! the t0 that puts the line's strongest feature on the map (its largest excess over the
 //! host's own magnification, sampled every `rho_min / 2`) at that time. A planetary anomaly
@@ -148,6 +149,8 @@ pub struct GridRule {
     pub keep: usize,
     /// Relative tolerance of the off-map interpolation.
     pub interpolation_tol: f64,
+    /// Also try each line timed so that its strongest map feature falls at the data's anomaly.
+    pub timed: bool,
 }
 
 impl Default for GridRule {
@@ -160,6 +163,7 @@ impl Default for GridRule {
             t0_shifts: vec![0.0],
             keep: 3,
             interpolation_tol: 1e-3,
+            timed: false,
         }
     }
 }
@@ -457,7 +461,9 @@ pub fn search_map(
                 lines.extend(Line::observed(tr, &map.window, &all_times));
                 // The same line timed so that its strongest feature on the map falls at the
                 // anomaly seen in the data.
-                if let (Some(ta), Some(conv), 0.0) = (seed.anomaly, sharpest, shift) {
+                if let (true, Some(ta), Some(conv), 0.0) =
+                    (rule.timed, seed.anomaly, sharpest, shift)
+                {
                     if let Some(tau) =
                         strongest_feature(&tr, &map.window, conv, &readers.host, rule.rho_min())
                     {
