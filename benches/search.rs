@@ -113,7 +113,7 @@ fn event() -> (DataSet, Seed) {
         .install(|| Simulation::new(model, LimbDarkening::Uniform).run(&times))
         .unwrap();
     let single = fit_single_lens(std::slice::from_ref(&data)).unwrap();
-    let seed = Seed::of_fit(&single, std::slice::from_ref(&data));
+    let seed = Seed::of_data(&single, std::slice::from_ref(&data));
     (data, seed)
 }
 

@@ -7,6 +7,7 @@ use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
 use causeway::fit::refine::{refine, Refined};
 use causeway::fit::search::{local_minima, maps_of_spec, search, GridRule, Seed};
+use causeway::fit::single::fit_single_lens;
 use causeway::source::LimbDarkening;
 use causeway::store::library::{self, LibrarySpec};
 use causeway::store::Store;
@@ -49,17 +50,25 @@ fn a_planetary_caustic_crossing_is_recovered() {
     .unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
-    // A seed as a single-lens fit of an event with little anomaly would give it: within 2% in
-    // tE and 0.3 days in t0 (the search assumes the seed's timing to about that).
+    // The seed: a single-lens fit, made again without the anomaly.
+    let single = fit_single_lens(&data).unwrap();
+    let seed = Seed::of_data(&single, &data);
+    // Without the anomaly the single lens is within 10% of the truth in tE and u0 (the full fit
+    // is far longer in tE: the anomaly and the blend pull it).
+    let near = |v: f64, truth: f64| (v / truth - 1.0).abs() < 0.1;
+    assert!(near(seed.te, 25.0) && near(seed.u0, 0.15), "{seed:?}");
+    assert!(single.te > 1.5 * 25.0, "{single:?}");
+    // From that seed the search does not yet reach the true model on these 500^2 maps (its tE
+    // is still 7% long; see the module doc of fit::search). The search below starts from a
+    // seed within 2% in tE and 0.3 days in t0, the timing it needs.
     let seed = Seed {
         t0: 0.3,
         u0: 0.16,
         te: 24.5,
-        anomaly: None,
+        anomaly: seed.anomaly,
     };
     let rule = GridRule {
         rhos: vec![1.5e-3, 3e-3, 6e-3],
-        te_factors: vec![1.0],
         ..GridRule::default()
     };
     let outcomes = search(&data, &seed, &maps, &rule, &|| {}).unwrap();

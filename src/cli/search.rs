@@ -212,9 +212,13 @@ pub fn run(args: SearchArgs) -> Result<()> {
         single.t0, single.u0, single.te, single.chi2, single.points
     );
     let maps = library_maps(&args.library, &args.store)?;
-    let seed = Seed::of_fit(&single, &data);
+    let seed = Seed::of_data(&single, &data);
     if let Some(t) = seed.anomaly {
-        eprintln!("largest departure from the single lens at t = {t:.3}");
+        eprintln!(
+            "largest departure from the single lens at t = {t:.3}; without it: t0 = {:.4}, \
+             u0 = {:.5}, tE = {:.3} d (the search's seed)",
+            seed.t0, seed.u0, seed.te
+        );
     }
     let bar = progress_bar("search");
     bar.set_length(maps.len() as u64);

@@ -164,6 +164,28 @@ impl DataSet {
         self.times.is_empty()
     }
 
+    /// The set without its points in `[lo, hi]`.
+    ///
+    /// ```
+    /// use causeway::fit::photometry::DataSet;
+    /// let d = DataSet::parse("t,flux,flux_err\n1,1,1\n2,1,1\n3,1,1\n4,1,1\n", "d.csv", 22.0).unwrap();
+    /// assert_eq!(d.without(1.5, 3.0).times, vec![1.0, 4.0]);
+    /// ```
+    pub fn without(&self, lo: f64, hi: f64) -> DataSet {
+        let keep: Vec<usize> = (0..self.len())
+            .filter(|&i| !(lo..=hi).contains(&self.times[i]))
+            .collect();
+        let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect();
+        DataSet {
+            times: pick(&self.times),
+            flux: pick(&self.flux),
+            flux_err: pick(&self.flux_err),
+            lines: keep.iter().map(|&i| self.lines[i]).collect(),
+            name: self.name.clone(),
+            ..*self
+        }
+    }
+
     /// Error of point `i` after rescaling.
     pub fn sigma(&self, i: usize) -> f64 {
         self.flux_err[i] * self.error_scale

@@ -55,7 +55,7 @@
 use super::model::{paczynski, BinaryModel, Trajectory};
 use super::optimize::minimize;
 use super::photometry::DataSet;
-use super::single::SingleLensFit;
+use super::single::{fit_single_lens, SingleLensFit};
 use crate::curve::Preconvolved;
 use crate::error::{Error, Result};
 use crate::lens::{LensSystem, PointLens};
@@ -107,27 +107,88 @@ impl Seed {
     /// assert!((seed.anomaly.unwrap() - 15.0).abs() <= 1.0);
     /// ```
     pub fn of_fit(fit: &SingleLensFit, data: &[DataSet]) -> Seed {
-        let mut best = (0.0, None);
-        for (set, f) in data.iter().zip(&fit.fluxes) {
-            let r: Vec<f64> = (0..set.len())
-                .map(|i| {
-                    let tau = (set.times[i] - fit.t0) / fit.te;
-                    let a = paczynski(tau.hypot(fit.u0).max(1e-12));
-                    ((set.flux[i] - f.fs * a - f.fb) / set.sigma(i)).powi(2)
-                })
-                .collect();
-            for (i, w) in r.windows(5).enumerate() {
-                let score: f64 = w.iter().sum();
-                if score > best.0 {
-                    best = (score, Some(set.times[i + 2]));
-                }
-            }
-        }
+        let (anomaly, _) = Self::departure(fit, data);
         Seed {
             t0: fit.t0,
             u0: fit.u0,
             te: fit.te,
-            anomaly: best.1,
+            anomaly,
+        }
+    }
+
+    /// The time of the largest departure of the data from `fit` and the span around it where
+    /// the 5-point residual score stays above 15 (three times its expectation) and above 2% of
+    /// its peak.
+    fn departure(fit: &SingleLensFit, data: &[DataSet]) -> (Option<f64>, (f64, f64)) {
+        let scores: Vec<Vec<f64>> = data
+            .iter()
+            .zip(&fit.fluxes)
+            .map(|(set, f)| {
+                let r: Vec<f64> = (0..set.len())
+                    .map(|i| {
+                        let tau = (set.times[i] - fit.t0) / fit.te;
+                        let a = paczynski(tau.hypot(fit.u0).max(1e-12));
+                        ((set.flux[i] - f.fs * a - f.fb) / set.sigma(i)).powi(2)
+                    })
+                    .collect();
+                let mut score = vec![0.0; set.len()];
+                for (i, w) in r.windows(5).enumerate() {
+                    score[i + 2] = w.iter().sum();
+                }
+                score
+            })
+            .collect();
+        let mut best = (0.0, None);
+        for (k, score) in scores.iter().enumerate() {
+            for (i, &v) in score.iter().enumerate() {
+                if v > best.0 {
+                    best = (v, Some((k, i)));
+                }
+            }
+        }
+        let Some((k, i)) = best.1 else {
+            return (None, (0.0, 0.0));
+        };
+        let (score, times) = (&scores[k], &data[k].times);
+        let threshold = (0.02 * best.0).max(15.0);
+        let (mut lo, mut hi) = (i, i);
+        while lo > 0 && score[lo - 1] > threshold {
+            lo -= 1;
+        }
+        while hi + 1 < score.len() && score[hi + 1] > threshold {
+            hi += 1;
+        }
+        (Some(times[i]), (times[lo], times[hi]))
+    }
+
+    /// The seed of a single-lens fit made without the anomaly: the points around the data's
+    /// largest departure from `fit` (see [`Seed::of_fit`]), over the span where the 5-point
+    /// residual score stays high (see `departure`) and half as wide again on each side, are
+    /// left out and the single lens is fitted again, so that the anomaly does not pull its
+    /// timing (common practice). The full fit's seed is kept when the span would take the
+    /// peak (t0 +- 0.05 tE), when the fit fails, or when it ends at the edge of its u0 range.
+    pub fn of_data(fit: &SingleLensFit, data: &[DataSet]) -> Seed {
+        let full = Self::of_fit(fit, data);
+        let (Some(_), (lo, hi)) = Self::departure(fit, data) else {
+            return full;
+        };
+        let pad = 0.5 * (hi - lo) + 0.01 * fit.te;
+        let peak = (fit.t0 - 0.05 * fit.te, fit.t0 + 0.05 * fit.te);
+        if lo - pad < peak.1 && hi + pad > peak.0 {
+            return full;
+        }
+        let masked: Vec<DataSet> = data.iter().map(|d| d.without(lo - pad, hi + pad)).collect();
+        if masked.iter().any(|d| d.len() < 10) {
+            return full;
+        }
+        match fit_single_lens(&masked) {
+            Ok(clean) if clean.u0 > 2.0 * super::single::U0_RANGE.0 => Seed {
+                t0: clean.t0,
+                u0: clean.u0,
+                te: clean.te,
+                anomaly: full.anomaly,
+            },
+            _ => full,
         }
     }
 }
