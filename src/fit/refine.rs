@@ -116,7 +116,21 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
     // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.
     let h: Vec<f64> = step.iter().map(|s| 0.05 * s).collect();
     let fine = chi2_to(0.1 * tol);
-    let cov = covariance(&fine, &found.x, &curvature_steps(&fine, &found.x, &h));
+    let steps = curvature_steps(&fine, &found.x, &h);
+    // Where the data do not resolve the source (no point during a caustic crossing), chi^2 is
+    // flat in rho and the full curvature is singular: the others are then measured at fixed
+    // rho, and rho's uncertainty is left unknown.
+    let cov = covariance(&fine, &found.x, &steps).or_else(|| {
+        let x = &found.x;
+        let fixed_rho = |p: &[f64]| fine(&[p, &x[6..]].concat());
+        covariance(&fixed_rho, &x[..6], &steps[..6]).map(|mut c| {
+            for row in &mut c {
+                row.push(f64::NAN);
+            }
+            c.push(vec![f64::NAN; 7]);
+            c
+        })
+    });
     let model = canonical(&from_vector(&found.x)?);
     let (chi2_min, fluxes) = exact_chi2(data, &model, tol)?;
     // Natural parameters from the minimiser's: d s = s d(ln s), and so on.
