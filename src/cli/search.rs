@@ -269,9 +269,13 @@ pub fn run(args: SearchArgs) -> Result<()> {
             let times: Vec<f64> = (0..n)
                 .map(|k| t0 + (t1 - t0) * k as f64 / (n - 1) as f64)
                 .collect();
-            let law = data[0].limb_darkening;
-            let a = best.refined.model.magnifications(&times, law, args.tol)?;
-            Some((times, a))
+            let model = &best.refined.model;
+            let a = model.magnifications(&times, data[0].limb_darkening, args.tol)?;
+            let at_data = data
+                .iter()
+                .map(|d| model.magnifications(&d.times, d.limb_darkening, args.tol))
+                .collect::<Result<Vec<_>>>()?;
+            Some((times, a, at_data))
         }
         None => None,
     };
@@ -279,8 +283,8 @@ pub fn run(args: SearchArgs) -> Result<()> {
         chi2_map_png(&outcomes, &minima, png)?;
         eprintln!("wrote {}", png.display());
     }
-    if let (Some(png), Some((times, a))) = (&args.plot, &curve) {
-        model_png(&data, &single, best, times, a, png)?;
+    if let (Some(png), Some((times, a, at_data))) = (&args.plot, &curve) {
+        model_png(&data, &single, best, (times, a), at_data, png)?;
         eprintln!("wrote {}", png.display());
     }
     eprint!("{}", report.summary());

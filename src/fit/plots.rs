@@ -82,13 +82,14 @@ pub fn chi2_map_png(outcomes: &[MapOutcome], minima: &[Minimum], path: &Path) ->
 /// on the anomaly (where the two models differ most), and the residuals in units of each
 /// point's error.
 ///
-/// `curve` holds the best model's magnification at `curve_times` (dense, increasing).
+/// `curve` holds the best model's magnification at `curve_times` (dense, increasing), and
+/// `at_data` its exact magnification at every point of each data set (for the residuals).
 pub fn model_png(
     data: &[DataSet],
     single: &SingleLensFit,
     best: &Minimum,
-    curve_times: &[f64],
-    curve: &[f64],
+    (curve_times, curve): (&[f64], &[f64]),
+    at_data: &[Vec<f64>],
     path: &Path,
 ) -> Result<()> {
     let r = &best.refined;
@@ -140,19 +141,12 @@ pub fn model_png(
             .copied()
             .filter(|p| p.0 >= zoom.0 && p.0 <= zoom.1)
             .collect();
-        let model_at = |t: f64| {
-            let i = curve_times
-                .partition_point(|&c| c < t)
-                .clamp(1, curve_times.len() - 1);
-            let (t0, t1) = (curve_times[i - 1], curve_times[i]);
-            let w = ((t - t0) / (t1 - t0)).clamp(0.0, 1.0);
-            curve[i - 1] + w * (curve[i] - curve[i - 1])
-        };
         let resid: Vec<(f64, f64)> = set
             .times
             .iter()
+            .zip(&at_data[k])
             .enumerate()
-            .map(|(i, &t)| (t, (set.flux[i] - f.fs * model_at(t) - f.fb) / set.sigma(i)))
+            .map(|(i, (&t, &a))| (t, (set.flux[i] - f.fs * a - f.fb) / set.sigma(i)))
             .collect();
         let name = format!("data set {}", k + 1);
         let colour = crate::plot::PALETTE[(k + 2) % crate::plot::PALETTE.len()];
