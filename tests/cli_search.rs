@@ -3,17 +3,18 @@
 
 mod common;
 
-use common::{causeway, scratch};
+use common::{run_cli, scratch};
 use std::path::Path;
 
 const LIBRARY: &str = "s = [1.25, 1.35]\nq = [2e-3, 4e-3]\npixels = 200\nrays = 1\n\
     engine = \"polygon\"\n[window]\nrule = \"planetary\"\n";
 
-fn simulate(dir: &Path) -> std::path::PathBuf {
-    let event = dir.join("event.csv");
-    let out = causeway()
-        .args([
-            "simulate",
+/// Simulates the test event into `dir/event.csv`.
+fn simulate(dir: &Path) {
+    let (code, _, stderr) = run_cli(
+        dir,
+        "simulate",
+        &[
             "--s",
             "1.3",
             "--q",
@@ -31,27 +32,22 @@ fn simulate(dir: &Path) -> std::path::PathBuf {
             "--time-range",
             "-50,50,200",
             "--out",
-        ])
-        .arg(&event)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+            "event.csv",
+        ],
     );
-    event
+    assert_eq!(code, 0, "{stderr}");
 }
 
 #[test]
 fn search_writes_a_ranked_table_and_pictures() {
     let dir = scratch("cli-search");
-    let event = simulate(&dir);
+    simulate(&dir);
     std::fs::write(dir.join("lib.toml"), LIBRARY).unwrap();
-    let out = causeway()
-        .arg("search")
-        .arg(&event)
-        .args([
+    let (code, csv, stderr) = run_cli(
+        &dir,
+        "search",
+        &[
+            "event.csv",
             "--rho",
             "0.01",
             "--refine",
@@ -59,20 +55,22 @@ fn search_writes_a_ranked_table_and_pictures() {
             "--max-iters",
             "40",
             "--library",
-        ])
-        .arg(dir.join("lib.toml"))
-        .arg("--store")
-        .arg(dir.join("maps"))
-        .arg("--chi2-map")
-        .arg(dir.join("chi2.png"))
-        .arg("--plot")
-        .arg(dir.join("best.png"))
-        .args(["--theta-star", "0.6", "--dl", "4", "--ds", "8"])
-        .output()
-        .unwrap();
-    let stderr = String::from_utf8_lossy(&out.stderr);
-    assert!(out.status.success(), "{stderr}");
-    let csv = String::from_utf8(out.stdout).unwrap();
+            "lib.toml",
+            "--store",
+            "maps",
+            "--chi2-map",
+            "chi2.png",
+            "--plot",
+            "best.png",
+            "--theta-star",
+            "0.6",
+            "--dl",
+            "4",
+            "--ds",
+            "8",
+        ],
+    );
+    assert_eq!(code, 0, "{stderr}");
     let mut lines = csv.lines();
     let header: Vec<&str> = lines.next().unwrap().split(',').collect();
     for col in [
@@ -117,39 +115,31 @@ fn search_writes_a_ranked_table_and_pictures() {
 #[test]
 fn bad_input_is_named_and_writes_nothing() {
     let dir = scratch("cli-search-bad");
-    let event = simulate(&dir);
+    simulate(&dir);
     std::fs::write(dir.join("lib.toml"), LIBRARY).unwrap();
-    let dup = dir.join("dup.csv");
-    std::fs::write(&dup, "t,mag,mag_err\n1,19,0.01\n2,19,0.01\n1,19.1,0.01\n").unwrap();
-    let cases: Vec<(Vec<String>, &str)> = vec![
-        (vec![dup.display().to_string()], "dup.csv:4"),
-        (
-            vec![event.display().to_string(), "--ld".into(), "0.5,0.6".into()],
-            "--ld",
-        ),
-        (
-            vec![event.display().to_string(), "--rho".into(), "-1".into()],
-            "--rho",
-        ),
-        (
-            vec![event.display().to_string(), "--refine".into(), "0".into()],
-            "--refine",
-        ),
+    std::fs::write(
+        dir.join("dup.csv"),
+        "t,mag,mag_err\n1,19,0.01\n2,19,0.01\n1,19.1,0.01\n",
+    )
+    .unwrap();
+    let cases: [(&[&str], &str); 4] = [
+        (&["dup.csv"], "dup.csv:4"),
+        (&["event.csv", "--ld", "0.5,0.6"], "--ld"),
+        (&["event.csv", "--rho", "-1"], "--rho"),
+        (&["event.csv", "--refine", "0"], "--refine"),
+    ];
+    let common = [
+        "--library",
+        "lib.toml",
+        "--store",
+        "maps",
+        "--out",
+        "minima.csv",
     ];
     for (args, culprit) in cases {
-        let out = causeway()
-            .arg("search")
-            .args(&args)
-            .arg("--library")
-            .arg(dir.join("lib.toml"))
-            .arg("--store")
-            .arg(dir.join("maps"))
-            .arg("--out")
-            .arg(dir.join("minima.csv"))
-            .output()
-            .unwrap();
-        let stderr = String::from_utf8_lossy(&out.stderr);
-        assert_eq!(out.status.code(), Some(2), "{args:?}: {stderr}");
+        let all: Vec<&str> = args.iter().chain(&common).copied().collect();
+        let (code, _, stderr) = run_cli(&dir, "search", &all);
+        assert_eq!(code, 2, "{args:?}: {stderr}");
         assert!(stderr.contains(culprit), "{args:?}: {stderr}");
         assert!(!dir.join("minima.csv").exists());
     }
