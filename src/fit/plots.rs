@@ -3,7 +3,7 @@
 use super::minima::Minimum;
 use super::model::paczynski;
 use super::photometry::DataSet;
-use super::search::MapOutcome;
+use super::search::{grid_axes, MapOutcome};
 use super::single::SingleLensFit;
 use crate::error::{Error, Result};
 use crate::plot::{plot_size, write_stacked_png, Axis, Chart, Series, Style};
@@ -24,14 +24,9 @@ pub fn chi2_map_png(outcomes: &[MapOutcome], minima: &[Minimum], path: &Path) ->
             "chi2 map: no map has a finite chi^2".into(),
         ));
     }
-    let count = |f: &dyn Fn(&MapOutcome) -> f64| {
-        let mut v: Vec<f64> = outcomes.iter().map(f).collect();
-        v.sort_by(f64::total_cmp);
-        v.dedup();
-        v.len().max(1) as i64
-    };
+    let (ss, qs) = grid_axes(outcomes);
     let (w, h) = plot_size();
-    let half = (w / count(&|o| o.s)).min(h / count(&|o| o.q)) / 2 - 2;
+    let half = (w / ss.len().max(1) as i64).min(h / qs.len().max(1) as i64) / 2 - 2;
     let mut chart = Chart::new(
         "best search chi2 per map (delta from the best map)",
         Axis::log("s"),

@@ -958,6 +958,18 @@ impl Scratch {
     }
 }
 
+/// The distinct s and the distinct q values of the outcomes, each sorted: the axes of their
+/// (s, q) grid.
+pub fn grid_axes(outcomes: &[MapOutcome]) -> (Vec<f64>, Vec<f64>) {
+    let axis = |f: fn(&MapOutcome) -> f64| {
+        let mut v: Vec<f64> = outcomes.iter().map(f).collect();
+        v.sort_by(f64::total_cmp);
+        v.dedup();
+        v
+    };
+    (axis(|o| o.s), axis(|o| o.q))
+}
+
 /// Indices of the outcomes whose best chi^2 is no worse than that of any neighbour in the
 /// (s, q) grid (the grid of the distinct s and q values; neighbours are the up to eight maps
 /// one step away in index): the distinct local minima of the search, best first.
@@ -972,13 +984,7 @@ impl Scratch {
 /// assert_eq!(local_minima(&grid), vec![2, 0]);
 /// ```
 pub fn local_minima(outcomes: &[MapOutcome]) -> Vec<usize> {
-    let axis = |f: &dyn Fn(&MapOutcome) -> f64| {
-        let mut v: Vec<f64> = outcomes.iter().map(f).collect();
-        v.sort_by(f64::total_cmp);
-        v.dedup();
-        v
-    };
-    let (ss, qs) = (axis(&|o| o.s), axis(&|o| o.q));
+    let (ss, qs) = grid_axes(outcomes);
     let index = |o: &MapOutcome| {
         (
             ss.partition_point(|&v| v < o.s) as i64,
