@@ -11,8 +11,14 @@
 //!   `2 rho_min`, keeping for each alpha only the u0 whose line passes within `R` of the
 //!   window's centre,
 //!
-//! for every `tE = tE* f` (the factors of [`GridRule::te_factors`]) and `t0 = t0* + k tE*`
-//! (the shifts of [`GridRule::t0_shifts`]), starred values from the seed. Two neighbouring
+//! each timed as the single lens at the same impact parameter about the host: `(t0*, tE*)` of
+//! [`Seed::timing`] at `u0_h`, the line's impact parameter about the heavier lens, with `t0`
+//! moved by the host's offset from the origin along the line (see `host_timing`). The single
+//! lens with free blending fixes its `u0` poorly but `(t0, tE)` well at each `u0` (for
+//! `u0 << 1` the product `u0 tE`), so the grid in `u0` walks along that valley and the true
+//! line is met with its true timing. Each line is taken for every `tE = tE* f` (the factors of
+//! [`GridRule::te_factors`], default 1) and `t0 = t0* + k tE*` (the shifts of
+//! [`GridRule::t0_shifts`], default 0). Two neighbouring
 //! lines through the window are then nowhere in it more than `2 rho_min` apart (the alpha step
 //! turns a line about the window's centre, moving its points in the window by at most
 //! `R dalpha <= 2 rho_min`; the u0 step moves it by at most `2 rho_min`), so every point of the
@@ -55,7 +61,7 @@
 use super::model::{paczynski, BinaryModel, Trajectory};
 use super::optimize::minimize;
 use super::photometry::DataSet;
-use super::single::{fit_single_lens, SingleLensFit};
+use super::single::{fit_at_u0, fit_single_lens, SingleLensFit};
 use crate::curve::Preconvolved;
 use crate::error::{Error, Result};
 use crate::lens::{LensSystem, PointLens};
@@ -75,8 +81,8 @@ pub const MAX_STRIDE: usize = 64;
 /// Iteration limit of the polish of each kept candidate on its map.
 pub const POLISH_ITERATIONS: u64 = 300;
 
-/// The seed of the search: the single-lens fit's trajectory.
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// The seed of the search: the single-lens fit's trajectory, and its valley in u0.
+#[derive(Debug, Clone, PartialEq)]
 pub struct Seed {
     /// Time of closest approach (days).
     pub t0: f64,
@@ -86,7 +92,13 @@ pub struct Seed {
     pub te: f64,
     /// Time of the strongest departure of the data from the single-lens fit, if known.
     pub anomaly: Option<f64>,
+    /// The single lens's valley: `(u0, t0, tE)` of its best fit at fixed `u0`, in increasing
+    /// `u0` (see [`Seed::timing`]); empty for the seed's `t0` and `tE` at every `u0`.
+    pub valley: Vec<(f64, f64, f64)>,
 }
+
+/// The valley's extent either side of the seed's u0 (as a factor), and its step (as a factor).
+const VALLEY: (f64, f64) = (3.0, 1.05);
 
 impl Seed {
     /// The seed of a single-lens fit: its trajectory, and the time where the data depart from
@@ -113,7 +125,43 @@ impl Seed {
             u0: fit.u0,
             te: fit.te,
             anomaly,
+            valley: valley(data, fit.t0, fit.u0, fit.te),
         }
+    }
+
+    /// The `(t0, tE)` of the single lens at impact parameter `u0` (about the host): linear in
+    /// `ln u0` between the valley's nodes; beyond them, the end node's `t0` and its `u0 tE`
+    /// (the product a blended single lens fixes when `u0 << 1`; common practice). The seed's
+    /// own `(t0, tE)` when the valley is empty.
+    ///
+    /// ```
+    /// use causeway::fit::search::Seed;
+    /// let seed = Seed {
+    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None,
+    ///     valley: vec![(0.1, 0.0, 20.0), (0.2, 0.5, 10.0)],
+    /// };
+    /// let (t0, te) = seed.timing(0.2f64.sqrt() * 0.1f64.sqrt());
+    /// assert!((t0 - 0.25).abs() < 1e-12 && (te - 200f64.sqrt()).abs() < 1e-9);
+    /// assert_eq!(seed.timing(0.05), (0.0, 40.0));
+    /// ```
+    pub fn timing(&self, u0: f64) -> (f64, f64) {
+        let v = &self.valley;
+        let (Some(first), Some(last)) = (v.first(), v.last()) else {
+            return (self.t0, self.te);
+        };
+        if u0 <= first.0 {
+            return (first.1, first.2 * first.0 / u0.max(1e-12));
+        }
+        if u0 >= last.0 {
+            return (last.1, last.2 * last.0 / u0);
+        }
+        let k = v.partition_point(|n| n.0 <= u0);
+        let (a, b) = (v[k - 1], v[k]);
+        let f = (u0 / a.0).ln() / (b.0 / a.0).ln();
+        (
+            a.1 + f * (b.1 - a.1),
+            (a.2.ln() + f * (b.2 / a.2).ln()).exp(),
+        )
     }
 
     /// The time of the largest departure of the data from `fit` and the span around it where
@@ -187,10 +235,37 @@ impl Seed {
                 u0: clean.u0,
                 te: clean.te,
                 anomaly: full.anomaly,
+                valley: valley(&masked, clean.t0, clean.u0, clean.te),
             },
             _ => full,
         }
     }
+}
+
+/// The single-lens valley of `data` around the fit `(t0, u0, tE)`: the best `(t0, tE)` at
+/// fixed `u0` stepped by [`VALLEY`] factors out to its extent either way (within
+/// [`super::single::U0_RANGE`]), each fit started from its neighbour's.
+fn valley(data: &[DataSet], t0: f64, u0: f64, te: f64) -> Vec<(f64, f64, f64)> {
+    let (extent, step) = VALLEY;
+    let (lo, hi) = super::single::U0_RANGE;
+    let n = (extent.ln() / step.ln()).ceil() as i32;
+    let mut nodes = vec![(u0, t0, te)];
+    for dir in [-1, 1] {
+        let (mut t, mut e) = (t0, te);
+        for k in 1..=n {
+            let u = u0 * step.powi(dir * k);
+            if !(lo..=hi).contains(&u) {
+                break;
+            }
+            match fit_at_u0(data, u, t, e * step.powi(-dir)) {
+                Ok((a, b, _)) => (t, e) = (a, b),
+                Err(_) => break,
+            }
+            nodes.push((u, t, e));
+        }
+    }
+    nodes.sort_by(|a, b| a.0.total_cmp(&b.0));
+    nodes
 }
 
 /// How the trajectory grid is laid out (see the module documentation).
@@ -275,7 +350,7 @@ impl GridRule {
     /// use causeway::fit::search::{GridRule, Seed};
     /// use causeway::map::Window;
     /// let rule = GridRule { rhos: vec![0.005], ..GridRule::default() };
-    /// let seed = Seed { t0: 0.0, u0: 0.1, te: 20.0, anomaly: None };
+    /// let seed = Seed { t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, valley: vec![] };
     /// let w = Window::new((0.3, 0.0), 0.1, 100).unwrap();
     /// let lines = rule.lines(&w, &seed);
     /// // Every line passes within the half-diagonal of the window's centre...
@@ -517,8 +592,9 @@ pub fn search_map(
     for &f in &rule.te_factors {
         for &shift in &rule.t0_shifts {
             for &(alpha, u0) in &grid {
-                let te = seed.te * f;
-                let tr = Trajectory::straight(seed.t0 + shift * seed.te, u0, te, alpha)?;
+                let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
+                let te = te * f;
+                let tr = Trajectory::straight(t0 + shift * seed.te, u0, te, alpha)?;
                 lines.extend(Line::observed(tr, &map.window, &all_times));
                 // The same line timed so that its strongest feature on the map falls at the
                 // anomaly seen in the data.
@@ -611,6 +687,18 @@ pub fn search_map(
         points: points.into_inner(),
         notes,
     })
+}
+
+/// The `(t0, tE)` of the line `(alpha, u0)` about the origin whose motion relative to the host
+/// at `host` is the single lens's at the same impact parameter ([`Seed::timing`]): relative to
+/// the host the line has `u0_h = u0 - n.host` and `tau_h = tau - d.host`, with
+/// `d = (cos alpha, sin alpha)` and `n = (-sin alpha, cos alpha)`, so `t0 = t0_h - (d.host) tE`.
+fn host_timing(seed: &Seed, host: Complex64, alpha: f64, u0: f64) -> (f64, f64) {
+    let (sn, cs) = alpha.sin_cos();
+    let along = cs * host.re + sn * host.im;
+    let across = -sn * host.re + cs * host.im;
+    let (t0_h, te) = seed.timing((u0 - across).abs());
+    (t0_h - along * te, te)
 }
 
 /// Where along the line of `tr` (as `tau`, the line's own time in units of tE from its closest

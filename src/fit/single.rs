@@ -151,6 +151,32 @@ pub fn fit_single_lens(data: &[DataSet]) -> Result<SingleLensFit> {
     })
 }
 
+/// The single lens at a fixed `u0`: the `(t0, tE)` that minimise chi^2 (fluxes solved), found
+/// by Nelder-Mead over `(t0, ln tE)` from `(t0, te)`, and that chi^2.
+///
+/// Stepping `u0` traces the valley of the single-lens chi^2 along which the source and blend
+/// fluxes trade against `u0` and `tE` (for `u0 << 1`, `u0 tE` stays nearly fixed: common
+/// practice).
+///
+/// ```
+/// use causeway::fit::{model::paczynski, photometry::DataSet, single::fit_at_u0};
+/// let mut text = String::from("t,flux,flux_err\n");
+/// for k in 0..120 {
+///     let t = -30.0 + 0.5 * k as f64;
+///     let u = (0.01 + ((t - 2.0) / 20.0f64).powi(2)).sqrt();
+///     text += &format!("{t},{},0.01\n", paczynski(u) + 0.3);
+/// }
+/// let data = [DataSet::parse(&text, "event.csv", 22.0).unwrap()];
+/// let (t0, te, chi2) = fit_at_u0(&data, 0.1, 0.0, 25.0).unwrap();
+/// assert!((t0 - 2.0).abs() < 1e-4 && (te - 20.0).abs() < 1e-3 && chi2 < 1e-4);
+/// ```
+pub fn fit_at_u0(data: &[DataSet], u0: f64, t0: f64, te: f64) -> Result<(f64, f64, f64)> {
+    let lu = u0.ln();
+    let f = |p: &[f64]| chi2(data, &[p[0], lu, p[1]]);
+    let m = minimize(&f, &[t0, te.ln()], &[0.01 * te, 0.05], 1e-8, 2000)?;
+    Ok((m.x[0], m.x[1].exp(), m.value))
+}
+
 /// One Newton step `x - H^-1 g` with `H^-1 = C / 2` and the gradient by central differences of
 /// steps `h`; kept only if it lowers `f`.
 fn newton_step(f: &dyn Fn(&[f64]) -> f64, x: &[f64], h: &[f64], c: &[Vec<f64>]) -> Vec<f64> {
