@@ -220,6 +220,10 @@ pub fn run(args: SearchArgs) -> Result<()> {
             seed.t0, seed.u0, seed.te
         );
     }
+    eprintln!(
+        "single lens's u0 range (its valley within its misfit): {:.5} to {:.5}",
+        seed.u0_range.0, seed.u0_range.1
+    );
     let bar = progress_bar("search");
     bar.set_length(maps.len() as u64);
     let started = std::time::Instant::now();

@@ -7,7 +7,8 @@
 //! Let `rho_min` be the smallest trial rho and `R = width / sqrt(2)` the half-diagonal of the
 //! map's window. Trajectories are taken at
 //! - `alpha` in `[0, 2 pi)` with step at most `2 rho_min / R`, and
-//! - `u0 >= 0` in `[u0* - D, u0* + D]`, `D = max(u0_span u0*, u0_floor)`, step at most
+//! - `u0 >= 0` in `[u0* - D, u0* + D]`, `D = max(u0_span u0*, u0_floor)`, widened to cover
+//!   the seed's [`Seed::u0_range`] (the `u0` its single lens cannot rule out), step at most
 //!   `2 rho_min`, keeping for each alpha only the u0 whose line passes within `R` of the
 //!   window's centre,
 //!
@@ -92,17 +93,37 @@ pub struct Seed {
     pub te: f64,
     /// Time of the strongest departure of the data from the single-lens fit, if known.
     pub anomaly: Option<f64>,
-    /// The single lens's valley: `(u0, t0, tE)` of its best fit at fixed `u0`, in increasing
-    /// `u0` (see [`Seed::timing`]); empty for the seed's `t0` and `tE` at every `u0`.
-    pub valley: Vec<(f64, f64, f64)>,
+    /// The single lens's valley: its best fit at fixed `u0`, in increasing `u0` (see
+    /// [`Seed::timing`]); empty for the seed's `t0` and `tE` at every `u0`.
+    pub valley: Vec<ValleyPoint>,
+    /// The `u0` the single lens cannot tell from its best (see [`Seed::of_fit`]): the search
+    /// covers at least this range.
+    pub u0_range: (f64, f64),
+}
+
+/// The best single lens at one fixed `u0`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ValleyPoint {
+    /// The fixed impact parameter.
+    pub u0: f64,
+    /// Its best time of closest approach (days).
+    pub t0: f64,
+    /// Its best Einstein timescale (days).
+    pub te: f64,
+    /// Its chi^2 (fluxes solved).
+    pub chi2: f64,
 }
 
 /// The valley's extent either side of the seed's u0 (as a factor), and its step (as a factor).
 const VALLEY: (f64, f64) = (3.0, 1.05);
 
 impl Seed {
-    /// The seed of a single-lens fit: its trajectory, and the time where the data depart from
-    /// it most (the largest run of 5 normalised residuals, summed in quadrature).
+    /// The seed of a single-lens fit: its trajectory, the time where the data depart from it
+    /// most (the largest run of 5 normalised residuals, summed in quadrature), its valley in
+    /// `u0` (the best `(t0, tE)` at `u0` stepped by 5% out to 3 times either way), and the `u0`
+    /// range where the valley's chi^2 stays within the fit's own misfit of its best,
+    /// `max(chi2 - dof, 0)`: what the single lens leaves unexplained, a binary may trade
+    /// against `u0`.
     ///
     /// ```
     /// use causeway::fit::{photometry::DataSet, search::Seed, single::fit_single_lens};
@@ -120,12 +141,22 @@ impl Seed {
     /// ```
     pub fn of_fit(fit: &SingleLensFit, data: &[DataSet]) -> Seed {
         let (anomaly, _) = Self::departure(fit, data);
+        Self::along_valley(fit, data, anomaly)
+    }
+
+    /// The seed of `fit` to `data`, with its valley and `u0` range (see [`Seed::of_fit`]).
+    fn along_valley(fit: &SingleLensFit, data: &[DataSet], anomaly: Option<f64>) -> Seed {
+        let valley = valley(data, fit.t0, fit.u0, fit.te);
+        let misfit = (fit.chi2 - fit.dof() as f64).max(0.0);
+        let within = valley.iter().filter(|p| p.chi2 - fit.chi2 <= misfit);
+        let u0_range = within.fold((fit.u0, fit.u0), |(lo, hi), p| (lo.min(p.u0), hi.max(p.u0)));
         Seed {
             t0: fit.t0,
             u0: fit.u0,
             te: fit.te,
             anomaly,
-            valley: valley(data, fit.t0, fit.u0, fit.te),
+            valley,
+            u0_range,
         }
     }
 
@@ -135,10 +166,12 @@ impl Seed {
     /// own `(t0, tE)` when the valley is empty.
     ///
     /// ```
-    /// use causeway::fit::search::Seed;
+    /// use causeway::fit::search::{Seed, ValleyPoint};
+    /// let node = |u0, t0, te| ValleyPoint { u0, t0, te, chi2: 0.0 };
     /// let seed = Seed {
     ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None,
-    ///     valley: vec![(0.1, 0.0, 20.0), (0.2, 0.5, 10.0)],
+    ///     valley: vec![node(0.1, 0.0, 20.0), node(0.2, 0.5, 10.0)],
+    ///     u0_range: (0.1, 0.1),
     /// };
     /// let (t0, te) = seed.timing(0.2f64.sqrt() * 0.1f64.sqrt());
     /// assert!((t0 - 0.25).abs() < 1e-12 && (te - 200f64.sqrt()).abs() < 1e-9);
@@ -149,18 +182,18 @@ impl Seed {
         let (Some(first), Some(last)) = (v.first(), v.last()) else {
             return (self.t0, self.te);
         };
-        if u0 <= first.0 {
-            return (first.1, first.2 * first.0 / u0.max(1e-12));
+        if u0 <= first.u0 {
+            return (first.t0, first.te * first.u0 / u0.max(1e-12));
         }
-        if u0 >= last.0 {
-            return (last.1, last.2 * last.0 / u0);
+        if u0 >= last.u0 {
+            return (last.t0, last.te * last.u0 / u0);
         }
-        let k = v.partition_point(|n| n.0 <= u0);
+        let k = v.partition_point(|n| n.u0 <= u0);
         let (a, b) = (v[k - 1], v[k]);
-        let f = (u0 / a.0).ln() / (b.0 / a.0).ln();
+        let f = (u0 / a.u0).ln() / (b.u0 / a.u0).ln();
         (
-            a.1 + f * (b.1 - a.1),
-            (a.2.ln() + f * (b.2 / a.2).ln()).exp(),
+            a.t0 + f * (b.t0 - a.t0),
+            (a.te.ln() + f * (b.te / a.te).ln()).exp(),
         )
     }
 
@@ -230,13 +263,9 @@ impl Seed {
             return full;
         }
         match fit_single_lens(&masked) {
-            Ok(clean) if clean.u0 > 2.0 * super::single::U0_RANGE.0 => Seed {
-                t0: clean.t0,
-                u0: clean.u0,
-                te: clean.te,
-                anomaly: full.anomaly,
-                valley: valley(&masked, clean.t0, clean.u0, clean.te),
-            },
+            Ok(clean) if clean.u0 > 2.0 * super::single::U0_RANGE.0 => {
+                Self::along_valley(&clean, &masked, full.anomaly)
+            }
             _ => full,
         }
     }
@@ -245,11 +274,14 @@ impl Seed {
 /// The single-lens valley of `data` around the fit `(t0, u0, tE)`: the best `(t0, tE)` at
 /// fixed `u0` stepped by [`VALLEY`] factors out to its extent either way (within
 /// [`super::single::U0_RANGE`]), each fit started from its neighbour's.
-fn valley(data: &[DataSet], t0: f64, u0: f64, te: f64) -> Vec<(f64, f64, f64)> {
+fn valley(data: &[DataSet], t0: f64, u0: f64, te: f64) -> Vec<ValleyPoint> {
     let (extent, step) = VALLEY;
     let (lo, hi) = super::single::U0_RANGE;
     let n = (extent.ln() / step.ln()).ceil() as i32;
-    let mut nodes = vec![(u0, t0, te)];
+    let mut nodes = Vec::new();
+    if let Ok((t0, te, chi2)) = fit_at_u0(data, u0, t0, te) {
+        nodes.push(ValleyPoint { u0, t0, te, chi2 });
+    }
     for dir in [-1, 1] {
         let (mut t, mut e) = (t0, te);
         for k in 1..=n {
@@ -257,14 +289,14 @@ fn valley(data: &[DataSet], t0: f64, u0: f64, te: f64) -> Vec<(f64, f64, f64)> {
             if !(lo..=hi).contains(&u) {
                 break;
             }
-            match fit_at_u0(data, u, t, e * step.powi(-dir)) {
-                Ok((a, b, _)) => (t, e) = (a, b),
-                Err(_) => break,
-            }
-            nodes.push((u, t, e));
+            let Ok((a, b, chi2)) = fit_at_u0(data, u, t, e * step.powi(-dir)) else {
+                break;
+            };
+            (t, e) = (a, b);
+            nodes.push(ValleyPoint { u0: u, t0: t, te: e, chi2 });
         }
     }
-    nodes.sort_by(|a, b| a.0.total_cmp(&b.0));
+    nodes.sort_by(|a, b| a.u0.total_cmp(&b.u0));
     nodes
 }
 
@@ -350,7 +382,9 @@ impl GridRule {
     /// use causeway::fit::search::{GridRule, Seed};
     /// use causeway::map::Window;
     /// let rule = GridRule { rhos: vec![0.005], ..GridRule::default() };
-    /// let seed = Seed { t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, valley: vec![] };
+    /// let seed = Seed {
+    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, valley: vec![], u0_range: (0.1, 0.1),
+    /// };
     /// let w = Window::new((0.3, 0.0), 0.1, 100).unwrap();
     /// let lines = rule.lines(&w, &seed);
     /// // Every line passes within the half-diagonal of the window's centre...
@@ -364,7 +398,8 @@ impl GridRule {
         let reach = window.width / std::f64::consts::SQRT_2;
         let n_alpha = ((TAU * reach / step).ceil() as usize).max(8);
         let half = (self.u0_span * seed.u0).max(self.u0_floor);
-        let (lo, hi) = ((seed.u0 - half).max(0.0), seed.u0 + half);
+        let lo = (seed.u0 - half).min(seed.u0_range.0).max(0.0);
+        let hi = (seed.u0 + half).max(seed.u0_range.1);
         let n_u = ((hi - lo) / step).ceil().max(1.0);
         let du = (hi - lo) / n_u;
         let (cx, cy) = window.center;
