@@ -107,7 +107,6 @@ pub fn least_squares(
     tolerance: f64,
     max_iters: u64,
 ) -> Result<Minimum> {
-    use rayon::prelude::*;
     let n = x0.len();
     let sum_sq = |r: &[f64]| r.iter().map(|v| v * v).sum::<f64>();
     let mut x = x0.to_vec();
@@ -118,22 +117,11 @@ pub fn least_squares(
     let mut evaluations = 1;
     let mut lambda = 1e-3;
     'outer: for _ in 0..max_iters {
-        let columns: Vec<Option<Vec<f64>>> = (0..n)
-            .into_par_iter()
-            .map(|j| {
-                let mut p = x.clone();
-                p[j] += h[j];
-                let rj = residuals(&p)?;
-                Some(rj.iter().zip(&r).map(|(a, b)| (a - b) / h[j]).collect())
-            })
-            .collect();
         evaluations += n as u64;
-        let Some(jac) = columns.into_iter().collect::<Option<Vec<Vec<f64>>>>() else {
+        let Some(jac) = jacobian(residuals, &x, Some(&r), h) else {
             break;
         };
-        let jtj: Vec<Vec<f64>> = (0..n)
-            .map(|a| (0..n).map(|b| dot(&jac[a], &jac[b])).collect())
-            .collect();
+        let jtj = normal_matrix(&jac);
         let jtr: Vec<f64> = (0..n).map(|a| dot(&jac[a], &r)).collect();
         loop {
             let mut m = jtj.clone();
@@ -175,6 +163,41 @@ pub fn least_squares(
         value,
         evaluations,
     })
+}
+
+/// The Jacobian of `residuals` at `x`, column by column (in parallel): forward differences of
+/// steps `h` from the residuals `r0` at `x` when given, central differences otherwise. `None`
+/// where a step leaves the model's domain.
+fn jacobian(
+    residuals: &(dyn Fn(&[f64]) -> Option<Vec<f64>> + Sync),
+    x: &[f64],
+    r0: Option<&[f64]>,
+    h: &[f64],
+) -> Option<Vec<Vec<f64>>> {
+    use rayon::prelude::*;
+    let at = |j: usize, d: f64| {
+        let mut p = x.to_vec();
+        p[j] += d;
+        residuals(&p)
+    };
+    (0..x.len())
+        .into_par_iter()
+        .map(|j| {
+            let (a, b, width) = match r0 {
+                Some(r0) => (at(j, h[j])?, r0.to_vec(), h[j]),
+                None => (at(j, h[j])?, at(j, -h[j])?, 2.0 * h[j]),
+            };
+            let column: Vec<f64> = a.iter().zip(&b).map(|(a, b)| (a - b) / width).collect();
+            column.iter().all(|v| v.is_finite()).then_some(column)
+        })
+        .collect()
+}
+
+/// `J^T J` of a Jacobian stored by columns.
+fn normal_matrix(jac: &[Vec<f64>]) -> Vec<Vec<f64>> {
+    (0..jac.len())
+        .map(|a| (0..jac.len()).map(|b| dot(&jac[a], &jac[b])).collect())
+        .collect()
 }
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {

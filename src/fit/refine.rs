@@ -2,6 +2,12 @@
 //! (s, q, alpha, u0, t0, tE, rho) with exact magnifications, and uncertainties from its
 //! curvature.
 //!
+//! Each start goes through Levenberg-Marquardt on the normalised residuals (which follows the
+//! curved valleys of a caustic crossing), the Nelder-Mead simplex from there (which can step
+//! out of a shallow false minimum), and Levenberg-Marquardt again to converge. The
+//! uncertainties come from the Hessian of chi^2 at the minimum (see
+//! [`super::optimize::covariance`]), by differences with magnifications ten times finer.
+//!
 //! Every chi^2 here comes from [`BinaryModel::magnifications`]: the point-source magnification
 //! with its small-source correction far from caustics and contour integration near them, to the
 //! relative tolerance given, so the result does not depend on map pixels. The minimiser works
@@ -49,7 +55,7 @@ pub fn exact_chi2(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<(f6
 
 /// Residuals `(F_i - fs A_i - fb) / sigma_i` of `model` over all data sets, each set at its
 /// best fluxes, with exact magnifications.
-fn residuals(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f64>> {
+fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f64>> {
     let mut out = Vec::with_capacity(data.iter().map(DataSet::len).sum());
     for set in data {
         let a = model.magnifications(&set.times, set.limb_darkening, tol)?;
@@ -119,7 +125,7 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
     // along. Its Jacobian steps are a fiftieth of the simplex's.
     let residuals = |p: &[f64]| {
         evaluations.fetch_add(1, Ordering::Relaxed);
-        residuals(data, &from_vector(p).ok()?, tol).ok()
+        residuals_of(data, &from_vector(p).ok()?, tol).ok()
     };
     let h: Vec<f64> = step.iter().map(|s| 0.02 * s).collect();
     let lm = least_squares(&residuals, &x0, &h, 0.01, LM_ITERATIONS)?;
@@ -139,6 +145,11 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
         if gain <= 0.1 {
             break;
         }
+    }
+    // A last Levenberg-Marquardt pass converges on the minimum the simplex stopped near.
+    let last = least_squares(&residuals, &found.x, &h, 1e-3, LM_ITERATIONS)?;
+    if last.value < found.value {
+        found = last;
     }
     // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.
     let h: Vec<f64> = step.iter().map(|s| 0.05 * s).collect();

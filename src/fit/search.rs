@@ -293,7 +293,12 @@ fn valley(data: &[DataSet], t0: f64, u0: f64, te: f64) -> Vec<ValleyPoint> {
                 break;
             };
             (t, e) = (a, b);
-            nodes.push(ValleyPoint { u0: u, t0: t, te: e, chi2 });
+            nodes.push(ValleyPoint {
+                u0: u,
+                t0: t,
+                te: e,
+                chi2,
+            });
         }
     }
     nodes.sort_by(|a, b| a.u0.total_cmp(&b.u0));
