@@ -7,10 +7,19 @@
 //! - `convolved_read`: bilinear reads of the pre-convolved map (the one-time FFT convolution is
 //!   timed separately as `convolve_map`).
 //!
+//! - `preconvolve_three_rhos_1000px`: the search's readers for one map, the pre-convolutions at
+//!   the three default trial rho (1e-3, 2e-3, 4e-3 on a window of 0.18: 5.6, 11 and 22 pixels),
+//!   against `baseline_full_complex`, the former route of three full complex 2-D FFTs per
+//!   profile; `new_each` is [`Preconvolved::new`] per profile (a fresh half spectrum each),
+//!   `shared_spectrum` one [`MapSpectrum`] for all three;
+//! - `preconvolve_route_1000px`: one convolution from an already computed spectrum, summed
+//!   directly or through the FFT, at kernel half-widths 1 to 5 pixels: where they cross sets
+//!   [`causeway::curve::DIRECT_MARGIN`].
+//!
 //! Map: binary s = 1, q = 0.1, 1000 x 1000 pixels over 2 theta_E (values do not change speed).
 //! Run: `cargo bench --bench curve`
 
-use causeway::curve::{DirectReader, Evaluation, Preconvolved, Sampler};
+use causeway::curve::{DirectReader, Evaluation, MapSpectrum, Preconvolved, Route, Sampler};
 use causeway::engine::{Engine, RayShooting};
 use causeway::lens::LensSystem;
 use causeway::map::{MagnificationMap, Window};
@@ -115,6 +124,58 @@ fn bench(c: &mut Criterion) {
         });
     }
     once.finish();
+
+    // The search's windows are narrower: the same pixel values on a window of 0.18 put the
+    // default trial rho at 5.6 to 22 pixels (pixel values do not change speed).
+    let narrow = MagnificationMap {
+        window: Window::new((0.0, 0.0), 0.18, 1000).unwrap(),
+        ..map.clone()
+    };
+    let profiles: Vec<SourceProfile> = [1e-3, 2e-3, 4e-3]
+        .iter()
+        .map(|&rho| SourceProfile::uniform(rho).unwrap())
+        .collect();
+    let mut readers = c.benchmark_group("preconvolve_three_rhos_1000px");
+    readers.sample_size(10);
+    let each = |f: &(dyn Fn(&SourceProfile) -> Preconvolved + Sync)| {
+        pool.install(|| black_box(profiles.iter().map(f).collect::<Vec<_>>()))
+    };
+    readers.bench_function("baseline_full_complex", |b| {
+        b.iter(|| each(&|p| Preconvolved::full_complex_baseline(&narrow, p).unwrap()))
+    });
+    readers.bench_function("new_each", |b| {
+        b.iter(|| each(&|p| Preconvolved::new(&narrow, p).unwrap()))
+    });
+    readers.bench_function("shared_spectrum", |b| {
+        b.iter(|| {
+            let spectrum = MapSpectrum::new(&narrow);
+            each(&|p| Preconvolved::from_spectrum(&spectrum, p).unwrap())
+        })
+    });
+    readers.finish();
+
+    let spectrum = MapSpectrum::new(&map);
+    let d = window.pixel_size();
+    // Warm the shared transform, so only the per-profile work is timed.
+    Preconvolved::with_route(&spectrum, &uniform, Route::Fourier).unwrap();
+    let mut route = c.benchmark_group("preconvolve_route_1000px");
+    route.sample_size(10);
+    for margin in 1..=5 {
+        // Radius margin - 0.6 pixels gives half-width ceil(r + 1/2) = margin.
+        let profile = SourceProfile::uniform((margin as f64 - 0.6) * d).unwrap();
+        for (name, how) in [("direct", Route::Direct), ("fourier", Route::Fourier)] {
+            route.bench_function(format!("{name}_margin_{margin}"), |b| {
+                b.iter(|| {
+                    pool.install(|| {
+                        let conv = Preconvolved::with_route(&spectrum, &profile, how).unwrap();
+                        assert_eq!(conv.margin(), margin);
+                        black_box(conv)
+                    })
+                })
+            });
+        }
+    }
+    route.finish();
 }
 
 criterion_group!(benches, bench);

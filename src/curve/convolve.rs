@@ -1,5 +1,5 @@
-//! Pre-convolved maps: the whole map convolved once with the source profile by FFT, then read
-//! by bilinear interpolation.
+//! Pre-convolved maps: the whole map convolved once with the source profile, then read by
+//! bilinear interpolation.
 //!
 //! # What is computed
 //! The kernel holds, for each pixel offset `(kx, ky)`, the weight the direct reader gives that
@@ -8,6 +8,22 @@
 //! convolution at pixel centre `(i, j)` is therefore the direct read there (to FFT round-off,
 //! about `1e-15` relative times `log2` of the size). It is valid at centres whose kernel fits
 //! inside the map: `margin <= i, j <= n - 1 - margin`.
+//!
+//! # How it is computed
+//! A kernel of half-width [`DIRECT_MARGIN`] pixels or less is summed directly (the kernel is
+//! even in x and in y, so each weight multiplies the sum of four pixels). A wider one goes
+//! through the discrete Fourier transform, using that both map and kernel are real:
+//! - the map's transform is kept in half ([`MapSpectrum`]): rows are transformed two at a time
+//!   as the real and imaginary parts of one complex row and separated by Hermitian symmetry,
+//!   then only the `L/2 + 1` columns of non-negative x frequency are transformed;
+//! - the kernel is even, so its transform is real: two kernel rows (then two columns) are
+//!   transformed in one complex transform and read off as its real and imaginary parts, and
+//!   only its `margin + 1` non-zero rows are transformed along x;
+//! - the product goes back the same way: `L/2 + 1` columns, then the valid output rows two at a
+//!   time as one complex row.
+//!
+//! One [`MapSpectrum`] serves every profile convolved with the same map, so `k` profiles cost
+//! one half-size forward transform plus `k` half-size inverse ones.
 //!
 //! # Interpolation error (derived)
 //! Between centres the pre-convolved grid is read bilinearly. For a function `f` with bounded
@@ -28,7 +44,81 @@ use crate::map::{MagnificationMap, Window};
 use crate::source::{disk_rect_overlap, SourceProfile};
 use num_complex::Complex64;
 use rayon::prelude::*;
-use rustfft::FftPlanner;
+use rustfft::{Fft, FftPlanner};
+use std::sync::{Arc, Mutex, OnceLock};
+
+/// Kernels of half-width up to this many pixels are summed directly instead of through the
+/// FFT (measured in benches/curve.rs, group `preconvolve_route_1000px`).
+pub const DIRECT_MARGIN: usize = 2;
+
+const ZERO: Complex64 = Complex64::new(0.0, 0.0);
+
+/// A map made ready for convolution with several source profiles: its discrete Fourier
+/// transform, taken on first need and shared by every [`Preconvolved::from_spectrum`].
+///
+/// ```
+/// use causeway::curve::{MapSpectrum, Preconvolved};
+/// use causeway::{engine::{Engine, RayShooting}, lens::LensSystem, map::Window};
+/// use causeway::source::SourceProfile;
+/// let map = RayShooting::new(100.0)
+///     .build(&LensSystem::single(), &Window::new((0.3, 0.0), 0.4, 40).unwrap()).unwrap();
+/// let spectrum = MapSpectrum::new(&map);
+/// for rho in [0.02, 0.03, 0.05] {
+///     let src = SourceProfile::uniform(rho).unwrap();
+///     let shared = Preconvolved::from_spectrum(&spectrum, &src).unwrap();
+///     let alone = Preconvolved::new(&map, &src).unwrap();
+///     let (a, b) = (shared.at_center(20, 20).unwrap(), alone.at_center(20, 20).unwrap());
+///     assert!((a - b).abs() < 1e-12 * a);
+/// }
+/// ```
+#[derive(Debug)]
+pub struct MapSpectrum<'a> {
+    map: &'a MagnificationMap,
+    /// FFT size per side, `L >= n`.
+    size: usize,
+    /// Columns `u = 0..=L/2` of the 2-D transform, column-major: `[u * L + v]`.
+    half: OnceLock<Vec<Complex64>>,
+    /// A product buffer of the same size kept between convolutions (fewer fresh pages).
+    spare: Mutex<Vec<Complex64>>,
+}
+
+impl<'a> MapSpectrum<'a> {
+    /// Prepares `map`; the transform itself is taken when a profile first needs it.
+    pub fn new(map: &'a MagnificationMap) -> Self {
+        MapSpectrum {
+            map,
+            size: fft_size(map.window.pixels),
+            half: OnceLock::new(),
+            spare: Mutex::new(Vec::new()),
+        }
+    }
+
+    /// The map this spectrum is of.
+    pub fn map(&self) -> &'a MagnificationMap {
+        self.map
+    }
+
+    fn half(&self) -> &[Complex64] {
+        self.half.get_or_init(|| forward(self.map, self.size))
+    }
+
+    fn lock_spare(&self) -> std::sync::MutexGuard<'_, Vec<Complex64>> {
+        // A panic elsewhere cannot leave the buffer inconsistent: it is only ever replaced.
+        self.spare.lock().unwrap_or_else(|e| e.into_inner())
+    }
+}
+
+/// How [`Preconvolved::with_route`] convolves (for benches and tests).
+#[doc(hidden)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Route {
+    /// The rule: direct for half-widths up to [`DIRECT_MARGIN`], else Fourier.
+    Auto,
+    /// Kernel summed over the map directly.
+    Direct,
+    /// Through the shared half spectrum.
+    Fourier,
+}
 
 /// A map convolved with a source profile.
 ///
@@ -52,26 +142,60 @@ pub struct Preconvolved {
 }
 
 impl Preconvolved {
-    /// Convolves `map` with `profile` (`rho > 0`).
+    /// Convolves `map` with `profile` (`rho > 0`). To convolve one map with several profiles,
+    /// share a [`MapSpectrum`] through [`Preconvolved::from_spectrum`] instead.
     pub fn new(map: &MagnificationMap, profile: &SourceProfile) -> Result<Self> {
+        Self::from_spectrum(&MapSpectrum::new(map), profile)
+    }
+
+    /// Convolves the map of `spectrum` with `profile` (`rho > 0`), transforming the map only if
+    /// no earlier call on `spectrum` has.
+    pub fn from_spectrum(spectrum: &MapSpectrum, profile: &SourceProfile) -> Result<Self> {
+        Self::with_route(spectrum, profile, Route::Auto)
+    }
+
+    /// [`Preconvolved::from_spectrum`] by a chosen route (for benches and tests).
+    #[doc(hidden)]
+    pub fn with_route(
+        spectrum: &MapSpectrum,
+        profile: &SourceProfile,
+        route: Route,
+    ) -> Result<Self> {
+        let (disks, margin) = kernel_extent(spectrum.map, profile)?;
+        let window = spectrum.map.window;
+        let quadrant = kernel_quadrant(&disks, margin);
+        let direct = match route {
+            Route::Auto => margin <= DIRECT_MARGIN,
+            Route::Direct => true,
+            Route::Fourier => false,
+        };
+        let grid = if direct {
+            convolve_direct(spectrum.map, &quadrant, margin)
+        } else {
+            convolve_fourier(spectrum, &quadrant, margin)
+        };
+        Ok(Preconvolved {
+            window,
+            grid,
+            margin,
+        })
+    }
+
+    /// The convolution as it was done before [`MapSpectrum`]: three full complex 2-D FFTs (map,
+    /// kernel, product) for one profile. Kept as the baseline of benches/curve.rs.
+    #[doc(hidden)]
+    pub fn full_complex_baseline(map: &MagnificationMap, profile: &SourceProfile) -> Result<Self> {
+        let (disks, margin) = kernel_extent(map, profile)?;
         let window = map.window;
         let n = window.pixels;
-        let disks = disks_in_pixels(profile, window.pixel_size());
-        let margin = kernel_margin(&disks);
-        if 2 * margin + 1 > n {
-            return Err(Error::input(format!(
-                "--rho {}: the source is wider than the map ({} pixels)",
-                profile.rho, n
-            )));
-        }
         let l = fft_size(n);
-        let mut image = vec![Complex64::new(0.0, 0.0); l * l];
+        let mut image = vec![ZERO; l * l];
         for (iy, row) in map.data.outer_iter().enumerate() {
             for (ix, &v) in row.iter().enumerate() {
                 image[iy * l + ix].re = v as f64;
             }
         }
-        let mut kernel = vec![Complex64::new(0.0, 0.0); l * l];
+        let mut kernel = vec![ZERO; l * l];
         let quadrant = kernel_quadrant(&disks, margin);
         let w = margin + 1;
         for ky in 0..=margin {
@@ -85,14 +209,13 @@ impl Preconvolved {
         let mut planner = FftPlanner::<f64>::new();
         let forward = planner.plan_fft_forward(l);
         let inverse = planner.plan_fft_inverse(l);
-        let fft2 = |buf: &mut Vec<Complex64>, fft: &std::sync::Arc<dyn rustfft::Fft<f64>>| {
+        let fft2 = |buf: &mut Vec<Complex64>, fft: &Arc<dyn Fft<f64>>| {
             buf.par_chunks_mut(l).for_each(|row| fft.process(row));
             *buf = transpose(buf, l);
             buf.par_chunks_mut(l).for_each(|row| fft.process(row));
         };
         fft2(&mut image, &forward);
         fft2(&mut kernel, &forward);
-        // Both spectra are transposed alike; the product is transposed back by the inverse.
         image
             .par_iter_mut()
             .zip(kernel.par_iter())
@@ -113,10 +236,12 @@ impl Preconvolved {
         })
     }
 
-    /// Working memory needed to convolve a map of `pixels` per side, in bytes.
+    /// Working memory needed to convolve a map of `pixels` per side, in bytes: the map's half
+    /// spectrum and a product of its size (or, while the map is transformed, its row pass),
+    /// and the result.
     pub fn memory_bytes(pixels: usize) -> u64 {
         let l = fft_size(pixels) as u64;
-        3 * 16 * l * l + 8 * (pixels as u64).pow(2)
+        2 * 16 * l * (l / 2 + 1) + 8 * (pixels as u64).pow(2)
     }
 
     /// Pixels lost at each edge: centres closer to the edge than this have no value.
@@ -175,6 +300,24 @@ fn kernel_margin(disks: &[(f64, f64)]) -> usize {
     (r + 0.5).ceil() as usize
 }
 
+/// The profile's disks in pixels and the kernel half-width; an error if the kernel does not
+/// fit on the map.
+fn kernel_extent(
+    map: &MagnificationMap,
+    profile: &SourceProfile,
+) -> Result<(Vec<(f64, f64)>, usize)> {
+    let window = map.window;
+    let disks = disks_in_pixels(profile, window.pixel_size());
+    let margin = kernel_margin(&disks);
+    if 2 * margin + 1 > window.pixels {
+        return Err(Error::input(format!(
+            "--rho {}: the source is wider than the map ({} pixels)",
+            profile.rho, window.pixels
+        )));
+    }
+    Ok((disks, margin))
+}
+
 /// Kernel weights for offsets `0 <= kx, ky <= margin` (row-major, `margin + 1` wide); the
 /// kernel is symmetric under `kx -> -kx` and `ky -> -ky`.
 fn kernel_quadrant(disks: &[(f64, f64)], margin: usize) -> Vec<f64> {
@@ -195,6 +338,252 @@ fn kernel_quadrant(disks: &[(f64, f64)], margin: usize) -> Vec<f64> {
     out
 }
 
+/// The kernel summed over the map at every valid centre; `NaN` elsewhere.
+fn convolve_direct(map: &MagnificationMap, quadrant: &[f64], margin: usize) -> Vec<f64> {
+    let n = map.window.pixels;
+    let w = margin + 1;
+    let data = map
+        .data
+        .as_slice()
+        .expect("map data are contiguous in standard order");
+    let row = |iy: usize| &data[iy * n..(iy + 1) * n];
+    let (lo, hi) = (margin, n - margin);
+    let mut grid = vec![f64::NAN; n * n];
+    grid.par_chunks_mut(n)
+        .enumerate()
+        .skip(lo)
+        .take(hi - lo)
+        .for_each_init(
+            || vec![0.0f64; n],
+            |pair, (iy, out)| {
+                out[lo..hi].fill(0.0);
+                for ky in 0..w {
+                    // Rows iy - ky and iy + ky carry the same weights.
+                    if ky == 0 {
+                        pair.iter_mut()
+                            .zip(row(iy))
+                            .for_each(|(p, &a)| *p = a as f64);
+                    } else {
+                        let (a, b) = (row(iy - ky), row(iy + ky));
+                        for ((p, &a), &b) in pair.iter_mut().zip(a).zip(b) {
+                            *p = a as f64 + b as f64;
+                        }
+                    }
+                    for kx in 0..w {
+                        let wt = quadrant[ky * w + kx];
+                        let acc = &mut out[lo..hi];
+                        if kx == 0 {
+                            acc.iter_mut()
+                                .zip(&pair[lo..hi])
+                                .for_each(|(o, &p)| *o += wt * p);
+                        } else {
+                            let (left, right) = (&pair[lo - kx..hi - kx], &pair[lo + kx..hi + kx]);
+                            for ((o, &a), &b) in acc.iter_mut().zip(left).zip(right) {
+                                *o += wt * (a + b);
+                            }
+                        }
+                    }
+                }
+            },
+        );
+    grid
+}
+
+/// FFT plans of size `l`, forward and inverse.
+fn plans(l: usize) -> (Arc<dyn Fft<f64>>, Arc<dyn Fft<f64>>) {
+    let mut planner = FftPlanner::<f64>::new();
+    (planner.plan_fft_forward(l), planner.plan_fft_inverse(l))
+}
+
+/// For each chunk `j` of `out` (two `len`-long rows, the last maybe one): `fill(j, buf)` loads
+/// the zeroed `buf` (the transform's length), which is transformed in place, and
+/// `take(j, buf, scratch, chunk)` writes the chunk (`scratch` serves further transforms of
+/// the same length). The building block of every pass below.
+fn paired<T: Send>(
+    out: &mut [T],
+    len: usize,
+    fft: &Arc<dyn Fft<f64>>,
+    fill: impl Fn(usize, &mut [Complex64]) + Sync,
+    take: impl Fn(usize, &[Complex64], &mut [Complex64], &mut [T]) + Sync,
+) {
+    let l = fft.len();
+    out.par_chunks_mut(2 * len).enumerate().for_each_init(
+        || (vec![ZERO; l], vec![ZERO; fft.get_inplace_scratch_len()]),
+        |(buf, scratch), (j, chunk)| {
+            buf.fill(ZERO);
+            fill(j, buf);
+            fft.process_with_scratch(buf, scratch);
+            take(j, buf, scratch, chunk);
+        },
+    );
+}
+
+/// The half spectrum of a map (see [`MapSpectrum`]): columns `u = 0..=l/2`, `[u * l + v]`.
+fn forward(map: &MagnificationMap, l: usize) -> Vec<Complex64> {
+    let n = map.window.pixels;
+    let h = l / 2 + 1;
+    let data = map
+        .data
+        .as_slice()
+        .expect("map data are contiguous in standard order");
+    let (fwd, _) = plans(l);
+    // Rows 2j and 2j + 1 as one complex row z = a + i b; with Z = A + i B and A, B Hermitian,
+    // A(k) = (Z(k) + conj Z(-k)) / 2 and B(k) = (Z(k) - conj Z(-k)) / 2i.
+    let mut rows = vec![ZERO; l * h];
+    paired(
+        &mut rows[..n * h],
+        h,
+        &fwd,
+        |j, buf| {
+            for (k, y) in [2 * j, 2 * j + 1].into_iter().enumerate() {
+                if y < n {
+                    for (z, &v) in buf.iter_mut().zip(&data[y * n..(y + 1) * n]) {
+                        if k == 0 {
+                            z.re = v as f64;
+                        } else {
+                            z.im = v as f64;
+                        }
+                    }
+                }
+            }
+        },
+        |_, buf, _, chunk| {
+            let (a, b) = chunk.split_at_mut(h);
+            for u in 0..h {
+                let (z, zc) = (buf[u], buf[if u == 0 { 0 } else { l - u }].conj());
+                a[u] = (z + zc) * 0.5;
+                if let Some(b) = b.get_mut(u) {
+                    *b = (z - zc) * Complex64::new(0.0, -0.5);
+                }
+            }
+        },
+    );
+    // Columns u = 0..=l/2 along y (consecutive columns share cache lines of `rows`).
+    let mut half = vec![ZERO; h * l];
+    half.par_chunks_mut(l).enumerate().for_each_init(
+        || vec![ZERO; fwd.get_inplace_scratch_len()],
+        |scratch, (u, column)| {
+            for (y, c) in column.iter_mut().enumerate() {
+                *c = rows[y * h + u];
+            }
+            fwd.process_with_scratch(column, scratch);
+        },
+    );
+    half
+}
+
+/// Loads sequences `2j` and `2j + 1` (those below `count`) into the real and imaginary parts
+/// of `buf`, each even: `value(i, k)` at indices `k` and `-k` for `k < w`.
+fn even_pair(
+    buf: &mut [Complex64],
+    j: usize,
+    count: usize,
+    w: usize,
+    value: impl Fn(usize, usize) -> f64,
+) {
+    let l = buf.len();
+    for (part, i) in [2 * j, 2 * j + 1].into_iter().enumerate() {
+        if i < count {
+            for k in 0..w {
+                let v = value(i, k);
+                for at in [k, (l - k) % l] {
+                    if part == 0 {
+                        buf[at].re = v;
+                    } else {
+                        buf[at].im = v;
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// The map of `spectrum` convolved with the even kernel of `quadrant` at every valid centre;
+/// `NaN` elsewhere.
+fn convolve_fourier(spectrum: &MapSpectrum, quadrant: &[f64], margin: usize) -> Vec<f64> {
+    let (n, l) = (spectrum.map.window.pixels, spectrum.size);
+    let (w, h) = (margin + 1, l / 2 + 1);
+    let (fwd, inv) = plans(l);
+    // An even real sequence has a real transform, so two of them go through one complex
+    // transform as its real and imaginary parts. Along x: the kernel rows ky = 0..=margin,
+    // giving `along_x[ky * h + u]`.
+    let mut along_x = vec![0.0; w * h];
+    paired(
+        &mut along_x,
+        h,
+        &fwd,
+        |j, buf| even_pair(buf, j, w, w, |ky, kx| quadrant[ky * w + kx]),
+        |_, buf, _, chunk| {
+            for (part, out) in chunk.chunks_mut(h).enumerate() {
+                for (o, z) in out.iter_mut().zip(buf) {
+                    *o = if part == 0 { z.re } else { z.im };
+                }
+            }
+        },
+    );
+    // Along y, two columns u at a time (each even in ky). Each column of the kernel's
+    // transform multiplies the map's and goes straight back along y: `product[u * l + y]`.
+    let half = spectrum.half();
+    // Every element is written below, so a buffer left by an earlier profile serves as is.
+    let mut product = std::mem::take(&mut *spectrum.lock_spare());
+    if product.len() != h * l {
+        product = vec![ZERO; h * l];
+    }
+    paired(
+        &mut product,
+        l,
+        &fwd,
+        |j, buf| even_pair(buf, j, h, w, |u, ky| along_x[ky * h + u]),
+        |j, kernel, scratch, columns| {
+            for (part, column) in columns.chunks_mut(l).enumerate() {
+                let u = 2 * j + part;
+                let map = &half[u * l..(u + 1) * l];
+                for ((c, &s), k) in column.iter_mut().zip(map).zip(kernel) {
+                    *c = s * if part == 0 { k.re } else { k.im };
+                }
+                inv.process_with_scratch(column, scratch);
+            }
+        },
+    );
+    // Along x, two valid output rows y0, y1 at a time as one complex row A + i B, each
+    // extended to all frequencies by A(l - u) = conj A(u) (bins 0 and l/2 are their own
+    // mirrors, hence real).
+    let (lo, hi) = (margin, n - margin);
+    let scale = 1.0 / (l * l) as f64;
+    let mut grid = vec![f64::NAN; n * n];
+    paired(
+        &mut grid[lo * n..hi * n],
+        n,
+        &inv,
+        |j, buf| {
+            let (y0, y1) = (lo + 2 * j, lo + 2 * j + 1);
+            let pair = |u: usize| {
+                let a = product[u * l + y0];
+                let b = if y1 < hi { product[u * l + y1] } else { ZERO };
+                (a, b)
+            };
+            for u in 1..l.div_ceil(2) {
+                let (a, b) = pair(u);
+                buf[u] = Complex64::new(a.re - b.im, a.im + b.re);
+                buf[l - u] = Complex64::new(a.re + b.im, b.re - a.im);
+            }
+            for u in [0, l / 2].into_iter().filter(|&u| 2 * u % l == 0) {
+                let (a, b) = pair(u);
+                buf[u] = Complex64::new(a.re, b.re);
+            }
+        },
+        |_, buf, _, chunk| {
+            for (part, out) in chunk.chunks_mut(n).enumerate() {
+                for (o, z) in out[lo..hi].iter_mut().zip(&buf[lo..hi]) {
+                    *o = scale * if part == 0 { z.re } else { z.im };
+                }
+            }
+        },
+    );
+    *spectrum.lock_spare() = product;
+    grid
+}
+
 /// The smallest size `>= n` whose prime factors are 2, 3, 5 or 7 (fast FFT sizes).
 fn fft_size(n: usize) -> usize {
     (n.max(1)..)
@@ -213,7 +602,7 @@ fn fft_size(n: usize) -> usize {
 /// Out-of-place transpose of an `l x l` array, in tiles.
 fn transpose(a: &[Complex64], l: usize) -> Vec<Complex64> {
     const T: usize = 32;
-    let mut out = vec![Complex64::new(0.0, 0.0); l * l];
+    let mut out = vec![ZERO; l * l];
     out.par_chunks_mut(l * T)
         .enumerate()
         .for_each(|(tile_row, chunk)| {

@@ -4,9 +4,10 @@
 //! of these that applies, and says which one did ([`Method`]):
 //!
 //! 1. the map, when the whole source lies on it: [`DirectReader`] (exact disk/pixel overlap
-//!    weights) or [`Preconvolved`] (the map convolved once with the profile by FFT, read
-//!    bilinearly), chosen by the number of points ([`Evaluation::Auto`]); a point source
-//!    (`rho = 0`) is read by bilinear interpolation ([`point_read`]);
+//!    weights) or [`Preconvolved`] (the map convolved once with the profile, by FFT for all
+//!    but the smallest sources, read bilinearly), chosen by the number of points
+//!    ([`Evaluation::Auto`]); a point source (`rho = 0`) is read by bilinear interpolation
+//!    ([`point_read`]);
 //! 2. off the map, the exact point-source magnification with the small-source correction
 //!    ([`small_source`]), where that correction is accurate to the tolerance; elsewhere the
 //!    sampler fails, naming the first such point.
@@ -49,7 +50,9 @@ mod sample;
 mod trajectory;
 
 pub use continuation::{small_source, Expansion, PointMagnification};
-pub use convolve::Preconvolved;
+#[doc(hidden)]
+pub use convolve::Route;
+pub use convolve::{MapSpectrum, Preconvolved, DIRECT_MARGIN};
 pub use plan::{plan_window, POINT_SOURCE_PIXELS};
 pub use plot::plot_png;
 pub use sample::{ld_nodes, point_read, DirectReader};
@@ -142,9 +145,11 @@ fn direct_cost(disks: &[(f64, f64)]) -> f64 {
         .sum()
 }
 
-/// Estimated cost, in nanoseconds, of pre-convolving a map of `pixels` per side: three 2-D FFTs
-/// and two transposes of size `L^2`, about `7 L^2 log2 L` ns in all (calibrated on
-/// benches/curve.rs: 66 ms at L = 1000).
+/// Estimated cost, in nanoseconds, of pre-convolving a map of `pixels` per side: `7 L^2 log2 L`,
+/// calibrated on benches/curve.rs at L = 1000 (66 ms) for the former route of three full
+/// complex 2-D FFTs. The present route ([`Preconvolved`]) measures 34 ms there; the estimate is
+/// not recalibrated yet, because the fixed costs that dominate on small maps are unmeasured
+/// (so it leans towards direct reads).
 fn convolve_cost(pixels: usize) -> f64 {
     let l = pixels as f64;
     7.0 * l * l * l.log2().max(1.0)

@@ -63,7 +63,7 @@ use super::model::{paczynski, BinaryModel, Trajectory};
 use super::optimize::minimize;
 use super::photometry::DataSet;
 use super::single::{fit_at_u0, fit_single_lens, SingleLensFit};
-use crate::curve::Preconvolved;
+use crate::curve::{MapSpectrum, Preconvolved};
 use crate::error::{Error, Result};
 use crate::lens::{LensSystem, PointLens};
 use crate::map::{read_fits, MagnificationMap, Window};
@@ -519,6 +519,8 @@ impl Readers {
             })
             .collect();
         let pixel = map.window.pixel_size();
+        // One transform of the map serves every (law, rho).
+        let spectrum = MapSpectrum::new(map);
         let mut convolved = Vec::new();
         for &law in &laws {
             let mut row = Vec::new();
@@ -533,7 +535,10 @@ impl Readers {
                     ));
                 }
                 row.push(if fits {
-                    Some(Preconvolved::new(map, &SourceProfile::new(rho, law)?)?)
+                    Some(Preconvolved::from_spectrum(
+                        &spectrum,
+                        &SourceProfile::new(rho, law)?,
+                    )?)
                 } else {
                     None
                 });
