@@ -133,7 +133,14 @@ fn bench(c: &mut Criterion) {
     let (store, points, sub_points) = library();
     let (data, seed) = event();
     let rule = GridRule::default();
-    eprintln!("seed {seed:?}; rule {rule:?}; {THREADS} threads");
+    eprintln!(
+        "seed t0 {:.4}, u0 {:.5} (range {:.5} to {:.5}), tE {:.3}; rule {rule:?}; {THREADS} threads",
+        seed.t0,
+        seed.u0,
+        seed.u0_range(rule.u0_misfit).0,
+        seed.u0_range(rule.u0_misfit).1,
+        seed.te
+    );
     // The whole library only when measuring: building it takes minutes the first time.
     if measuring() && std::env::var_os("CAUSEWAY_BENCH_SUB_ONLY").is_none() {
         let maps = built(&store, &points);

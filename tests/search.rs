@@ -1,12 +1,15 @@
 //! Injection and recovery: events simulated from known binary models (magnifications by contour
-//! integration) are searched over small map libraries and refined.
+//! integration) are searched over small map libraries from the fitted single-lens seed, and
+//! refined: a planetary caustic crossing, a central caustic with its close/wide partner, and a
+//! resonant caustic.
 
 mod common;
 
+use causeway::fit::minima::{refine_minima, Minimum, RefineOptions};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
-use causeway::fit::refine::{refine, Refined};
-use causeway::fit::search::{local_minima, maps_of_spec, search, GridRule, Seed};
+use causeway::fit::refine::{close_wide, refine, Refined};
+use causeway::fit::search::{local_minima, maps_of_spec, search, GridRule, MapOutcome, Seed};
 use causeway::fit::single::fit_single_lens;
 use causeway::source::LimbDarkening;
 use causeway::store::library::{self, LibrarySpec};
@@ -17,64 +20,48 @@ use rand_distr::{Distribution, Normal};
 /// Synthetic flux photometry of `model` with Gaussian errors of `sigma` (flux units), fs = 1,
 /// fb = 0.2.
 fn simulate(model: &BinaryModel, times: &[f64], sigma: f64, seed: u64) -> DataSet {
+    simulate_with(model, times, |_| sigma, seed)
+}
+
+/// The same with the error of each point a function of its true flux.
+fn simulate_with(
+    model: &BinaryModel,
+    times: &[f64],
+    sigma: impl Fn(f64) -> f64,
+    seed: u64,
+) -> DataSet {
     let a = model
         .magnifications(times, LimbDarkening::Uniform, 1e-6)
         .unwrap();
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
-    let noise = Normal::new(0.0, sigma).unwrap();
+    let unit = Normal::new(0.0, 1.0).unwrap();
     let mut text = String::from("t,flux,flux_err\n");
     for (t, a) in times.iter().zip(a) {
-        text += &format!("{t},{},{sigma}\n", a + 0.2 + noise.sample(&mut rng));
+        let (flux, err) = (a + 0.2, sigma(a + 0.2));
+        text += &format!("{t},{},{err}\n", flux + err * unit.sample(&mut rng));
     }
     DataSet::parse(&text, "simulated.csv", 22.0).unwrap()
 }
 
-#[test]
-fn a_planetary_caustic_crossing_is_recovered() {
-    let alpha = 2.0 * std::f64::consts::PI - 0.287;
-    let truth = BinaryModel {
-        s: 1.3,
-        q: 3e-3,
-        rho: 3e-3,
-        trajectory: Trajectory::straight(0.0, 0.15, 25.0, alpha).unwrap(),
-    };
-    let times: Vec<f64> = (0..600).map(|k| -60.0 + 0.2 * k as f64).collect();
-    let data = vec![simulate(&truth, &times, 0.01, 11)];
-    let dir = common::scratch("search-planetary");
-    let store = Store::open(&dir).unwrap();
-    let spec = LibrarySpec::parse(
-        "s = {log = [1.15, 1.45, 5]}\nq = {log = [1e-3, 1e-2, 5]}\npixels = 500\nrays = 1\n\
-         engine = \"polygon\"\n[window]\nrule = \"planetary\"\n",
-        "lib.toml",
-    )
-    .unwrap();
+/// Builds the library of `spec` in a scratch store and searches it for `data` from the seed of
+/// its single-lens fit (made again without the anomaly).
+fn search_library(name: &str, spec: &str, data: &[DataSet], rule: &GridRule) -> Vec<MapOutcome> {
+    let store = Store::open(&common::scratch(name)).unwrap();
+    let spec = LibrarySpec::parse(spec, "lib.toml").unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
-    // The seed: a single-lens fit, made again without the anomaly, and its valley in u0 (the
-    // search starts from it: no hand-placed seed).
-    let single = fit_single_lens(&data).unwrap();
-    let seed = Seed::of_data(&single, &data);
-    // Without the anomaly the single lens is within 10% of the truth in tE and u0 (the full fit
-    // is far longer in tE: the anomaly and the blend pull it).
-    let near = |v: f64, truth: f64| (v / truth - 1.0).abs() < 0.1;
-    assert!(near(seed.te, 25.0) && near(seed.u0, 0.15), "{seed:?}");
-    assert!(single.te > 1.5 * 25.0, "{single:?}");
-    let rule = GridRule {
-        rhos: vec![1.5e-3, 3e-3, 6e-3],
-        ..GridRule::default()
-    };
-    let outcomes = search(&data, &seed, &maps, &rule, &|| {}).unwrap();
-    let minima = local_minima(&outcomes);
-    let best = outcomes[minima[0]].candidates[0];
-    // s and q of the best map within one grid step of the truth (steps: 6% in s, a factor
-    // 1.78 in q).
-    assert!((best.model.s / truth.s).ln().abs() < 0.06, "{best:?}");
-    assert!((best.model.q / truth.q).ln().abs() < 0.58, "{best:?}");
-    let r: Refined = refine(&data, &best.model, 1e-5, 400).unwrap();
-    // chi^2 within the central 99.9% of the chi-square distribution with 600 - 7 - 2 degrees
-    // of freedom: 484.38 to 710.72 (scipy.stats.chi2.ppf(0.0005, 591), chi2.ppf(0.9995, 591)).
-    assert!((484.38..710.72).contains(&r.chi2), "chi2 {}", r.chi2);
-    // Every parameter within 4 of its uncertainties of the truth.
+    let seed = Seed::of_data(&fit_single_lens(data).unwrap(), data);
+    search(data, &seed, &maps, rule, &|| {}).unwrap()
+}
+
+/// chi^2 within the central 99.9% of the chi-square distribution with 600 - 7 - 2 = 591 degrees
+/// of freedom: 484.38 to 710.72 (scipy.stats.chi2.ppf(0.0005, 591), chi2.ppf(0.9995, 591)).
+fn chi2_as_expected(chi2: f64) -> bool {
+    (484.38..710.72).contains(&chi2)
+}
+
+/// Every parameter of `r` within 4 of its uncertainties of `truth`'s.
+fn assert_within_4_sigma(r: &Refined, truth: &BinaryModel) {
     let l = r.model.trajectory.line();
     let t = truth.trajectory.line();
     let checks = [
@@ -93,4 +80,132 @@ fn a_planetary_caustic_crossing_is_recovered() {
             "{name}: {got} vs {want} +- {sigma}"
         );
     }
+}
+
+/// 1% errors on the flux (about 0.011 mag), as a survey's photometry of a bright event.
+fn one_percent(flux: f64) -> f64 {
+    0.01 * flux
+}
+
+#[test]
+fn a_planetary_caustic_crossing_is_recovered() {
+    let alpha = 2.0 * std::f64::consts::PI - 0.287;
+    let truth = BinaryModel {
+        s: 1.3,
+        q: 3e-3,
+        rho: 3e-3,
+        trajectory: Trajectory::straight(0.0, 0.15, 25.0, alpha).unwrap(),
+    };
+    let times: Vec<f64> = (0..600).map(|k| -60.0 + 0.2 * k as f64).collect();
+    let data = vec![simulate(&truth, &times, 0.01, 11)];
+    // The seed: a single-lens fit, made again without the anomaly. Without the anomaly it is
+    // within 10% of the truth in tE and u0; the full fit is far longer in tE (the anomaly and
+    // the blend pull it).
+    let single = fit_single_lens(&data).unwrap();
+    let seed = Seed::of_data(&single, &data);
+    let near = |v: f64, truth: f64| (v / truth - 1.0).abs() < 0.1;
+    assert!(near(seed.te, 25.0) && near(seed.u0, 0.15), "{seed:?}");
+    assert!(single.te > 1.5 * 25.0, "{single:?}");
+    let rule = GridRule {
+        rhos: vec![1.5e-3, 3e-3, 6e-3],
+        ..GridRule::default()
+    };
+    let outcomes = search_library(
+        "search-planetary",
+        "s = {log = [1.15, 1.45, 5]}\nq = {log = [1e-3, 1e-2, 5]}\npixels = 500\nrays = 1\n\
+         engine = \"polygon\"\n[window]\nrule = \"planetary\"\n",
+        &data,
+        &rule,
+    );
+    let minima = local_minima(&outcomes);
+    let best = outcomes[minima[0]].candidates[0];
+    // s and q of the best map within one grid step of the truth (steps: 6% in s, a factor
+    // 1.78 in q).
+    assert!((best.model.s / truth.s).ln().abs() < 0.06, "{best:?}");
+    assert!((best.model.q / truth.q).ln().abs() < 0.58, "{best:?}");
+    let r: Refined = refine(&data, &best.model, 1e-5, 400).unwrap();
+    assert!(chi2_as_expected(r.chi2), "chi2 {}", r.chi2);
+    assert_within_4_sigma(&r, &truth);
+}
+
+/// A high-magnification event whose source crosses the central caustic of a close planet: the
+/// wide planet at about 1/s makes a central caustic of nearly the same shape (Griest & Safizadeh
+/// 1998; Dominik 1999; from memory), so both must be reported, as partners.
+#[test]
+fn a_central_caustic_and_its_close_wide_partner_are_recovered() {
+    let truth = BinaryModel {
+        s: 0.8,
+        q: 2e-3,
+        rho: 1.5e-3,
+        trajectory: Trajectory::straight(0.0, 0.008, 20.0, 60f64.to_radians()).unwrap(),
+    };
+    let times: Vec<f64> = (0..600).map(|k| -40.0 + 80.0 * k as f64 / 599.0).collect();
+    let data = vec![simulate_with(&truth, &times, one_percent, 5)];
+    let outcomes = search_library(
+        "search-central",
+        "s = {log = [0.7, 1.43, 7]}\nq = {log = [1e-3, 4e-3, 3]}\npixels = 400\nrays = 1\n\
+         engine = \"polygon\"\n[window]\nrule = \"central\"\n",
+        &data,
+        &GridRule::default(),
+    );
+    let minima: Vec<Minimum> =
+        refine_minima(&data, &outcomes, &RefineOptions::default(), &|| {}).unwrap();
+    // The true (close) model among the minima, within one grid step in s (12.6%) and q (a
+    // factor 2), its chi^2 as the noise gives.
+    let close = minima
+        .iter()
+        .position(|m| {
+            let r = &m.refined;
+            (r.model.s / truth.s).ln().abs() < 0.126 && (r.model.q / truth.q).ln().abs() < 2f64.ln()
+        })
+        .unwrap_or_else(|| panic!("no minimum near the truth: {minima:#?}"));
+    let r = &minima[close].refined;
+    assert!(chi2_as_expected(r.chi2), "chi2 {}", r.chi2);
+    // Its wide partner: a separate minimum on the other side of s = 1, marked as its partner
+    // both ways, and fitting the data as well (that is the degeneracy).
+    let wide = minima[close]
+        .partner
+        .unwrap_or_else(|| panic!("no partner marked: {minima:#?}"))
+        - 1;
+    let w = &minima[wide].refined;
+    assert!(w.model.s > 1.0 && close_wide((r.model.s, r.model.q), (w.model.s, w.model.q)));
+    assert_eq!(minima[wide].partner, Some(close + 1));
+    assert!(chi2_as_expected(w.chi2), "partner chi2 {}", w.chi2);
+}
+
+/// A source crossing the resonant caustic (one closed curve from the host towards the planet)
+/// of s = 1.2, q = 0.01, away from the peak.
+#[test]
+fn a_resonant_caustic_crossing_is_recovered() {
+    let truth = BinaryModel {
+        s: 1.2,
+        q: 1e-2,
+        rho: 4e-3,
+        trajectory: Trajectory::straight(0.0, 0.2, 20.0, 328.3f64.to_radians()).unwrap(),
+    };
+    let times: Vec<f64> = (0..600).map(|k| -40.0 + 80.0 * k as f64 / 599.0).collect();
+    let data = vec![simulate_with(&truth, &times, one_percent, 7)];
+    let rule = GridRule {
+        rhos: vec![2e-3, 4e-3, 8e-3],
+        ..GridRule::default()
+    };
+    let outcomes = search_library(
+        "search-resonant",
+        "s = {log = [1.1, 1.3, 3]}\nq = {log = [5e-3, 2e-2, 3]}\npixels = 600\nrays = 1\n\
+         engine = \"polygon\"\n[window]\nrule = \"central\"\n",
+        &data,
+        &rule,
+    );
+    let options = RefineOptions {
+        candidates: 2,
+        ..RefineOptions::default()
+    };
+    let minima = refine_minima(&data, &outcomes, &options, &|| {}).unwrap();
+    let r = &minima[0].refined;
+    // The best minimum within one grid step of the truth (8.7% in s, a factor 2 in q), its
+    // chi^2 as the noise gives, every parameter within 4 sigma.
+    assert!((r.model.s / truth.s).ln().abs() < 0.087, "{r:?}");
+    assert!((r.model.q / truth.q).ln().abs() < 2f64.ln(), "{r:?}");
+    assert!(chi2_as_expected(r.chi2), "chi2 {}", r.chi2);
+    assert_within_4_sigma(r, &truth);
 }

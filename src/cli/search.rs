@@ -63,6 +63,10 @@ pub struct SearchArgs {
     /// Least half-range of u0 (absolute).
     #[arg(long, value_name = "U", default_value_t = GridRule::default().u0_floor)]
     pub u0_floor: f64,
+    /// Widen u0 to where the single lens's valley (its best fit at fixed u0) rises by this
+    /// fraction of its misfit (chi2 - dof; what it leaves unexplained).
+    #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_misfit)]
+    pub u0_misfit: f64,
     /// Factors on the single-lens tE.
     #[arg(long, value_name = "F[,F...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().te_factors)]
     pub te_factors: Vec<f64>,
@@ -134,6 +138,7 @@ impl SearchArgs {
             rhos: self.rho.clone(),
             u0_span: self.u0_span,
             u0_floor: self.u0_floor,
+            u0_misfit: self.u0_misfit,
             te_factors: self.te_factors.clone(),
             t0_shifts: self.t0_shifts.clone(),
             keep: self.keep,
@@ -220,9 +225,10 @@ pub fn run(args: SearchArgs) -> Result<()> {
             seed.t0, seed.u0, seed.te
         );
     }
+    let (lo, hi) = seed.u0_range(rule.u0_misfit);
     eprintln!(
-        "single lens's u0 range (its valley within its misfit): {:.5} to {:.5}",
-        seed.u0_range.0, seed.u0_range.1
+        "u0 the single lens cannot rule out (its valley within {} of its misfit {:.1}): {lo:.5} to {hi:.5}",
+        rule.u0_misfit, seed.misfit
     );
     let bar = progress_bar("search");
     bar.set_length(maps.len() as u64);

@@ -8,7 +8,8 @@
 //! map's window. Trajectories are taken at
 //! - `alpha` in `[0, 2 pi)` with step at most `2 rho_min / R`, and
 //! - `u0 >= 0` in `[u0* - D, u0* + D]`, `D = max(u0_span u0*, u0_floor)`, widened to cover
-//!   the seed's [`Seed::u0_range`] (the `u0` its single lens cannot rule out), step at most
+//!   the seed's [`Seed::u0_range`] at [`GridRule::u0_misfit`] (the `u0` its single lens
+//!   cannot rule out), step at most
 //!   `2 rho_min`, keeping for each alpha only the u0 whose line passes within `R` of the
 //!   window's centre,
 //!
@@ -45,7 +46,12 @@
 //! the exact point-source magnification (it does not depend on rho, so one evaluation serves
 //! every trial rho), computed at a subset of the times and interpolated linearly in between
 //! where the midpoint of every interval agrees with the interpolation to
-//! [`GridRule::interpolation_tol`] and no interval spans more than [`MAX_STRIDE`] points. What
+//! [`GridRule::interpolation_tol`], no interval spans more than [`MAX_STRIDE`] points, and none
+//! is longer than [`CLEARANCE_REACH`] times the source's clearance at its start: its distance
+//! from the nearest lens or caustic point, less the spacing of the caustic points kept. Off
+//! the caustics the point-source magnification is smooth on the scale of that distance, so far
+//! from them a few solves serve long stretches of the curve, and near them the intervals
+//! shrink before the midpoint test could be fooled by a feature between its samples. What
 //! is interpolated is the ratio of the binary's magnification to the host's alone (Paczynski's
 //! formula for m1 at its position), which stays near 1 and flat wherever the companion matters
 //! little; the host's peak is then not interpolated at all. The intervals are taken in time
@@ -78,7 +84,12 @@ use std::path::PathBuf;
 use std::sync::atomic::{AtomicU64, Ordering};
 
 /// Largest number of points between two exact point-source evaluations off the map.
-pub const MAX_STRIDE: usize = 64;
+pub const MAX_STRIDE: usize = 256;
+/// Longest interpolation interval off the map, as a fraction of the source's clearance from the
+/// lenses and caustics.
+pub const CLEARANCE_REACH: f64 = 0.5;
+/// Caustic points kept per curve for the clearance.
+const CLEARANCE_POINTS: usize = 256;
 /// Iteration limit of the polish of each kept candidate on its map.
 pub const POLISH_ITERATIONS: u64 = 300;
 
@@ -96,9 +107,9 @@ pub struct Seed {
     /// The single lens's valley: its best fit at fixed `u0`, in increasing `u0` (see
     /// [`Seed::timing`]); empty for the seed's `t0` and `tE` at every `u0`.
     pub valley: Vec<ValleyPoint>,
-    /// The `u0` the single lens cannot tell from its best (see [`Seed::of_fit`]): the search
-    /// covers at least this range.
-    pub u0_range: (f64, f64),
+    /// What the single lens leaves unexplained of the data it was fitted to,
+    /// `max(chi2 - dof, 0)` (see [`Seed::u0_range`]).
+    pub misfit: f64,
 }
 
 /// The best single lens at one fixed `u0`.
@@ -120,10 +131,8 @@ const VALLEY: (f64, f64) = (3.0, 1.05);
 impl Seed {
     /// The seed of a single-lens fit: its trajectory, the time where the data depart from it
     /// most (the largest run of 5 normalised residuals, summed in quadrature), its valley in
-    /// `u0` (the best `(t0, tE)` at `u0` stepped by 5% out to 3 times either way), and the `u0`
-    /// range where the valley's chi^2 stays within the fit's own misfit of its best,
-    /// `max(chi2 - dof, 0)`: what the single lens leaves unexplained, a binary may trade
-    /// against `u0`.
+    /// `u0` (the best `(t0, tE)` at `u0` stepped by 5% out to 3 times either way), and its
+    /// misfit `max(chi2 - dof, 0)`.
     ///
     /// ```
     /// use causeway::fit::{photometry::DataSet, search::Seed, single::fit_single_lens};
@@ -144,20 +153,46 @@ impl Seed {
         Self::along_valley(fit, data, anomaly)
     }
 
-    /// The seed of `fit` to `data`, with its valley and `u0` range (see [`Seed::of_fit`]).
+    /// The seed of `fit` to `data`, with its valley and misfit (see [`Seed::of_fit`]).
     fn along_valley(fit: &SingleLensFit, data: &[DataSet], anomaly: Option<f64>) -> Seed {
-        let valley = valley(data, fit.t0, fit.u0, fit.te);
-        let misfit = (fit.chi2 - fit.dof() as f64).max(0.0);
-        let within = valley.iter().filter(|p| p.chi2 - fit.chi2 <= misfit);
-        let u0_range = within.fold((fit.u0, fit.u0), |(lo, hi), p| (lo.min(p.u0), hi.max(p.u0)));
         Seed {
             t0: fit.t0,
             u0: fit.u0,
             te: fit.te,
             anomaly,
-            valley,
-            u0_range,
+            valley: valley(data, fit.t0, fit.u0, fit.te),
+            misfit: (fit.chi2 - fit.dof() as f64).max(0.0),
         }
+    }
+
+    /// The `u0` whose valley chi^2 stays within `fraction` of the misfit of the valley's best:
+    /// a single lens that leaves a misfit unexplained cannot rule out a `u0` that costs it
+    /// less than that, since the binary's own departures from it are of that size. (A
+    /// heuristic; [`GridRule::u0_misfit`] sets the fraction.) The seed's `u0` alone for an
+    /// empty valley or a perfect fit.
+    ///
+    /// ```
+    /// use causeway::fit::search::{Seed, ValleyPoint};
+    /// let node = |u0, chi2| ValleyPoint { u0, t0: 0.0, te: 2.0 / u0, chi2 };
+    /// let seed = Seed {
+    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, misfit: 1000.0,
+    ///     valley: vec![node(0.05, 900.0), node(0.08, 150.0), node(0.1, 100.0), node(0.2, 180.0)],
+    /// };
+    /// assert_eq!(seed.u0_range(0.1), (0.08, 0.2));
+    /// assert_eq!(seed.u0_range(0.0), (0.1, 0.1));
+    /// ```
+    pub fn u0_range(&self, fraction: f64) -> (f64, f64) {
+        let best = self
+            .valley
+            .iter()
+            .map(|p| p.chi2)
+            .fold(f64::INFINITY, f64::min);
+        self.valley
+            .iter()
+            .filter(|p| p.chi2 - best <= fraction * self.misfit)
+            .fold((self.u0, self.u0), |(lo, hi), p| {
+                (lo.min(p.u0), hi.max(p.u0))
+            })
     }
 
     /// The `(t0, tE)` of the single lens at impact parameter `u0` (about the host): linear in
@@ -171,7 +206,7 @@ impl Seed {
     /// let seed = Seed {
     ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None,
     ///     valley: vec![node(0.1, 0.0, 20.0), node(0.2, 0.5, 10.0)],
-    ///     u0_range: (0.1, 0.1),
+    ///     misfit: 0.0,
     /// };
     /// let (t0, te) = seed.timing(0.2f64.sqrt() * 0.1f64.sqrt());
     /// assert!((t0 - 0.25).abs() < 1e-12 && (te - 200f64.sqrt()).abs() < 1e-9);
@@ -314,6 +349,9 @@ pub struct GridRule {
     pub u0_span: f64,
     /// Least half-range of u0 (absolute).
     pub u0_floor: f64,
+    /// The fraction of the seed's misfit its valley may rise by within the u0 searched (see
+    /// [`Seed::u0_range`]).
+    pub u0_misfit: f64,
     /// Factors on the seed's tE.
     pub te_factors: Vec<f64>,
     /// Shifts of t0 in units of the seed's tE.
@@ -332,6 +370,7 @@ impl Default for GridRule {
             rhos: vec![1e-3, 2e-3, 4e-3],
             u0_span: 0.2,
             u0_floor: 0.005,
+            u0_misfit: 0.1,
             te_factors: vec![1.0],
             t0_shifts: vec![0.0],
             keep: 3,
@@ -353,6 +392,9 @@ impl GridRule {
         }
         if !(self.u0_span.is_finite() && self.u0_span >= 0.0) {
             return bad(format!("--u0-span: must be >= 0, got {}", self.u0_span));
+        }
+        if !(self.u0_misfit.is_finite() && self.u0_misfit >= 0.0) {
+            return bad(format!("--u0-misfit: must be >= 0, got {}", self.u0_misfit));
         }
         if !(self.u0_floor.is_finite() && self.u0_floor >= 0.0) {
             return bad(format!("--u0-floor: must be >= 0, got {}", self.u0_floor));
@@ -388,7 +430,7 @@ impl GridRule {
     /// use causeway::map::Window;
     /// let rule = GridRule { rhos: vec![0.005], ..GridRule::default() };
     /// let seed = Seed {
-    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, valley: vec![], u0_range: (0.1, 0.1),
+    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, valley: vec![], misfit: 0.0,
     /// };
     /// let w = Window::new((0.3, 0.0), 0.1, 100).unwrap();
     /// let lines = rule.lines(&w, &seed);
@@ -403,8 +445,9 @@ impl GridRule {
         let reach = window.width / std::f64::consts::SQRT_2;
         let n_alpha = ((TAU * reach / step).ceil() as usize).max(8);
         let half = (self.u0_span * seed.u0).max(self.u0_floor);
-        let lo = (seed.u0 - half).min(seed.u0_range.0).max(0.0);
-        let hi = (seed.u0 + half).max(seed.u0_range.1);
+        let range = seed.u0_range(self.u0_misfit);
+        let lo = (seed.u0 - half).min(range.0).max(0.0);
+        let hi = (seed.u0 + half).max(range.1);
         let n_u = ((hi - lo) / step).ceil().max(1.0);
         let du = (hi - lo) / n_u;
         let (cx, cy) = window.center;
@@ -492,6 +535,8 @@ pub fn search(
 struct Readers {
     /// The heavier lens (m1), whose own magnification the off-map curve is scaled by.
     host: PointLens,
+    /// Lens positions and caustic points, and the longest gap between kept caustic points.
+    landmarks: (Vec<Complex64>, f64),
     /// `convolved[law][rho]`: `None` where the map cannot hold that source.
     convolved: Vec<Vec<Option<Preconvolved>>>,
     /// The law index of each data set.
@@ -555,10 +600,45 @@ impl Readers {
             .collect();
         Ok(Readers {
             host: map.provenance.lens.lenses()[0],
+            landmarks: landmarks(&map.provenance.lens)?,
             convolved,
             set_law,
             widest,
         })
+    }
+}
+
+/// The lens positions and up to [`CLEARANCE_POINTS`] points of each caustic of `lens`, with
+/// the longest gap between consecutive kept caustic points.
+fn landmarks(lens: &LensSystem) -> Result<(Vec<Complex64>, f64)> {
+    let mut points: Vec<Complex64> = lens.lenses().iter().map(|l| l.position).collect();
+    let mut gap = 0.0f64;
+    for curve in crate::caustics::caustic_curves(lens)? {
+        let every = curve.len().div_ceil(CLEARANCE_POINTS).max(1);
+        let kept: Vec<Complex64> = curve
+            .iter()
+            .step_by(every)
+            .chain(curve.last())
+            .map(|&(x, y)| Complex64::new(x, y))
+            .collect();
+        for w in kept.windows(2) {
+            gap = gap.max((w[1] - w[0]).norm());
+        }
+        points.extend(kept);
+    }
+    Ok((points, gap))
+}
+
+impl Readers {
+    /// The source's clearance at `z`: its distance from the nearest landmark less their gap
+    /// (a lower bound on the distance from the lenses and caustics).
+    fn clearance(&self, z: Complex64) -> f64 {
+        let (points, gap) = &self.landmarks;
+        let d2 = points
+            .iter()
+            .map(|p| (z - p).norm_sqr())
+            .fold(f64::INFINITY, f64::min);
+        (d2.sqrt() - gap).max(0.0)
     }
 }
 
@@ -974,7 +1054,7 @@ impl Scratch {
             for (need, v) in self.needed[ka..kb].iter_mut().zip(&self.on_widest) {
                 *need = v.is_nan();
             }
-            self.point_curve(solver, &readers.host, times, rule.interpolation_tol)?;
+            self.point_curve(solver, readers, times, l.te, rule.interpolation_tol)?;
             let mut off = CurveSums::default();
             for i in (0..ka).chain(kb..times.len()) {
                 off.add(weighted, i, self.point[i]);
@@ -1011,10 +1091,12 @@ impl Scratch {
     fn point_curve(
         &mut self,
         solver: &mut ImageSolver,
-        host: &PointLens,
+        readers: &Readers,
         times: &[f64],
+        te: f64,
         tol: f64,
     ) -> Result<()> {
+        let host = &readers.host;
         let n = times.len();
         let (positions, needed) = (&self.positions, &self.needed);
         // The host's own magnification, Paczynski's formula in u^2 (no square root of u).
@@ -1046,7 +1128,13 @@ impl Scratch {
         // Each run of needed points is walked in time order, so that consecutive solves are
         // near one another and warm-start (see ImageSolver): from the last exact point `c`, an
         // interval of `h` points is accepted when its midpoint agrees with the interpolation,
-        // and halved otherwise; after an accepted interval `h` doubles again, up to MAX_STRIDE.
+        // and halved otherwise; after an accepted interval `h` doubles again, up to MAX_STRIDE
+        // and to the last point within reach of `c`'s clearance.
+        let reach = |c: usize| {
+            let (x, y) = positions[c];
+            let span = CLEARANCE_REACH * readers.clearance(Complex64::new(x, y)) * te;
+            (times.partition_point(|&t| t <= times[c] + span) - 1).max(c + 1)
+        };
         let mut i = 0;
         while i < n {
             if !needed[i] {
@@ -1060,11 +1148,13 @@ impl Scratch {
             let hi = i;
             eval(lo, a)?;
             let (mut c, mut h) = (lo, MAX_STRIDE);
+            let mut limit = reach(c);
             while c < hi {
-                let e = (c + h).min(hi);
+                let e = (c + h).min(hi).min(limit);
                 if e - c <= 1 {
                     eval(e, a)?;
                     (c, h) = (e, (2 * h).min(MAX_STRIDE));
+                    limit = reach(c);
                     continue;
                 }
                 let m = (c + e) / 2;
@@ -1081,6 +1171,7 @@ impl Scratch {
                     a[k] = lin(a, k, m, e);
                 }
                 (c, h) = (e, (2 * h).min(MAX_STRIDE));
+                limit = reach(c);
             }
             i += 1;
         }
@@ -1186,8 +1277,53 @@ pub fn maps_of_store(store: &Store) -> Result<Vec<LibraryMap>> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::engine::{Engine, PolygonMapping};
     use crate::fit::fluxes::fit_fluxes;
     use crate::fit::model::paczynski;
+
+    /// The off-map curve (exact solves at a subset, the ratio to the host interpolated) against
+    /// exact solves at every point (ImageSolver, checked against numpy.roots and mpmath in
+    /// tests/images.rs), on lines through the central caustic, past the planetary caustic
+    /// (off this map's small window) and far from both.
+    #[test]
+    fn the_off_map_curve_follows_the_exact_one() {
+        let (s, q) = (1.35, 2e-3);
+        let lens = LensSystem::binary(s, q).unwrap();
+        let window = Window::new((2.0, 2.0), 0.05, 20).unwrap();
+        let map = PolygonMapping::new(1.0).build(&lens, &window).unwrap();
+        let times: Vec<f64> = (0..2000).map(|k| -50.0 + 0.05 * k as f64).collect();
+        let text: String = times.iter().map(|t| format!("{t},1,0.01\n")).collect();
+        let set = DataSet::parse(&format!("t,flux,flux_err\n{text}"), "flat.csv", 22.0).unwrap();
+        let readers = Readers::new(
+            &map,
+            std::slice::from_ref(&set),
+            &GridRule::default(),
+            &mut Vec::new(),
+        )
+        .unwrap();
+        let mut solver = ImageSolver::new(&lens).unwrap();
+        let tol = 1e-3;
+        let mut worst = 0.0f64;
+        // (t0, u0, tE, alpha): central caustic; across the planetary caustic at s - 1/s; far.
+        let mut lines = vec![(0.12, -0.2), (0.6, 2.0)];
+        lines.extend((0..40).map(|k| (0.0005 * k as f64, 0.37 * k as f64)));
+        for (u0, alpha) in lines {
+            let line = Trajectory::straight(0.0, u0, 25.0, alpha).unwrap();
+            let mut scratch = Scratch {
+                positions: line.positions(&times),
+                needed: vec![true; times.len()],
+                ..Scratch::default()
+            };
+            scratch
+                .point_curve(&mut solver, &readers, &times, 25.0, tol)
+                .unwrap();
+            for (i, &(x, y)) in scratch.positions.iter().enumerate() {
+                let exact = solver.magnification(Complex64::new(x, y)).unwrap();
+                worst = worst.max((scratch.point[i] / exact - 1.0).abs());
+            }
+        }
+        assert!(worst < 3.0 * tol, "worst relative error {worst:e}");
+    }
 
     /// The chi^2 from the sums against the direct sum of squared residuals at the fluxes of
     /// `fit_fluxes` (the definition of chi^2; the normal equations are common practice), on a
