@@ -103,7 +103,7 @@ fn fitting_job(out: &Path) -> Result<()> {
         "--store".into(),
         file("maps"),
         "--rho".into(),
-        "0.002,0.004".into(),
+        "0.0015,0.003,0.006".into(),
         "--refine".into(),
         "2".into(),
         "--max-iters".into(),
