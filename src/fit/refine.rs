@@ -128,7 +128,7 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
         residuals_of(data, &from_vector(p).ok()?, tol).ok()
     };
     let h: Vec<f64> = step.iter().map(|s| 0.02 * s).collect();
-    let lm = least_squares(&residuals, &x0, &h, 0.01, LM_ITERATIONS)?;
+    let lm = least_squares(&residuals, &x0, &h, 1e-4, LM_ITERATIONS)?;
     // Then the simplex from there: stop when its chi^2 values agree to 0.01; start afresh
     // from the minimum (up to four rounds) while that still gains more than 0.1.
     let objective = chi2_to(tol);
