@@ -122,11 +122,15 @@ fn bad_input_is_named_and_writes_nothing() {
         "t,mag,mag_err\n1,19,0.01\n2,19,0.01\n1,19.1,0.01\n",
     )
     .unwrap();
-    let cases: [(&[&str], &str); 4] = [
+    // The last two are caught by the option parser (clap), whose usage text is cut to the
+    // one line that names the culprit.
+    let cases: [(&[&str], &str); 6] = [
         (&["dup.csv"], "dup.csv:4"),
         (&["event.csv", "--ld", "0.5,0.6"], "--ld"),
         (&["event.csv", "--rho", "-1"], "--rho"),
         (&["event.csv", "--refine", "0"], "--refine"),
+        (&["event.csv", "--keep", "three"], "--keep"),
+        (&["event.csv", "--no-such-option"], "--no-such-option"),
     ];
     let common = [
         "--library",
@@ -141,6 +145,7 @@ fn bad_input_is_named_and_writes_nothing() {
         let (code, _, stderr) = run_cli(&dir, "search", &all);
         assert_eq!(code, 2, "{args:?}: {stderr}");
         assert!(stderr.contains(culprit), "{args:?}: {stderr}");
+        assert_eq!(stderr.trim().lines().count(), 1, "{args:?}: {stderr}");
         assert!(!dir.join("minima.csv").exists());
     }
 }

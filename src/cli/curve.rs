@@ -9,6 +9,7 @@ use crate::curve::{
 };
 use crate::engine::RayShooting;
 use crate::error::{Error, Result};
+use crate::fit::photometry::DEFAULT_ZERO_POINT;
 use crate::map::{read_fits, MagnificationMap};
 use crate::solve::ImageSolver;
 use crate::source::{LimbDarkening, SourceProfile};
@@ -17,9 +18,6 @@ use crate::table::fmt_f64;
 use clap::{Args, ValueEnum};
 use std::fmt::Write as _;
 use std::path::PathBuf;
-
-/// Magnitude zero point used when `--zero-point` is not given: flux 1 is magnitude 22.
-pub const DEFAULT_ZERO_POINT: f64 = 22.0;
 
 /// Options of `causeway curve`.
 #[derive(Debug, Args)]
