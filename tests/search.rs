@@ -43,15 +43,34 @@ fn simulate_with(
     DataSet::parse(&text, "simulated.csv", 22.0).unwrap()
 }
 
-/// Builds the library of `spec` in a scratch store and searches it for `data` from the seed of
-/// its single-lens fit (made again without the anomaly).
-fn search_library(name: &str, spec: &str, data: &[DataSet], rule: &GridRule) -> Vec<MapOutcome> {
+/// A library of polygon maps over `s` and `q` (each `[first, last, count]`, log spaced) with
+/// `pixels` per side, windows by `rule` ("planetary" or "central").
+struct Library {
+    s: &'static str,
+    q: &'static str,
+    pixels: usize,
+    rule: &'static str,
+}
+
+/// Builds `library` in a scratch store and searches it for `data` at the trial radii `rhos`
+/// (the rest of the default rule), from the seed of its single-lens fit (made again without
+/// the anomaly).
+fn search_library(name: &str, library: Library, rhos: &[f64], data: &[DataSet]) -> Vec<MapOutcome> {
+    let Library { s, q, pixels, rule } = library;
+    let spec = format!(
+        "s = {{log = {s}}}\nq = {{log = {q}}}\npixels = {pixels}\nrays = 1\n\
+         engine = \"polygon\"\n[window]\nrule = \"{rule}\"\n"
+    );
+    let rule = GridRule {
+        rhos: rhos.to_vec(),
+        ..GridRule::default()
+    };
     let store = Store::open(&common::scratch(name)).unwrap();
-    let spec = LibrarySpec::parse(spec, "lib.toml").unwrap();
+    let spec = LibrarySpec::parse(&spec, "lib.toml").unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
     let seed = Seed::of_data(&fit_single_lens(data).unwrap(), data);
-    search(data, &seed, &maps, rule, &|| {}).unwrap()
+    search(data, &seed, &maps, &rule, &|| {}).unwrap()
 }
 
 /// chi^2 within the central 99.9% of the chi-square distribution with 600 - 7 - 2 = 591 degrees
@@ -106,17 +125,13 @@ fn a_planetary_caustic_crossing_is_recovered() {
     let near = |v: f64, truth: f64| (v / truth - 1.0).abs() < 0.1;
     assert!(near(seed.te, 25.0) && near(seed.u0, 0.15), "{seed:?}");
     assert!(single.te > 1.5 * 25.0, "{single:?}");
-    let rule = GridRule {
-        rhos: vec![1.5e-3, 3e-3, 6e-3],
-        ..GridRule::default()
+    let library = Library {
+        s: "[1.15, 1.45, 5]",
+        q: "[1e-3, 1e-2, 5]",
+        pixels: 500,
+        rule: "planetary",
     };
-    let outcomes = search_library(
-        "search-planetary",
-        "s = {log = [1.15, 1.45, 5]}\nq = {log = [1e-3, 1e-2, 5]}\npixels = 500\nrays = 1\n\
-         engine = \"polygon\"\n[window]\nrule = \"planetary\"\n",
-        &data,
-        &rule,
-    );
+    let outcomes = search_library("search-planetary", library, &[1.5e-3, 3e-3, 6e-3], &data);
     let minima = local_minima(&outcomes);
     let best = outcomes[minima[0]].candidates[0];
     // s and q of the best map within one grid step of the truth (steps: 6% in s, a factor
@@ -141,13 +156,13 @@ fn a_central_caustic_and_its_close_wide_partner_are_recovered() {
     };
     let times: Vec<f64> = (0..600).map(|k| -40.0 + 80.0 * k as f64 / 599.0).collect();
     let data = vec![simulate_with(&truth, &times, one_percent, 5)];
-    let outcomes = search_library(
-        "search-central",
-        "s = {log = [0.7, 1.43, 7]}\nq = {log = [1e-3, 4e-3, 3]}\npixels = 400\nrays = 1\n\
-         engine = \"polygon\"\n[window]\nrule = \"central\"\n",
-        &data,
-        &GridRule::default(),
-    );
+    let library = Library {
+        s: "[0.7, 1.43, 7]",
+        q: "[1e-3, 4e-3, 3]",
+        pixels: 400,
+        rule: "central",
+    };
+    let outcomes = search_library("search-central", library, &GridRule::default().rhos, &data);
     let minima: Vec<Minimum> =
         refine_minima(&data, &outcomes, &RefineOptions::default(), &|| {}).unwrap();
     // The true (close) model among the minima, within one grid step in s (12.6%) and q (a
@@ -185,17 +200,13 @@ fn a_resonant_caustic_crossing_is_recovered() {
     };
     let times: Vec<f64> = (0..600).map(|k| -40.0 + 80.0 * k as f64 / 599.0).collect();
     let data = vec![simulate_with(&truth, &times, one_percent, 7)];
-    let rule = GridRule {
-        rhos: vec![2e-3, 4e-3, 8e-3],
-        ..GridRule::default()
+    let library = Library {
+        s: "[1.1, 1.3, 3]",
+        q: "[5e-3, 2e-2, 3]",
+        pixels: 600,
+        rule: "central",
     };
-    let outcomes = search_library(
-        "search-resonant",
-        "s = {log = [1.1, 1.3, 3]}\nq = {log = [5e-3, 2e-2, 3]}\npixels = 600\nrays = 1\n\
-         engine = \"polygon\"\n[window]\nrule = \"central\"\n",
-        &data,
-        &rule,
-    );
+    let outcomes = search_library("search-resonant", library, &[2e-3, 4e-3, 8e-3], &data);
     let options = RefineOptions {
         candidates: 2,
         ..RefineOptions::default()

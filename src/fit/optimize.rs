@@ -118,7 +118,7 @@ pub fn least_squares(
     let mut lambda = 1e-3;
     'outer: for _ in 0..max_iters {
         evaluations += n as u64;
-        let Some(jac) = jacobian(residuals, &x, Some(&r), h) else {
+        let Some(jac) = jacobian(residuals, &x, &r, h) else {
             break;
         };
         let jtj = normal_matrix(&jac);
@@ -165,29 +165,25 @@ pub fn least_squares(
     })
 }
 
-/// The Jacobian of `residuals` at `x`, column by column (in parallel): forward differences of
-/// steps `h` from the residuals `r0` at `x` when given, central differences otherwise. `None`
-/// where a step leaves the model's domain.
+/// The Jacobian of `residuals` at `x` by forward differences of steps `h` from the residuals
+/// `r0` at `x`, column by column (in parallel); `None` where a step leaves the model's domain.
 fn jacobian(
     residuals: &(dyn Fn(&[f64]) -> Option<Vec<f64>> + Sync),
     x: &[f64],
-    r0: Option<&[f64]>,
+    r0: &[f64],
     h: &[f64],
 ) -> Option<Vec<Vec<f64>>> {
     use rayon::prelude::*;
-    let at = |j: usize, d: f64| {
-        let mut p = x.to_vec();
-        p[j] += d;
-        residuals(&p)
-    };
     (0..x.len())
         .into_par_iter()
         .map(|j| {
-            let (a, b, width) = match r0 {
-                Some(r0) => (at(j, h[j])?, r0.to_vec(), h[j]),
-                None => (at(j, h[j])?, at(j, -h[j])?, 2.0 * h[j]),
-            };
-            let column: Vec<f64> = a.iter().zip(&b).map(|(a, b)| (a - b) / width).collect();
+            let mut p = x.to_vec();
+            p[j] += h[j];
+            let column: Vec<f64> = residuals(&p)?
+                .iter()
+                .zip(r0)
+                .map(|(a, b)| (a - b) / h[j])
+                .collect();
             column.iter().all(|v| v.is_finite()).then_some(column)
         })
         .collect()

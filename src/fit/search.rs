@@ -284,24 +284,25 @@ impl Seed {
     /// timing (common practice). The full fit's seed is kept when the span would take the
     /// peak (t0 +- 0.05 tE), when the fit fails, or when it ends at the edge of its u0 range.
     pub fn of_data(fit: &SingleLensFit, data: &[DataSet]) -> Seed {
-        let full = Self::of_fit(fit, data);
-        let (Some(_), (lo, hi)) = Self::departure(fit, data) else {
-            return full;
-        };
+        let (anomaly, (lo, hi)) = Self::departure(fit, data);
+        let full = || Self::along_valley(fit, data, anomaly);
+        if anomaly.is_none() {
+            return full();
+        }
         let pad = 0.5 * (hi - lo) + 0.01 * fit.te;
         let peak = (fit.t0 - 0.05 * fit.te, fit.t0 + 0.05 * fit.te);
         if lo - pad < peak.1 && hi + pad > peak.0 {
-            return full;
+            return full();
         }
         let masked: Vec<DataSet> = data.iter().map(|d| d.without(lo - pad, hi + pad)).collect();
         if masked.iter().any(|d| d.len() < 10) {
-            return full;
+            return full();
         }
         match fit_single_lens(&masked) {
             Ok(clean) if clean.u0 > 2.0 * super::single::U0_RANGE.0 => {
-                Self::along_valley(&clean, &masked, full.anomaly)
+                Self::along_valley(&clean, &masked, anomaly)
             }
-            _ => full,
+            _ => full(),
         }
     }
 }
