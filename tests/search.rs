@@ -5,42 +5,34 @@
 
 mod common;
 
+use causeway::curve::time_range;
 use causeway::fit::minima::{refine_minima, Minimum, RefineOptions};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
 use causeway::fit::refine::{close_wide, refine, Refined};
 use causeway::fit::search::{local_minima, maps_of_spec, search, GridRule, MapOutcome, Seed};
+use causeway::fit::simulate::{Noise, Simulation};
 use causeway::fit::single::fit_single_lens;
 use causeway::source::LimbDarkening;
 use causeway::store::library::{self, LibrarySpec};
 use causeway::store::Store;
-use rand::SeedableRng;
-use rand_distr::{Distribution, Normal};
 
-/// Synthetic flux photometry of `model` with Gaussian errors of `sigma` (flux units), fs = 1,
-/// fb = 0.2.
-fn simulate(model: &BinaryModel, times: &[f64], sigma: f64, seed: u64) -> DataSet {
-    simulate_with(model, times, |_| sigma, seed)
+/// Synthetic photometry of `model` at `times` (fs = 1, fb = 0.2, exact magnifications), with
+/// the project's simulator.
+fn simulate(model: &BinaryModel, times: &[f64], noise: Noise, seed: u64) -> Vec<DataSet> {
+    let sim = Simulation {
+        fb: 0.2,
+        noise,
+        seed,
+        ..Simulation::new(*model, LimbDarkening::Uniform)
+    };
+    vec![sim.run(times).unwrap()]
 }
 
-/// The same with the error of each point a function of its true flux.
-fn simulate_with(
-    model: &BinaryModel,
-    times: &[f64],
-    sigma: impl Fn(f64) -> f64,
-    seed: u64,
-) -> DataSet {
-    let a = model
-        .magnifications(times, LimbDarkening::Uniform, 1e-6)
-        .unwrap();
-    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
-    let unit = Normal::new(0.0, 1.0).unwrap();
-    let mut text = String::from("t,flux,flux_err\n");
-    for (t, a) in times.iter().zip(a) {
-        let (flux, err) = (a + 0.2, sigma(a + 0.2));
-        text += &format!("{t},{},{err}\n", flux + err * unit.sample(&mut rng));
-    }
-    DataSet::parse(&text, "simulated.csv", 22.0).unwrap()
+/// A bright event's photometry: 600 points over +-40 days with 0.01 mag errors.
+fn bright_event(model: &BinaryModel, seed: u64) -> Vec<DataSet> {
+    let times = time_range(-40.0, 40.0, 600).unwrap();
+    simulate(model, &times, Noise::Magnitude { sigma: 0.01 }, seed)
 }
 
 /// A library of polygon maps over `s` and `q` (each `[first, last, count]`, log spaced) with
@@ -101,11 +93,6 @@ fn assert_within_4_sigma(r: &Refined, truth: &BinaryModel) {
     }
 }
 
-/// 1% errors on the flux (about 0.011 mag), as a survey's photometry of a bright event.
-fn one_percent(flux: f64) -> f64 {
-    0.01 * flux
-}
-
 #[test]
 fn a_planetary_caustic_crossing_is_recovered() {
     let alpha = 2.0 * std::f64::consts::PI - 0.287;
@@ -116,7 +103,7 @@ fn a_planetary_caustic_crossing_is_recovered() {
         trajectory: Trajectory::straight(0.0, 0.15, 25.0, alpha).unwrap(),
     };
     let times: Vec<f64> = (0..600).map(|k| -60.0 + 0.2 * k as f64).collect();
-    let data = vec![simulate(&truth, &times, 0.01, 11)];
+    let data = simulate(&truth, &times, Noise::Flux { sigma: 0.01 }, 11);
     // The seed: a single-lens fit, made again without the anomaly. Without the anomaly it is
     // within 10% of the truth in tE and u0; the full fit is far longer in tE (the anomaly and
     // the blend pull it).
@@ -154,8 +141,7 @@ fn a_central_caustic_and_its_close_wide_partner_are_recovered() {
         rho: 1.5e-3,
         trajectory: Trajectory::straight(0.0, 0.008, 20.0, 60f64.to_radians()).unwrap(),
     };
-    let times: Vec<f64> = (0..600).map(|k| -40.0 + 80.0 * k as f64 / 599.0).collect();
-    let data = vec![simulate_with(&truth, &times, one_percent, 5)];
+    let data = bright_event(&truth, 5);
     let library = Library {
         s: "[0.7, 1.43, 7]",
         q: "[1e-3, 4e-3, 3]",
@@ -198,8 +184,7 @@ fn a_resonant_caustic_crossing_is_recovered() {
         rho: 4e-3,
         trajectory: Trajectory::straight(0.0, 0.2, 20.0, 328.3f64.to_radians()).unwrap(),
     };
-    let times: Vec<f64> = (0..600).map(|k| -40.0 + 80.0 * k as f64 / 599.0).collect();
-    let data = vec![simulate_with(&truth, &times, one_percent, 7)];
+    let data = bright_event(&truth, 7);
     let library = Library {
         s: "[1.1, 1.3, 3]",
         q: "[5e-3, 2e-2, 3]",
