@@ -17,10 +17,10 @@
 //! and its inverse is the marginal covariance of `(t0, u0, tE)`.
 
 use super::fluxes::{fit_fluxes, FluxFit};
-use super::model::paczynski;
 use super::optimize::{covariance, minimize};
 use super::photometry::DataSet;
 use crate::error::{Error, Result};
+use crate::lens::paczynski;
 
 /// Range of the coarse grid over `u0` (log spaced).
 pub const U0_RANGE: (f64, f64) = (1e-3, 1.5);
