@@ -90,6 +90,12 @@ pub struct BinaryModel {
 }
 
 impl BinaryModel {
+    /// The kind of model, as the table of minima names it: `static` (a binary lens without
+    /// orbital motion, the source on a straight line, no parallax).
+    pub fn kind(&self) -> &'static str {
+        "static"
+    }
+
     /// The lens system of this model.
     pub fn lens(&self) -> Result<LensSystem> {
         LensSystem::binary(self.s, self.q)

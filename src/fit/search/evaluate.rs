@@ -43,7 +43,7 @@ impl Scratch {
         rule: &GridRule,
     ) -> Result<()> {
         self.chi2.clear();
-        self.chi2.resize(rule.rhos.len(), 0.0);
+        self.chi2.resize(readers.rhos.len(), 0.0);
         let l = line.trajectory.line();
         let (sn, cs) = l.alpha.sin_cos();
         for (weighted, &law) in sets.iter().zip(&readers.set_law) {
@@ -225,7 +225,7 @@ mod tests {
         let readers = Readers::new(
             &map,
             std::slice::from_ref(&set),
-            &GridRule::default(),
+            &GridRule::default().rhos,
             &mut Vec::new(),
         )
         .unwrap();

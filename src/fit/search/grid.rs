@@ -33,6 +33,11 @@ pub struct GridRule {
     pub interpolation_tol: f64,
     /// Also try each line timed so that its strongest map feature falls at the data's anomaly.
     pub timed: bool,
+    /// The lines on a map are spaced for a source of at least `width / coarse_divisions` (see
+    /// [`GridRule::grid_rho`]).
+    pub coarse_divisions: f64,
+    /// Most trajectories (lines times timings) tried on one map before the polish.
+    pub max_trajectories: usize,
 }
 
 impl Default for GridRule {
@@ -47,6 +52,8 @@ impl Default for GridRule {
             keep: 3,
             interpolation_tol: 1e-3,
             timed: false,
+            coarse_divisions: 100.0,
+            max_trajectories: 40_000,
         }
     }
 }
@@ -87,6 +94,15 @@ impl GridRule {
         if self.keep == 0 {
             return bad("--keep: must be at least 1".into());
         }
+        if !(self.coarse_divisions.is_finite() && self.coarse_divisions >= 1.0) {
+            return bad(format!(
+                "coarse divisions: must be >= 1, got {}",
+                self.coarse_divisions
+            ));
+        }
+        if self.max_trajectories == 0 {
+            return bad("--max-trajectories: must be at least 1".into());
+        }
         Ok(())
     }
 
@@ -94,15 +110,46 @@ impl GridRule {
         self.rhos.iter().copied().fold(f64::INFINITY, f64::min)
     }
 
-    /// The (alpha, u0) lines of the grid for a window (see the module documentation).
+    /// Timings tried on each line: every tE factor with every t0 shift, and every tE factor
+    /// once more anchored on the anomaly when [`GridRule::timed`].
+    pub fn timings_per_line(&self) -> usize {
+        self.te_factors.len() * (self.t0_shifts.len() + usize::from(self.timed))
+    }
+
+    /// The source radius the lines on `window` are spaced for: the smallest trial rho, or
+    /// `width / coarse_divisions` when that is larger (a wide window is searched first with its
+    /// map smoothed by that source, then each kept line is polished at the trial radii), or
+    /// larger still so that lines times timings stay within [`GridRule::max_trajectories`].
+    ///
+    /// ```
+    /// use causeway::fit::search::{GridRule, Seed};
+    /// use causeway::map::Window;
+    /// let rule = GridRule::default();
+    /// let seed = Seed::at(0.0, 0.1, 20.0);
+    /// // A small window keeps the smallest trial radius; a wide one is coarser.
+    /// assert_eq!(rule.grid_rho(&Window::new((0.5, 0.0), 0.05, 100).unwrap(), &seed), 1e-3);
+    /// assert!(rule.grid_rho(&Window::new((0.0, 0.0), 2.0, 100).unwrap(), &seed) >= 0.02);
+    /// ```
+    pub fn grid_rho(&self, window: &Window, seed: &Seed) -> f64 {
+        let mut rho = self.rho_min().max(window.width / self.coarse_divisions);
+        for _ in 0..8 {
+            let n = self.lines_at(window, seed, rho).len() * self.timings_per_line();
+            if n <= self.max_trajectories {
+                break;
+            }
+            rho *= 1.05 * (n as f64 / self.max_trajectories as f64).sqrt();
+        }
+        rho
+    }
+
+    /// The (alpha, u0) lines of the grid for a window, spaced for [`GridRule::grid_rho`] (see
+    /// the module documentation).
     ///
     /// ```
     /// use causeway::fit::search::{GridRule, Seed};
     /// use causeway::map::Window;
     /// let rule = GridRule { rhos: vec![0.005], ..GridRule::default() };
-    /// let seed = Seed {
-    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, valley: vec![], misfit: 0.0,
-    /// };
+    /// let seed = Seed::at(0.0, 0.1, 20.0);
     /// let w = Window::new((0.3, 0.0), 0.1, 100).unwrap();
     /// let lines = rule.lines(&w, &seed);
     /// // Every line passes within the half-diagonal of the window's centre...
@@ -112,7 +159,12 @@ impl GridRule {
     /// assert!(lines.iter().all(|&(_, u0)| (0.08 - 1e-12..=0.12 + 1e-12).contains(&u0)));
     /// ```
     pub fn lines(&self, window: &Window, seed: &Seed) -> Vec<(f64, f64)> {
-        let step = 2.0 * self.rho_min();
+        self.lines_at(window, seed, self.grid_rho(window, seed))
+    }
+
+    /// The lines for a source of radius `rho`: alpha and u0 steps of at most `2 rho`.
+    pub(super) fn lines_at(&self, window: &Window, seed: &Seed, rho: f64) -> Vec<(f64, f64)> {
+        let step = 2.0 * rho;
         let reach = window.width / std::f64::consts::SQRT_2;
         let n_alpha = ((TAU * reach / step).ceil() as usize).max(8);
         let half = (self.u0_span * seed.u0).max(self.u0_floor);
@@ -190,8 +242,9 @@ pub(super) fn host_timing(seed: &Seed, host: Complex64, alpha: f64, u0: f64) -> 
 }
 
 /// Where along the line of `tr` (as `tau`, the line's own time in units of tE from its closest
-/// approach) its magnification on the map most exceeds the host's alone, sampled every
-/// `rho / 2` across the window; `None` if it never exceeds it by 5%.
+/// approach) its magnification on the map departs most from the host's alone (a bump or a dip:
+/// the largest `|ln(A / A_host)|`), sampled every `rho / 2` across the window; `None` if it never
+/// departs by 5%.
 pub(super) fn strongest_feature(
     tr: &Trajectory,
     window: &Window,
@@ -204,28 +257,28 @@ pub(super) fn strongest_feature(
     let (tau0, tau1) = ((a - l.t0) / l.te, (b - l.t0) / l.te);
     let n = ((tau1 - tau0) / (0.5 * rho)).ceil().min(1e5) as usize;
     let (sn, cs) = l.alpha.sin_cos();
-    let mut best = (1.05, None);
+    let mut best = (1.05f64.ln(), None);
     for k in 0..=n {
         let tau = tau0 + (tau1 - tau0) * k as f64 / n.max(1) as f64;
         let (x, y) = (tau * cs - l.u0 * sn, tau * sn + l.u0 * cs);
         if let Some(a) = conv.read(x, y) {
             let u = (Complex64::new(x, y) - host.position).norm() / host.mass.sqrt();
-            let excess = a / paczynski(u.max(1e-12));
-            if excess > best.0 {
-                best = (excess, Some(tau));
+            let departure = (a / paczynski(u.max(1e-12))).ln().abs();
+            if departure > best.0 {
+                best = (departure, Some(tau));
             }
         }
     }
     best.1
 }
 
-/// Whether two grid trajectories are more than five grid steps apart in alpha or u0, or differ
-/// in t0 or tE.
+/// Whether two grid trajectories are distinct: more than five grid steps apart in alpha or u0,
+/// or timed differently (t0 by more than 2% of tE, or tE by more than 5%).
 pub(super) fn distinct(a: &Trajectory, b: &Trajectory, d_alpha: f64, d_u0: f64) -> bool {
     let (a, b) = (a.line(), b.line());
     let da = (a.alpha - b.alpha).rem_euclid(TAU);
     da.min(TAU - da) > 5.0 * d_alpha
         || (a.u0 - b.u0).abs() > 5.0 * d_u0
-        || a.t0 != b.t0
-        || a.te != b.te
+        || (a.t0 - b.t0).abs() > 0.02 * a.te.min(b.te)
+        || (a.te / b.te).ln().abs() > 0.05
 }

@@ -139,6 +139,31 @@ impl MapOutcome {
     }
 }
 
+/// Where the maps of a search come from: files (read one at a time, as each is searched) or
+/// maps already in memory.
+#[derive(Debug, Clone, Copy)]
+pub enum MapSource<'a> {
+    /// FITS files of a library, as listed by [`maps_of_spec`] or [`maps_of_store`].
+    Files(&'a [LibraryMap]),
+    /// Maps in memory (binary lenses).
+    Loaded(&'a [MagnificationMap]),
+}
+
+impl MapSource<'_> {
+    /// Number of maps.
+    pub fn len(&self) -> usize {
+        match self {
+            MapSource::Files(f) => f.len(),
+            MapSource::Loaded(m) => m.len(),
+        }
+    }
+
+    /// Whether there are no maps.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+}
+
 /// Searches every map of `library` (in parallel; the outcome does not depend on the thread
 /// count), calling `progress` after each map.
 pub fn search(
@@ -148,16 +173,60 @@ pub fn search(
     rule: &GridRule,
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<MapOutcome>> {
+    search_maps(data, seed, MapSource::Files(library), rule, progress)
+}
+
+/// Searches every map of `maps` (see [`search`]).
+pub fn search_maps(
+    data: &[DataSet],
+    seed: &Seed,
+    maps: MapSource,
+    rule: &GridRule,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<MapOutcome>> {
     rule.validate()?;
-    library
-        .par_iter()
-        .map(|entry| {
-            let map = read_fits(&entry.path)?;
-            let outcome = search_map(data, seed, &map, rule);
+    (0..maps.len())
+        .into_par_iter()
+        .map(|i| {
+            let outcome = match maps {
+                MapSource::Files(files) => {
+                    search_map(data, seed, &read_fits(&files[i].path)?, rule)
+                }
+                MapSource::Loaded(loaded) => search_map(data, seed, &loaded[i], rule),
+            };
             progress();
             outcome
         })
         .collect()
+}
+
+/// The outcomes of maps of the same (s, q) (windows on different caustics of one binary) made
+/// one: their candidates together, best first, at most `keep`; their counts and notes summed.
+///
+/// ```
+/// use causeway::fit::search::{merge_grid_points, MapOutcome};
+/// let empty = |s: f64| MapOutcome { s, q: 1e-3, candidates: vec![], trajectories: 5,
+///     points: 10, notes: vec![] };
+/// let merged = merge_grid_points(vec![empty(1.0), empty(1.2), empty(1.0)], 3);
+/// assert_eq!(merged.len(), 2);
+/// assert_eq!(merged[0].trajectories, 10);
+/// ```
+pub fn merge_grid_points(outcomes: Vec<MapOutcome>, keep: usize) -> Vec<MapOutcome> {
+    let mut merged: Vec<MapOutcome> = Vec::new();
+    for o in outcomes {
+        match merged.iter_mut().find(|m| m.s == o.s && m.q == o.q) {
+            Some(m) => {
+                m.candidates.extend(o.candidates);
+                m.candidates.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
+                m.candidates.truncate(keep.max(1));
+                m.trajectories += o.trajectories;
+                m.points += o.points;
+                m.notes.extend(o.notes);
+            }
+            None => merged.push(o),
+        }
+    }
+    merged
 }
 
 /// Searches one map.
@@ -172,34 +241,19 @@ pub fn search_map(
         .binary_parameters()
         .ok_or_else(|| Error::input("search: library maps must be of binary lenses"))?;
     let mut notes = Vec::new();
-    let readers = Readers::new(map, data, rule, &mut notes)?;
+    // The lines are spaced for the grid's radius; when it exceeds every trial radius the map is
+    // also read smoothed by it (the last reader), and the kept lines move to the trial radii in
+    // the polish.
+    let grid_rho = rule.grid_rho(&map.window, seed);
+    let mut rhos = rule.rhos.clone();
+    let trial_max = rhos.iter().copied().fold(0.0, f64::max);
+    if grid_rho > trial_max * (1.0 + 1e-9) {
+        rhos.push(grid_rho);
+    }
+    let readers = Readers::new(map, data, &rhos, &mut notes)?;
     let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
     all_times.sort_by(f64::total_cmp);
-    let grid = rule.lines(&map.window, seed);
-    let sharpest = readers.convolved[0].iter().flatten().next();
-    let mut lines = Vec::new();
-    for &f in &rule.te_factors {
-        for &shift in &rule.t0_shifts {
-            for &(alpha, u0) in &grid {
-                let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
-                let te = te * f;
-                let tr = Trajectory::straight(t0 + shift * seed.te, u0, te, alpha)?;
-                lines.extend(Line::observed(tr, &map.window, &all_times));
-                // The same line timed so that its strongest feature on the map falls at the
-                // anomaly seen in the data.
-                if let (true, Some(ta), Some(conv), 0.0) =
-                    (rule.timed, seed.anomaly, sharpest, shift)
-                {
-                    if let Some(tau) =
-                        strongest_feature(&tr, &map.window, conv, &readers.host, rule.rho_min())
-                    {
-                        let timed = Trajectory::straight(ta - tau * te, u0, te, alpha)?;
-                        lines.extend(Line::observed(timed, &map.window, &all_times));
-                    }
-                }
-            }
-        }
-    }
+    let lines = timed_lines(seed, map, rule, &readers, grid_rho, &all_times)?;
     let sets: Vec<Weighted> = data.iter().map(Weighted::new).collect();
     let solver = ImageSolver::new(lens)?;
     let points = AtomicU64::new(0);
@@ -227,46 +281,41 @@ pub fn search_map(
         .filter_map(|(i, e)| e.map(|(c, r)| (c, i, r)))
         .collect();
     ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-    let (d_alpha, d_u0) = (
-        2.0 * rule.rho_min() * std::f64::consts::SQRT_2 / map.window.width,
-        2.0 * rule.rho_min(),
+    let steps = (
+        2.0 * grid_rho * std::f64::consts::SQRT_2 / map.window.width,
+        2.0 * grid_rho,
     );
-    let mut candidates: Vec<Candidate> = Vec::new();
+    let mut kept: Vec<(Candidate, usize)> = Vec::new();
     for (chi2, i, r) in ranked {
         let trajectory = lines[i].trajectory;
         let model = BinaryModel {
             s,
             q,
-            rho: rule.rhos[r],
+            rho: rhos[r],
             trajectory,
         };
-        let distinct = candidates
+        if kept
             .iter()
-            .all(|c| distinct(&c.model.trajectory, &trajectory, d_alpha, d_u0));
-        if distinct {
-            candidates.push(Candidate { model, chi2 });
-            if candidates.len() == rule.keep {
+            .all(|(c, _)| distinct(&c.model.trajectory, &trajectory, steps.0, steps.1))
+        {
+            kept.push((Candidate { model, chi2 }, r));
+            if kept.len() == rule.keep {
                 break;
             }
         }
     }
-    // Each kept candidate is polished on the map: a local minimisation of the same map-based
-    // chi^2 over (alpha, u0, t0, ln tE) at its rho, from the grid point.
-    let polished: Vec<Candidate> = candidates
+    let polisher = Polisher {
+        solver: &solver,
+        sets: &sets,
+        readers: &readers,
+        rule,
+        steps,
+        window: &map.window,
+    };
+    let mut candidates: Vec<Candidate> = kept
         .par_iter()
-        .map(|c| {
-            polish(
-                &solver,
-                &sets,
-                &readers,
-                rule,
-                c,
-                (d_alpha, d_u0),
-                &map.window,
-            )
-        })
+        .map(|(c, r)| polisher.run(c, *r))
         .collect::<Result<_>>()?;
-    let mut candidates = polished;
     candidates.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
     Ok(MapOutcome {
         s,
@@ -278,53 +327,142 @@ pub fn search_map(
     })
 }
 
-/// Polishes a grid candidate on the map (see [`search_map`]); keeps the grid point if the
-/// minimisation finds nothing better.
-fn polish(
-    solver: &ImageSolver,
-    sets: &[Weighted],
-    readers: &Readers,
+/// The grid's lines on `map` with their timings: each (alpha, u0) of [`GridRule::lines`] timed
+/// from the seed's valley about the host ([`host_timing`]) with every tE factor and t0 shift
+/// (in units of the line's tE), and, with [`GridRule::timed`] and a known anomaly, timed once
+/// more per tE factor so that its strongest feature on the smoothest reader falls at the
+/// anomaly. Only lines that cross the window at an observed time are kept.
+fn timed_lines(
+    seed: &Seed,
+    map: &MagnificationMap,
     rule: &GridRule,
-    start: &Candidate,
-    (d_alpha, d_u0): (f64, f64),
-    window: &Window,
-) -> Result<Candidate> {
-    let r = rule
-        .rhos
-        .iter()
-        .position(|&x| x == start.model.rho)
-        .unwrap_or(0);
-    let work = std::sync::Mutex::new((solver.clone(), Scratch::default()));
-    let chi2 = |p: &[f64]| -> f64 {
-        let Ok(trajectory) = Trajectory::straight(p[2], p[1], p[3].exp(), p[0]) else {
-            return f64::INFINITY;
+    readers: &Readers,
+    grid_rho: f64,
+    times: &[f64],
+) -> Result<Vec<Line>> {
+    let smoothest = readers.convolved[0].iter().rev().flatten().next();
+    let mut lines = Vec::new();
+    for (alpha, u0) in rule.lines_at(&map.window, seed, grid_rho) {
+        let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
+        let base = Trajectory::straight(t0, u0, te, alpha)?;
+        let feature = match (rule.timed, seed.anomaly, smoothest) {
+            (true, Some(ta), Some(conv)) => {
+                strongest_feature(&base, &map.window, conv, &readers.host, grid_rho)
+                    .map(|tau| (ta, tau))
+            }
+            _ => None,
         };
-        let Some(span) = crossing(&trajectory, window) else {
-            return f64::INFINITY;
-        };
-        let mut guard = work.lock().unwrap_or_else(|e| e.into_inner());
-        let (solver, scratch) = &mut *guard;
-        let line = Line { trajectory, span };
-        match scratch.trajectory_chi2(solver, sets, readers, &line, rule) {
-            Ok(()) => scratch.chi2[r],
-            Err(_) => f64::INFINITY,
+        for &f in &rule.te_factors {
+            let te = te * f;
+            for &shift in &rule.t0_shifts {
+                let tr = Trajectory::straight(t0 + shift * te, u0, te, alpha)?;
+                lines.extend(Line::observed(tr, &map.window, times));
+            }
+            if let Some((ta, tau)) = feature {
+                let tr = Trajectory::straight(ta - tau * te, u0, te, alpha)?;
+                lines.extend(Line::observed(tr, &map.window, times));
+            }
         }
-    };
-    let l = start.model.trajectory.line();
-    let x0 = [l.alpha, l.u0, l.t0, l.te.ln()];
-    let step = [d_alpha, d_u0, 0.01 * l.te, 0.03];
-    let found = minimize(&chi2, &x0, &step, 0.01, POLISH_ITERATIONS)?;
-    if found.value >= start.chi2 {
-        return Ok(*start);
     }
-    let p = &found.x;
-    Ok(Candidate {
-        model: BinaryModel {
-            trajectory: Trajectory::straight(p[2], p[1], p[3].exp(), p[0])?,
-            ..start.model
-        },
-        chi2: found.value,
-    })
+    Ok(lines)
+}
+
+/// What the polish of a kept line on its map needs.
+struct Polisher<'a> {
+    solver: &'a ImageSolver,
+    sets: &'a [Weighted<'a>],
+    readers: &'a Readers,
+    rule: &'a GridRule,
+    /// The grid's steps in alpha and u0, the simplex's first steps.
+    steps: (f64, f64),
+    window: &'a Window,
+}
+
+impl Polisher<'_> {
+    /// Polishes a grid candidate read at `readers.rhos[r]`: a local minimisation of the map's
+    /// chi^2 over (alpha, u0, t0, ln tE) at that radius. A candidate found at the grid's
+    /// smoothing radius (beyond the trial radii) is then read at every trial radius and
+    /// polished again at the best of them.
+    fn run(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+        let trials = self.rule.rhos.len();
+        let polished = self.polish_at(start, r)?;
+        if r < trials {
+            return Ok(polished);
+        }
+        let line = self.line(&polished.model.trajectory);
+        let chi2 = match line {
+            Some(line) => self.chi2_all(&line),
+            None => return Ok(polished),
+        };
+        let best = (0..trials)
+            .filter(|&i| chi2[i].is_finite())
+            .min_by(|&a, &b| chi2[a].total_cmp(&chi2[b]));
+        match best {
+            Some(i) => {
+                let at_trial = Candidate {
+                    model: BinaryModel {
+                        rho: self.rule.rhos[i],
+                        ..polished.model
+                    },
+                    chi2: chi2[i],
+                };
+                self.polish_at(&at_trial, i)
+            }
+            None => Ok(polished),
+        }
+    }
+
+    fn line(&self, trajectory: &Trajectory) -> Option<Line> {
+        let span = crossing(trajectory, self.window)?;
+        Some(Line {
+            trajectory: *trajectory,
+            span,
+        })
+    }
+
+    /// chi^2 of `line` at every reader's radius (infinite where it cannot be read).
+    fn chi2_all(&self, line: &Line) -> Vec<f64> {
+        let mut solver = self.solver.clone();
+        let mut scratch = Scratch::default();
+        match scratch.trajectory_chi2(&mut solver, self.sets, self.readers, line, self.rule) {
+            Ok(()) => scratch.chi2,
+            Err(_) => vec![f64::INFINITY; self.readers.rhos.len()],
+        }
+    }
+
+    /// The polish at one radius; keeps the start if the minimisation finds nothing better.
+    fn polish_at(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+        let work = std::sync::Mutex::new((self.solver.clone(), Scratch::default()));
+        let chi2 = |p: &[f64]| -> f64 {
+            let Ok(trajectory) = Trajectory::straight(p[2], p[1], p[3].exp(), p[0]) else {
+                return f64::INFINITY;
+            };
+            let Some(line) = self.line(&trajectory) else {
+                return f64::INFINITY;
+            };
+            let mut guard = work.lock().unwrap_or_else(|e| e.into_inner());
+            let (solver, scratch) = &mut *guard;
+            match scratch.trajectory_chi2(solver, self.sets, self.readers, &line, self.rule) {
+                Ok(()) => scratch.chi2[r],
+                Err(_) => f64::INFINITY,
+            }
+        };
+        let l = start.model.trajectory.line();
+        let x0 = [l.alpha, l.u0, l.t0, l.te.ln()];
+        let step = [self.steps.0, self.steps.1, 0.01 * l.te, 0.03];
+        let found = minimize(&chi2, &x0, &step, 0.01, POLISH_ITERATIONS)?;
+        if found.value >= start.chi2 {
+            return Ok(*start);
+        }
+        let p = &found.x;
+        Ok(Candidate {
+            model: BinaryModel {
+                trajectory: Trajectory::straight(p[2], p[1], p[3].exp(), p[0])?,
+                ..start.model
+            },
+            chi2: found.value,
+        })
+    }
 }
 
 /// The distinct s and the distinct q values of the outcomes, each sorted: the axes of their

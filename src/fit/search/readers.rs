@@ -2,7 +2,6 @@
 //! and each trial rho, and the landmarks (lenses, caustic points) that bound the off-map
 //! interpolation.
 
-use super::grid::GridRule;
 use crate::curve::{MapSpectrum, Preconvolved};
 use crate::error::Result;
 use crate::fit::photometry::DataSet;
@@ -26,13 +25,16 @@ pub(super) struct Readers {
     pub(super) set_law: Vec<usize>,
     /// For each law, the rho whose map has the widest margin (the fewest valid centres).
     pub(super) widest: Vec<Option<usize>>,
+    /// The source radii of the readers: the trial radii, then the grid's smoothing radius when
+    /// it is larger than all of them.
+    pub(super) rhos: Vec<f64>,
 }
 
 impl Readers {
     pub(super) fn new(
         map: &MagnificationMap,
         data: &[DataSet],
-        rule: &GridRule,
+        rhos: &[f64],
         notes: &mut Vec<String>,
     ) -> Result<Readers> {
         let mut laws: Vec<LimbDarkening> = Vec::new();
@@ -52,7 +54,7 @@ impl Readers {
         let mut convolved = Vec::new();
         for &law in &laws {
             let mut row = Vec::new();
-            for &rho in &rule.rhos {
+            for &rho in rhos {
                 let fits = rho >= pixel && 4.0 * rho < map.window.width;
                 if !fits {
                     notes.push(format!(
@@ -87,6 +89,7 @@ impl Readers {
             convolved,
             set_law,
             widest,
+            rhos: rhos.to_vec(),
         })
     }
 }

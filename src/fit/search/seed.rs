@@ -23,6 +23,9 @@ pub struct Seed {
     /// What the single lens leaves unexplained of the data it was fitted to,
     /// `max(chi2 - dof, 0)` (see [`Seed::u0_range`]).
     pub misfit: f64,
+    /// A range of `u0` the data could not narrow (the baseline's, when its `u0` is poorly
+    /// fixed), searched whole; `None` when the valley decides.
+    pub u0_bounds: Option<(f64, f64)>,
 }
 
 /// The best single lens at one fixed `u0`.
@@ -42,6 +45,24 @@ pub struct ValleyPoint {
 const VALLEY: (f64, f64) = (3.0, 1.05);
 
 impl Seed {
+    /// A seed at one trajectory, without valley, anomaly or misfit.
+    ///
+    /// ```
+    /// let seed = causeway::fit::search::Seed::at(10.0, 0.1, 20.0);
+    /// assert_eq!(seed.timing(0.1), (10.0, 20.0));
+    /// ```
+    pub fn at(t0: f64, u0: f64, te: f64) -> Seed {
+        Seed {
+            t0,
+            u0,
+            te,
+            anomaly: None,
+            valley: Vec::new(),
+            misfit: 0.0,
+            u0_bounds: None,
+        }
+    }
+
     /// The seed of a single-lens fit: its trajectory, the time where the data depart from it
     /// most (the largest run of 5 normalised residuals, summed in quadrature), its valley in
     /// `u0` (the best `(t0, tE)` at `u0` stepped by 5% out to 3 times either way), and its
@@ -75,6 +96,7 @@ impl Seed {
             anomaly,
             valley: valley(data, fit.t0, fit.u0, fit.te),
             misfit: (fit.chi2 - fit.dof() as f64).max(0.0),
+            u0_bounds: None,
         }
     }
 
@@ -82,14 +104,15 @@ impl Seed {
     /// a single lens that leaves a misfit unexplained cannot rule out a `u0` that costs it
     /// less than that, since the binary's own departures from it are of that size. (A
     /// heuristic; [`GridRule::u0_misfit`] sets the fraction.) The seed's `u0` alone for an
-    /// empty valley or a perfect fit.
+    /// empty valley or a perfect fit; the range always holds [`Seed::u0_bounds`].
     ///
     /// ```
     /// use causeway::fit::search::{Seed, ValleyPoint};
     /// let node = |u0, chi2| ValleyPoint { u0, t0: 0.0, te: 2.0 / u0, chi2 };
     /// let seed = Seed {
-    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None, misfit: 1000.0,
+    ///     misfit: 1000.0,
     ///     valley: vec![node(0.05, 900.0), node(0.08, 150.0), node(0.1, 100.0), node(0.2, 180.0)],
+    ///     ..Seed::at(0.0, 0.1, 20.0)
     /// };
     /// assert_eq!(seed.u0_range(0.1), (0.08, 0.2));
     /// assert_eq!(seed.u0_range(0.0), (0.1, 0.1));
@@ -100,12 +123,11 @@ impl Seed {
             .iter()
             .map(|p| p.chi2)
             .fold(f64::INFINITY, f64::min);
+        let start = self.u0_bounds.unwrap_or((self.u0, self.u0));
         self.valley
             .iter()
             .filter(|p| p.chi2 - best <= fraction * self.misfit)
-            .fold((self.u0, self.u0), |(lo, hi), p| {
-                (lo.min(p.u0), hi.max(p.u0))
-            })
+            .fold(start, |(lo, hi), p| (lo.min(p.u0), hi.max(p.u0)))
     }
 
     /// The `(t0, tE)` of the single lens at impact parameter `u0` (about the host): linear in
@@ -117,9 +139,8 @@ impl Seed {
     /// use causeway::fit::search::{Seed, ValleyPoint};
     /// let node = |u0, t0, te| ValleyPoint { u0, t0, te, chi2: 0.0 };
     /// let seed = Seed {
-    ///     t0: 0.0, u0: 0.1, te: 20.0, anomaly: None,
     ///     valley: vec![node(0.1, 0.0, 20.0), node(0.2, 0.5, 10.0)],
-    ///     misfit: 0.0,
+    ///     ..Seed::at(0.0, 0.1, 20.0)
     /// };
     /// let (t0, te) = seed.timing(0.2f64.sqrt() * 0.1f64.sqrt());
     /// assert!((t0 - 0.25).abs() < 1e-12 && (te - 200f64.sqrt()).abs() < 1e-9);
