@@ -11,22 +11,24 @@
 //! 3. **Timing.** With [`FitOptions::adaptive_timing`] (the default) the grid's timings follow
 //!    the baseline: lines are also anchored on a localised anomaly ([`GridRule::timed`]); when
 //!    the anomaly covers the peak, or the baseline could not fix `u0` or `tE`, each line is
-//!    tried over a ladder of tE factors (0.5 to 2) and t0 shifts (-0.2 to 0.2 tE) and the whole
+//!    tried over a ladder of tE factors (0.5 to 2) and t0 shifts (-0.15 to 0.15 tE) and the whole
 //!    u0 range the window allows. The per-map trajectory budget
 //!    ([`GridRule::max_trajectories`]) then coarsens the lines rather than the timings.
 //! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged.
 //! 5. **Refinement** of the best (s, q) local minima with exact magnifications, within the
 //!    time budget ([`RefineOptions::budget`]).
 //! 6. **Noise.** At the best model, isolated outliers are clipped ([`FitOptions::clip_sigma`],
-//!    rule in [`clip_outliers`]) and each data set's error bars are scaled so that its chi^2
-//!    per degree of freedom is 1 ([`FitOptions::rescale_errors`]); when either changed the
-//!    data, every minimum is refined again on the cleaned, rescaled data.
+//!    rule in [`clip_outliers`]) and each data set's error bars are scaled by the robust spread
+//!    of its normalised residuals (1.4826 times their median absolute value: for Gaussian
+//!    noise the factor that brings chi^2 per degree of freedom to 1, but not inflated by an
+//!    anomaly the model misses; [`FitOptions::rescale_errors`]); when either changed the data
+//!    by more than 5%, every minimum is refined again on the cleaned, rescaled data.
 //!
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
 
 use super::fluxes::fit_fluxes;
-use super::minima::{error_scales, refine_minima, refine_models, Minimum, RefineOptions};
+use super::minima::{refine_minima, refine_models, Minimum, RefineOptions};
 use super::model::{BinaryModel, Trajectory};
 use super::photometry::DataSet;
 use super::refine::exact_chi2;
@@ -79,9 +81,9 @@ pub const DEFAULT_CLIP_SIGMA: f64 = 5.0;
 /// Largest fraction of a data set that clipping may remove.
 pub const MAX_CLIPPED_FRACTION: f64 = 0.02;
 /// The tE factors tried on every line when the baseline cannot be trusted.
-pub const WIDE_TE_FACTORS: [f64; 7] = [0.5, 0.63, 0.79, 1.0, 1.26, 1.59, 2.0];
+pub const WIDE_TE_FACTORS: [f64; 5] = [0.5, 0.71, 1.0, 1.41, 2.0];
 /// The t0 shifts (in units of the line's tE) tried when the baseline cannot be trusted.
-pub const WIDE_T0_SHIFTS: [f64; 5] = [-0.2, -0.1, 0.0, 0.1, 0.2];
+pub const WIDE_T0_SHIFTS: [f64; 3] = [-0.15, 0.0, 0.15];
 
 /// A point the fit left out as an outlier.
 #[derive(Debug, Clone, PartialEq)]
@@ -383,6 +385,7 @@ fn clean(
 ) -> Result<(Vec<DataSet>, Vec<Clipped>, Vec<f64>)> {
     let mut cleaned = Vec::with_capacity(data.len());
     let mut clipped = Vec::new();
+    let mut kept_residuals = Vec::with_capacity(data.len());
     for (k, set) in data.iter().enumerate() {
         let a = model.magnifications(&set.times, set.limb_darkening, options.refine.tol)?;
         let f = fit_fluxes(set, &a);
@@ -401,6 +404,7 @@ fn clean(
             residual: r[i] / scale,
         }));
         let keep: Vec<usize> = (0..set.len()).filter(|i| !out.contains(i)).collect();
+        kept_residuals.push(keep.iter().map(|&i| r[i]).collect::<Vec<f64>>());
         let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
         cleaned.push(DataSet {
             times: pick(&set.times),
@@ -410,15 +414,11 @@ fn clean(
             ..set.clone()
         });
     }
+    // Each set's scale is the robust spread of its kept residuals: a model that misses an
+    // anomaly leaves large residuals on a run of points, which would inflate chi2/dof and
+    // hide the miss, but hardly moves the median.
     let scales = if options.rescale_errors {
-        let fluxes: Vec<_> = cleaned
-            .iter()
-            .map(|d| -> Result<_> {
-                let a = model.magnifications(&d.times, d.limb_darkening, options.refine.tol)?;
-                Ok(fit_fluxes(d, &a))
-            })
-            .collect::<Result<_>>()?;
-        error_scales(&cleaned, &fluxes)
+        kept_residuals.iter().map(|r| robust_scale(r)).collect()
     } else {
         vec![1.0; data.len()]
     };

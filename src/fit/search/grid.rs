@@ -43,7 +43,7 @@ pub struct GridRule {
 impl Default for GridRule {
     fn default() -> Self {
         GridRule {
-            rhos: vec![1e-3, 2e-3, 4e-3],
+            rhos: vec![1e-3, 1.5e-3, 2.2e-3, 3.3e-3, 5e-3, 7.5e-3],
             u0_span: 0.2,
             u0_floor: 0.005,
             u0_misfit: 0.1,
@@ -53,7 +53,7 @@ impl Default for GridRule {
             interpolation_tol: 1e-3,
             timed: false,
             coarse_divisions: 100.0,
-            max_trajectories: 40_000,
+            max_trajectories: 10_000,
         }
     }
 }

@@ -94,6 +94,8 @@ use sums::Weighted;
 
 /// Iteration limit of the polish of each kept candidate on its map.
 pub const POLISH_ITERATIONS: u64 = 300;
+/// Trial radii besides the grid's best at which each kept line is polished again.
+pub const RHO_RETRIES: usize = 2;
 
 /// One map of a library to search.
 #[derive(Debug, Clone, PartialEq)]
@@ -380,36 +382,38 @@ struct Polisher<'a> {
 
 impl Polisher<'_> {
     /// Polishes a grid candidate read at `readers.rhos[r]`: a local minimisation of the map's
-    /// chi^2 over (alpha, u0, t0, ln tE) at that radius. A candidate found at the grid's
-    /// smoothing radius (beyond the trial radii) is then read at every trial radius and
-    /// polished again at the best of them.
+    /// chi^2 over (alpha, u0, t0, ln tE) at that radius. The polished line is then read at
+    /// every trial radius and polished again at the [`RHO_RETRIES`] best others (a caustic
+    /// crossing seen at a few points makes chi^2 rugged in rho, and the grid's best radius is
+    /// often not the one nearest the truth); the best of these is kept.
     fn run(&self, start: &Candidate, r: usize) -> Result<Candidate> {
         let trials = self.rule.rhos.len();
-        let polished = self.polish_at(start, r)?;
-        if r < trials {
-            return Ok(polished);
-        }
-        let line = self.line(&polished.model.trajectory);
-        let chi2 = match line {
-            Some(line) => self.chi2_all(&line),
-            None => return Ok(polished),
+        let mut best = self.polish_at(start, r)?;
+        let Some(line) = self.line(&best.model.trajectory) else {
+            return Ok(best);
         };
-        let best = (0..trials)
-            .filter(|&i| chi2[i].is_finite())
-            .min_by(|&a, &b| chi2[a].total_cmp(&chi2[b]));
-        match best {
-            Some(i) => {
-                let at_trial = Candidate {
-                    model: BinaryModel {
-                        rho: self.rule.rhos[i],
-                        ..polished.model
-                    },
-                    chi2: chi2[i],
-                };
-                self.polish_at(&at_trial, i)
+        let chi2 = self.chi2_all(&line);
+        let mut others: Vec<usize> = (0..trials)
+            .filter(|&i| i != r && chi2[i].is_finite())
+            .collect();
+        others.sort_by(|&a, &b| chi2[a].total_cmp(&chi2[b]));
+        // A candidate at the grid's smoothing radius (beyond the trial radii) must move to one.
+        let retries = if r < trials { RHO_RETRIES } else { RHO_RETRIES + 1 };
+        let from = best;
+        for &i in others.iter().take(retries) {
+            let at_trial = Candidate {
+                model: BinaryModel {
+                    rho: self.rule.rhos[i],
+                    ..from.model
+                },
+                chi2: chi2[i],
+            };
+            let polished = self.polish_at(&at_trial, i)?;
+            if polished.chi2 < best.chi2 || best.model.rho == from.model.rho && r >= trials {
+                best = polished;
             }
-            None => Ok(polished),
         }
+        Ok(best)
     }
 
     fn line(&self, trajectory: &Trajectory) -> Option<Line> {
