@@ -225,6 +225,7 @@ impl SearchArgs {
                 tol: self.tol,
                 max_iters: self.max_iters,
                 budget: (self.budget > 0.0).then(|| Duration::from_secs_f64(self.budget)),
+                ..RefineOptions::default()
             },
             clip_sigma: (self.clip > 0.0).then_some(self.clip),
             rescale_errors: !self.fixed_errors,

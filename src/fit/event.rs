@@ -22,7 +22,8 @@
 //!    of its normalised residuals (1.4826 times their median absolute value: for Gaussian
 //!    noise the factor that brings chi^2 per degree of freedom to 1, but not inflated by an
 //!    anomaly the model misses; [`FitOptions::rescale_errors`]); when either changed the data
-//!    by more than 5%, every minimum is refined again on the cleaned, rescaled data.
+//!    by more than 5%, every minimum is refined again on the cleaned, rescaled data (by
+//!    Levenberg-Marquardt alone: it starts at a minimum).
 //!
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
@@ -209,7 +210,12 @@ pub fn fit_event(
             .map(|m| (m.refined.model, m.search_chi2))
             .collect();
         progress.start("refine again", starts.len() as u64);
-        minima = refine_models(&fitted, &starts, &options.refine, &|| progress.advance(1))?;
+        // From minima already found, Levenberg-Marquardt alone converges.
+        let again = RefineOptions {
+            simplex: false,
+            ..options.refine
+        };
+        minima = refine_models(&fitted, &starts, &again, &|| progress.advance(1))?;
         progress.finish(&format!(
             "refine again: best chi2 {:.1} for {} points",
             minima[0].refined.chi2,

@@ -33,6 +33,9 @@ pub struct RefineOptions {
     pub tol: f64,
     /// Iteration limit of each minimisation.
     pub max_iters: u64,
+    /// Whether each refinement runs the simplex stages after Levenberg-Marquardt (see
+    /// [`super::refine::refine_until`]).
+    pub simplex: bool,
     /// Wall time allowed to one pass of refinements (all candidates together); when it runs
     /// out each refinement returns what it has, with NaN uncertainties.
     pub budget: Option<Duration>,
@@ -44,6 +47,7 @@ impl Default for RefineOptions {
             candidates: 4,
             tol: 1e-4,
             max_iters: 600,
+            simplex: true,
             budget: Some(Duration::from_secs(600)),
         }
     }
@@ -87,7 +91,14 @@ pub fn refine_models(
     let refined: Vec<(Refined, f64)> = starts
         .par_iter()
         .map(|(model, chi2)| {
-            let r = refine_until(data, model, options.tol, options.max_iters, deadline);
+            let r = refine_until(
+                data,
+                model,
+                options.tol,
+                options.max_iters,
+                options.simplex,
+                deadline,
+            );
             progress();
             r.map(|r| (r, *chi2))
         })

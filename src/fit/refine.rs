@@ -10,7 +10,8 @@
 //!
 //! Every chi^2 here comes from [`BinaryModel::magnifications`]: the point-source magnification
 //! with its small-source correction far from caustics and contour integration near them, to the
-//! relative tolerance given, so the result does not depend on map pixels. The minimiser works
+//! relative tolerance given (the search stages at [`COARSE_TOL`] when that is coarser, which
+//! makes contour integration cheaper), so the result does not depend on map pixels. The minimiser works
 //! on `(ln s, ln q, alpha, u0, t0, ln tE, ln rho)` (positive quantities stay positive); the
 //! uncertainties are mapped back to the natural parameters to first order.
 
@@ -25,6 +26,9 @@ use std::time::Instant;
 
 /// Jacobians the Levenberg-Marquardt stage of [`refine`] may take.
 pub const LM_ITERATIONS: u64 = 40;
+/// The magnification tolerance of the refinement's search stages when the one asked for is
+/// finer (the last stage and the reported chi^2 use the one asked for).
+pub const COARSE_TOL: f64 = 1e-3;
 
 /// Names of the model parameters, in the order of [`Refined::sigma`].
 pub const PARAMETERS: [&str; 7] = ["s", "q", "alpha", "u0", "t0", "tE", "rho"];
@@ -106,16 +110,19 @@ pub fn canonical(model: &BinaryModel) -> BinaryModel {
 /// Refines `start` by minimising the exact chi^2 (relative magnification tolerance `tol`),
 /// then measures the curvature at the minimum.
 pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -> Result<Refined> {
-    refine_until(data, start, tol, max_iters, None)
+    refine_until(data, start, tol, max_iters, true, None)
 }
 
-/// [`refine`], stopped at `deadline`: from then on every trial counts as infeasible, so each
-/// stage ends at once with the best model it had (the uncertainties are then NaN).
+/// [`refine`], with the simplex stages only when `simplex` (without them, Levenberg-Marquardt
+/// alone: enough from a start already at a minimum), stopped at `deadline`: from then on every
+/// trial counts as infeasible, so each stage ends at once with the best model it had (the
+/// uncertainties are then NaN).
 pub fn refine_until(
     data: &[DataSet],
     start: &BinaryModel,
     tol: f64,
     max_iters: u64,
+    simplex: bool,
     deadline: Option<Instant>,
 ) -> Result<Refined> {
     let evaluations = AtomicU64::new(0);
@@ -140,13 +147,20 @@ pub fn refine_until(
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
     // along. Its Jacobian steps are a fiftieth of the simplex's.
-    let residuals = |p: &[f64]| {
-        if late() {
-            return None;
+    let residuals_to = |tol: f64| {
+        let evaluations = &evaluations;
+        move |p: &[f64]| {
+            if late() {
+                return None;
+            }
+            evaluations.fetch_add(1, Ordering::Relaxed);
+            residuals_of(data, &from_vector(p).ok()?, tol).ok()
         }
-        evaluations.fetch_add(1, Ordering::Relaxed);
-        residuals_of(data, &from_vector(p).ok()?, tol).ok()
     };
+    // The search stages work at a coarser tolerance (contour integration costs less), the
+    // last Levenberg-Marquardt pass at the one asked for.
+    let coarse = if simplex { tol.max(COARSE_TOL) } else { tol };
+    let residuals = residuals_to(coarse);
     let h: Vec<f64> = step.iter().map(|s| 0.02 * s).collect();
     let lm_iters = LM_ITERATIONS.min(max_iters.max(1));
     let lm = match least_squares(&residuals, &x0, &h, 1e-4, lm_iters) {
@@ -160,13 +174,16 @@ pub fn refine_until(
     };
     // Then the simplex from there: stop when its chi^2 values agree to 0.01; start afresh
     // from the minimum (up to four rounds) while that still gains more than 0.1.
-    let objective = chi2_to(tol);
-    let mut found = minimize(&objective, &lm.x, &step, 0.01, max_iters)?;
-    if found.value > lm.value {
-        found = lm;
+    let objective = chi2_to(coarse);
+    let mut found = lm;
+    if simplex {
+        let polished = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
+        if polished.value < found.value {
+            found = polished;
+        }
     }
     for _ in 0..3 {
-        if late() {
+        if late() || !simplex {
             break;
         }
         let again = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
@@ -179,9 +196,13 @@ pub fn refine_until(
         }
     }
     // A last Levenberg-Marquardt pass converges on the minimum the simplex stopped near.
-    if let Ok(last) = least_squares(&residuals, &found.x, &h, 1e-3, lm_iters) {
-        if last.value < found.value {
-            found = last;
+    if simplex {
+        let exact = residuals_to(tol);
+        found.value = exact(&found.x).map_or(INFEASIBLE, |r| r.iter().map(|v| v * v).sum());
+        if let Ok(last) = least_squares(&exact, &found.x, &h, 1e-3, lm_iters) {
+            if last.value < found.value {
+                found = last;
+            }
         }
     }
     // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.

@@ -398,7 +398,11 @@ impl Polisher<'_> {
             .collect();
         others.sort_by(|&a, &b| chi2[a].total_cmp(&chi2[b]));
         // A candidate at the grid's smoothing radius (beyond the trial radii) must move to one.
-        let retries = if r < trials { RHO_RETRIES } else { RHO_RETRIES + 1 };
+        let retries = if r < trials {
+            RHO_RETRIES
+        } else {
+            RHO_RETRIES + 1
+        };
         let from = best;
         for &i in others.iter().take(retries) {
             let at_trial = Candidate {

@@ -1,0 +1,130 @@
+//! The whole fit as one library call (`fit::event::fit_event`): maps in memory, times on a
+//! JD scale, outliers and error bars that are too small.
+
+mod common;
+
+use causeway::curve::time_range;
+use causeway::engine::{Engine, PolygonMapping};
+use causeway::fit::event::{fit_event, FitOptions, FitResult};
+use causeway::fit::model::{BinaryModel, Trajectory};
+use causeway::fit::photometry::DataSet;
+use causeway::fit::refine::exact_chi2;
+use causeway::fit::search::MapSource;
+use causeway::fit::simulate::{Noise, Simulation};
+use causeway::map::MagnificationMap;
+use causeway::progress::Silent;
+use causeway::source::LimbDarkening;
+use causeway::store::library::WindowRule;
+
+/// A wide planet whose source crosses the planetary caustic 11 days after the peak.
+fn truth(t0: f64) -> BinaryModel {
+    BinaryModel {
+        s: 1.3,
+        q: 3e-3,
+        rho: 3e-3,
+        trajectory: Trajectory::straight(t0, 0.15, 25.0, (360.0f64 - 16.44).to_radians()).unwrap(),
+    }
+}
+
+/// The planetary-caustic map of the truth's binary, 400^2 pixels.
+fn map() -> MagnificationMap {
+    let lens = truth(0.0).lens().unwrap();
+    let window = WindowRule::Planetary {
+        margin: 1.5,
+        pixels: 400,
+    }
+    .window(&lens)
+    .unwrap();
+    PolygonMapping::new(1.0).build(&lens, &window).unwrap()
+}
+
+/// 500 points over +-50 days of the truth at `t0`, 0.01 flux errors, blend 0.2; every point's
+/// scatter `scale` times its error bar, and points `outliers` moved by 30 errors.
+fn data(t0: f64, scale: f64, outliers: &[usize]) -> Vec<DataSet> {
+    let times: Vec<f64> = time_range(-50.0, 50.0, 500)
+        .unwrap()
+        .into_iter()
+        .map(|t| t + t0)
+        .collect();
+    let sim = Simulation {
+        fb: 0.2,
+        noise: Noise::Flux {
+            sigma: 0.01 * scale,
+        },
+        seed: 5,
+        ..Simulation::new(truth(t0), LimbDarkening::Uniform)
+    };
+    let mut s = sim.synthesize(&times).unwrap();
+    for e in &mut s.errors {
+        *e = 0.01;
+    }
+    for &i in outliers {
+        s.values[i] += 0.3;
+    }
+    vec![DataSet::parse(&s.to_csv(), "site.csv", 22.0).unwrap()]
+}
+
+fn fit(data: &[DataSet], map: &MagnificationMap) -> FitResult {
+    let options = FitOptions {
+        rule: causeway::fit::search::GridRule {
+            rhos: vec![2e-3, 3e-3, 4.5e-3],
+            ..Default::default()
+        },
+        ..FitOptions::default()
+    };
+    fit_event(
+        data,
+        MapSource::Loaded(std::slice::from_ref(map)),
+        &options,
+        &Silent,
+    )
+    .unwrap()
+}
+
+#[test]
+fn times_on_a_jd_scale_give_the_same_minimum() {
+    let map = map();
+    let near = fit(&data(0.0, 1.0, &[]), &map);
+    let far = fit(&data(2_459_000.0, 1.0, &[]), &map);
+    let (a, b) = (&near.minima[0].refined, &far.minima[0].refined);
+    let (la, lb) = (a.model.trajectory.line(), b.model.trajectory.line());
+    // The requirement: the same t0 to 1e-6 d once the offset is taken away.
+    assert!(
+        (lb.t0 - 2_459_000.0 - la.t0).abs() < 1e-6,
+        "{} vs {}",
+        la.t0,
+        lb.t0
+    );
+    assert!((a.model.s / b.model.s - 1.0).abs() < 1e-6);
+    assert!((a.model.q / b.model.q - 1.0).abs() < 1e-6);
+    assert!((a.chi2 - b.chi2).abs() < 1e-3 * a.chi2.max(1.0));
+    // And it is the truth: within one percent in s and 10% in q (the map is the truth's).
+    assert!((a.model.s / 1.3 - 1.0).abs() < 0.01, "{:?}", a.model);
+    assert!((a.model.q / 3e-3 - 1.0).abs() < 0.1, "{:?}", a.model);
+}
+
+#[test]
+fn outliers_are_clipped_and_error_bars_rescaled() {
+    let map = map();
+    let outliers = [40, 260, 455];
+    let data = data(0.0, 1.5, &outliers);
+    let result = fit(&data, &map);
+    let clipped: Vec<usize> = result
+        .clipped
+        .iter()
+        .map(|c| data[0].times.iter().position(|&t| t == c.time).unwrap())
+        .collect();
+    assert_eq!(clipped, outliers);
+    // The scatter is 1.5 times the error bars: the robust spread of 497 Gaussian residuals
+    // has a relative standard error of about 1.17 / sqrt(2 N) = 4% (the median absolute
+    // deviation's efficiency, common practice), so 1.5 within 12% is a 3-sigma check.
+    let k = result.error_scales[0];
+    assert!((k / 1.5 - 1.0).abs() < 0.12, "error scale {k}");
+    // The fit on the cleaned data is as good as the truth there.
+    let truth_chi2 = exact_chi2(&result.data, &truth(0.0), 1e-4).unwrap().0;
+    assert!(
+        result.minima[0].refined.chi2 <= truth_chi2 + 1.0,
+        "{} vs truth {truth_chi2}",
+        result.minima[0].refined.chi2
+    );
+}
