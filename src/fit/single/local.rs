@@ -19,6 +19,9 @@ const SPREAD: usize = 5;
 /// The simplex stops when the spread of its values falls below this fraction of chi^2 (at
 /// least 1; see [`settle`]).
 const TOLERANCE: f64 = 1e-10;
+/// The same for the fit at fixed `u0`, which has no Newton steps after it and whose chi^2 is
+/// compared along the valley.
+const VALLEY_TOLERANCE: f64 = 1e-13;
 /// Iteration limit of each simplex pass.
 const ITERATIONS: u64 = 2000;
 /// Half-width of the running median taken before the brightest point is looked for.
@@ -59,7 +62,7 @@ pub(super) fn fit(problem: &Problem, extra: &[(f64, f64, f64)]) -> Result<Local>
                 0.3 / slope(x[1], (U0_MAX / U0_MIN).ln()),
                 0.2 / slope(x[2], (frame.te.1 / frame.te.0).ln()),
             ];
-            settle(&f, x, &step)
+            settle(&f, x, &step, TOLERANCE)
         })
         .collect::<Result<_>>()?;
     let best = minima
@@ -70,14 +73,19 @@ pub(super) fn fit(problem: &Problem, extra: &[(f64, f64, f64)]) -> Result<Local>
     Ok(polish(problem, t0, u0, te))
 }
 
-/// Nelder-Mead from `x` with initial steps `step`, until the spread of the simplex's values is
-/// below [`TOLERANCE`] of the value reached (at least 1): a first pass measured against the
-/// start's value, which may be far above the minimum's, then a pass from its minimum with a
-/// tenth of the steps, measured against the value found.
-fn settle(f: &(dyn Fn(&[f64]) -> f64 + Sync), x: &[f64], step: &[f64]) -> Result<Minimum> {
+/// Nelder-Mead from `x` with initial steps `step`: a first pass until the spread of the
+/// simplex's values is below [`TOLERANCE`] of the start's value (at least 1), which may be far
+/// above the minimum's, then a pass from its minimum with a tenth of the steps, until the
+/// spread is below `fraction` of the value found (at least 1).
+fn settle(
+    f: &(dyn Fn(&[f64]) -> f64 + Sync),
+    x: &[f64],
+    step: &[f64],
+    fraction: f64,
+) -> Result<Minimum> {
     let first = minimize(f, x, step, TOLERANCE * f(x).max(1.0), ITERATIONS)?;
     let small: Vec<f64> = step.iter().map(|h| 0.1 * h).collect();
-    let tolerance = TOLERANCE * first.value.max(1.0);
+    let tolerance = fraction * first.value.max(1.0);
     let second = minimize(f, &first.x, &small, tolerance, ITERATIONS)?;
     Ok(if second.value <= first.value {
         second
@@ -173,7 +181,7 @@ pub(super) fn at_u0(problem: &Problem, u0: f64, t0: f64, te: f64) -> Result<(f64
         0.05 / slope(x0[2], (frame.te.1 / frame.te.0).ln()),
     ];
     let x = [x0[0], x0[2]];
-    let m = settle(&f, &x, &step)?;
+    let m = settle(&f, &x, &step, VALLEY_TOLERANCE)?;
     let (t0, _, te) = frame.unpack(&[m.x[0], 0.0, m.x[1]]);
     Ok((t0, te, m.value))
 }
