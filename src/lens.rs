@@ -276,6 +276,18 @@ impl std::fmt::Display for LensSystem {
     }
 }
 
+/// Paczynski's point-source, point-lens magnification `(u^2 + 2) / (u sqrt(u^2 + 4))`
+/// (Paczynski 1986).
+///
+/// ```
+/// let a = causeway::lens::paczynski(1.0);
+/// assert!((a - 3.0 / 5f64.sqrt()).abs() < 1e-15);
+/// ```
+pub fn paczynski(u: f64) -> f64 {
+    let u2 = u * u;
+    (u2 + 2.0) / (u * (u2 + 4.0).sqrt())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

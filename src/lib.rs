@@ -27,6 +27,7 @@ pub mod fsutil;
 pub mod lens;
 pub mod map;
 pub mod plot;
+pub mod progress;
 pub mod solve;
 pub mod source;
 pub mod store;

@@ -1,7 +1,10 @@
 //! `causeway simulate` and `fit::simulate`: the files it writes, the model fluxes against
-//! outside references, the noise statistics, determinism, and bad input.
+//! outside references, the noise statistics, determinism, and bad input; observing plans in
+//! `simulate/plan.rs`.
 
 mod common;
+#[path = "simulate/plan.rs"]
+mod plan;
 
 use causeway::fit::model::{paczynski, BinaryModel, Trajectory};
 use causeway::fit::photometry::{flux_to_mag, DataSet, Measured, DEFAULT_ZERO_POINT};
@@ -228,12 +231,12 @@ fn bad_input_is_one_line_exit_2_and_no_file() {
     let cases = [
         ("--s 1 --q 0 --time-range -5,5,10".to_string(), "q"),
         ("--lenses l.csv --time-range -5,5,10".to_string(), "--s"),
-        (format!("{binary} --sigma-mag 0"), "--sigma-mag"),
+        (format!("{binary} --sigma-mag 0"), "sigma (mag)"),
         (format!("{binary} --rho -1"), "rho"),
         (format!("{binary} --ld 2"), "u"),
         ("--s 1 --q 1 --times dup.csv".to_string(), "twice"),
-        (format!("{binary} --fb -5"), "--fs/--fb"),
-        (format!("{binary} --fs NaN"), "--fs"),
+        (format!("{binary} --fb -5"), "fs/fb"),
+        (format!("{binary} --fs NaN"), "fs: must be finite"),
     ];
     for (extra, culprit) in cases {
         let mut args = words(base);

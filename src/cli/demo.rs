@@ -9,13 +9,24 @@
 
 use super::curve::format_csv;
 use super::map::{build_reported, default_memory_limit, write_outputs};
+use super::progress::Reporter;
+use super::search::Outputs;
 use crate::curve::{plot_png, time_range, Sampler, StraightLine};
 use crate::engine::RayShooting;
 use crate::error::{Error, Result};
+use crate::fit::event::{fit_event, FitOptions};
+use crate::fit::minima::RefineOptions;
+use crate::fit::model::{BinaryModel, Trajectory};
+use crate::fit::photometry::{DataSet, DEFAULT_ZERO_POINT};
+use crate::fit::search::{maps_of_spec, GridRule, MapSource};
+use crate::fit::simulate::Simulation;
 use crate::lens::LensSystem;
 use crate::map::{MagnificationMap, Window};
+use crate::progress::Progress;
 use crate::source::{LimbDarkening, SourceProfile};
-use clap::{Args, Parser};
+use crate::store::library::{self, LibrarySpec};
+use crate::store::Store;
+use clap::Args;
 use std::path::{Path, PathBuf};
 
 /// Options of `causeway demo`.
@@ -54,18 +65,21 @@ pub fn run(args: DemoArgs) -> Result<()> {
     fitting_job(out)
 }
 
-/// The invented event of the fitting part: s = 1.3, q = 3e-3, rho = 0.003 (uniform), t0 = 0, u0 = 0.15, tE = 25 d, alpha = 343.56 degrees; 600 points over
-/// 120 days with 0.01 mag errors, a blend of 20% of the source flux.
-pub const DEMO_EVENT: [(&str, &str); 8] = [
-    ("--s", "1.3"),
-    ("--q", "3e-3"),
-    ("--rho", "0.003"),
-    ("--t0", "0"),
-    ("--u0", "0.15"),
-    ("--te", "25"),
-    ("--alpha", "343.56"),
-    ("--fb", "0.2"),
-];
+/// The invented event of the fitting part: s = 1.3, q = 3e-3, rho = 0.003 (uniform), t0 = 0,
+/// u0 = 0.15, tE = 25 d, alpha = 343.56 degrees; 600 points over 120 days with 0.01 mag errors,
+/// a blend of 20% of the source flux.
+pub fn demo_event() -> Result<Simulation> {
+    let model = BinaryModel {
+        s: 1.3,
+        q: 3e-3,
+        rho: 0.003,
+        trajectory: Trajectory::straight(0.0, 0.15, 25.0, 343.56f64.to_radians())?,
+    };
+    Ok(Simulation {
+        fb: 0.2,
+        ..Simulation::new(model, LimbDarkening::Uniform)
+    })
+}
 
 /// The library of the fitting part: 3 x 3 maps around the event's (s, q), windows on the
 /// planetary caustic.
@@ -79,43 +93,55 @@ const DEMO_LIBRARY: &str =
     [window]\n\
     rule = \"planetary\"\n";
 
-/// Simulates the demo event, writes its library spec, and runs `causeway search` on them.
+/// Simulates the demo event, writes its library spec, builds the library and fits the event
+/// with it, writing what `causeway search` writes.
 fn fitting_job(out: &Path) -> Result<()> {
-    let file = |name: &str| out.join(name).display().to_string();
     eprintln!("demo: simulating an invented planetary event (s = 1.3, q = 3e-3)");
-    let mut simulate = vec!["causeway".to_string(), "simulate".into()];
-    for (k, v) in DEMO_EVENT {
-        simulate.extend([k.to_string(), v.to_string()]);
-    }
-    simulate.extend(["--time-range", "-60,60,600", "--out"].map(String::from));
-    simulate.push(file("event.csv"));
-    super::run(
-        super::Cli::try_parse_from(&simulate).map_err(|e| Error::Numerical(e.to_string()))?,
-    )?;
+    let synthetic = demo_event()?.synthesize(&time_range(-60.0, 60.0, 600)?)?;
+    let event_file = out.join("event.csv");
+    let csv = synthetic.to_csv();
+    crate::fsutil::write_atomic(&event_file, csv.as_bytes())?;
+    eprintln!("wrote {}", event_file.display());
+    let data = vec![DataSet::parse(
+        &csv,
+        &event_file.display().to_string(),
+        DEFAULT_ZERO_POINT,
+    )?];
     crate::fsutil::write_atomic(&out.join("library.toml"), DEMO_LIBRARY.as_bytes())?;
-    eprintln!("demo: searching a 3 x 3 library of 600^2 maps for it");
-    let search = [
-        "causeway".to_string(),
-        "search".into(),
-        file("event.csv"),
-        "--library".into(),
-        file("library.toml"),
-        "--store".into(),
-        file("maps"),
-        "--rho".into(),
-        "0.0015,0.003,0.006".into(),
-        "--refine".into(),
-        "2".into(),
-        "--max-iters".into(),
-        "400".into(),
-        "--out".into(),
-        file("minima.csv"),
-        "--chi2-map".into(),
-        file("chi2-map.png"),
-        "--plot".into(),
-        file("best-model.png"),
-    ];
-    super::run(super::Cli::try_parse_from(&search).map_err(|e| Error::Numerical(e.to_string()))?)
+    eprintln!("demo: building and searching a 3 x 3 library of 600^2 maps for it");
+    let store = Store::open(&out.join("maps"))?;
+    let spec = LibrarySpec::parse(DEMO_LIBRARY, "library.toml")?;
+    let reporter = Reporter::new();
+    let points = spec.points()?;
+    reporter.start("library", points.len() as u64);
+    library::build(&store, &points, |_, _| reporter.advance(1))?;
+    reporter.finish(&format!(
+        "library: {} maps in {}",
+        points.len(),
+        store.root().display()
+    ));
+    let maps = maps_of_spec(&store, &spec)?;
+    let options = FitOptions {
+        rule: GridRule {
+            rhos: vec![0.0015, 0.003, 0.006],
+            ..GridRule::default()
+        },
+        refine: RefineOptions {
+            candidates: 2,
+            max_iters: 400,
+            ..RefineOptions::default()
+        },
+        ..FitOptions::default()
+    };
+    let fit = fit_event(&data, MapSource::Files(&maps), &options, &reporter)?;
+    drop(reporter);
+    let outputs = Outputs {
+        table: Some(out.join("minima.csv")),
+        clipped: None,
+        chi2_map: Some(out.join("chi2-map.png")),
+        plot: Some(out.join("best-model.png")),
+    };
+    outputs.write(&data, &fit, None, options.refine.tol)
 }
 
 /// The demo's light curve: a limb-darkened source (rho = 0.003, u = 0.5) crossing the

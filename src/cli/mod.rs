@@ -76,6 +76,7 @@ pub mod images;
 pub mod library;
 pub mod map;
 pub mod physical;
+pub mod progress;
 pub mod search;
 pub mod simulate;
 

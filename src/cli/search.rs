@@ -3,32 +3,40 @@
 use super::library::StoreArgs;
 use super::map::progress_bar;
 use super::physical::PhysicalArgs;
+use super::progress::Reporter;
 use super::ThreadArgs;
 use crate::error::{Error, Result};
-use crate::fit::minima::{error_scales, refine_minima, RefineOptions};
+use crate::fit::event::{fit_event, Clipped, FitOptions, FitResult, DEFAULT_CLIP_SIGMA};
+use crate::fit::minima::RefineOptions;
 use crate::fit::photometry::{DataSet, DEFAULT_ZERO_POINT};
 use crate::fit::plots::{chi2_map_png, model_png};
 use crate::fit::report::Report;
-use crate::fit::search::{maps_of_spec, maps_of_store, search, GridRule, LibraryMap, Seed};
-use crate::fit::single::fit_single_lens;
+use crate::fit::scales::PhysicalInput;
+use crate::fit::search::{maps_of_spec, maps_of_store, GridRule, LibraryMap, MapSource};
 use crate::fsutil::write_atomic;
 use crate::source::LimbDarkening;
 use crate::store::library::{self, LibrarySpec};
 use crate::store::Store;
+use crate::table::fmt_f64;
 use clap::Args;
 use std::path::{Path, PathBuf};
+use std::time::Duration;
 
 /// Options of `causeway search`.
 #[derive(Debug, Args)]
 #[command(
-    after_help = "Fits every data set (CSV t,mag,mag_err or t,flux,flux_err) with a \
-    single lens first, then searches each map of the library over trajectories around that \
-    seed (the grid rule is in the documentation of causeway::fit::search), refines the best \
-    (s, q) local minima with exact magnifications, and prints the distinct minima as CSV \
-    (ranked by chi2). --library takes a spec (TOML; its missing maps are built into the store \
-    first) or a store directory (all its binary maps).\n\nExamples:\n  \
+    after_help = "Fits every data set (CSV t,mag,mag_err or t,flux,flux_err; times in days, any \
+    epoch such as JD - 2450000) with a single lens first (bounded, the anomaly found and left \
+    out), then searches each map of the library over trajectories timed from that baseline and \
+    from the anomaly (the grid rule is in the documentation of causeway::fit::search), refines \
+    the best (s, q) local minima with exact magnifications, clips isolated outliers and rescales \
+    each set's error bars, refines again, and prints the distinct minima as CSV (ranked by the \
+    fit's chi2). --library takes a spec (TOML; its missing maps are built into the store first) \
+    or a store directory (all its binary maps). Progress goes to stderr: bars on a terminal, a \
+    plain line every 5 s in a batch log.\n\nExamples:\n  \
     causeway search site-a.csv site-b.csv --library planets.toml --ld 0.55,0.62 --out minima.csv --chi2-map chi2.png --plot best.png\n  \
-    causeway search event.csv --library /shared/maps --rho 0.001,0.002 --refine 6 --rescale\n  \
+    causeway search event.csv --library /shared/maps --rho 0.001,0.002 --refine 6 --exclude 8205.1,8206.3\n  \
+    causeway search event.csv --library planets.toml --baseline 8210.5,0.12,31 --budget 120\n  \
     causeway search event.csv --library planets.toml --theta-star 0.6 --dl 4 --ds 8"
 )]
 pub struct SearchArgs {
@@ -51,32 +59,53 @@ pub struct SearchArgs {
     /// Magnitude of unit flux in the data files.
     #[arg(long, value_name = "ZP", default_value_t = DEFAULT_ZERO_POINT, allow_hyphen_values = true)]
     pub zero_point: f64,
-    /// Apply each set's error-bar scale (chi2/dof = 1 at the best model) to the chi2 reported.
+    /// Hide the times START to END (days) from the single-lens baseline; repeatable.
+    #[arg(long, value_name = "START,END", value_parser = super::parse_pair, allow_hyphen_values = true)]
+    pub exclude: Vec<(f64, f64)>,
+    /// Use this single-lens baseline (t0 in days, u0, tE in days) instead of fitting one.
+    #[arg(
+        long,
+        value_name = "T0,U0,TE",
+        value_delimiter = ',',
+        num_args = 3,
+        allow_hyphen_values = true
+    )]
+    pub baseline: Vec<f64>,
+    /// Clip isolated points beyond this many robust standard deviations at the best model
+    /// (0: keep every point).
+    #[arg(long, value_name = "SIGMA", default_value_t = DEFAULT_CLIP_SIGMA)]
+    pub clip: f64,
+    /// Keep the error bars as given (by default each set's are scaled to chi2/dof = 1 at the
+    /// best model and the minima refined again).
     #[arg(long)]
-    pub rescale: bool,
-    /// Trial source radii.
+    pub fixed_errors: bool,
+    /// Trial source radii (Einstein radii).
     #[arg(long, value_name = "RHO[,RHO...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().rhos)]
     pub rho: Vec<f64>,
-    /// Half-range of u0 around the single-lens value, relative to it.
+    /// Half-range of u0 around the baseline's value, relative to it.
     #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_span)]
     pub u0_span: f64,
-    /// Least half-range of u0 (absolute).
+    /// Least half-range of u0 (Einstein radii).
     #[arg(long, value_name = "U", default_value_t = GridRule::default().u0_floor)]
     pub u0_floor: f64,
     /// Widen u0 to where the single lens's valley (its best fit at fixed u0) rises by this
     /// fraction of its misfit (chi2 - dof; what it leaves unexplained).
     #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_misfit)]
     pub u0_misfit: f64,
-    /// Factors on the single-lens tE.
+    /// Factors on the baseline's tE (default 1, or 0.5 to 2 when the baseline is not trusted).
     #[arg(long, value_name = "F[,F...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().te_factors)]
     pub te_factors: Vec<f64>,
-    /// Shifts of t0 from the single-lens value, in units of its tE.
+    /// Shifts of t0 from the baseline's value, in units of tE (default 0, or -0.2 to 0.2 when
+    /// the baseline is not trusted).
     #[arg(long, value_name = "K[,K...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().t0_shifts)]
     pub t0_shifts: Vec<f64>,
-    /// Also try every line timed so that its strongest map feature falls at the data's largest
-    /// departure from the single lens (up to about four times the lines).
+    /// Keep the timings as given: no anchoring on the anomaly, no widening when the baseline
+    /// is not trusted.
     #[arg(long)]
-    pub timed: bool,
+    pub fixed_timing: bool,
+    /// Most trajectories tried on one map (the lines are spaced more widely beyond it).
+    #[arg(long, value_name = "N", default_value_t = GridRule::default().max_trajectories)]
+    pub max_trajectories: usize,
     /// Distinct trajectories kept per map.
     #[arg(long, value_name = "N", default_value_t = GridRule::default().keep)]
     pub keep: usize,
@@ -86,12 +115,18 @@ pub struct SearchArgs {
     /// Relative tolerance of the exact magnifications in the refinement.
     #[arg(long, value_name = "T", default_value_t = RefineOptions::default().tol)]
     pub tol: f64,
-    /// Iteration limit of each refinement.
+    /// Iteration limit of each minimisation in the refinement.
     #[arg(long, value_name = "N", default_value_t = RefineOptions::default().max_iters)]
     pub max_iters: u64,
+    /// Wall time allowed to each pass of refinements, seconds (0: no limit).
+    #[arg(long, value_name = "SECONDS", default_value_t = 600.0)]
+    pub budget: f64,
     /// Write the table of minima here instead of stdout.
     #[arg(long, value_name = "FILE.csv")]
     pub out: Option<PathBuf>,
+    /// Write the clipped points here (CSV set,file,line,t,residual).
+    #[arg(long, value_name = "FILE.csv")]
+    pub clipped: Option<PathBuf>,
     /// Draw the chi2 map over (s, q).
     #[arg(long, value_name = "FILE.png")]
     pub chi2_map: Option<PathBuf>,
@@ -133,7 +168,8 @@ impl SearchArgs {
             .collect()
     }
 
-    fn rule(&self) -> Result<GridRule> {
+    /// The options of the whole fit.
+    pub fn options(&self) -> Result<FitOptions> {
         let rule = GridRule {
             rhos: self.rho.clone(),
             u0_span: self.u0_span,
@@ -142,28 +178,71 @@ impl SearchArgs {
             te_factors: self.te_factors.clone(),
             t0_shifts: self.t0_shifts.clone(),
             keep: self.keep,
-            timed: self.timed,
+            max_trajectories: self.max_trajectories,
             ..GridRule::default()
         };
         rule.validate()?;
-        Ok(rule)
-    }
-
-    fn check_outputs(&self) -> Result<()> {
-        for (name, path, ext) in [
-            ("--out", &self.out, "csv"),
-            ("--chi2-map", &self.chi2_map, "png"),
-            ("--plot", &self.plot, "png"),
-        ] {
-            if let Some(p) = path {
-                if p.extension().and_then(|e| e.to_str()) != Some(ext) {
-                    return Err(Error::input(format!(
-                        "{name}: expected a .{ext} file name, got '{}'",
-                        p.display()
-                    )));
-                }
+        if !(self.budget.is_finite() && self.budget >= 0.0) {
+            return Err(Error::input(format!(
+                "--budget: must be >= 0 seconds, got {}",
+                self.budget
+            )));
+        }
+        if !(self.clip == 0.0 || (self.clip.is_finite() && self.clip >= 2.0)) {
+            return Err(Error::input(format!(
+                "--clip: must be 0 (off) or at least 2 sigma, got {}",
+                self.clip
+            )));
+        }
+        for &(a, b) in &self.exclude {
+            if !(a.is_finite() && b.is_finite() && a < b) {
+                return Err(Error::input(format!(
+                    "--exclude: need START < END, both finite, got {a},{b}"
+                )));
             }
         }
+        let baseline = match self.baseline[..] {
+            [] => None,
+            [t0, u0, te]
+                if t0.is_finite() && u0 > 0.0 && u0.is_finite() && te > 0.0 && te.is_finite() =>
+            {
+                Some((t0, u0, te))
+            }
+            _ => {
+                return Err(Error::input(format!(
+                    "--baseline: need T0,U0,TE with u0 > 0 and tE > 0, got {:?}",
+                    self.baseline
+                )))
+            }
+        };
+        Ok(FitOptions {
+            exclude: self.exclude.clone(),
+            baseline,
+            rule,
+            adaptive_timing: !self.fixed_timing,
+            refine: RefineOptions {
+                candidates: self.refine,
+                tol: self.tol,
+                max_iters: self.max_iters,
+                budget: (self.budget > 0.0).then(|| Duration::from_secs_f64(self.budget)),
+            },
+            clip_sigma: (self.clip > 0.0).then_some(self.clip),
+            rescale_errors: !self.fixed_errors,
+        })
+    }
+
+    /// Where the results go.
+    pub fn outputs(&self) -> Outputs {
+        Outputs {
+            table: self.out.clone(),
+            clipped: self.clipped.clone(),
+            chi2_map: self.chi2_map.clone(),
+            plot: self.plot.clone(),
+        }
+    }
+
+    fn check(&self) -> Result<()> {
+        self.outputs().check()?;
         if self.refine == 0 {
             return Err(Error::input("--refine: must be at least 1"));
         }
@@ -175,6 +254,141 @@ impl SearchArgs {
         }
         Ok(())
     }
+}
+
+/// The files a fit writes (each optional; the table goes to stdout without one).
+#[derive(Debug, Clone, Default)]
+pub struct Outputs {
+    /// The table of minima (CSV).
+    pub table: Option<PathBuf>,
+    /// The clipped points (CSV).
+    pub clipped: Option<PathBuf>,
+    /// The chi2 map over (s, q) (PNG).
+    pub chi2_map: Option<PathBuf>,
+    /// The best model over the data (PNG).
+    pub plot: Option<PathBuf>,
+}
+
+impl Outputs {
+    /// Checks every output path before any work: its extension, and that its folder exists.
+    pub fn check(&self) -> Result<()> {
+        for (name, path, ext) in [
+            ("--out", &self.table, "csv"),
+            ("--clipped", &self.clipped, "csv"),
+            ("--chi2-map", &self.chi2_map, "png"),
+            ("--plot", &self.plot, "png"),
+        ] {
+            let Some(p) = path else { continue };
+            if p.extension().and_then(|e| e.to_str()) != Some(ext) {
+                return Err(Error::input(format!(
+                    "{name}: expected a .{ext} file name, got '{}'",
+                    p.display()
+                )));
+            }
+            let dir = p.parent().filter(|d| !d.as_os_str().is_empty());
+            if let Some(dir) = dir {
+                if !dir.is_dir() {
+                    return Err(Error::input(format!(
+                        "{name}: the folder '{}' does not exist",
+                        dir.display()
+                    )));
+                }
+            }
+            if p.is_dir() {
+                return Err(Error::input(format!(
+                    "{name}: '{}' is a folder",
+                    p.display()
+                )));
+            }
+        }
+        Ok(())
+    }
+
+    /// Writes the results of a fit of `data` (as given): everything is computed before the
+    /// first file is written.
+    pub fn write(
+        &self,
+        data: &[DataSet],
+        fit: &FitResult,
+        physical: Option<PhysicalInput>,
+        tol: f64,
+    ) -> Result<()> {
+        let report = Report {
+            data,
+            single: &fit.single,
+            minima: &fit.minima,
+            error_scales: &fit.error_scales,
+            clipped: (0..data.len())
+                .map(|k| fit.clipped.iter().filter(|c| c.set == k).count())
+                .collect(),
+            physical,
+        };
+        let csv = report.csv()?;
+        let clipped_csv = clipped_table(data, &fit.clipped);
+        let best = &fit.minima[0];
+        let curve = match &self.plot {
+            Some(_) => {
+                let (t0, t1) = data.iter().fold((f64::MAX, f64::MIN), |a, d| {
+                    (a.0.min(d.times[0]), a.1.max(d.times[d.len() - 1]))
+                });
+                let times = crate::curve::time_range(t0, t1, 3000)?;
+                let model = &best.refined.model;
+                let a = model.magnifications(&times, fit.data[0].limb_darkening, tol)?;
+                let at_data = fit
+                    .data
+                    .iter()
+                    .map(|d| model.magnifications(&d.times, d.limb_darkening, tol))
+                    .collect::<Result<Vec<_>>>()?;
+                Some((times, a, at_data))
+            }
+            None => None,
+        };
+        if let Some(png) = &self.chi2_map {
+            chi2_map_png(&fit.outcomes, &fit.minima, png)?;
+            eprintln!("wrote {}", png.display());
+        }
+        if let (Some(png), Some((times, a, at_data))) = (&self.plot, &curve) {
+            model_png(&fit.data, &fit.single, best, (times, a), at_data, png)?;
+            eprintln!("wrote {}", png.display());
+        }
+        if let Some(path) = &self.clipped {
+            write_atomic(path, clipped_csv.as_bytes())?;
+            eprintln!("wrote {}", path.display());
+        }
+        eprint!("{}", report.summary());
+        match &self.table {
+            Some(path) => {
+                write_atomic(path, csv.as_bytes())?;
+                eprintln!("wrote {}", path.display());
+            }
+            None => print!("{csv}"),
+        }
+        Ok(())
+    }
+}
+
+/// The clipped points as CSV `set,file,line,t,residual`; the first ten also go to stderr.
+fn clipped_table(data: &[DataSet], clipped: &[Clipped]) -> String {
+    let mut out = String::from("set,file,line,t,residual\n");
+    for (i, c) in clipped.iter().enumerate() {
+        let name = &data[c.set].name;
+        if i < 10 {
+            eprintln!(
+                "clipped: {name}:{} (t = {}, {:+.1} sigma)",
+                c.line, c.time, c.residual
+            );
+        } else if i == 10 {
+            eprintln!("clipped: and {} more", clipped.len() - 10);
+        }
+        out += &format!(
+            "{},{name},{},{},{}\n",
+            c.set + 1,
+            c.line,
+            fmt_f64(c.time),
+            fmt_f64(c.residual)
+        );
+    }
+    out
 }
 
 /// The maps of `--library`: a store directory, or a spec whose missing maps are built first.
@@ -203,107 +417,18 @@ fn library_maps(library_path: &Path, store: &StoreArgs) -> Result<Vec<LibraryMap
 /// Runs `causeway search`.
 pub fn run(args: SearchArgs) -> Result<()> {
     args.threads.install()?;
-    args.check_outputs()?;
-    let rule = args.rule()?;
+    args.check()?;
+    let options = args.options()?;
     let physical = args
         .physical
         .any()
         .then(|| args.physical.input())
         .transpose()?;
     let data = args.data_sets()?;
-    let single = fit_single_lens(&data)?;
-    eprintln!(
-        "single lens: t0 = {:.4}, u0 = {:.5}, tE = {:.3} d, chi2 = {:.1} for {} points",
-        single.t0, single.u0, single.te, single.chi2, single.points
-    );
     let maps = library_maps(&args.library, &args.store)?;
-    let seed = Seed::of_data(&single, &data);
-    if let Some(t) = seed.anomaly {
-        eprintln!(
-            "largest departure from the single lens at t = {t:.3}; without it: t0 = {:.4}, \
-             u0 = {:.5}, tE = {:.3} d (the search's seed)",
-            seed.t0, seed.u0, seed.te
-        );
-    }
-    let (lo, hi) = seed.u0_range(rule.u0_misfit);
-    eprintln!(
-        "u0 the single lens cannot rule out (its valley within {} of its misfit {:.1}): {lo:.5} to {hi:.5}",
-        rule.u0_misfit, seed.misfit
-    );
-    let bar = progress_bar("search");
-    bar.set_length(maps.len() as u64);
-    let started = std::time::Instant::now();
-    let outcomes = search(&data, &seed, &maps, &rule, &|| bar.inc(1))?;
-    bar.finish_and_clear();
-    let seconds = started.elapsed().as_secs_f64();
-    let trajectories: u64 = outcomes.iter().map(|o| o.trajectories).sum();
-    let points: u64 = outcomes.iter().map(|o| o.points).sum();
-    let mut notes: Vec<&String> = outcomes.iter().flat_map(|o| &o.notes).collect();
-    notes.dedup();
-    for note in notes.iter().take(5) {
-        eprintln!("note: {note}");
-    }
-    eprintln!(
-        "search: {} maps, {trajectories} trajectories, {points} light-curve points in {seconds:.1} s \
-         ({:.0} trajectories/s, {:.2e} points/s)",
-        maps.len(),
-        trajectories as f64 / seconds,
-        points as f64 / seconds
-    );
-    let options = RefineOptions {
-        candidates: args.refine,
-        tol: args.tol,
-        max_iters: args.max_iters,
-    };
-    let bar = progress_bar("refine");
-    bar.set_length(options.candidates.min(maps.len()) as u64);
-    let minima = refine_minima(&data, &outcomes, &options, &|| bar.inc(1))?;
-    bar.finish_and_clear();
-    let best = &minima[0];
-    let report = Report {
-        data: &data,
-        single: &single,
-        minima: &minima,
-        error_scales: error_scales(&data, &best.refined.fluxes),
-        rescaled: args.rescale,
-        physical,
-    };
-    let csv = report.csv()?;
-    // Everything is computed before anything is written.
-    let curve = match &args.plot {
-        Some(_) => {
-            let (t0, t1) = data.iter().fold((f64::MAX, f64::MIN), |a, d| {
-                (a.0.min(d.times[0]), a.1.max(d.times[d.len() - 1]))
-            });
-            let n = 3000;
-            let times: Vec<f64> = (0..n)
-                .map(|k| t0 + (t1 - t0) * k as f64 / (n - 1) as f64)
-                .collect();
-            let model = &best.refined.model;
-            let a = model.magnifications(&times, data[0].limb_darkening, args.tol)?;
-            let at_data = data
-                .iter()
-                .map(|d| model.magnifications(&d.times, d.limb_darkening, args.tol))
-                .collect::<Result<Vec<_>>>()?;
-            Some((times, a, at_data))
-        }
-        None => None,
-    };
-    if let Some(png) = &args.chi2_map {
-        chi2_map_png(&outcomes, &minima, png)?;
-        eprintln!("wrote {}", png.display());
-    }
-    if let (Some(png), Some((times, a, at_data))) = (&args.plot, &curve) {
-        model_png(&data, &single, best, (times, a), at_data, png)?;
-        eprintln!("wrote {}", png.display());
-    }
-    eprint!("{}", report.summary());
-    match &args.out {
-        Some(path) => {
-            write_atomic(path, csv.as_bytes())?;
-            eprintln!("wrote {}", path.display());
-        }
-        None => print!("{csv}"),
-    }
-    Ok(())
+    let reporter = Reporter::new();
+    let fit = fit_event(&data, MapSource::Files(&maps), &options, &reporter)?;
+    drop(reporter);
+    args.outputs()
+        .write(&data, &fit, physical, options.refine.tol)
 }

@@ -53,8 +53,7 @@ impl PointMagnification for LensSystem {
         match self.lenses() {
             [one] => {
                 let u = (x - one.position.re).hypot(y - one.position.im);
-                let u2 = u * u;
-                Ok(((u2 + 2.0) / (u * (u2 + 4.0).sqrt()), 2))
+                Ok((crate::lens::paczynski(u), 2))
             }
             _ => ImageSolver::new(self)?.point_magnification(x, y),
         }

@@ -2,11 +2,13 @@
 //! refined, minima that converge to the same model are merged, close/wide pairs are marked, and
 //! the error-bar scale of each data set is measured at the best model.
 
+use super::model::BinaryModel;
 use super::photometry::DataSet;
-use super::refine::{close_wide, refine, same_minimum, Refined};
+use super::refine::{close_wide, refine_until, same_minimum, Refined};
 use super::search::{local_minima, MapOutcome};
 use crate::error::{Error, Result};
 use rayon::prelude::*;
+use std::time::{Duration, Instant};
 
 /// One distinct minimum, ranked.
 #[derive(Debug, Clone, PartialEq)]
@@ -17,6 +19,9 @@ pub struct Minimum {
     pub search_chi2: f64,
     /// Rank (1-based) of its close/wide partner, if one was found.
     pub partner: Option<usize>,
+    /// chi^2 of the model over the data as given (every point, errors unscaled); equal to
+    /// `refined.chi2` unless the fit clipped points or rescaled errors.
+    pub chi2_as_given: f64,
 }
 
 /// How many search candidates are refined, and how.
@@ -28,6 +33,9 @@ pub struct RefineOptions {
     pub tol: f64,
     /// Iteration limit of each minimisation.
     pub max_iters: u64,
+    /// Wall time allowed to one pass of refinements (all candidates together); when it runs
+    /// out each refinement returns what it has, with NaN uncertainties.
+    pub budget: Option<Duration>,
 }
 
 impl Default for RefineOptions {
@@ -36,6 +44,7 @@ impl Default for RefineOptions {
             candidates: 4,
             tol: 1e-4,
             max_iters: 600,
+            budget: Some(Duration::from_secs(600)),
         }
     }
 }
@@ -49,22 +58,38 @@ pub fn refine_minima(
     options: &RefineOptions,
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<Minimum>> {
-    let starts: Vec<_> = local_minima(outcomes)
+    let starts: Vec<(BinaryModel, f64)> = local_minima(outcomes)
         .into_iter()
         .take(options.candidates)
-        .map(|i| outcomes[i].candidates[0])
+        .map(|i| {
+            let c = outcomes[i].candidates[0];
+            (c.model, c.chi2)
+        })
         .collect();
     if starts.is_empty() {
         return Err(Error::Numerical(
             "search: no trajectory of any map could be evaluated".into(),
         ));
     }
+    refine_models(data, &starts, options, progress)
+}
+
+/// Refines each `(model, search chi^2)` of `starts` (in parallel, within the options' time
+/// budget), merges those that reach the same model, ranks them by chi^2 and marks close/wide
+/// pairs. `progress` is called after each refinement.
+pub fn refine_models(
+    data: &[DataSet],
+    starts: &[(BinaryModel, f64)],
+    options: &RefineOptions,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<Minimum>> {
+    let deadline = options.budget.map(|b| Instant::now() + b);
     let refined: Vec<(Refined, f64)> = starts
         .par_iter()
-        .map(|c| {
-            let r = refine(data, &c.model, options.tol, options.max_iters);
+        .map(|(model, chi2)| {
+            let r = refine_until(data, model, options.tol, options.max_iters, deadline);
             progress();
-            r.map(|r| (r, c.chi2))
+            r.map(|r| (r, *chi2))
         })
         .collect::<Result<_>>()?;
     let mut order: Vec<usize> = (0..refined.len()).collect();
@@ -83,6 +108,7 @@ pub fn refine_minima(
                 refined: r.clone(),
                 search_chi2: *search_chi2,
                 partner: None,
+                chi2_as_given: r.chi2,
             });
         }
     }

@@ -12,8 +12,10 @@
 //! - `refine`: local refinement with exact magnifications;
 //! - `minima`: from search outcomes to distinct refined minima, close/wide pairs, error scales;
 //! - `report`: the ranked table of minima (CSV) and its summary;
-//! - `plots`: the chi^2 map over (s, q) and the best model over the data (PNG).
+//! - `plots`: the chi^2 map over (s, q) and the best model over the data (PNG);
+//! - `event`: the whole fit of an event as one call (baseline, search, refinement, noise).
 
+pub mod event;
 pub mod fluxes;
 pub mod minima;
 pub mod model;

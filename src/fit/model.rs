@@ -90,6 +90,12 @@ pub struct BinaryModel {
 }
 
 impl BinaryModel {
+    /// The kind of model, as the table of minima names it: `static` (a binary lens without
+    /// orbital motion, the source on a straight line, no parallax).
+    pub fn kind(&self) -> &'static str {
+        "static"
+    }
+
     /// The lens system of this model.
     pub fn lens(&self) -> Result<LensSystem> {
         LensSystem::binary(self.s, self.q)
@@ -124,14 +130,4 @@ impl BinaryModel {
     }
 }
 
-/// Paczynski's point-source, point-lens magnification `(u^2 + 2) / (u sqrt(u^2 + 4))`
-/// (Paczynski 1986).
-///
-/// ```
-/// let a = causeway::fit::model::paczynski(1.0);
-/// assert!((a - 3.0 / 5f64.sqrt()).abs() < 1e-15);
-/// ```
-pub fn paczynski(u: f64) -> f64 {
-    let u2 = u * u;
-    (u2 + 2.0) / (u * (u2 + 4.0).sqrt())
-}
+pub use crate::lens::paczynski;

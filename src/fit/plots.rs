@@ -1,11 +1,11 @@
 //! Pictures of a search: the chi^2 map over (s, q), and the best model over the data.
 
 use super::minima::Minimum;
-use super::model::paczynski;
 use super::photometry::DataSet;
 use super::search::{grid_axes, MapOutcome};
 use super::single::SingleLensFit;
 use crate::error::{Error, Result};
+use crate::lens::paczynski;
 use crate::plot::{plot_size, write_stacked_png, Axis, Chart, Series, Style};
 use std::path::Path;
 

@@ -21,6 +21,7 @@ use super::photometry::DataSet;
 use crate::error::Result;
 use std::f64::consts::{PI, TAU};
 use std::sync::atomic::{AtomicU64, Ordering};
+use std::time::Instant;
 
 /// Jacobians the Levenberg-Marquardt stage of [`refine`] may take.
 pub const LM_ITERATIONS: u64 = 40;
@@ -105,10 +106,26 @@ pub fn canonical(model: &BinaryModel) -> BinaryModel {
 /// Refines `start` by minimising the exact chi^2 (relative magnification tolerance `tol`),
 /// then measures the curvature at the minimum.
 pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -> Result<Refined> {
+    refine_until(data, start, tol, max_iters, None)
+}
+
+/// [`refine`], stopped at `deadline`: from then on every trial counts as infeasible, so each
+/// stage ends at once with the best model it had (the uncertainties are then NaN).
+pub fn refine_until(
+    data: &[DataSet],
+    start: &BinaryModel,
+    tol: f64,
+    max_iters: u64,
+    deadline: Option<Instant>,
+) -> Result<Refined> {
     let evaluations = AtomicU64::new(0);
+    let late = || deadline.is_some_and(|d| Instant::now() >= d);
     let chi2_to = |tol: f64| {
         let evaluations = &evaluations;
         move |p: &[f64]| {
+            if late() {
+                return INFEASIBLE;
+            }
             evaluations.fetch_add(1, Ordering::Relaxed);
             match from_vector(p) {
                 Ok(m) => exact_chi2(data, &m, tol).map_or(INFEASIBLE, |c| c.0),
@@ -124,11 +141,23 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
     // along. Its Jacobian steps are a fiftieth of the simplex's.
     let residuals = |p: &[f64]| {
+        if late() {
+            return None;
+        }
         evaluations.fetch_add(1, Ordering::Relaxed);
         residuals_of(data, &from_vector(p).ok()?, tol).ok()
     };
     let h: Vec<f64> = step.iter().map(|s| 0.02 * s).collect();
-    let lm = least_squares(&residuals, &x0, &h, 1e-4, LM_ITERATIONS)?;
+    let lm_iters = LM_ITERATIONS.min(max_iters.max(1));
+    let lm = match least_squares(&residuals, &x0, &h, 1e-4, lm_iters) {
+        Ok(m) => m,
+        // Out of time (or the start outside the model): the start itself.
+        Err(_) => super::optimize::Minimum {
+            value: exact_chi2(data, start, tol)?.0,
+            x: x0.clone(),
+            evaluations: 1,
+        },
+    };
     // Then the simplex from there: stop when its chi^2 values agree to 0.01; start afresh
     // from the minimum (up to four rounds) while that still gains more than 0.1.
     let objective = chi2_to(tol);
@@ -137,6 +166,9 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
         found = lm;
     }
     for _ in 0..3 {
+        if late() {
+            break;
+        }
         let again = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
         let gain = found.value - again.value;
         if gain > 0.0 {
@@ -147,9 +179,10 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
         }
     }
     // A last Levenberg-Marquardt pass converges on the minimum the simplex stopped near.
-    let last = least_squares(&residuals, &found.x, &h, 1e-3, LM_ITERATIONS)?;
-    if last.value < found.value {
-        found = last;
+    if let Ok(last) = least_squares(&residuals, &found.x, &h, 1e-3, lm_iters) {
+        if last.value < found.value {
+            found = last;
+        }
     }
     // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.
     let h: Vec<f64> = step.iter().map(|s| 0.05 * s).collect();

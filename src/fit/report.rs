@@ -1,11 +1,15 @@
 //! The ranked table of minima (CSV) and its one-line-per-minimum summary.
 //!
 //! Columns: `rank`, each model parameter and its uncertainty (`s,s_err,q,q_err,alpha_deg,
-//! alpha_err_deg,u0,u0_err,t0,t0_err,tE,tE_err,rho,rho_err`), `chi2`, `dof`, `delta_chi2` (the
-//! single-lens fit's chi^2 less this model's: the improvement), `search_chi2` (the map-based
+//! alpha_err_deg,u0,u0_err,t0,t0_err,tE,tE_err,rho,rho_err`), `chi2` (over the data as given:
+//! every point, errors as in the files), `dof`, `delta_chi2` (the single-lens fit's chi^2 less
+//! this model's, both over the data as given: the improvement), `search_chi2` (the map-based
 //! value the refinement started from), `close_wide_partner` (rank of the partner, empty if
-//! none), then `fs_K,fb_K,error_scale_K` for each data set K (numbered from 1 in input order),
-//! then the physical scales when any were asked for.
+//! none), `chi2_fit` (what the fit minimised: clipped points out, each set's errors scaled),
+//! `model` (the kind of model: `static` for a binary on a straight line), then
+//! `fs_K,fb_K,error_scale_K,clipped_K` for each data set K (numbered from 1 in input order; the
+//! scale applied in the fit and the points clipped), then the physical scales when any were
+//! asked for.
 
 use super::minima::Minimum;
 use super::photometry::DataSet;
@@ -24,30 +28,23 @@ pub struct Report<'a> {
     pub single: &'a SingleLensFit,
     /// The ranked minima.
     pub minima: &'a [Minimum],
-    /// Error-bar scale of each data set (at the best model).
-    pub error_scales: Vec<f64>,
-    /// Whether the scales are applied to the chi^2 values reported.
-    pub rescaled: bool,
+    /// Error-bar scale of each data set applied in the fit.
+    pub error_scales: &'a [f64],
+    /// Points clipped from each data set.
+    pub clipped: Vec<usize>,
     /// Physical input, if any was given.
     pub physical: Option<PhysicalInput>,
 }
 
 impl Report<'_> {
-    fn chi2_of(&self, per_set: impl Iterator<Item = f64>) -> f64 {
-        per_set
-            .zip(&self.error_scales)
-            .map(|(c, k)| if self.rescaled { c / (k * k) } else { c })
-            .sum()
-    }
-
-    /// chi^2 of minimum `i` (rescaled if asked).
+    /// chi^2 of minimum `i` over the data as given.
     pub fn chi2(&self, i: usize) -> f64 {
-        self.chi2_of(self.minima[i].refined.fluxes.iter().map(|f| f.chi2))
+        self.minima[i].chi2_as_given
     }
 
-    /// chi^2 of the single-lens fit (rescaled if asked).
+    /// chi^2 of the single-lens fit over the data as given.
     pub fn single_chi2(&self) -> f64 {
-        self.chi2_of(self.single.fluxes.iter().map(|f| f.chi2))
+        self.single.chi2
     }
 
     /// Degrees of freedom of a binary model: points less 7 parameters and 2 fluxes per set.
@@ -68,10 +65,10 @@ impl Report<'_> {
     pub fn csv(&self) -> Result<String> {
         let mut out = String::from(
             "rank,s,s_err,q,q_err,alpha_deg,alpha_err_deg,u0,u0_err,t0,t0_err,tE,tE_err,rho,\
-             rho_err,chi2,dof,delta_chi2,search_chi2,close_wide_partner",
+             rho_err,chi2,dof,delta_chi2,search_chi2,close_wide_partner,chi2_fit,model",
         );
         for k in 1..=self.data.len() {
-            let _ = write!(out, ",fs_{k},fb_{k},error_scale_{k}");
+            let _ = write!(out, ",fs_{k},fb_{k},error_scale_{k},clipped_{k}");
         }
         if self.physical.is_some() {
             for name in Scales::NAMES {
@@ -114,8 +111,15 @@ impl Report<'_> {
                 fmt_f64(m.search_chi2),
                 m.partner.map_or(String::new(), |p| p.to_string())
             );
-            for (f, k) in r.fluxes.iter().zip(&self.error_scales) {
-                let _ = write!(out, ",{},{},{}", fmt_f64(f.fs), fmt_f64(f.fb), fmt_f64(*k));
+            let _ = write!(out, ",{},{}", fmt_f64(r.chi2), r.model.kind());
+            for ((f, k), c) in r.fluxes.iter().zip(self.error_scales).zip(&self.clipped) {
+                let _ = write!(
+                    out,
+                    ",{},{},{},{c}",
+                    fmt_f64(f.fs),
+                    fmt_f64(f.fb),
+                    fmt_f64(*k)
+                );
             }
             if let Some(sc) = self.scales_of(m)? {
                 for v in sc.values() {

@@ -26,7 +26,9 @@
 //!
 //! The central caustic is the one nearest the host (m1); the planetary caustics are the others
 //! (one for a wide binary, the two off-axis triangles of a close one, framed together). A
-//! resonant binary has one caustic, which both rules frame.
+//! resonant binary has one caustic, which both rules frame. `rule = "caustics"` makes both
+//! maps of each binary (one map where the binary has a single caustic): the library to use
+//! when the answer is not known, since any caustic an event may have crossed is on a map.
 //!
 //! Grid points are numbered q-major (`index = iq * len(s) + is`); shard `K/N` takes the points
 //! whose index is `K - 1` modulo `N`, so the shards of one spec are disjoint and together
@@ -111,6 +113,9 @@ pub enum WindowRule {
     Central { margin: f64, pixels: usize },
     /// Framing the planetary caustic(s), likewise.
     Planetary { margin: f64, pixels: usize },
+    /// Both: a map framing the central caustic and one framing the planetary caustic(s), or
+    /// one map when the binary has a single caustic.
+    Caustics { margin: f64, pixels: usize },
 }
 
 impl WindowSpec {
@@ -130,11 +135,12 @@ impl WindowSpec {
             )),
             (Some("central"), None, None) => Ok(WindowRule::Central { margin, pixels }),
             (Some("planetary"), None, None) => Ok(WindowRule::Planetary { margin, pixels }),
-            (Some("central" | "planetary"), _, _) => Err(Error::input(
+            (Some("caustics"), None, None) => Ok(WindowRule::Caustics { margin, pixels }),
+            (Some("central" | "planetary" | "caustics"), _, _) => Err(Error::input(
                 "window: center and width go with rule = \"fixed\" only",
             )),
             (Some(other), _, _) => Err(Error::input(format!(
-                "window.rule: unknown rule '{other}' (fixed, central or planetary)"
+                "window.rule: unknown rule '{other}' (fixed, central, planetary or caustics)"
             ))),
         }
     }
@@ -154,42 +160,69 @@ impl WindowRule {
     pub fn window(&self, lens: &LensSystem) -> Result<Window> {
         let (margin, pixels, central) = match *self {
             WindowRule::Fixed(w) => return Ok(w),
-            WindowRule::Central { margin, pixels } => (margin, pixels, true),
+            WindowRule::Central { margin, pixels } | WindowRule::Caustics { margin, pixels } => {
+                (margin, pixels, true)
+            }
             WindowRule::Planetary { margin, pixels } => (margin, pixels, false),
         };
-        let host = lens.lenses()[0].position;
-        let mut curves = caustic_curves(lens)?;
-        let distance = |c: &Vec<(f64, f64)>| {
-            let n = c.len().max(1) as f64;
-            let (x, y) = c.iter().fold((0.0, 0.0), |a, p| (a.0 + p.0, a.1 + p.1));
-            (x / n - host.re).hypot(y / n - host.im)
-        };
-        curves.sort_by(|a, b| distance(a).total_cmp(&distance(b)));
-        let chosen: Vec<&Vec<(f64, f64)>> = if central || curves.len() == 1 {
-            curves.iter().take(1).collect()
-        } else {
-            curves.iter().skip(1).collect()
-        };
-        let points = chosen.iter().flat_map(|c| c.iter());
-        let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
-        for &(x, y) in points {
-            x0 = x0.min(x);
-            x1 = x1.max(x);
-            y0 = y0.min(y);
-            y1 = y1.max(y);
-        }
-        if x0 > x1 {
-            return Err(Error::Numerical(format!(
-                "{lens}: no caustic found to frame"
-            )));
-        }
-        let extent = (x1 - x0).max(y1 - y0).max(1e-9);
-        let mut centre = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
-        if lens.symmetric_about_x_axis() && centre.1.abs() < 1e-3 * extent {
-            centre.1 = 0.0; // the framed caustics are symmetric: drop sampling round-off
-        }
-        Window::new(centre, margin * extent, pixels)
+        framing(lens, margin, pixels, central)
     }
+
+    /// Every window of the binary: one, or two for [`WindowRule::Caustics`] when the binary
+    /// has more than one caustic.
+    ///
+    /// ```
+    /// use causeway::{lens::LensSystem, store::library::WindowRule};
+    /// let rule = WindowRule::Caustics { margin: 1.5, pixels: 100 };
+    /// assert_eq!(rule.windows(&LensSystem::binary(1.5, 1e-3).unwrap()).unwrap().len(), 2);
+    /// assert_eq!(rule.windows(&LensSystem::binary(1.0, 1e-2).unwrap()).unwrap().len(), 1);
+    /// ```
+    pub fn windows(&self, lens: &LensSystem) -> Result<Vec<Window>> {
+        match *self {
+            WindowRule::Caustics { margin, pixels } if caustic_curves(lens)?.len() > 1 => Ok(vec![
+                framing(lens, margin, pixels, true)?,
+                framing(lens, margin, pixels, false)?,
+            ]),
+            _ => Ok(vec![self.window(lens)?]),
+        }
+    }
+}
+
+/// The window framing the central caustic of `lens` (or the others), `margin` times their
+/// extent, with `pixels` per side.
+fn framing(lens: &LensSystem, margin: f64, pixels: usize, central: bool) -> Result<Window> {
+    let host = lens.lenses()[0].position;
+    let mut curves = caustic_curves(lens)?;
+    let distance = |c: &Vec<(f64, f64)>| {
+        let n = c.len().max(1) as f64;
+        let (x, y) = c.iter().fold((0.0, 0.0), |a, p| (a.0 + p.0, a.1 + p.1));
+        (x / n - host.re).hypot(y / n - host.im)
+    };
+    curves.sort_by(|a, b| distance(a).total_cmp(&distance(b)));
+    let chosen: Vec<&Vec<(f64, f64)>> = if central || curves.len() == 1 {
+        curves.iter().take(1).collect()
+    } else {
+        curves.iter().skip(1).collect()
+    };
+    let points = chosen.iter().flat_map(|c| c.iter());
+    let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+    for &(x, y) in points {
+        x0 = x0.min(x);
+        x1 = x1.max(x);
+        y0 = y0.min(y);
+        y1 = y1.max(y);
+    }
+    if x0 > x1 {
+        return Err(Error::Numerical(format!(
+            "{lens}: no caustic found to frame"
+        )));
+    }
+    let extent = (x1 - x0).max(y1 - y0).max(1e-9);
+    let mut centre = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
+    if lens.symmetric_about_x_axis() && centre.1.abs() < 1e-3 * extent {
+        centre.1 = 0.0; // the framed caustics are symmetric: drop sampling round-off
+    }
+    Window::new(centre, margin * extent, pixels)
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -319,19 +352,20 @@ impl LibrarySpec {
         Self::parse(&text, &path.display().to_string())
     }
 
-    /// Every grid point, q-major.
+    /// Every grid point, q-major (two at one (s, q) where the rule makes two maps).
     pub fn points(&self) -> Result<Vec<GridPoint>> {
         let mut out = Vec::with_capacity(self.s.len() * self.q.len());
         for &q in &self.q {
             for &s in &self.s {
                 let lens = LensSystem::binary(s, q)?;
-                let window = self.window.window(&lens)?;
-                out.push(GridPoint {
-                    index: out.len(),
-                    s,
-                    q,
-                    key: MapKey::new(lens, window, &self.engine, self.density),
-                });
+                for window in self.window.windows(&lens)? {
+                    out.push(GridPoint {
+                        index: out.len(),
+                        s,
+                        q,
+                        key: MapKey::new(lens.clone(), window, &self.engine, self.density),
+                    });
+                }
             }
         }
         Ok(out)

@@ -4,8 +4,8 @@
 
 use super::{Bound, TE_MIN, TE_SPAN_FACTOR, TE_SPAN_MIN, U0_MAX, U0_MIN};
 use crate::fit::fluxes::FluxFit;
-use crate::fit::model::paczynski;
 use crate::fit::photometry::DataSet;
+use crate::lens::paczynski;
 
 /// Fewest points a data set needs to take part in a fit (two fluxes and one more).
 pub(super) const MIN_POINTS: usize = 3;

@@ -1,24 +1,28 @@
 //! Synthetic photometry of a binary-lens model: exact magnifications, `F = fs A + fb`, and seeded
-//! Gaussian noise.
+//! noise.
 //!
 //! Magnifications come from [`BinaryModel::magnifications`] (point source far from caustics,
-//! contour integration near them). The noise is drawn in time order from a ChaCha8 stream seeded
-//! with [`Simulation::seed`], so the output depends on the inputs only, never on the thread
-//! count. Two noise models ([`Noise`]):
+//! contour integration near them). Noise is drawn in time order from ChaCha8 streams fixed by
+//! the seed, so the output depends on the inputs only, never on the thread count.
 //!
-//! - in magnitudes: `m = zp - 2.5 log10(fs A + fb) + sigma_m z`, every point with the error
-//!   `sigma_m` (written as `mag,mag_err`);
-//! - in flux: `F = fs A + fb + sigma_F z`, every point with the error `sigma_F` (written as
-//!   `flux,flux_err`),
+//! Two ways to observe:
 //!
-//! with `z` standard normal.
+//! - [`Simulation`]: one data set at given times with one constant error, Gaussian in magnitude,
+//!   `m = zp - 2.5 log10(fs A + fb) + sigma_m z` (written as `mag,mag_err`), or in flux,
+//!   `F = fs A + fb + sigma_F z` (written as `flux,flux_err`), with `z` standard normal;
+//! - [`plan::ObservingPlan`]: several sites with nightly windows, lost nights, follow-up runs,
+//!   brightness-dependent errors, a true error scale, outliers and a time offset (see [`plan`]).
+
+mod observe;
+pub mod plan;
+mod schedule;
 
 use super::model::BinaryModel;
 use super::photometry::{flux_to_mag, DataSet, Measured, DEFAULT_ZERO_POINT};
 use crate::error::{Error, Result};
 use crate::source::LimbDarkening;
 use crate::table::fmt_f64;
-use rand::SeedableRng;
+use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 use std::fmt::Write as _;
@@ -40,6 +44,11 @@ pub enum Noise {
 
 impl Noise {
     /// What the output file holds.
+    ///
+    /// ```
+    /// use causeway::fit::{photometry::Measured, simulate::Noise};
+    /// assert_eq!(Noise::Flux { sigma: 0.1 }.measured(), Measured::Flux);
+    /// ```
     pub fn measured(&self) -> Measured {
         match self {
             Noise::Magnitude { .. } => Measured::Magnitude,
@@ -83,25 +92,40 @@ pub struct Simulation {
     pub tol: f64,
 }
 
-/// The points of a simulation: times, true magnifications, and the noisy values with their
-/// errors (magnitudes or fluxes, as [`Synthetic::measured`] says).
+/// The points of a simulation: times as written, true magnifications, the noise-free and the
+/// noisy values with their reported errors (magnitudes or fluxes, as [`Synthetic::measured`]
+/// says), and which points are follow-up points or outliers.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Synthetic {
-    /// Times (days), increasing.
+    /// Times as written (days), increasing.
     pub times: Vec<f64>,
     /// Model magnifications at the times.
     pub magnifications: Vec<f64>,
+    /// Noise-free values: magnitudes or fluxes of `fs A + fb`.
+    pub model: Vec<f64>,
     /// Observed values: magnitudes or fluxes.
     pub values: Vec<f64>,
-    /// Their errors.
+    /// Their reported errors.
     pub errors: Vec<f64>,
     /// Magnitudes or fluxes.
     pub measured: Measured,
+    /// Whether each point was taken at the follow-up cadence.
+    pub followup: Vec<bool>,
+    /// Whether each point is an outlier.
+    pub outliers: Vec<bool>,
 }
 
 impl Synthetic {
     /// The data-set file: header `t,mag,mag_err` or `t,flux,flux_err`, numbers in shortest
     /// round-trip form.
+    ///
+    /// ```
+    /// use causeway::fit::{photometry::Measured, simulate::Synthetic};
+    /// let s = Synthetic { times: vec![1.0], magnifications: vec![1.0], model: vec![2.0],
+    ///     values: vec![2.5], errors: vec![0.1], measured: Measured::Flux,
+    ///     followup: vec![false], outliers: vec![false] };
+    /// assert_eq!(s.to_csv(), "t,flux,flux_err\n1,2.5,0.1\n");
+    /// ```
     pub fn to_csv(&self) -> String {
         let mut out = String::from(match self.measured {
             Measured::Magnitude => "t,mag,mag_err\n",
@@ -111,6 +135,24 @@ impl Synthetic {
             let _ = writeln!(out, "{},{},{}", fmt_f64(*t), fmt_f64(*v), fmt_f64(*e));
         }
         out
+    }
+
+    /// The data set of [`Synthetic::to_csv`] read back (exactly what reading the file gives),
+    /// named `name`, with limb darkening `law`.
+    pub fn data_set(&self, name: &str, zero_point: f64, law: LimbDarkening) -> Result<DataSet> {
+        let mut data = DataSet::parse(&self.to_csv(), name, zero_point)?;
+        data.limb_darkening = law;
+        Ok(data)
+    }
+
+    /// Number of follow-up points.
+    pub fn followup_count(&self) -> usize {
+        self.followup.iter().filter(|&&f| f).count()
+    }
+
+    /// Number of outliers.
+    pub fn outlier_count(&self) -> usize {
+        self.outliers.iter().filter(|&&o| o).count()
     }
 }
 
@@ -142,17 +184,17 @@ impl Simulation {
     /// Checks the fluxes, noise and zero point (the model is checked when it is evaluated).
     fn check(&self) -> Result<()> {
         for (name, v) in [
-            ("--fs", self.fs),
-            ("--fb", self.fb),
-            ("--zero-point", self.zero_point),
+            ("fs", self.fs),
+            ("fb", self.fb),
+            ("zero_point", self.zero_point),
         ] {
             if !v.is_finite() {
                 return Err(Error::input(format!("{name}: must be finite, got {v}")));
             }
         }
         let (name, sigma) = match self.noise {
-            Noise::Magnitude { sigma } => ("--sigma-mag", sigma),
-            Noise::Flux { sigma } => ("--sigma-flux", sigma),
+            Noise::Magnitude { sigma } => ("sigma (mag)", sigma),
+            Noise::Flux { sigma } => ("sigma (flux)", sigma),
         };
         if !(sigma.is_finite() && sigma > 0.0) {
             return Err(Error::input(format!(
@@ -168,44 +210,95 @@ impl Simulation {
         self.check()?;
         let times = sorted_times(times)?;
         let magnifications = self.model.magnifications(&times, self.law, self.tol)?;
-        let mut rng = ChaCha8Rng::seed_from_u64(self.seed);
-        let mut values = Vec::with_capacity(times.len());
-        for (&t, &a) in times.iter().zip(&magnifications) {
-            let flux = self.fs * a + self.fb;
-            let z: f64 = StandardNormal.sample(&mut rng);
-            values.push(match self.noise {
-                Noise::Magnitude { sigma } => {
-                    if flux <= 0.0 || !flux.is_finite() {
-                        return Err(Error::input(format!(
-                            "--fs/--fb: the model flux {flux} at t = {t} is not positive, so it \
-                             has no magnitude (use --flux)"
-                        )));
-                    }
-                    flux_to_mag(flux, self.zero_point) + sigma * z
-                }
-                Noise::Flux { sigma } => flux + sigma * z,
-            });
-        }
-        let sigma = match self.noise {
-            Noise::Magnitude { sigma } | Noise::Flux { sigma } => sigma,
+        let (measured, sigma) = match self.noise {
+            Noise::Magnitude { sigma } => (Measured::Magnitude, sigma),
+            Noise::Flux { sigma } => (Measured::Flux, sigma),
         };
+        let model = self.model_values(&times, &magnifications, measured)?;
+        let errors = vec![sigma; times.len()];
+        let mut rng = ChaCha8Rng::seed_from_u64(self.seed);
+        let (values, outliers) = perturb(&model, &errors, 1.0, None, &mut rng);
         Ok(Synthetic {
-            errors: vec![sigma; times.len()],
+            followup: vec![false; times.len()],
             times,
             magnifications,
+            model,
             values,
-            measured: self.noise.measured(),
+            errors,
+            measured,
+            outliers,
         })
+    }
+
+    /// The noise-free values `fs A + fb` (as fluxes or magnitudes) at the magnifications
+    /// (`times` for messages only). A magnitude needs a positive flux.
+    fn model_values(&self, times: &[f64], a: &[f64], measured: Measured) -> Result<Vec<f64>> {
+        times
+            .iter()
+            .zip(a)
+            .map(|(&t, &a)| {
+                let flux = self.fs * a + self.fb;
+                match measured {
+                    Measured::Flux => Ok(flux),
+                    Measured::Magnitude if flux > 0.0 && flux.is_finite() => {
+                        Ok(flux_to_mag(flux, self.zero_point))
+                    }
+                    Measured::Magnitude => Err(Error::input(format!(
+                        "fs/fb: the model flux {flux} at t = {t} is not positive, so it has no \
+                         magnitude (write fluxes instead)"
+                    ))),
+                }
+            })
+            .collect()
     }
 
     /// The simulated data set at `times`: exactly what reading the file of
     /// [`Synthetic::to_csv`] gives, with this simulation's limb darkening.
     pub fn run(&self, times: &[f64]) -> Result<DataSet> {
-        let csv = self.synthesize(times)?.to_csv();
-        let mut data = DataSet::parse(&csv, "simulated", self.zero_point)?;
-        data.limb_darkening = self.law;
-        Ok(data)
+        self.synthesize(times)?
+            .data_set("simulated", self.zero_point, self.law)
     }
+}
+
+/// Lowest and highest outlier displacement, in reported errors.
+pub const OUTLIER_SIGMAS: (f64, f64) = (5.0, 20.0);
+
+/// Noisy values `model + scale error z` (`z` standard normal), in order, from `rng`.
+///
+/// Without an outlier fraction each point takes one normal draw. With one, each point takes
+/// exactly three draws (z, then two uniforms u and w), so the fraction never shifts the noise of
+/// later points: the point is an outlier when `u < fraction`, displaced by `d error` with
+/// `d = 5 * 4^x` (log-uniform in [5, 20]), `x = 2w` and sign `-` when `w < 0.5`, `x = 2w - 1`
+/// and sign `+` otherwise.
+fn perturb(
+    model: &[f64],
+    errors: &[f64],
+    scale: f64,
+    outlier_fraction: Option<f64>,
+    rng: &mut ChaCha8Rng,
+) -> (Vec<f64>, Vec<bool>) {
+    let (lo, hi) = OUTLIER_SIGMAS;
+    model
+        .iter()
+        .zip(errors)
+        .map(|(&m, &e)| {
+            let z: f64 = StandardNormal.sample(rng);
+            let value = m + scale * e * z;
+            let Some(fraction) = outlier_fraction else {
+                return (value, false);
+            };
+            let (u, w): (f64, f64) = (rng.random(), rng.random());
+            if u >= fraction {
+                return (value, false);
+            }
+            let (sign, x) = if w < 0.5 {
+                (-1.0, 2.0 * w)
+            } else {
+                (1.0, 2.0 * w - 1.0)
+            };
+            (value + sign * lo * (hi / lo).powf(x) * e, true)
+        })
+        .unzip()
 }
 
 /// The times sorted, checked finite, distinct and at least 3.

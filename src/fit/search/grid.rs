@@ -1,0 +1,284 @@
+//! The trajectory grid of one map: the rule that lays out the lines (alpha, u0), the timing of
+//! each line, and the line geometry against the map's window.
+
+use super::seed::Seed;
+use crate::curve::Preconvolved;
+use crate::error::{Error, Result};
+use crate::fit::model::Trajectory;
+use crate::lens::paczynski;
+use crate::lens::PointLens;
+use crate::map::Window;
+use num_complex::Complex64;
+use std::f64::consts::TAU;
+
+/// How the trajectory grid is laid out (see the module documentation).
+#[derive(Debug, Clone, PartialEq)]
+pub struct GridRule {
+    /// Trial source radii.
+    pub rhos: Vec<f64>,
+    /// Half-range of u0, relative to the seed's u0.
+    pub u0_span: f64,
+    /// Least half-range of u0 (absolute).
+    pub u0_floor: f64,
+    /// The fraction of the seed's misfit its valley may rise by within the u0 searched (see
+    /// [`Seed::u0_range`]).
+    pub u0_misfit: f64,
+    /// Factors on the seed's tE.
+    pub te_factors: Vec<f64>,
+    /// Shifts of t0 in units of the seed's tE.
+    pub t0_shifts: Vec<f64>,
+    /// Distinct trajectories kept per map.
+    pub keep: usize,
+    /// Relative tolerance of the off-map interpolation.
+    pub interpolation_tol: f64,
+    /// Also try each line timed so that its strongest map feature falls at the data's anomaly.
+    pub timed: bool,
+    /// The lines on a map are spaced for a source of at least `width / coarse_divisions` (see
+    /// [`GridRule::grid_rho`]).
+    pub coarse_divisions: f64,
+    /// Most trajectories (lines times timings) tried on one map before the polish.
+    pub max_trajectories: usize,
+}
+
+impl Default for GridRule {
+    fn default() -> Self {
+        GridRule {
+            rhos: vec![1e-3, 1.5e-3, 2.2e-3, 3.3e-3, 5e-3, 7.5e-3],
+            u0_span: 0.2,
+            u0_floor: 0.005,
+            u0_misfit: 0.1,
+            te_factors: vec![1.0],
+            t0_shifts: vec![0.0],
+            keep: 3,
+            interpolation_tol: 1e-3,
+            timed: false,
+            coarse_divisions: 100.0,
+            max_trajectories: 10_000,
+        }
+    }
+}
+
+impl GridRule {
+    /// Checks the rule's values.
+    pub fn validate(&self) -> Result<()> {
+        let bad = |m: String| Err(Error::input(m));
+        if self.rhos.is_empty() || self.rhos.iter().any(|&r| !(r.is_finite() && r > 0.0)) {
+            return bad(format!(
+                "--rho: trial radii must be finite and > 0, got {:?}",
+                self.rhos
+            ));
+        }
+        if !(self.u0_span.is_finite() && self.u0_span >= 0.0) {
+            return bad(format!("--u0-span: must be >= 0, got {}", self.u0_span));
+        }
+        if !(self.u0_misfit.is_finite() && self.u0_misfit >= 0.0) {
+            return bad(format!("--u0-misfit: must be >= 0, got {}", self.u0_misfit));
+        }
+        if !(self.u0_floor.is_finite() && self.u0_floor >= 0.0) {
+            return bad(format!("--u0-floor: must be >= 0, got {}", self.u0_floor));
+        }
+        if self.te_factors.is_empty()
+            || self.te_factors.iter().any(|&f| !(f.is_finite() && f > 0.0))
+        {
+            return bad(format!(
+                "--te-factors: must be finite and > 0, got {:?}",
+                self.te_factors
+            ));
+        }
+        if self.t0_shifts.is_empty() || self.t0_shifts.iter().any(|f| !f.is_finite()) {
+            return bad(format!(
+                "--t0-shifts: must be finite, got {:?}",
+                self.t0_shifts
+            ));
+        }
+        if self.keep == 0 {
+            return bad("--keep: must be at least 1".into());
+        }
+        if !(self.coarse_divisions.is_finite() && self.coarse_divisions >= 1.0) {
+            return bad(format!(
+                "coarse divisions: must be >= 1, got {}",
+                self.coarse_divisions
+            ));
+        }
+        if self.max_trajectories == 0 {
+            return bad("--max-trajectories: must be at least 1".into());
+        }
+        Ok(())
+    }
+
+    pub(super) fn rho_min(&self) -> f64 {
+        self.rhos.iter().copied().fold(f64::INFINITY, f64::min)
+    }
+
+    /// Timings tried on each line: every tE factor with every t0 shift, and every tE factor
+    /// once more anchored on the anomaly when [`GridRule::timed`].
+    pub fn timings_per_line(&self) -> usize {
+        self.te_factors.len() * (self.t0_shifts.len() + usize::from(self.timed))
+    }
+
+    /// The source radius the lines on `window` are spaced for: the smallest trial rho, or
+    /// `width / coarse_divisions` when that is larger (a wide window is searched first with its
+    /// map smoothed by that source, then each kept line is polished at the trial radii), or
+    /// larger still so that lines times timings stay within [`GridRule::max_trajectories`].
+    ///
+    /// ```
+    /// use causeway::fit::search::{GridRule, Seed};
+    /// use causeway::map::Window;
+    /// let rule = GridRule::default();
+    /// let seed = Seed::at(0.0, 0.1, 20.0);
+    /// // A small window keeps the smallest trial radius; a wide one is coarser.
+    /// assert_eq!(rule.grid_rho(&Window::new((0.5, 0.0), 0.05, 100).unwrap(), &seed), 1e-3);
+    /// assert!(rule.grid_rho(&Window::new((0.0, 0.0), 2.0, 100).unwrap(), &seed) >= 0.02);
+    /// ```
+    pub fn grid_rho(&self, window: &Window, seed: &Seed) -> f64 {
+        let mut rho = self.rho_min().max(window.width / self.coarse_divisions);
+        for _ in 0..8 {
+            let n = self.lines_at(window, seed, rho).len() * self.timings_per_line();
+            if n <= self.max_trajectories {
+                break;
+            }
+            rho *= 1.05 * (n as f64 / self.max_trajectories as f64).sqrt();
+        }
+        rho
+    }
+
+    /// The (alpha, u0) lines of the grid for a window, spaced for [`GridRule::grid_rho`] (see
+    /// the module documentation).
+    ///
+    /// ```
+    /// use causeway::fit::search::{GridRule, Seed};
+    /// use causeway::map::Window;
+    /// let rule = GridRule { rhos: vec![0.005], ..GridRule::default() };
+    /// let seed = Seed::at(0.0, 0.1, 20.0);
+    /// let w = Window::new((0.3, 0.0), 0.1, 100).unwrap();
+    /// let lines = rule.lines(&w, &seed);
+    /// // Every line passes within the half-diagonal of the window's centre...
+    /// let r = 0.05 * 2f64.sqrt();
+    /// assert!(lines.iter().all(|&(a, u0)| (-0.3 * a.sin() - u0).abs() <= r + 1e-12));
+    /// // ...and u0 stays within 20% of the seed's.
+    /// assert!(lines.iter().all(|&(_, u0)| (0.08 - 1e-12..=0.12 + 1e-12).contains(&u0)));
+    /// ```
+    pub fn lines(&self, window: &Window, seed: &Seed) -> Vec<(f64, f64)> {
+        self.lines_at(window, seed, self.grid_rho(window, seed))
+    }
+
+    /// The lines for a source of radius `rho`: alpha and u0 steps of at most `2 rho`.
+    pub(super) fn lines_at(&self, window: &Window, seed: &Seed, rho: f64) -> Vec<(f64, f64)> {
+        let step = 2.0 * rho;
+        let reach = window.width / std::f64::consts::SQRT_2;
+        let n_alpha = ((TAU * reach / step).ceil() as usize).max(8);
+        let half = (self.u0_span * seed.u0).max(self.u0_floor);
+        let range = seed.u0_range(self.u0_misfit);
+        let lo = (seed.u0 - half).min(range.0).max(0.0);
+        let hi = (seed.u0 + half).max(range.1);
+        let n_u = ((hi - lo) / step).ceil().max(1.0);
+        let du = (hi - lo) / n_u;
+        let (cx, cy) = window.center;
+        let mut out = Vec::new();
+        for k in 0..n_alpha {
+            let alpha = k as f64 * TAU / n_alpha as f64;
+            // The line's u0 is its offset from the origin along n = (-sin, cos).
+            let pc = -cx * alpha.sin() + cy * alpha.cos();
+            let first = ((pc - reach - lo) / du).ceil().max(0.0) as usize;
+            let last = ((pc + reach - lo) / du).floor().min(n_u) as i64;
+            for j in first as i64..=last {
+                out.push((alpha, lo + j as f64 * du));
+            }
+        }
+        out
+    }
+}
+
+/// Times during which the straight line of `tr` lies in `window`, if any.
+pub(super) fn crossing(tr: &Trajectory, window: &Window) -> Option<(f64, f64)> {
+    let l = tr.line();
+    let (sn, cs) = l.alpha.sin_cos();
+    let (x0, y0) = window.origin();
+    let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
+    // x(tau) = tau cos - u0 sin, y(tau) = tau sin + u0 cos.
+    for (slope, offset, a, b) in [
+        (cs, -l.u0 * sn, x0, x0 + window.width),
+        (sn, l.u0 * cs, y0, y0 + window.width),
+    ] {
+        if slope.abs() < 1e-15 {
+            if offset < a || offset > b {
+                return None;
+            }
+        } else {
+            let (t1, t2) = ((a - offset) / slope, (b - offset) / slope);
+            lo = lo.max(t1.min(t2));
+            hi = hi.min(t1.max(t2));
+        }
+    }
+    (lo <= hi).then_some((l.t0 + lo * l.te, l.t0 + hi * l.te))
+}
+
+/// A grid line that crosses the map's window, and the times during which it does.
+pub(super) struct Line {
+    pub(super) trajectory: Trajectory,
+    /// First and last time in the window.
+    pub(super) span: (f64, f64),
+}
+
+impl Line {
+    /// The line of `trajectory` if it crosses `window` at one of the sorted `times`.
+    pub(super) fn observed(trajectory: Trajectory, window: &Window, times: &[f64]) -> Option<Line> {
+        let span = crossing(&trajectory, window)?;
+        let k = times.partition_point(|&t| t < span.0);
+        (k < times.len() && times[k] <= span.1).then_some(Line { trajectory, span })
+    }
+}
+
+/// The `(t0, tE)` of the line `(alpha, u0)` about the origin whose motion relative to the host
+/// at `host` is the single lens's at the same impact parameter ([`Seed::timing`]): relative to
+/// the host the line has `u0_h = u0 - n.host` and `tau_h = tau - d.host`, with
+/// `d = (cos alpha, sin alpha)` and `n = (-sin alpha, cos alpha)`, so `t0 = t0_h - (d.host) tE`.
+pub(super) fn host_timing(seed: &Seed, host: Complex64, alpha: f64, u0: f64) -> (f64, f64) {
+    let (sn, cs) = alpha.sin_cos();
+    let along = cs * host.re + sn * host.im;
+    let across = -sn * host.re + cs * host.im;
+    let (t0_h, te) = seed.timing((u0 - across).abs());
+    (t0_h - along * te, te)
+}
+
+/// Where along the line of `tr` (as `tau`, the line's own time in units of tE from its closest
+/// approach) its magnification on the map departs most from the host's alone (a bump or a dip:
+/// the largest `|ln(A / A_host)|`), sampled every `rho / 2` across the window; `None` if it never
+/// departs by 5%.
+pub(super) fn strongest_feature(
+    tr: &Trajectory,
+    window: &Window,
+    conv: &Preconvolved,
+    host: &PointLens,
+    rho: f64,
+) -> Option<f64> {
+    let l = tr.line();
+    let (a, b) = crossing(tr, window)?;
+    let (tau0, tau1) = ((a - l.t0) / l.te, (b - l.t0) / l.te);
+    let n = ((tau1 - tau0) / (0.5 * rho)).ceil().min(1e5) as usize;
+    let (sn, cs) = l.alpha.sin_cos();
+    let mut best = (1.05f64.ln(), None);
+    for k in 0..=n {
+        let tau = tau0 + (tau1 - tau0) * k as f64 / n.max(1) as f64;
+        let (x, y) = (tau * cs - l.u0 * sn, tau * sn + l.u0 * cs);
+        if let Some(a) = conv.read(x, y) {
+            let u = (Complex64::new(x, y) - host.position).norm() / host.mass.sqrt();
+            let departure = (a / paczynski(u.max(1e-12))).ln().abs();
+            if departure > best.0 {
+                best = (departure, Some(tau));
+            }
+        }
+    }
+    best.1
+}
+
+/// Whether two grid trajectories are distinct: more than five grid steps apart in alpha or u0,
+/// or timed differently (t0 by more than 2% of tE, or tE by more than 5%).
+pub(super) fn distinct(a: &Trajectory, b: &Trajectory, d_alpha: f64, d_u0: f64) -> bool {
+    let (a, b) = (a.line(), b.line());
+    let da = (a.alpha - b.alpha).rem_euclid(TAU);
+    da.min(TAU - da) > 5.0 * d_alpha
+        || (a.u0 - b.u0).abs() > 5.0 * d_u0
+        || (a.t0 - b.t0).abs() > 0.02 * a.te.min(b.te)
+        || (a.te / b.te).ln().abs() > 0.05
+}

@@ -1,0 +1,562 @@
+//! The grid search: for every (s, q) map of a library, a grid of trajectories around the
+//! single-lens seed, finite-source curves from the pre-convolved map at each trial rho, chi^2
+//! for each; the best few per map kept.
+//!
+//! # The grid rule
+//!
+//! Let `rho_min` be the smallest trial rho and `R = width / sqrt(2)` the half-diagonal of the
+//! map's window. Trajectories are taken at
+//! - `alpha` in `[0, 2 pi)` with step at most `2 rho_min / R`, and
+//! - `u0 >= 0` in `[u0* - D, u0* + D]`, `D = max(u0_span u0*, u0_floor)`, widened to cover
+//!   the seed's [`Seed::u0_range`] at [`GridRule::u0_misfit`] (the `u0` its single lens
+//!   cannot rule out), step at most
+//!   `2 rho_min`, keeping for each alpha only the u0 whose line passes within `R` of the
+//!   window's centre,
+//!
+//! each timed as the single lens at the same impact parameter about the host: `(t0*, tE*)` of
+//! [`Seed::timing`] at `u0_h`, the line's impact parameter about the heavier lens, with `t0`
+//! moved by the host's offset from the origin along the line (see `host_timing`). The single
+//! lens with free blending fixes its `u0` poorly but `(t0, tE)` well at each `u0` (for
+//! `u0 << 1` the product `u0 tE`), so the grid in `u0` walks along that valley and the true
+//! line is met with its true timing. Each line is taken for every `tE = tE* f` (the factors of
+//! [`GridRule::te_factors`], default 1) and `t0 = t0* + k tE*` (the shifts of
+//! [`GridRule::t0_shifts`], default 0). Two neighbouring
+//! lines through the window are then nowhere in it more than `2 rho_min` apart (the alpha step
+//! turns a line about the window's centre, moving its points in the window by at most
+//! `R dalpha <= 2 rho_min`; the u0 step moves it by at most `2 rho_min`), so every point of the
+//! window lies within `rho_min` of a grid line: a caustic crossed by any line through the window
+//! is touched by the source of a grid trajectory, and no crossing is stepped over.
+//!
+//! With [`GridRule::timed`] (off by default: it multiplies the lines by up to about four), each
+//! line is tried twice when the data show an anomaly ([`Seed::anomaly`], the time of
+//! their largest departure from the single-lens fit): once with the seed's t0, and once with
+//! the t0 that puts the line's strongest feature on the map (its largest excess over the
+//! host's own magnification, sampled every `rho_min / 2`) at that time. A planetary anomaly
+//! or blending biases the single-lens tE by several percent, which moves a caustic crossing
+//! by many source radii; the timed copy does not depend on it.
+//!
+//! Negative `u0` are not searched: a binary is symmetric about its axis, and `(u0, alpha)` and
+//! `(-u0, -alpha)` give the same curve, so the twin minima are one (reported with `u0 >= 0`).
+//! Lines that cross the window at no observed time are skipped: the map adds nothing to them.
+//!
+//! # Magnifications in the search
+//!
+//! Where the source lies on the map (within the pre-convolution's margin), the pre-convolved
+//! map is read bilinearly. Elsewhere the sampler's continuation is taken at its zeroth order,
+//! the exact point-source magnification (it does not depend on rho, so one evaluation serves
+//! every trial rho), computed at a subset of the times and interpolated linearly in between
+//! where the midpoint of every interval agrees with the interpolation to
+//! [`GridRule::interpolation_tol`], no interval spans more than [`MAX_STRIDE`] points, and none
+//! is longer than [`CLEARANCE_REACH`] times the source's clearance at its start: its distance
+//! from the nearest lens or caustic point, less the spacing of the caustic points kept. Off
+//! the caustics the point-source magnification is smooth on the scale of that distance, so far
+//! from them a few solves serve long stretches of the curve, and near them the intervals
+//! shrink before the midpoint test could be fooled by a feature between its samples. What
+//! is interpolated is the ratio of the binary's magnification to the host's alone (Paczynski's
+//! formula for m1 at its position), which stays near 1 and flat wherever the companion matters
+//! little; the host's peak is then not interpolated at all. The intervals are taken in time
+//! order, so that consecutive solves start from the previous images. Only the points observed while the
+//! line is in the window (a time span found once per line) are looked up on the maps; the
+//! others are off every map without a look.
+//!
+//! The fluxes are not formed: for each data set the weights and the sums of the data alone are
+//! computed once per map, and a curve's chi^2 at its best `(fs, fb)` follows from three sums
+//! over it (`sum w A`, `sum w A^2`, `sum w A (F - Fbar)`; see `Weighted::chi2`). The sums over
+//! the off-map points do not depend on rho and are taken once per trajectory. The search only
+//! ranks; the refinement ([`super::refine`]) recomputes every point exactly.
+
+mod evaluate;
+mod grid;
+mod readers;
+mod seed;
+mod sums;
+
+pub use evaluate::{CLEARANCE_REACH, MAX_STRIDE};
+pub use grid::GridRule;
+pub use seed::{Seed, ValleyPoint};
+
+use crate::error::{Error, Result};
+use crate::fit::model::{BinaryModel, Trajectory};
+use crate::fit::optimize::minimize;
+use crate::fit::photometry::DataSet;
+use crate::lens::LensSystem;
+use crate::map::{read_fits, MagnificationMap, Window};
+use crate::solve::ImageSolver;
+use crate::store::library::LibrarySpec;
+use crate::store::Store;
+use evaluate::Scratch;
+use grid::{crossing, distinct, host_timing, strongest_feature, Line};
+use rayon::prelude::*;
+use readers::Readers;
+use std::path::PathBuf;
+use std::sync::atomic::{AtomicU64, Ordering};
+use sums::Weighted;
+
+/// Iteration limit of the polish of each kept candidate on its map.
+pub const POLISH_ITERATIONS: u64 = 300;
+/// Trial radii besides the grid's best at which each kept line is polished again.
+pub const RHO_RETRIES: usize = 2;
+
+/// One map of a library to search.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LibraryMap {
+    /// Separation.
+    pub s: f64,
+    /// Mass ratio.
+    pub q: f64,
+    /// The map's FITS file.
+    pub path: PathBuf,
+}
+
+/// A trial model and its chi^2.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Candidate {
+    /// The model.
+    pub model: BinaryModel,
+    /// chi^2 over all data sets (fluxes solved).
+    pub chi2: f64,
+}
+
+/// What the search found on one map.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MapOutcome {
+    /// Separation.
+    pub s: f64,
+    /// Mass ratio.
+    pub q: f64,
+    /// The best distinct candidates, best first (empty if no trajectory could be evaluated).
+    pub candidates: Vec<Candidate>,
+    /// Trajectories evaluated (each at every trial rho).
+    pub trajectories: u64,
+    /// Light-curve points evaluated (trajectories x rho x data points).
+    pub points: u64,
+    /// Remarks for the user (trial radii the map cannot resolve, and the like).
+    pub notes: Vec<String>,
+}
+
+impl MapOutcome {
+    /// chi^2 of the best candidate (infinite if none).
+    pub fn best_chi2(&self) -> f64 {
+        self.candidates.first().map_or(f64::INFINITY, |c| c.chi2)
+    }
+}
+
+/// Where the maps of a search come from: files (read one at a time, as each is searched) or
+/// maps already in memory.
+#[derive(Debug, Clone, Copy)]
+pub enum MapSource<'a> {
+    /// FITS files of a library, as listed by [`maps_of_spec`] or [`maps_of_store`].
+    Files(&'a [LibraryMap]),
+    /// Maps in memory (binary lenses).
+    Loaded(&'a [MagnificationMap]),
+}
+
+impl MapSource<'_> {
+    /// Number of maps.
+    pub fn len(&self) -> usize {
+        match self {
+            MapSource::Files(f) => f.len(),
+            MapSource::Loaded(m) => m.len(),
+        }
+    }
+
+    /// Whether there are no maps.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+}
+
+/// Searches every map of `library` (in parallel; the outcome does not depend on the thread
+/// count), calling `progress` after each map.
+pub fn search(
+    data: &[DataSet],
+    seed: &Seed,
+    library: &[LibraryMap],
+    rule: &GridRule,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<MapOutcome>> {
+    search_maps(data, seed, MapSource::Files(library), rule, progress)
+}
+
+/// Searches every map of `maps` (see [`search`]).
+pub fn search_maps(
+    data: &[DataSet],
+    seed: &Seed,
+    maps: MapSource,
+    rule: &GridRule,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<MapOutcome>> {
+    rule.validate()?;
+    (0..maps.len())
+        .into_par_iter()
+        .map(|i| {
+            let outcome = match maps {
+                MapSource::Files(files) => {
+                    search_map(data, seed, &read_fits(&files[i].path)?, rule)
+                }
+                MapSource::Loaded(loaded) => search_map(data, seed, &loaded[i], rule),
+            };
+            progress();
+            outcome
+        })
+        .collect()
+}
+
+/// The outcomes of maps of the same (s, q) (windows on different caustics of one binary) made
+/// one: their candidates together, best first, at most `keep`; their counts and notes summed.
+///
+/// ```
+/// use causeway::fit::search::{merge_grid_points, MapOutcome};
+/// let empty = |s: f64| MapOutcome { s, q: 1e-3, candidates: vec![], trajectories: 5,
+///     points: 10, notes: vec![] };
+/// let merged = merge_grid_points(vec![empty(1.0), empty(1.2), empty(1.0)], 3);
+/// assert_eq!(merged.len(), 2);
+/// assert_eq!(merged[0].trajectories, 10);
+/// ```
+pub fn merge_grid_points(outcomes: Vec<MapOutcome>, keep: usize) -> Vec<MapOutcome> {
+    let mut merged: Vec<MapOutcome> = Vec::new();
+    for o in outcomes {
+        match merged.iter_mut().find(|m| m.s == o.s && m.q == o.q) {
+            Some(m) => {
+                m.candidates.extend(o.candidates);
+                m.candidates.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
+                m.candidates.truncate(keep.max(1));
+                m.trajectories += o.trajectories;
+                m.points += o.points;
+                m.notes.extend(o.notes);
+            }
+            None => merged.push(o),
+        }
+    }
+    merged
+}
+
+/// Searches one map.
+pub fn search_map(
+    data: &[DataSet],
+    seed: &Seed,
+    map: &MagnificationMap,
+    rule: &GridRule,
+) -> Result<MapOutcome> {
+    let lens: &LensSystem = &map.provenance.lens;
+    let (s, q) = lens
+        .binary_parameters()
+        .ok_or_else(|| Error::input("search: library maps must be of binary lenses"))?;
+    let mut notes = Vec::new();
+    // The lines are spaced for the grid's radius; when it exceeds every trial radius the map is
+    // also read smoothed by it (the last reader), and the kept lines move to the trial radii in
+    // the polish.
+    let grid_rho = rule.grid_rho(&map.window, seed);
+    let mut rhos = rule.rhos.clone();
+    let trial_max = rhos.iter().copied().fold(0.0, f64::max);
+    if grid_rho > trial_max * (1.0 + 1e-9) {
+        rhos.push(grid_rho);
+    }
+    let readers = Readers::new(map, data, &rhos, &mut notes)?;
+    let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
+    all_times.sort_by(f64::total_cmp);
+    let lines = timed_lines(seed, map, rule, &readers, grid_rho, &all_times)?;
+    let sets: Vec<Weighted> = data.iter().map(Weighted::new).collect();
+    let solver = ImageSolver::new(lens)?;
+    let points = AtomicU64::new(0);
+    let evaluated: Vec<Option<(f64, usize)>> = lines
+        .par_iter()
+        .map_init(
+            || (solver.clone(), Scratch::default()),
+            |(solver, scratch), line| {
+                scratch
+                    .trajectory_chi2(solver, &sets, &readers, line, rule)
+                    .ok()?;
+                let chi2 = &scratch.chi2;
+                points.fetch_add((chi2.len() * all_times.len()) as u64, Ordering::Relaxed);
+                chi2.iter()
+                    .enumerate()
+                    .filter(|(_, c)| c.is_finite())
+                    .min_by(|a, b| a.1.total_cmp(b.1))
+                    .map(|(i, &c)| (c, i))
+            },
+        )
+        .collect();
+    let mut ranked: Vec<(f64, usize, usize)> = evaluated
+        .iter()
+        .enumerate()
+        .filter_map(|(i, e)| e.map(|(c, r)| (c, i, r)))
+        .collect();
+    ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    let steps = (
+        2.0 * grid_rho * std::f64::consts::SQRT_2 / map.window.width,
+        2.0 * grid_rho,
+    );
+    let mut kept: Vec<(Candidate, usize)> = Vec::new();
+    for (chi2, i, r) in ranked {
+        let trajectory = lines[i].trajectory;
+        let model = BinaryModel {
+            s,
+            q,
+            rho: rhos[r],
+            trajectory,
+        };
+        if kept
+            .iter()
+            .all(|(c, _)| distinct(&c.model.trajectory, &trajectory, steps.0, steps.1))
+        {
+            kept.push((Candidate { model, chi2 }, r));
+            if kept.len() == rule.keep {
+                break;
+            }
+        }
+    }
+    let polisher = Polisher {
+        solver: &solver,
+        sets: &sets,
+        readers: &readers,
+        rule,
+        steps,
+        window: &map.window,
+    };
+    let mut candidates: Vec<Candidate> = kept
+        .par_iter()
+        .map(|(c, r)| polisher.run(c, *r))
+        .collect::<Result<_>>()?;
+    candidates.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
+    Ok(MapOutcome {
+        s,
+        q,
+        candidates,
+        trajectories: lines.len() as u64,
+        points: points.into_inner(),
+        notes,
+    })
+}
+
+/// The grid's lines on `map` with their timings: each (alpha, u0) of [`GridRule::lines`] timed
+/// from the seed's valley about the host ([`host_timing`]) with every tE factor and t0 shift
+/// (in units of the line's tE), and, with [`GridRule::timed`] and a known anomaly, timed once
+/// more per tE factor so that its strongest feature on the smoothest reader falls at the
+/// anomaly. Only lines that cross the window at an observed time are kept.
+fn timed_lines(
+    seed: &Seed,
+    map: &MagnificationMap,
+    rule: &GridRule,
+    readers: &Readers,
+    grid_rho: f64,
+    times: &[f64],
+) -> Result<Vec<Line>> {
+    let smoothest = readers.convolved[0].iter().rev().flatten().next();
+    let mut lines = Vec::new();
+    for (alpha, u0) in rule.lines_at(&map.window, seed, grid_rho) {
+        let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
+        let base = Trajectory::straight(t0, u0, te, alpha)?;
+        let feature = match (rule.timed, seed.anomaly, smoothest) {
+            (true, Some(ta), Some(conv)) => {
+                strongest_feature(&base, &map.window, conv, &readers.host, grid_rho)
+                    .map(|tau| (ta, tau))
+            }
+            _ => None,
+        };
+        for &f in &rule.te_factors {
+            let te = te * f;
+            for &shift in &rule.t0_shifts {
+                let tr = Trajectory::straight(t0 + shift * te, u0, te, alpha)?;
+                lines.extend(Line::observed(tr, &map.window, times));
+            }
+            if let Some((ta, tau)) = feature {
+                let tr = Trajectory::straight(ta - tau * te, u0, te, alpha)?;
+                lines.extend(Line::observed(tr, &map.window, times));
+            }
+        }
+    }
+    Ok(lines)
+}
+
+/// What the polish of a kept line on its map needs.
+struct Polisher<'a> {
+    solver: &'a ImageSolver,
+    sets: &'a [Weighted<'a>],
+    readers: &'a Readers,
+    rule: &'a GridRule,
+    /// The grid's steps in alpha and u0, the simplex's first steps.
+    steps: (f64, f64),
+    window: &'a Window,
+}
+
+impl Polisher<'_> {
+    /// Polishes a grid candidate read at `readers.rhos[r]`: a local minimisation of the map's
+    /// chi^2 over (alpha, u0, t0, ln tE) at that radius. The polished line is then read at
+    /// every trial radius and polished again at the [`RHO_RETRIES`] best others (a caustic
+    /// crossing seen at a few points makes chi^2 rugged in rho, and the grid's best radius is
+    /// often not the one nearest the truth); the best of these is kept.
+    fn run(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+        let trials = self.rule.rhos.len();
+        let mut best = self.polish_at(start, r)?;
+        let Some(line) = self.line(&best.model.trajectory) else {
+            return Ok(best);
+        };
+        let chi2 = self.chi2_all(&line);
+        let mut others: Vec<usize> = (0..trials)
+            .filter(|&i| i != r && chi2[i].is_finite())
+            .collect();
+        others.sort_by(|&a, &b| chi2[a].total_cmp(&chi2[b]));
+        // A candidate at the grid's smoothing radius (beyond the trial radii) must move to one.
+        let retries = if r < trials { RHO_RETRIES } else { RHO_RETRIES + 1 };
+        let from = best;
+        for &i in others.iter().take(retries) {
+            let at_trial = Candidate {
+                model: BinaryModel {
+                    rho: self.rule.rhos[i],
+                    ..from.model
+                },
+                chi2: chi2[i],
+            };
+            let polished = self.polish_at(&at_trial, i)?;
+            if polished.chi2 < best.chi2 || best.model.rho == from.model.rho && r >= trials {
+                best = polished;
+            }
+        }
+        Ok(best)
+    }
+
+    fn line(&self, trajectory: &Trajectory) -> Option<Line> {
+        let span = crossing(trajectory, self.window)?;
+        Some(Line {
+            trajectory: *trajectory,
+            span,
+        })
+    }
+
+    /// chi^2 of `line` at every reader's radius (infinite where it cannot be read).
+    fn chi2_all(&self, line: &Line) -> Vec<f64> {
+        let mut solver = self.solver.clone();
+        let mut scratch = Scratch::default();
+        match scratch.trajectory_chi2(&mut solver, self.sets, self.readers, line, self.rule) {
+            Ok(()) => scratch.chi2,
+            Err(_) => vec![f64::INFINITY; self.readers.rhos.len()],
+        }
+    }
+
+    /// The polish at one radius; keeps the start if the minimisation finds nothing better.
+    fn polish_at(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+        let work = std::sync::Mutex::new((self.solver.clone(), Scratch::default()));
+        let chi2 = |p: &[f64]| -> f64 {
+            let Ok(trajectory) = Trajectory::straight(p[2], p[1], p[3].exp(), p[0]) else {
+                return f64::INFINITY;
+            };
+            let Some(line) = self.line(&trajectory) else {
+                return f64::INFINITY;
+            };
+            let mut guard = work.lock().unwrap_or_else(|e| e.into_inner());
+            let (solver, scratch) = &mut *guard;
+            match scratch.trajectory_chi2(solver, self.sets, self.readers, &line, self.rule) {
+                Ok(()) => scratch.chi2[r],
+                Err(_) => f64::INFINITY,
+            }
+        };
+        let l = start.model.trajectory.line();
+        let x0 = [l.alpha, l.u0, l.t0, l.te.ln()];
+        let step = [self.steps.0, self.steps.1, 0.01 * l.te, 0.03];
+        let found = minimize(&chi2, &x0, &step, 0.01, POLISH_ITERATIONS)?;
+        if found.value >= start.chi2 {
+            return Ok(*start);
+        }
+        let p = &found.x;
+        Ok(Candidate {
+            model: BinaryModel {
+                trajectory: Trajectory::straight(p[2], p[1], p[3].exp(), p[0])?,
+                ..start.model
+            },
+            chi2: found.value,
+        })
+    }
+}
+
+/// The distinct s and the distinct q values of the outcomes, each sorted: the axes of their
+/// (s, q) grid.
+pub fn grid_axes(outcomes: &[MapOutcome]) -> (Vec<f64>, Vec<f64>) {
+    let axis = |f: fn(&MapOutcome) -> f64| {
+        let mut v: Vec<f64> = outcomes.iter().map(f).collect();
+        v.sort_by(f64::total_cmp);
+        v.dedup();
+        v
+    };
+    (axis(|o| o.s), axis(|o| o.q))
+}
+
+/// Indices of the outcomes whose best chi^2 is no worse than that of any neighbour in the
+/// (s, q) grid (the grid of the distinct s and q values; neighbours are the up to eight maps
+/// one step away in index): the distinct local minima of the search, best first.
+///
+/// ```
+/// use causeway::fit::search::{local_minima, MapOutcome};
+/// let at = |s: f64, q: f64, chi2: f64| MapOutcome { s, q, candidates: vec![causeway::fit::search::Candidate {
+///     chi2, model: causeway::fit::model::BinaryModel { s, q, rho: 1e-3,
+///         trajectory: causeway::fit::model::Trajectory::straight(0.0, 0.1, 10.0, 0.0).unwrap() } }],
+///     trajectories: 1, points: 1, notes: vec![] };
+/// let grid = vec![at(0.8, 1e-3, 5.0), at(1.0, 1e-3, 9.0), at(1.25, 1e-3, 4.0)];
+/// assert_eq!(local_minima(&grid), vec![2, 0]);
+/// ```
+pub fn local_minima(outcomes: &[MapOutcome]) -> Vec<usize> {
+    let (ss, qs) = grid_axes(outcomes);
+    let index = |o: &MapOutcome| {
+        (
+            ss.partition_point(|&v| v < o.s) as i64,
+            qs.partition_point(|&v| v < o.q) as i64,
+        )
+    };
+    let cells: Vec<(i64, i64)> = outcomes.iter().map(index).collect();
+    let mut minima: Vec<usize> = (0..outcomes.len())
+        .filter(|&i| {
+            let c = outcomes[i].best_chi2();
+            c.is_finite()
+                && (0..outcomes.len()).all(|j| {
+                    let (di, dj) = (cells[i].0 - cells[j].0, cells[i].1 - cells[j].1);
+                    let near = j != i && di.abs() <= 1 && dj.abs() <= 1;
+                    let other = outcomes[j].best_chi2();
+                    !near || other > c || (other == c && j > i)
+                })
+        })
+        .collect();
+    minima.sort_by(|&a, &b| outcomes[a].best_chi2().total_cmp(&outcomes[b].best_chi2()));
+    minima
+}
+
+/// The maps of a library spec in `store` (which must hold them: build them first), grid order.
+pub fn maps_of_spec(store: &Store, spec: &LibrarySpec) -> Result<Vec<LibraryMap>> {
+    spec.points()?
+        .into_iter()
+        .map(|p| {
+            let path = store.path_of(&p.key);
+            if !path.exists() {
+                return Err(Error::input(format!(
+                    "search: the store {} lacks the map of s = {}, q = {} (build the library first)",
+                    store.root().display(),
+                    p.s,
+                    p.q
+                )));
+            }
+            Ok(LibraryMap { s: p.s, q: p.q, path })
+        })
+        .collect()
+}
+
+/// Every binary map listed in the index of `store`, ordered by (q, s).
+pub fn maps_of_store(store: &Store) -> Result<Vec<LibraryMap>> {
+    let mut maps: Vec<LibraryMap> = store
+        .entries()?
+        .into_iter()
+        .filter_map(|e| {
+            Some(LibraryMap {
+                s: e.s?,
+                q: e.q?,
+                path: store.root().join(&e.file),
+            })
+        })
+        .collect();
+    maps.sort_by(|a, b| a.q.total_cmp(&b.q).then(a.s.total_cmp(&b.s)));
+    if maps.is_empty() {
+        return Err(Error::input(format!(
+            "search: the store {} lists no binary maps",
+            store.root().display()
+        )));
+    }
+    Ok(maps)
+}
