@@ -25,7 +25,7 @@ use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
 use causeway::fit::search::{search, GridRule, LibraryMap, MapOutcome, Seed};
 use causeway::fit::simulate::Simulation;
-use causeway::fit::single::fit_single_lens;
+use causeway::fit::single::{fit_baseline, BaselineOptions};
 use causeway::source::LimbDarkening;
 use causeway::store::library::{build, GridPoint, LibrarySpec};
 use causeway::store::Store;
@@ -112,8 +112,11 @@ fn event() -> (DataSet, Seed) {
     let data = pool()
         .install(|| Simulation::new(model, LimbDarkening::Uniform).run(&times))
         .unwrap();
-    let single = fit_single_lens(std::slice::from_ref(&data)).unwrap();
-    let seed = Seed::of_data(&single, std::slice::from_ref(&data));
+    let sets = std::slice::from_ref(&data);
+    let seed = Seed::of_baseline(
+        &fit_baseline(sets, &BaselineOptions::default()).unwrap(),
+        sets,
+    );
     (data, seed)
 }
 

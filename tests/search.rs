@@ -12,7 +12,7 @@ use causeway::fit::photometry::DataSet;
 use causeway::fit::refine::{close_wide, refine, Refined};
 use causeway::fit::search::{local_minima, maps_of_spec, search, GridRule, MapOutcome, Seed};
 use causeway::fit::simulate::{Noise, Simulation};
-use causeway::fit::single::fit_single_lens;
+use causeway::fit::single::{fit_baseline, fit_single_lens, Baseline, BaselineOptions};
 use causeway::source::LimbDarkening;
 use causeway::store::library::{self, LibrarySpec};
 use causeway::store::Store;
@@ -61,8 +61,13 @@ fn search_library(name: &str, library: Library, rhos: &[f64], data: &[DataSet]) 
     let spec = LibrarySpec::parse(&spec, "lib.toml").unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
-    let seed = Seed::of_data(&fit_single_lens(data).unwrap(), data);
+    let seed = Seed::of_baseline(&baseline(data), data);
     search(data, &seed, &maps, &rule, &|| {}).unwrap()
+}
+
+/// The bounded baseline of `data`, the anomaly left out.
+fn baseline(data: &[DataSet]) -> Baseline {
+    fit_baseline(data, &BaselineOptions::default()).unwrap()
 }
 
 /// chi^2 within the central 99.9% of the chi-square distribution with 600 - 7 - 2 = 591 degrees
@@ -108,7 +113,7 @@ fn a_planetary_caustic_crossing_is_recovered() {
     // within 10% of the truth in tE and u0; the full fit is far longer in tE (the anomaly and
     // the blend pull it).
     let single = fit_single_lens(&data).unwrap();
-    let seed = Seed::of_data(&single, &data);
+    let seed = Seed::of_baseline(&baseline(&data), &data);
     let near = |v: f64, truth: f64| (v / truth - 1.0).abs() < 0.1;
     assert!(near(seed.te, 25.0) && near(seed.u0, 0.15), "{seed:?}");
     assert!(single.te > 1.5 * 25.0, "{single:?}");

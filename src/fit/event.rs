@@ -5,9 +5,10 @@
 //! 1. **Epoch.** Times are taken relative to the data's median time rounded to a whole day,
 //!    so that data at JD 2459000 are fitted as well as data at 0; every time reported is
 //!    back on the data's own scale.
-//! 2. **Baseline.** The single lens (see [`super::single`]) on all data (the `delta_chi2`
-//!    reference) and the search's seed: the single lens without the anomaly, its valley in
-//!    `u0`, and how far it can be trusted ([`Seed`]).
+//! 2. **Baseline.** The bounded single lens (see [`super::single::fit_baseline`]) on all data
+//!    (the `delta_chi2` reference) and the search's seed: the single lens without the
+//!    anomaly, its valley in `u0`, the `u0` range the data allow, and whether its timing can be
+//!    trusted ([`Seed::of_baseline`]).
 //! 3. **Timing.** With [`FitOptions::adaptive_timing`] (the default) the grid's timings follow
 //!    the baseline: lines are also anchored on a localised anomaly ([`GridRule::timed`]); when
 //!    the anomaly covers the peak, or the baseline could not fix `u0` or `tE`, each line is
@@ -36,7 +37,7 @@ use super::refine::exact_chi2;
 use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
-use super::single::{fit_single_lens, SingleLensFit};
+use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
 use crate::error::{Error, Result};
 use crate::progress::Progress;
 use std::time::Instant;
@@ -309,51 +310,48 @@ fn shifted(set: &DataSet, dt: f64) -> DataSet {
     }
 }
 
-/// The single lens of all data, the search's seed, and whether the seed's timing can be
-/// trusted (the anomaly was masked or absent, no bound was hit).
+/// The single lens of all data (less the excluded times), the search's seed, and whether the
+/// seed's timing can be trusted (the anomaly does not cover the peak, no bound of t0, u0 or
+/// tE was hit).
 fn baseline(
     data: &[DataSet],
     options: &FitOptions,
     epoch: f64,
     note: &mut dyn FnMut(String),
 ) -> Result<(SingleLensFit, Seed, bool)> {
+    let steer = BaselineOptions {
+        exclude: options
+            .exclude
+            .iter()
+            .map(|&(a, b)| (a - epoch, b - epoch))
+            .collect(),
+        given: options.baseline.map(|(t0, u0, te)| (t0 - epoch, u0, te)),
+        ..BaselineOptions::default()
+    };
+    let baseline = fit_baseline(data, &steer)?;
+    for n in &baseline.notes {
+        note(format!("baseline: {n}"));
+    }
     let visible: Vec<DataSet> = data
         .iter()
         .map(|d| {
-            options
+            steer
                 .exclude
                 .iter()
-                .fold(d.clone(), |d, &(a, b)| d.without(a - epoch, b - epoch))
+                .fold(d.clone(), |d, &(a, b)| d.without(a, b))
         })
         .collect();
-    let single = fit_single_lens(data)?;
-    if let Some((t0, u0, te)) = options.baseline {
-        let seed = Seed::of_fit(
-            &SingleLensFit {
-                t0: t0 - epoch,
-                u0,
-                te,
-                ..single.clone()
-            },
-            &visible,
-        );
-        return Ok((single, seed, true));
-    }
-    let fit = if options.exclude.is_empty() {
-        single.clone()
-    } else {
-        fit_single_lens(&visible)?
-    };
-    let seed = Seed::of_data(&fit, &visible);
-    let masked = seed.t0 != fit.t0;
-    let trusted = seed.anomaly.is_none() || masked;
+    let seed = Seed::of_baseline(&baseline, &visible);
+    let trusted = options.baseline.is_some()
+        || !(baseline.peak_covered || baseline.fit.bounds.iter().any(|b| b.is_shape()));
     if !trusted {
         note(format!(
-            "baseline: the anomaly at t = {:.3} covers the peak; its timing is not trusted",
+            "baseline: its timing is not trusted (the anomaly at t = {:.3} covers the peak, or \
+             a bound was hit)",
             seed.anomaly.unwrap_or(f64::NAN) + epoch
         ));
     }
-    Ok((single, seed, trusted))
+    Ok((baseline.full, seed, trusted))
 }
 
 /// Step 3 of the module documentation.

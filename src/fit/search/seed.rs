@@ -3,7 +3,7 @@
 //! line.
 
 use crate::fit::photometry::DataSet;
-use crate::fit::single::{fit_at_u0, fit_single_lens, SingleLensFit};
+use crate::fit::single::{fit_at_u0, Baseline, SingleLensFit};
 use crate::lens::paczynski;
 
 /// The seed of the search: the single-lens fit's trajectory, and its valley in u0.
@@ -211,32 +211,48 @@ impl Seed {
         (Some(times[i]), (times[lo], times[hi]))
     }
 
-    /// The seed of a single-lens fit made without the anomaly: the points around the data's
-    /// largest departure from `fit` (see [`Seed::of_fit`]), over the span where the 5-point
-    /// residual score stays high (see `departure`) and half as wide again on each side, are
-    /// left out and the single lens is fitted again, so that the anomaly does not pull its
-    /// timing (common practice). The full fit's seed is kept when the span would take the
-    /// peak (t0 +- 0.05 tE), when the fit fails, or when it ends at the edge of its u0 range.
-    pub fn of_data(fit: &SingleLensFit, data: &[DataSet]) -> Seed {
-        let (anomaly, (lo, hi)) = Self::departure(fit, data);
-        let full = || Self::along_valley(fit, data, anomaly);
-        if anomaly.is_none() {
-            return full();
-        }
-        let pad = 0.5 * (hi - lo) + 0.01 * fit.te;
-        let peak = (fit.t0 - 0.05 * fit.te, fit.t0 + 0.05 * fit.te);
-        if lo - pad < peak.1 && hi + pad > peak.0 {
-            return full();
-        }
-        let masked: Vec<DataSet> = data.iter().map(|d| d.without(lo - pad, hi + pad)).collect();
-        if masked.iter().any(|d| d.len() < 10) {
-            return full();
-        }
-        match fit_single_lens(&masked) {
-            Ok(clean) if clean.u0 > 2.0 * crate::fit::single::U0_RANGE.0 => {
-                Self::along_valley(&clean, &masked, anomaly)
-            }
-            _ => full(),
+    /// The seed of a baseline ([`fit_baseline`]): its fit without the anomaly (host-centred),
+    /// the time of the data's largest departure from that fit, the fit's valley in `u0`
+    /// traced on the data without the masked spans, its misfit, and the baseline's `u0`
+    /// range as [`Seed::u0_bounds`] (searched whole). `data` are the sets the baseline was
+    /// fitted to (less any excluded times).
+    ///
+    /// ```
+    /// use causeway::fit::{photometry::DataSet, search::Seed, single::*};
+    /// let mut text = String::from("t,flux,flux_err\n");
+    /// for k in 0..400 {
+    ///     let t = -50.0 + 0.25 * k as f64;
+    ///     let u = (0.04 + (t / 20.0f64).powi(2)).sqrt();
+    ///     let a = (u * u + 2.0) / (u * (u * u + 4.0).sqrt());
+    ///     let bump = if (t - 15.0).abs() < 1.0 { 0.5 } else { 0.0 };
+    ///     text += &format!("{t},{},0.01\n", a + bump);
+    /// }
+    /// let data = vec![DataSet::parse(&text, "d.csv", 22.0).unwrap()];
+    /// let baseline = fit_baseline(&data, &BaselineOptions::default()).unwrap();
+    /// let seed = Seed::of_baseline(&baseline, &data);
+    /// assert!((seed.anomaly.unwrap() - 15.0).abs() <= 1.0);
+    /// assert!((seed.u0 - 0.2).abs() < 0.01 && (seed.te - 20.0).abs() < 0.5);
+    /// ```
+    pub fn of_baseline(baseline: &Baseline, data: &[DataSet]) -> Seed {
+        let fit = &baseline.fit;
+        let (anomaly, _) = Self::departure(fit, data);
+        let masked: Vec<DataSet> = data
+            .iter()
+            .map(|d| {
+                baseline
+                    .masked
+                    .iter()
+                    .fold(d.clone(), |d, &(a, b)| d.without(a, b))
+            })
+            .collect();
+        let masked = if masked.iter().all(|d| d.len() >= 3) {
+            masked
+        } else {
+            data.to_vec()
+        };
+        Seed {
+            u0_bounds: Some(baseline.u0_range),
+            ..Self::along_valley(fit, &masked, anomaly)
         }
     }
 }
