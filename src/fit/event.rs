@@ -341,10 +341,11 @@ fn baseline(
                 .fold(d.clone(), |d, &(a, b)| d.without(a, b))
         })
         .collect();
-    let seed = Seed::of_baseline(&baseline, &visible);
+    let mut seed = Seed::of_baseline(&baseline, &visible);
     let trusted = options.baseline.is_some()
         || !(baseline.peak_covered || baseline.fit.bounds.iter().any(|b| b.is_shape()));
     if !trusted {
+        seed.u0_bounds = Some(baseline.u0_range);
         note(format!(
             "baseline: its timing is not trusted (the anomaly at t = {:.3} covers the peak, or \
              a bound was hit)",

@@ -213,9 +213,8 @@ impl Seed {
 
     /// The seed of a baseline ([`fit_baseline`]): its fit without the anomaly (host-centred),
     /// the time of the data's largest departure from that fit, the fit's valley in `u0`
-    /// traced on the data without the masked spans, its misfit, and the baseline's `u0`
-    /// range as [`Seed::u0_bounds`] (searched whole). `data` are the sets the baseline was
-    /// fitted to (less any excluded times).
+    /// traced on the data without the masked spans, and its misfit. `data` are the sets the
+    /// baseline was fitted to (less any excluded times).
     ///
     /// ```
     /// use causeway::fit::{photometry::DataSet, search::Seed, single::*};
@@ -250,10 +249,7 @@ impl Seed {
         } else {
             data.to_vec()
         };
-        Seed {
-            u0_bounds: Some(baseline.u0_range),
-            ..Self::along_valley(fit, &masked, anomaly)
-        }
+        Self::along_valley(fit, &masked, anomaly)
     }
 }
 
