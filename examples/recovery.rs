@@ -22,9 +22,8 @@
 
 use causeway::cli::progress::Reporter;
 use causeway::fit::event::{fit_event, FitOptions};
-use causeway::fit::refine::exact_chi2;
 use causeway::fit::search::{maps_of_spec, LibraryMap, MapSource};
-use causeway::fit::simulate::events::{recovery_events, BenchEvent, EventKind, BROAD_LIBRARY};
+use causeway::fit::simulate::events::{log_steps, recovery_events, BenchEvent, BROAD_LIBRARY};
 use causeway::store::library::{self, LibrarySpec};
 use causeway::store::Store;
 use std::time::Instant;
@@ -43,7 +42,7 @@ fn main() {
         .collect();
     let broad = LibrarySpec::parse(BROAD_LIBRARY, "broad library").unwrap();
     let store = Store::open(std::path::Path::new("target/recovery-store")).unwrap();
-    let steps = (log_step(&broad.s), log_step(&broad.q));
+    let steps = log_steps(&broad);
     println!(
         "event,kind,s,q,u0,tE,rho,blend,best_s,best_q,best_u0,best_tE,best_rho,chi2,chi2_true,dof,\
          delta_chi2_single,recovered,fit_seconds"
@@ -51,14 +50,12 @@ fn main() {
     let mut recovered = 0;
     for event in &events {
         let spec = if near {
-            sub_library(&broad, event)
+            event.near_library(&broad)
         } else {
             broad.clone()
         };
         let maps = build(&store, &spec);
         let data = event.data().unwrap();
-        let truth = &event.truth;
-        let chi2_true = exact_chi2(&data, truth, 1e-4).unwrap().0;
         let started = Instant::now();
         let fit = fit_event(
             &data,
@@ -68,23 +65,15 @@ fn main() {
         )
         .unwrap();
         let seconds = started.elapsed().as_secs_f64();
-        let best = &fit.minima[0];
-        let n: usize = data.iter().map(|d| d.len()).sum();
-        let dof = n - 7 - 2 * data.len();
-        let chi2 = best.chi2_as_given;
-        let improvement = fit.single.chi2 - chi2;
-        let ok = seconds <= LIMIT
-            && if event.kind == EventKind::SingleLens {
-                improvement < 100.0
-            } else {
-                let near_truth = fit.minima.iter().any(|m| {
-                    let (s, q) = (m.refined.model.s, m.refined.model.q);
-                    let dq = (q / truth.q).ln().abs() <= steps.1 * 1.01;
-                    dq && ((s / truth.s).ln().abs() <= steps.0 * 1.01
-                        || (s * truth.s).ln().abs() <= steps.0 * 1.01)
-                });
-                near_truth && chi2 <= chi2_true + (0.002 * dof as f64).max(25.0)
-            };
+        let verdict = event.judge(&data, &fit, steps).unwrap();
+        let ok = verdict.recovered && seconds <= LIMIT;
+        let (truth, best) = (&event.truth, &fit.minima[0]);
+        let (chi2, chi2_true, dof, improvement) = (
+            verdict.chi2,
+            verdict.chi2_true,
+            verdict.dof,
+            verdict.improvement,
+        );
         recovered += usize::from(ok);
         let l = truth.trajectory.line();
         let b = best.refined.model;
@@ -119,31 +108,6 @@ fn main() {
         );
     }
     eprintln!("recovered {recovered} of {}", events.len());
-}
-
-/// The grid step of a log-spaced axis (natural log).
-fn log_step(v: &[f64]) -> f64 {
-    (v[v.len() - 1] / v[0]).ln() / (v.len() - 1) as f64
-}
-
-/// The 3 x 3 part of `broad` around the grid point nearest the event's truth.
-fn sub_library(broad: &LibrarySpec, event: &BenchEvent) -> LibrarySpec {
-    let around = |axis: &[f64], x: f64| -> Vec<f64> {
-        let k = (0..axis.len())
-            .min_by(|&a, &b| {
-                (axis[a] / x)
-                    .ln()
-                    .abs()
-                    .total_cmp(&(axis[b] / x).ln().abs())
-            })
-            .unwrap();
-        axis[k.saturating_sub(1)..(k + 2).min(axis.len())].to_vec()
-    };
-    LibrarySpec {
-        s: around(&broad.s, event.truth.s.min(2.0)),
-        q: around(&broad.q, event.truth.q.max(1e-4)),
-        ..broad.clone()
-    }
 }
 
 /// The maps of `spec`, built into `store` where missing (build time on stderr).

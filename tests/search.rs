@@ -10,7 +10,7 @@ use causeway::fit::minima::{refine_minima, Minimum, RefineOptions};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
 use causeway::fit::refine::{close_wide, refine, Refined};
-use causeway::fit::search::{local_minima, maps_of_spec, search, GridRule, MapOutcome, Seed};
+use causeway::fit::search::{maps_of_spec, search, GridRule, MapOutcome, Seed};
 use causeway::fit::simulate::{Noise, Simulation};
 use causeway::fit::single::{fit_baseline, fit_single_lens, Baseline, BaselineOptions};
 use causeway::source::LimbDarkening;

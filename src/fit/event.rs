@@ -156,7 +156,7 @@ pub fn fit_event(
     let local: Vec<DataSet> = data.iter().map(|d| shifted(d, -epoch)).collect();
 
     progress.start("baseline", 0);
-    let (single, mut seed, trusted) = baseline(&local, options, epoch, &mut note)?;
+    let (single, mut seed, trusted) = baseline(data, &local, options, epoch, &mut note)?;
     progress.finish(&format!(
         "baseline: t0 = {:.4}, u0 = {:.5}, tE = {:.3} d (all data: chi2 {:.1} for {} points)",
         seed.t0 + epoch,
@@ -314,31 +314,35 @@ fn shifted(set: &DataSet, dt: f64) -> DataSet {
 /// seed's timing can be trusted (the anomaly does not cover the peak, no bound of t0, u0 or
 /// tE was hit).
 fn baseline(
-    data: &[DataSet],
+    given: &[DataSet],
+    local: &[DataSet],
     options: &FitOptions,
     epoch: f64,
     note: &mut dyn FnMut(String),
 ) -> Result<(SingleLensFit, Seed, bool)> {
+    // Fitted on the data's own times (it keeps its own epoch), so that its notes name them.
     let steer = BaselineOptions {
-        exclude: options
-            .exclude
-            .iter()
-            .map(|&(a, b)| (a - epoch, b - epoch))
-            .collect(),
-        given: options.baseline.map(|(t0, u0, te)| (t0 - epoch, u0, te)),
+        exclude: options.exclude.clone(),
+        given: options.baseline,
         ..BaselineOptions::default()
     };
-    let baseline = fit_baseline(data, &steer)?;
+    let mut baseline = fit_baseline(given, &steer)?;
     for n in &baseline.notes {
         note(format!("baseline: {n}"));
     }
-    let visible: Vec<DataSet> = data
+    baseline.full.t0 -= epoch;
+    baseline.fit.t0 -= epoch;
+    let back = |(a, b): (f64, f64)| (a - epoch, b - epoch);
+    baseline.anomaly = baseline.anomaly.map(back);
+    baseline.masked = baseline.masked.iter().copied().map(back).collect();
+    let visible: Vec<DataSet> = local
         .iter()
         .map(|d| {
             steer
                 .exclude
                 .iter()
-                .fold(d.clone(), |d, &(a, b)| d.without(a, b))
+                .map(|&s| back(s))
+                .fold(d.clone(), |d, (a, b)| d.without(a, b))
         })
         .collect();
     let mut seed = Seed::of_baseline(&baseline, &visible);

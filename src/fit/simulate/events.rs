@@ -11,6 +11,9 @@
 use super::plan::ObservingPlan;
 use crate::curve::time_range;
 use crate::error::Result;
+use crate::fit::event::FitResult;
+use crate::fit::refine::exact_chi2;
+use crate::store::library::LibrarySpec;
 use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::photometry::DataSet;
 use crate::lens::paczynski;
@@ -134,8 +137,9 @@ fn departure_time(model: &BinaryModel, season: (f64, f64)) -> Result<f64> {
 pub fn recovery_events() -> Result<Vec<BenchEvent>> {
     use EventKind::*;
     // name, kind, s, q, u0, alpha (deg), rho, tE (d), t0 - 9000, blend
+    type Row = (&'static str, EventKind, f64, f64, f64, f64, f64, f64, f64, f64);
     #[rustfmt::skip]
-    let table: [(&str, EventKind, f64, f64, f64, f64, f64, f64, f64, f64); 16] = [
+    let table: [Row; 16] = [
         ("wide-1", WidePlanet, 1.35, 3e-3, 0.207, 200.0, 3e-3, 29.0, 0.0, 0.3),
         ("wide-2", WidePlanet, 1.6, 1e-3, -0.25, 165.0, 2e-3, 35.0, 4.0, 1.0),
         ("close-1", ClosePlanet, 0.75, 5e-3, 0.15, 75.0, 2e-3, 25.0, -3.0, 0.5),
@@ -173,4 +177,79 @@ pub fn recovery_events() -> Result<Vec<BenchEvent>> {
             })
         })
         .collect()
+}
+
+/// The outcome of one fit of a benchmark event, judged by the benchmark's rule.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Verdict {
+    /// chi^2 of the best minimum over the data as given.
+    pub chi2: f64,
+    /// chi^2 of the true model over the same data.
+    pub chi2_true: f64,
+    /// Degrees of freedom of a binary model.
+    pub dof: usize,
+    /// The single lens's chi^2 less the best minimum's.
+    pub improvement: f64,
+    /// Whether a reported minimum has (s, q) within one grid step of the truth or of its
+    /// close/wide partner (s -> 1/s).
+    pub near_truth: bool,
+    /// Whether the event counts as recovered (see [`BenchEvent::judge`]).
+    pub recovered: bool,
+}
+
+impl BenchEvent {
+    /// Judges a fit of the event's `data`: recovered when a reported minimum has (s, q) within
+    /// one grid step (`steps`: natural-log steps of the library's s and q axes) of the truth or
+    /// of its close/wide partner, and the best chi^2 over the data as given is at most the
+    /// truth's plus max(25, 0.002 dof); a single lens when the best binary improves on the
+    /// single lens by less than 100.
+    pub fn judge(&self, data: &[DataSet], fit: &FitResult, steps: (f64, f64)) -> Result<Verdict> {
+        let truth = &self.truth;
+        let chi2_true = exact_chi2(data, truth, 1e-4)?.0;
+        let n: usize = data.iter().map(DataSet::len).sum();
+        let dof = n.saturating_sub(7 + 2 * data.len());
+        let chi2 = fit.minima[0].chi2_as_given;
+        let improvement = fit.single.chi2 - chi2;
+        let within = |x: f64, step: f64| x.ln().abs() <= step * 1.01;
+        let near_truth = fit.minima.iter().any(|m| {
+            let (s, q) = (m.refined.model.s, m.refined.model.q);
+            within(q / truth.q, steps.1)
+                && (within(s / truth.s, steps.0) || within(s * truth.s, steps.0))
+        });
+        let recovered = if self.kind == EventKind::SingleLens {
+            improvement < 100.0
+        } else {
+            near_truth && chi2 <= chi2_true + (0.002 * dof as f64).max(25.0)
+        };
+        Ok(Verdict {
+            chi2,
+            chi2_true,
+            dof,
+            improvement,
+            near_truth,
+            recovered,
+        })
+    }
+
+    /// The 3 x 3 part of `library` around the grid point nearest the truth (for quick checks).
+    pub fn near_library(&self, library: &LibrarySpec) -> LibrarySpec {
+        let around = |axis: &[f64], x: f64| -> Vec<f64> {
+            let distance = |k: usize| (axis[k] / x).ln().abs();
+            let k = (0..axis.len())
+                .min_by(|&a, &b| distance(a).total_cmp(&distance(b)))
+                .unwrap_or(0);
+            axis[k.saturating_sub(1)..(k + 2).min(axis.len())].to_vec()
+        };
+        LibrarySpec {
+            s: around(&library.s, self.truth.s),
+            q: around(&library.q, self.truth.q),
+            ..library.clone()
+        }
+    }
+}
+
+/// The natural-log grid steps of a library's s and q axes (log-spaced).
+pub fn log_steps(library: &LibrarySpec) -> (f64, f64) {
+    let step = |v: &[f64]| (v[v.len() - 1] / v[0]).ln() / (v.len().max(2) - 1) as f64;
+    (step(&library.s), step(&library.q))
 }
