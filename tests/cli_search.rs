@@ -110,6 +110,12 @@ fn search_writes_a_ranked_table_and_pictures() {
     for png in ["chi2.png", "best.png"] {
         assert!(image::open(dir.join(png)).is_ok(), "{png}");
     }
+    // stderr is not a terminal here: each stage says when it starts and what it did, in
+    // plain lines a batch log keeps.
+    for stage in ["library: started", "search: started", "refine: started"] {
+        assert!(stderr.contains(stage), "no '{stage}' in {stderr}");
+    }
+    assert!(stderr.contains("search: 4 maps"), "{stderr}");
 }
 
 #[test]
@@ -124,7 +130,10 @@ fn bad_input_is_named_and_writes_nothing() {
     .unwrap();
     // The last two are caught by the option parser (clap), whose usage text is cut to the
     // one line that names the culprit.
-    let cases: [(&[&str], &str); 6] = [
+    let cases: [(&[&str], &str); 9] = [
+        (&["event.csv", "--exclude", "5,3"], "--exclude"),
+        (&["event.csv", "--baseline", "0,0.1"], "--baseline"),
+        (&["event.csv", "--clip", "1"], "--clip"),
         (&["dup.csv"], "dup.csv:4"),
         (&["event.csv", "--ld", "0.5,0.6"], "--ld"),
         (&["event.csv", "--rho", "-1"], "--rho"),

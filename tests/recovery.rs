@@ -31,7 +31,13 @@ fn recovers(name: &str) {
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
     let data = event.data().unwrap();
-    let fit = fit_event(&data, MapSource::Files(&maps), &FitOptions::default(), &Silent).unwrap();
+    let fit = fit_event(
+        &data,
+        MapSource::Files(&maps),
+        &FitOptions::default(),
+        &Silent,
+    )
+    .unwrap();
     let verdict = event.judge(&data, &fit, log_steps(&broad)).unwrap();
     let best = &fit.minima[0].refined.model;
     assert!(

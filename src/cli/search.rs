@@ -1,7 +1,6 @@
 //! `causeway search`: fit photometry with binary-lens models from a map library.
 
 use super::library::StoreArgs;
-use super::map::progress_bar;
 use super::physical::PhysicalArgs;
 use super::progress::Reporter;
 use super::ThreadArgs;
@@ -14,6 +13,7 @@ use crate::fit::report::Report;
 use crate::fit::scales::PhysicalInput;
 use crate::fit::search::{maps_of_spec, maps_of_store, GridRule, LibraryMap, MapSource};
 use crate::fsutil::write_atomic;
+use crate::progress::Progress;
 use crate::source::LimbDarkening;
 use crate::store::library::{self, LibrarySpec};
 use crate::store::Store;
@@ -393,25 +393,25 @@ fn clipped_table(data: &[DataSet], clipped: &[Clipped]) -> String {
 }
 
 /// The maps of `--library`: a store directory, or a spec whose missing maps are built first.
-fn library_maps(library_path: &Path, store: &StoreArgs) -> Result<Vec<LibraryMap>> {
+fn library_maps(
+    library_path: &Path,
+    store: &StoreArgs,
+    progress: &dyn Progress,
+) -> Result<Vec<LibraryMap>> {
     if library_path.is_dir() {
         return maps_of_store(&Store::open(library_path)?);
     }
     let spec = LibrarySpec::read(library_path)?;
     let store = store.open()?;
     let points = spec.points()?;
-    let bar = progress_bar("library");
-    bar.set_length(points.len() as u64);
-    let summary = library::build(&store, &points, |_, _| bar.inc(1))?;
-    bar.finish_and_clear();
-    if summary.built > 0 {
-        eprintln!(
-            "library: built {} maps, {} already in {}",
-            summary.built,
-            summary.skipped,
-            store.root().display()
-        );
-    }
+    progress.start("library", points.len() as u64);
+    let summary = library::build(&store, &points, |_, _| progress.advance(1))?;
+    progress.finish(&format!(
+        "library: built {} maps, {} already in {}",
+        summary.built,
+        summary.skipped,
+        store.root().display()
+    ));
     maps_of_spec(&store, &spec)
 }
 
@@ -426,8 +426,8 @@ pub fn run(args: SearchArgs) -> Result<()> {
         .then(|| args.physical.input())
         .transpose()?;
     let data = args.data_sets()?;
-    let maps = library_maps(&args.library, &args.store)?;
     let reporter = Reporter::new();
+    let maps = library_maps(&args.library, &args.store, &reporter)?;
     let fit = fit_event(&data, MapSource::Files(&maps), &options, &reporter)?;
     drop(reporter);
     args.outputs()

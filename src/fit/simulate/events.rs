@@ -12,12 +12,12 @@ use super::plan::ObservingPlan;
 use crate::curve::time_range;
 use crate::error::Result;
 use crate::fit::event::FitResult;
-use crate::fit::refine::exact_chi2;
-use crate::store::library::LibrarySpec;
 use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::photometry::DataSet;
+use crate::fit::refine::exact_chi2;
 use crate::lens::paczynski;
 use crate::source::LimbDarkening;
+use crate::store::library::LibrarySpec;
 
 /// The library spec a user who does not know the answer would search with: s log-spaced over
 /// [0.5, 2] (13 values), q log-spaced over [1e-4, 0.3] (11 values), a map on every caustic of
@@ -137,7 +137,18 @@ fn departure_time(model: &BinaryModel, season: (f64, f64)) -> Result<f64> {
 pub fn recovery_events() -> Result<Vec<BenchEvent>> {
     use EventKind::*;
     // name, kind, s, q, u0, alpha (deg), rho, tE (d), t0 - 9000, blend
-    type Row = (&'static str, EventKind, f64, f64, f64, f64, f64, f64, f64, f64);
+    type Row = (
+        &'static str,
+        EventKind,
+        f64,
+        f64,
+        f64,
+        f64,
+        f64,
+        f64,
+        f64,
+        f64,
+    );
     #[rustfmt::skip]
     let table: [Row; 16] = [
         ("wide-1", WidePlanet, 1.35, 3e-3, 0.207, 200.0, 3e-3, 29.0, 0.0, 0.3),
