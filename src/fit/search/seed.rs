@@ -83,7 +83,7 @@ impl Seed {
     /// assert!((seed.anomaly.unwrap() - 15.0).abs() <= 1.0);
     /// ```
     pub fn of_fit(fit: &SingleLensFit, data: &[DataSet]) -> Seed {
-        let (anomaly, _) = Self::departure(fit, data);
+        let anomaly = Self::departure(fit, data);
         Self::along_valley(fit, data, anomaly)
     }
 
@@ -166,10 +166,10 @@ impl Seed {
         )
     }
 
-    /// The time of the largest departure of the data from `fit` and the span around it where
-    /// the 5-point residual score stays above 15 (three times its expectation) and above 2% of
-    /// its peak.
-    fn departure(fit: &SingleLensFit, data: &[DataSet]) -> (Option<f64>, (f64, f64)) {
+    /// The time of the largest departure of the data from `fit`: the centre of the run of 5
+    /// consecutive points (in one set) whose normalised residuals have the largest sum of
+    /// squares.
+    fn departure(fit: &SingleLensFit, data: &[DataSet]) -> Option<f64> {
         let scores: Vec<Vec<f64>> = data
             .iter()
             .zip(&fit.fluxes)
@@ -196,19 +196,7 @@ impl Seed {
                 }
             }
         }
-        let Some((k, i)) = best.1 else {
-            return (None, (0.0, 0.0));
-        };
-        let (score, times) = (&scores[k], &data[k].times);
-        let threshold = (0.02 * best.0).max(15.0);
-        let (mut lo, mut hi) = (i, i);
-        while lo > 0 && score[lo - 1] > threshold {
-            lo -= 1;
-        }
-        while hi + 1 < score.len() && score[hi + 1] > threshold {
-            hi += 1;
-        }
-        (Some(times[i]), (times[lo], times[hi]))
+        best.1.map(|(k, i)| data[k].times[i])
     }
 
     /// The seed of a baseline ([`fit_baseline`]): its fit without the anomaly (host-centred),
@@ -234,7 +222,7 @@ impl Seed {
     /// ```
     pub fn of_baseline(baseline: &Baseline, data: &[DataSet]) -> Seed {
         let fit = &baseline.fit;
-        let (anomaly, _) = Self::departure(fit, data);
+        let anomaly = Self::departure(fit, data);
         let masked: Vec<DataSet> = data
             .iter()
             .map(|d| {
