@@ -104,6 +104,11 @@ struct WindowSpec {
     margin: Option<f64>,
 }
 
+/// The least window side of [`WindowRule::Caustics`] (Einstein radii): four times the largest
+/// trial source radius of the search, so that the map of a tiny caustic still serves every
+/// source the fit tries.
+pub const MIN_CAUSTICS_WIDTH: f64 = 0.03;
+
 /// How each map's window is chosen.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum WindowRule {
@@ -114,7 +119,7 @@ pub enum WindowRule {
     /// Framing the planetary caustic(s), likewise.
     Planetary { margin: f64, pixels: usize },
     /// Both: a map framing the central caustic and one framing the planetary caustic(s), or
-    /// one map when the binary has a single caustic.
+    /// one map when the binary has a single caustic; no side below [`MIN_CAUSTICS_WIDTH`].
     Caustics { margin: f64, pixels: usize },
 }
 
@@ -178,12 +183,18 @@ impl WindowRule {
     /// assert_eq!(rule.windows(&LensSystem::binary(1.0, 1e-2).unwrap()).unwrap().len(), 1);
     /// ```
     pub fn windows(&self, lens: &LensSystem) -> Result<Vec<Window>> {
-        match *self {
-            WindowRule::Caustics { margin, pixels } if caustic_curves(lens)?.len() > 1 => Ok(vec![
-                framing(lens, margin, pixels, true)?,
-                framing(lens, margin, pixels, false)?,
-            ]),
-            _ => Ok(vec![self.window(lens)?]),
+        let WindowRule::Caustics { margin, pixels } = *self else {
+            return Ok(vec![self.window(lens)?]);
+        };
+        // A caustic far smaller than any source a fit tries is framed with room for one.
+        let at_least = |w: Window| Window::new(w.center, w.width.max(MIN_CAUSTICS_WIDTH), pixels);
+        if caustic_curves(lens)?.len() > 1 {
+            Ok(vec![
+                at_least(framing(lens, margin, pixels, true)?)?,
+                at_least(framing(lens, margin, pixels, false)?)?,
+            ])
+        } else {
+            Ok(vec![at_least(framing(lens, margin, pixels, true)?)?])
         }
     }
 }
