@@ -125,7 +125,10 @@ impl Progress for Reporter {
             bar.set_length(total);
             s.bar = Some(bar);
         } else {
-            eprintln!("{}: started ({} to do)", stage, total);
+            match total {
+                0 => eprintln!("{stage}: started"),
+                n => eprintln!("{stage}: started ({n} to do)"),
+            }
         }
     }
 
