@@ -1,6 +1,6 @@
 //! From search outcomes to distinct refined minima: the (s, q) local minima of the search are
-//! refined, minima that converge to the same model are merged, close/wide pairs are marked, and
-//! the error-bar scale of each data set is measured at the best model.
+//! refined, minima that converge to the same model are merged, and close/wide pairs are marked.
+//! (Error-bar scales are set by [`super::event`], from the robust spread of the residuals.)
 
 use super::model::BinaryModel;
 use super::photometry::DataSet;
@@ -134,28 +134,4 @@ pub fn refine_models(
             .map(|j| j + 1);
     }
     Ok(minima)
-}
-
-/// Error-bar scale of each data set at a model: `sqrt(chi2_k / (N_k - 2))`, the factor that
-/// brings the set's chi^2 per degree of freedom to 1 (its two fluxes counted against it;
-/// common practice). A set of 2 points or fewer keeps scale 1.
-///
-/// ```
-/// use causeway::fit::{fluxes::FluxFit, minima::error_scales, photometry::DataSet};
-/// let d = DataSet::parse("t,flux,flux_err\n0,1,1\n1,1,1\n2,1,1\n3,1,1\n4,1,1\n6,1,1\n", "d.csv", 22.0).unwrap();
-/// let f = FluxFit { fs: 1.0, fb: 0.0, chi2: 16.0 };
-/// assert_eq!(error_scales(&[d], &[f]), vec![2.0]);
-/// ```
-pub fn error_scales(data: &[DataSet], fluxes: &[super::fluxes::FluxFit]) -> Vec<f64> {
-    data.iter()
-        .zip(fluxes)
-        .map(|(d, f)| {
-            let dof = d.len().saturating_sub(2);
-            if dof == 0 {
-                1.0
-            } else {
-                (f.chi2 / dof as f64).sqrt()
-            }
-        })
-        .collect()
 }
