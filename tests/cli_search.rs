@@ -158,3 +158,39 @@ fn bad_input_is_named_and_writes_nothing() {
         assert!(!dir.join("minima.csv").exists());
     }
 }
+
+#[test]
+fn the_baseline_can_be_given_and_times_excluded() {
+    let dir = scratch("cli-search-steer");
+    simulate(&dir);
+    std::fs::write(dir.join("lib.toml"), LIBRARY).unwrap();
+    let (code, csv, stderr) = run_cli(
+        &dir,
+        "search",
+        &[
+            "event.csv",
+            "--library",
+            "lib.toml",
+            "--store",
+            "maps",
+            "--rho",
+            "0.01",
+            "--refine",
+            "1",
+            "--max-iters",
+            "40",
+            "--exclude",
+            "30,35",
+            "--exclude=-45,-40",
+            "--baseline",
+            "0.5,0.16,24",
+        ],
+    );
+    assert_eq!(code, 0, "{stderr}");
+    // The given baseline is the search's seed, as given (its own numbers, not a fit's).
+    assert!(
+        stderr.contains("baseline: t0 = 0.5000, u0 = 0.16000, tE = 24.000 d"),
+        "{stderr}"
+    );
+    assert!(csv.lines().count() >= 2, "{csv}");
+}

@@ -67,7 +67,7 @@ pub struct SearchArgs {
         long,
         value_name = "T0,U0,TE",
         value_delimiter = ',',
-        num_args = 3,
+        num_args = 1,
         allow_hyphen_values = true
     )]
     pub baseline: Vec<f64>,
