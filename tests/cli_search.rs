@@ -38,26 +38,33 @@ fn simulate(dir: &Path) {
     assert_eq!(code, 0, "{stderr}");
 }
 
+/// A quick search of the test event in `dir` over [`LIBRARY`], with `extra` options.
+fn quick_search(dir: &Path, extra: &[&str]) -> (i32, String, String) {
+    simulate(dir);
+    std::fs::write(dir.join("lib.toml"), LIBRARY).unwrap();
+    let mut args = vec![
+        "event.csv",
+        "--rho",
+        "0.01",
+        "--refine",
+        "1",
+        "--max-iters",
+        "40",
+        "--library",
+        "lib.toml",
+        "--store",
+        "maps",
+    ];
+    args.extend(extra);
+    run_cli(dir, "search", &args)
+}
+
 #[test]
 fn search_writes_a_ranked_table_and_pictures() {
     let dir = scratch("cli-search");
-    simulate(&dir);
-    std::fs::write(dir.join("lib.toml"), LIBRARY).unwrap();
-    let (code, csv, stderr) = run_cli(
+    let (code, csv, stderr) = quick_search(
         &dir,
-        "search",
         &[
-            "event.csv",
-            "--rho",
-            "0.01",
-            "--refine",
-            "1",
-            "--max-iters",
-            "40",
-            "--library",
-            "lib.toml",
-            "--store",
-            "maps",
             "--chi2-map",
             "chi2.png",
             "--plot",
@@ -162,23 +169,9 @@ fn bad_input_is_named_and_writes_nothing() {
 #[test]
 fn the_baseline_can_be_given_and_times_excluded() {
     let dir = scratch("cli-search-steer");
-    simulate(&dir);
-    std::fs::write(dir.join("lib.toml"), LIBRARY).unwrap();
-    let (code, csv, stderr) = run_cli(
+    let (code, csv, stderr) = quick_search(
         &dir,
-        "search",
         &[
-            "event.csv",
-            "--library",
-            "lib.toml",
-            "--store",
-            "maps",
-            "--rho",
-            "0.01",
-            "--refine",
-            "1",
-            "--max-iters",
-            "40",
             "--exclude",
             "30,35",
             "--exclude=-45,-40",
