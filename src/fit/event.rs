@@ -414,14 +414,7 @@ fn clean(
         }));
         let keep: Vec<usize> = (0..set.len()).filter(|i| !out.contains(i)).collect();
         kept_residuals.push(keep.iter().map(|&i| r[i]).collect::<Vec<f64>>());
-        let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
-        cleaned.push(DataSet {
-            times: pick(&set.times),
-            flux: pick(&set.flux),
-            flux_err: pick(&set.flux_err),
-            lines: keep.iter().map(|&i| set.lines[i]).collect(),
-            ..set.clone()
-        });
+        cleaned.push(set.subset(&keep));
     }
     // Each set's scale is the robust spread of its kept residuals: a model that misses an
     // anomaly leaves large residuals on a run of points, which would inflate chi2/dof and

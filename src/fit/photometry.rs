@@ -175,6 +175,17 @@ impl DataSet {
         let keep: Vec<usize> = (0..self.len())
             .filter(|&i| !(lo..=hi).contains(&self.times[i]))
             .collect();
+        self.subset(&keep)
+    }
+
+    /// The set's points at the increasing indices `keep`, all else as it is.
+    ///
+    /// ```
+    /// use causeway::fit::photometry::DataSet;
+    /// let d = DataSet::parse("t,flux,flux_err\n1,1,1\n2,2,1\n3,3,1\n", "d.csv", 22.0).unwrap();
+    /// assert_eq!(d.subset(&[0, 2]).flux, vec![1.0, 3.0]);
+    /// ```
+    pub fn subset(&self, keep: &[usize]) -> DataSet {
         let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect();
         DataSet {
             times: pick(&self.times),
