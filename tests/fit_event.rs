@@ -128,3 +128,34 @@ fn outliers_are_clipped_and_error_bars_rescaled() {
         result.minima[0].refined.chi2
     );
 }
+
+/// A model that misses much of the data (tE a fifth too short) leaves large residuals at most
+/// points; the error scale must still be the noise's (twice the stated errors, by construction),
+/// not the miss's: the point-to-point scatter caps it.
+#[test]
+fn error_scales_are_not_inflated_by_a_wrong_model() {
+    use causeway::fit::noise::{clean, robust_scale, scatter_scale};
+    let data = data(0.0, 2.0, &[]);
+    let model = truth(0.0);
+    let l = model.trajectory.line();
+    let wrong = BinaryModel {
+        trajectory: Trajectory::straight(l.t0, l.u0, 0.8 * l.te, l.alpha).unwrap(),
+        ..model
+    };
+    let a = wrong
+        .magnifications(&data[0].times, LimbDarkening::Uniform, 1e-4)
+        .unwrap();
+    let f = causeway::fit::fluxes::fit_fluxes(&data[0], &a);
+    let r: Vec<f64> = (0..data[0].len())
+        .map(|i| (data[0].flux[i] - f.fs * a[i] - f.fb) / data[0].sigma(i))
+        .collect();
+    // The residuals alone would say otherwise.
+    assert!(robust_scale(&r) > 5.0, "{}", robust_scale(&r));
+    let scatter = scatter_scale(&data[0]).unwrap();
+    let (_, _, scales) = clean(&data, &wrong, None, true, 1e-4).unwrap();
+    // The scatter of 499 neighbouring differences: about 5% relative standard error (the
+    // median absolute deviation's, common practice) plus the curve's own change, so 2 within
+    // 25% is a safe bound; the scale is capped at 1.25 times the scatter.
+    assert!((scales[0] / 2.0 - 1.0).abs() < 0.25, "scale {}", scales[0]);
+    assert!(scales[0] <= 1.25 * scatter + 1e-12);
+}

@@ -100,8 +100,9 @@ fn assert_within_4_sigma(r: &Refined, truth: &BinaryModel) {
     }
 }
 
-#[test]
-fn a_planetary_caustic_crossing_is_recovered() {
+/// A wide planet whose source crosses the planetary caustic 11 days after the peak: the model
+/// and 600 points over -60..60 days, 0.01 flux errors, noise seeded by `seed`.
+fn planetary_crossing(seed: u64) -> (BinaryModel, Vec<DataSet>) {
     let alpha = 2.0 * std::f64::consts::PI - 0.287;
     let truth = BinaryModel {
         s: 1.3,
@@ -110,7 +111,13 @@ fn a_planetary_caustic_crossing_is_recovered() {
         trajectory: Trajectory::straight(0.0, 0.15, 25.0, alpha).unwrap(),
     };
     let times: Vec<f64> = (0..600).map(|k| -60.0 + 0.2 * k as f64).collect();
-    let data = simulate(&truth, &times, Noise::Flux { sigma: 0.01 }, 11);
+    let data = simulate(&truth, &times, Noise::Flux { sigma: 0.01 }, seed);
+    (truth, data)
+}
+
+#[test]
+fn a_planetary_caustic_crossing_is_recovered() {
+    let (truth, data) = planetary_crossing(11);
     // The seed: a single-lens fit, made again without the anomaly. Without the anomaly it is
     // within 10% of the truth in tE and u0; the full fit is far longer in tE (the anomaly and
     // the blend pull it).
@@ -211,4 +218,52 @@ fn a_resonant_caustic_crossing_is_recovered() {
     assert!((r.model.q / truth.q).ln().abs() < 2f64.ln(), "{r:?}");
     assert!(chi2_as_expected(r.chi2), "chi2 {}", r.chi2);
     assert_within_4_sigma(r, &truth);
+}
+
+/// The zoom around the best grid point of a coarse library (two maps in s, 21% apart, the
+/// truth between them): finer maps built in memory move the best search candidate to within
+/// a quarter step of the truth's s, and its chi^2 falls below both grid points'.
+#[test]
+fn the_zoom_finds_a_separation_between_grid_points() {
+    use causeway::fit::search::{local_minima, merge_grid_points};
+    use causeway::fit::zoom::{MapRecipe, Zoomer};
+    use causeway::map::read_fits;
+    let (truth, data) = planetary_crossing(12);
+    let spec = "s = [1.18, 1.43]\nq = [3e-3]\npixels = 300\nrays = 1\nengine = \"polygon\"\n\
+                [window]\nrule = \"planetary\"\n";
+    let store = Store::open(&common::scratch("search-zoom")).unwrap();
+    let spec = LibrarySpec::parse(spec, "lib.toml").unwrap();
+    library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
+    let maps = maps_of_spec(&store, &spec).unwrap();
+    let seed = Seed::of_baseline(&baseline(&data), &data);
+    let rule = GridRule {
+        rhos: vec![2e-3, 3e-3, 4.5e-3],
+        timed: true,
+        ..GridRule::default()
+    };
+    let outcomes = merge_grid_points(search(&data, &seed, &maps, &rule, &|| {}).unwrap(), 3);
+    let start = local_minima(&outcomes)[0];
+    let zoomer = Zoomer {
+        data: &data,
+        seed: &seed,
+        rule: &rule,
+        recipe: MapRecipe::of_map(&read_fits(&maps[0].path).unwrap()),
+    };
+    let zoomed = zoomer.zoom(&outcomes, start, 2, &|| {}).unwrap();
+    // A quarter of the library's step ln(1.43 / 1.18) = 0.192 is 0.048.
+    assert!(
+        (zoomed.s / truth.s).ln().abs() < 0.05,
+        "zoomed to s = {}",
+        zoomed.s
+    );
+    assert_eq!(zoomed.q, 3e-3);
+    let grid_best = outcomes
+        .iter()
+        .map(|o| o.best_chi2())
+        .fold(f64::INFINITY, f64::min);
+    assert!(
+        zoomed.best_chi2() < grid_best,
+        "{} vs {grid_best}",
+        zoomed.best_chi2()
+    );
 }

@@ -5,13 +5,15 @@ use super::physical::PhysicalArgs;
 use super::progress::Reporter;
 use super::ThreadArgs;
 use crate::error::{Error, Result};
-use crate::fit::event::{fit_event, Clipped, FitOptions, FitResult, DEFAULT_CLIP_SIGMA};
+use crate::fit::event::{fit_event, FitOptions, FitResult, DEFAULT_CLIP_SIGMA};
 use crate::fit::minima::RefineOptions;
+use crate::fit::noise::Clipped;
 use crate::fit::photometry::{DataSet, DEFAULT_ZERO_POINT};
 use crate::fit::plots::{chi2_map_png, model_png};
 use crate::fit::report::Report;
 use crate::fit::scales::PhysicalInput;
 use crate::fit::search::{maps_of_spec, maps_of_store, GridRule, LibraryMap, MapSource};
+use crate::fit::zoom::ZoomOptions;
 use crate::fsutil::write_atomic;
 use crate::progress::Progress;
 use crate::source::LimbDarkening;
@@ -109,6 +111,13 @@ pub struct SearchArgs {
     /// Distinct trajectories kept per map.
     #[arg(long, value_name = "N", default_value_t = GridRule::default().keep)]
     pub keep: usize,
+    /// Halvings of the library's (s, q) step in the zoom around the best grid points (finer
+    /// maps built in memory and searched before the refinement; 0: no zoom).
+    #[arg(long, value_name = "N", default_value_t = ZoomOptions::default().levels)]
+    pub zoom: usize,
+    /// Grid points zoomed (the best local minima of the search).
+    #[arg(long, value_name = "N", default_value_t = ZoomOptions::default().centres)]
+    pub zoom_points: usize,
     /// Local minima of the (s, q) grid to refine.
     #[arg(long, value_name = "N", default_value_t = RefineOptions::default().candidates)]
     pub refine: usize,
@@ -220,6 +229,10 @@ impl SearchArgs {
             baseline,
             rule,
             adaptive_timing: !self.fixed_timing,
+            zoom: Some(ZoomOptions {
+                centres: self.zoom_points,
+                levels: self.zoom,
+            }),
             refine: RefineOptions {
                 candidates: self.refine,
                 tol: self.tol,

@@ -16,29 +16,33 @@
 //!    u0 range the window allows. The per-map trajectory budget
 //!    ([`GridRule::max_trajectories`]) then coarsens the lines rather than the timings.
 //! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged.
-//! 5. **Refinement** of the best (s, q) local minima with exact magnifications, within the
-//!    time budget ([`RefineOptions::budget`]).
-//! 6. **Noise.** At the best model, isolated outliers are clipped ([`FitOptions::clip_sigma`],
-//!    rule in [`clip_outliers`]) and each data set's error bars are scaled by the robust spread
-//!    of its normalised residuals (1.4826 times their median absolute value: for Gaussian
-//!    noise the factor that brings chi^2 per degree of freedom to 1, but not inflated by an
-//!    anomaly the model misses; [`FitOptions::rescale_errors`]); when either changed the data
+//! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
+//!    half and a quarter of the library's step are built and searched ([`super::zoom`]).
+//! 6. **Refinement** of the best (s, q) local minima with exact magnifications, each from its
+//!    zoom's best where it was zoomed, within the time budget ([`RefineOptions::budget`]).
+//! 7. **Noise.** At the best model, isolated outliers are clipped ([`FitOptions::clip_sigma`],
+//!    rule in [`super::noise::clip_outliers`]) and each data set's error bars are scaled by the
+//!    robust spread of its normalised residuals, capped by its point-to-point scatter
+//!    ([`super::noise`]; [`FitOptions::rescale_errors`]); when either changed the data
 //!    by more than 5%, every minimum is refined again on the cleaned, rescaled data (by
 //!    Levenberg-Marquardt alone: it starts at a minimum).
 //!
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
 
-use super::fluxes::fit_fluxes;
-use super::minima::{refine_minima, refine_models, Minimum, RefineOptions};
+use super::minima::{refine_models, Minimum, RefineOptions};
 use super::model::{BinaryModel, Trajectory};
+use super::noise::{clean, Clipped};
 use super::photometry::DataSet;
 use super::refine::exact_chi2;
 use super::search::{
-    merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
+    local_minima, merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed,
+    ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
+use super::zoom::{MapRecipe, ZoomOptions, Zoomer};
 use crate::error::{Error, Result};
+use crate::map::read_fits;
 use crate::progress::Progress;
 use std::time::Instant;
 
@@ -55,6 +59,9 @@ pub struct FitOptions {
     /// Widen the grid's timings and u0 range from what the baseline could fix (step 3 of the
     /// module documentation).
     pub adaptive_timing: bool,
+    /// Finer maps around the best grid points before the refinement (`None`: refine from the
+    /// library's grid points).
+    pub zoom: Option<ZoomOptions>,
     /// The refinement.
     pub refine: RefineOptions,
     /// Clip isolated points beyond this many robust standard deviations at the best model;
@@ -71,6 +78,7 @@ impl Default for FitOptions {
             baseline: None,
             rule: GridRule::default(),
             adaptive_timing: true,
+            zoom: Some(ZoomOptions::default()),
             refine: RefineOptions::default(),
             clip_sigma: Some(DEFAULT_CLIP_SIGMA),
             rescale_errors: true,
@@ -80,25 +88,10 @@ impl Default for FitOptions {
 
 /// The default outlier threshold, in robust standard deviations.
 pub const DEFAULT_CLIP_SIGMA: f64 = 5.0;
-/// Largest fraction of a data set that clipping may remove.
-pub const MAX_CLIPPED_FRACTION: f64 = 0.02;
 /// The tE factors tried on every line when the baseline cannot be trusted.
 pub const WIDE_TE_FACTORS: [f64; 5] = [0.5, 0.71, 1.0, 1.41, 2.0];
 /// The t0 shifts (in units of the line's tE) tried when the baseline cannot be trusted.
 pub const WIDE_T0_SHIFTS: [f64; 3] = [-0.15, 0.0, 0.15];
-
-/// A point the fit left out as an outlier.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Clipped {
-    /// Index of its data set (input order).
-    pub set: usize,
-    /// Its time (days, on the data's scale).
-    pub time: f64,
-    /// Its line in the data file.
-    pub line: usize,
-    /// Its residual in robust standard deviations of its set, signed (data above the model > 0).
-    pub residual: f64,
-}
 
 /// What [`fit_event`] found.
 #[derive(Debug, Clone, PartialEq)]
@@ -109,8 +102,10 @@ pub struct FitResult {
     pub seed: Seed,
     /// The rule the search ran with (after the adaptive timing).
     pub rule: GridRule,
-    /// What the search found on each (s, q).
+    /// What the search found on each (s, q) of the library.
     pub outcomes: Vec<MapOutcome>,
+    /// The best finer (s, q) of each zoomed grid point, in the order of the refinement's starts.
+    pub zoomed: Vec<MapOutcome>,
     /// The distinct refined minima, best first.
     pub minima: Vec<Minimum>,
     /// The error-bar scale of each data set applied in the last refinement (1 when not
@@ -191,10 +186,29 @@ pub fn fit_event(
     }
 
     let started = Instant::now();
-    progress.start("refine", options.refine.candidates as u64);
-    let mut minima = refine_minima(&local, &outcomes, &options.refine, &|| progress.advance(1))?;
+    let (starts, zoomed) =
+        refine_starts(&local, &seed, &rule, &maps, &outcomes, options, progress)?;
+    let zoom_seconds = started.elapsed().as_secs_f64();
+    for z in &zoomed {
+        note(format!(
+            "zoom: best s = {:.4}, q = {:.3e} (search chi2 {:.1})",
+            z.s,
+            z.q,
+            z.best_chi2()
+        ));
+    }
+
+    let started = Instant::now();
+    progress.start("refine", starts.len() as u64);
+    let mut minima = refine_models(&local, &starts, &options.refine, &|| progress.advance(1))?;
     progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
-    let (fitted, clipped, scales) = clean(&local, &minima[0].refined.model, options)?;
+    let (fitted, clipped, scales) = clean(
+        &local,
+        &minima[0].refined.model,
+        options.clip_sigma,
+        options.rescale_errors,
+        options.refine.tol,
+    )?;
     let changed = !clipped.is_empty() || scales.iter().any(|k| (k - 1.0).abs() > 0.05);
     if changed {
         note(format!(
@@ -240,7 +254,8 @@ pub fn fit_event(
         m.refined.model = unshift(&m.refined.model)?;
     }
     let mut outcomes = outcomes;
-    for o in &mut outcomes {
+    let mut zoomed = zoomed;
+    for o in outcomes.iter_mut().chain(zoomed.iter_mut()) {
         for c in &mut o.candidates {
             c.model = unshift(&c.model)?;
         }
@@ -257,12 +272,9 @@ pub fn fit_event(
         seed,
         rule,
         outcomes,
+        zoomed,
         minima,
-        error_scales: if options.rescale_errors {
-            scales
-        } else {
-            vec![1.0; data.len()]
-        },
+        error_scales: scales,
         clipped: clipped
             .into_iter()
             .map(|c| Clipped {
@@ -272,7 +284,7 @@ pub fn fit_event(
             .collect(),
         data: fitted.iter().map(|d| shifted(d, epoch)).collect(),
         notes,
-        seconds: (search_seconds, refine_seconds),
+        seconds: (search_seconds + zoom_seconds, refine_seconds),
     })
 }
 
@@ -359,6 +371,59 @@ fn baseline(
     Ok((baseline.full, seed, trusted))
 }
 
+/// Starts of refinements: each a model and the search chi^2 it came with.
+type Starts = Vec<(BinaryModel, f64)>;
+
+/// The refinement's starts (model, search chi^2): the best candidate of each of the best
+/// (s, q) local minima of the search, the first few replaced by the best of their zoom
+/// (with the zoomed outcomes).
+fn refine_starts(
+    local: &[DataSet],
+    seed: &Seed,
+    rule: &GridRule,
+    maps: &MapSource,
+    outcomes: &[MapOutcome],
+    options: &FitOptions,
+    progress: &dyn Progress,
+) -> Result<(Starts, Vec<MapOutcome>)> {
+    let centres: Vec<usize> = local_minima(outcomes)
+        .into_iter()
+        .take(options.refine.candidates)
+        .collect();
+    if centres.is_empty() {
+        return Err(Error::Numerical(
+            "search: no trajectory of any map could be evaluated".into(),
+        ));
+    }
+    let best = |o: &MapOutcome| (o.candidates[0].model, o.candidates[0].chi2);
+    let mut starts: Starts = centres.iter().map(|&i| best(&outcomes[i])).collect();
+    let mut zoomed = Vec::new();
+    let Some(zoom) = options.zoom.filter(|z| z.levels > 0 && z.centres > 0) else {
+        return Ok((starts, zoomed));
+    };
+    let zoomer = Zoomer {
+        data: local,
+        seed,
+        rule,
+        recipe: MapRecipe::of_map(&match maps {
+            MapSource::Files(files) => read_fits(&files[0].path)?,
+            MapSource::Loaded(loaded) => loaded[0].clone(),
+        }),
+    };
+    progress.start("zoom", 0);
+    for (k, &i) in centres.iter().take(zoom.centres).enumerate() {
+        let found = zoomer.zoom(outcomes, i, zoom.levels, &|| progress.advance(1))?;
+        starts[k] = best(&found);
+        zoomed.push(found);
+    }
+    progress.finish(&format!(
+        "zoom: {} grid points, {} levels",
+        zoomed.len(),
+        zoom.levels
+    ));
+    Ok((starts, zoomed))
+}
+
 /// Step 3 of the module documentation.
 fn adapt_timing(rule: &mut GridRule, seed: &mut Seed, trusted: bool, note: &mut dyn FnMut(String)) {
     if seed.anomaly.is_some() {
@@ -383,89 +448,4 @@ fn adapt_timing(rule: &mut GridRule, seed: &mut Seed, trusted: bool, note: &mut 
             hi.max(0.3)
         ));
     }
-}
-
-/// The data cleaned at `model`: isolated outliers clipped (when asked) and each set's error
-/// scale set (when asked). Returns the cleaned sets, the clipped points and the scales.
-fn clean(
-    data: &[DataSet],
-    model: &BinaryModel,
-    options: &FitOptions,
-) -> Result<(Vec<DataSet>, Vec<Clipped>, Vec<f64>)> {
-    let mut cleaned = Vec::with_capacity(data.len());
-    let mut clipped = Vec::new();
-    let mut kept_residuals = Vec::with_capacity(data.len());
-    for (k, set) in data.iter().enumerate() {
-        let a = model.magnifications(&set.times, set.limb_darkening, options.refine.tol)?;
-        let f = fit_fluxes(set, &a);
-        let r: Vec<f64> = (0..set.len())
-            .map(|i| (set.flux[i] - f.fs * a[i] - f.fb) / set.sigma(i))
-            .collect();
-        let out = match options.clip_sigma {
-            Some(c) => clip_outliers(&r, c),
-            None => Vec::new(),
-        };
-        let scale = robust_scale(&r);
-        clipped.extend(out.iter().map(|&i| Clipped {
-            set: k,
-            time: set.times[i],
-            line: set.lines[i],
-            residual: r[i] / scale,
-        }));
-        let keep: Vec<usize> = (0..set.len()).filter(|i| !out.contains(i)).collect();
-        kept_residuals.push(keep.iter().map(|&i| r[i]).collect::<Vec<f64>>());
-        cleaned.push(set.subset(&keep));
-    }
-    // Each set's scale is the robust spread of its kept residuals: a model that misses an
-    // anomaly leaves large residuals on a run of points, which would inflate chi2/dof and
-    // hide the miss, but hardly moves the median.
-    let scales = if options.rescale_errors {
-        kept_residuals.iter().map(|r| robust_scale(r)).collect()
-    } else {
-        vec![1.0; data.len()]
-    };
-    for (d, &k) in cleaned.iter_mut().zip(&scales) {
-        d.error_scale *= k;
-    }
-    Ok((cleaned, clipped, scales))
-}
-
-/// 1.4826 times the median absolute normalised residual: the standard deviation of Gaussian
-/// residuals, unmoved by a few outliers (common practice).
-fn robust_scale(r: &[f64]) -> f64 {
-    let mut a: Vec<f64> = r.iter().map(|v| v.abs()).collect();
-    a.sort_by(f64::total_cmp);
-    (1.4826 * a[a.len() / 2]).max(1e-12)
-}
-
-/// The indices of the outliers among the normalised residuals `r` (in time order) of one data
-/// set: points beyond `sigma` robust standard deviations ([`robust_scale`]) whose neighbours
-/// in time are not beyond `sigma / 2` on the same side (a run of deviant points is a feature
-/// the model misses, not noise), the largest first, at most [`MAX_CLIPPED_FRACTION`] of the
-/// set. Returned in increasing order.
-///
-/// ```
-/// use causeway::fit::event::clip_outliers;
-/// let mut r = vec![0.5, -1.0, 0.3, 40.0, -0.2, 1.1, -0.7, 0.9, 0.1, -0.4];
-/// r.extend([0.2; 90]);
-/// assert_eq!(clip_outliers(&r, 5.0), vec![3]);
-/// // A run of two deviant points stays.
-/// r[4] = 30.0;
-/// assert!(clip_outliers(&r, 5.0).is_empty());
-/// ```
-pub fn clip_outliers(r: &[f64], sigma: f64) -> Vec<usize> {
-    let scale = robust_scale(r);
-    let z: Vec<f64> = r.iter().map(|v| v / scale).collect();
-    let companion = |i: usize, j: usize| z[j].signum() == z[i].signum() && z[j].abs() > 0.5 * sigma;
-    let mut out: Vec<usize> = (0..z.len())
-        .filter(|&i| {
-            z[i].abs() > sigma
-                && !(i > 0 && companion(i, i - 1))
-                && !(i + 1 < z.len() && companion(i, i + 1))
-        })
-        .collect();
-    out.sort_by(|&a, &b| z[b].abs().total_cmp(&z[a].abs()));
-    out.truncate((MAX_CLIPPED_FRACTION * z.len() as f64).floor() as usize);
-    out.sort_unstable();
-    out
 }

@@ -9,8 +9,10 @@
 //! - `simulate`: synthetic photometry of a model;
 //! - `scales`: physical scales (theta_E, proper motion, masses, separation);
 //! - `search`: the grid search over the maps of a library;
+//! - `zoom`: finer maps around the search's best (s, q) before the refinement;
 //! - `refine`: local refinement with exact magnifications;
-//! - `minima`: from search outcomes to distinct refined minima, close/wide pairs, error scales;
+//! - `minima`: from search outcomes to distinct refined minima, close/wide pairs;
+//! - `noise`: outliers clipped and error bars scaled at a fitted model;
 //! - `report`: the ranked table of minima (CSV) and its summary;
 //! - `plots`: the chi^2 map over (s, q) and the best model over the data (PNG);
 //! - `event`: the whole fit of an event as one call (baseline, search, refinement, noise).
@@ -19,6 +21,7 @@ pub mod event;
 pub mod fluxes;
 pub mod minima;
 pub mod model;
+pub mod noise;
 pub mod optimize;
 pub mod photometry;
 pub mod plots;
@@ -28,3 +31,4 @@ pub mod scales;
 pub mod search;
 pub mod simulate;
 pub mod single;
+pub mod zoom;

@@ -329,6 +329,33 @@ pub fn search_map(
     })
 }
 
+/// chi^2 of one trajectory on `map`, read as the search reads it, at each trial radius of
+/// `rule` (infinite where a radius cannot be read on this map): what the search would rank
+/// that trajectory at. Returns `(rho, chi2)` pairs.
+pub fn trajectory_chi2_on_map(
+    data: &[DataSet],
+    map: &MagnificationMap,
+    rule: &GridRule,
+    trajectory: &Trajectory,
+) -> Result<Vec<(f64, f64)>> {
+    let mut notes = Vec::new();
+    let readers = Readers::new(map, data, &rule.rhos, &mut notes)?;
+    let sets: Vec<Weighted> = data.iter().map(Weighted::new).collect();
+    let mut solver = ImageSolver::new(&map.provenance.lens)?;
+    let Some(span) = crossing(trajectory, &map.window) else {
+        return Err(Error::input(
+            "search: the trajectory does not cross the map's window",
+        ));
+    };
+    let line = Line {
+        trajectory: *trajectory,
+        span,
+    };
+    let mut scratch = Scratch::default();
+    scratch.trajectory_chi2(&mut solver, &sets, &readers, &line, rule)?;
+    Ok(readers.rhos.iter().copied().zip(scratch.chi2).collect())
+}
+
 /// The grid's lines on `map` with their timings: each (alpha, u0) of [`GridRule::lines`] timed
 /// from the seed's valley about the host ([`host_timing`]) with every tE factor and t0 shift
 /// (in units of the line's tE), and, with [`GridRule::timed`] and a known anomaly, timed once

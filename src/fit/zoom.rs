@@ -1,0 +1,181 @@
+//! Finer maps around the search's best (s, q): the library's grid is coarse (a step of 12% in
+//! s moves a wide planet's caustic by several of its own widths), so the best trajectory on the
+//! nearest map can be far from the truth in chi^2 and the exact refinement, a local method,
+//! then stops in a wrong minimum. The zoom builds maps at the eight neighbours of a grid point
+//! at half the library's local step, searches them with the same seed and rule, moves to the
+//! best, and repeats at a quarter of the step ([`ZoomOptions::levels`]); the refinement then
+//! starts from the last best candidate.
+//!
+//! The maps are made as the library's are ([`MapRecipe`]: engine, density and pixels of one of
+//! its maps, a window on every caustic), in memory, and not kept.
+
+use super::photometry::DataSet;
+use super::search::{
+    grid_axes, merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed,
+};
+use crate::engine;
+use crate::error::Result;
+use crate::lens::LensSystem;
+use crate::map::MagnificationMap;
+use crate::store::library::WindowRule;
+
+/// How far the fit zooms.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ZoomOptions {
+    /// The best (s, q) local minima of the search that are zoomed (the others are refined from
+    /// their grid point).
+    pub centres: usize,
+    /// Halvings of the step: 1 zooms to half the library's step, 2 to a quarter.
+    pub levels: usize,
+}
+
+impl Default for ZoomOptions {
+    fn default() -> Self {
+        ZoomOptions {
+            centres: 2,
+            levels: 2,
+        }
+    }
+}
+
+/// How the zoom's maps are made: like a library map.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MapRecipe {
+    /// Engine name.
+    pub engine: String,
+    /// Engine density.
+    pub density: f64,
+    /// Pixels per side.
+    pub pixels: usize,
+}
+
+impl MapRecipe {
+    /// The recipe of `map`.
+    pub fn of_map(map: &MagnificationMap) -> MapRecipe {
+        MapRecipe {
+            engine: map.provenance.engine.clone(),
+            density: map.provenance.density,
+            pixels: map.window.pixels,
+        }
+    }
+
+    /// The maps of the binary (s, q): one per caustic window ([`WindowRule::Caustics`], margin
+    /// 1.5).
+    pub fn build(&self, s: f64, q: f64) -> Result<Vec<MagnificationMap>> {
+        let lens = LensSystem::binary(s, q)?;
+        let engine = engine::by_name(&self.engine, self.density)?;
+        WindowRule::Caustics {
+            margin: 1.5,
+            pixels: self.pixels,
+        }
+        .windows(&lens)?
+        .iter()
+        .map(|w| engine.build(&lens, w))
+        .collect()
+    }
+}
+
+/// The natural-log distance from `v` to its nearest other value on `axis` (0 if none).
+fn local_step(axis: &[f64], v: f64) -> f64 {
+    let step = axis
+        .iter()
+        .filter(|&&a| a != v)
+        .map(|a| (a / v).ln().abs())
+        .fold(f64::INFINITY, f64::min);
+    if step.is_finite() {
+        step
+    } else {
+        0.0
+    }
+}
+
+/// What a zoom needs besides its starting point: the data, the search's seed and rule, and how
+/// maps are made.
+#[derive(Debug, Clone)]
+pub struct Zoomer<'a> {
+    /// The data (on the search's time scale).
+    pub data: &'a [DataSet],
+    /// The search's seed.
+    pub seed: &'a Seed,
+    /// The search's rule.
+    pub rule: &'a GridRule,
+    /// How the finer maps are made.
+    pub recipe: MapRecipe,
+}
+
+impl Zoomer<'_> {
+    /// Zooms on `outcomes[start]` (one of the merged outcomes of a library search, whose grid
+    /// sets the step) over `levels` halvings, as the module documentation says; returns the
+    /// best outcome found, `outcomes[start]` itself if no finer map beats it. `progress` is
+    /// called after each map searched.
+    pub fn zoom(
+        &self,
+        outcomes: &[MapOutcome],
+        start: usize,
+        levels: usize,
+        progress: &(dyn Fn() + Sync),
+    ) -> Result<MapOutcome> {
+        let (ss, qs) = grid_axes(outcomes);
+        let mut best = outcomes[start].clone();
+        let steps = (local_step(&ss, best.s), local_step(&qs, best.q));
+        for level in 1..=levels {
+            let scale = 0.5f64.powi(level as i32);
+            let mut maps = Vec::new();
+            for (s, q) in neighbours((best.s, best.q), (steps.0 * scale, steps.1 * scale)) {
+                maps.extend(self.recipe.build(s, q)?);
+            }
+            let found = search_maps(
+                self.data,
+                self.seed,
+                MapSource::Loaded(&maps),
+                self.rule,
+                progress,
+            )?;
+            for o in merge_grid_points(found, self.rule.keep) {
+                if o.best_chi2() < best.best_chi2() {
+                    best = o;
+                }
+            }
+        }
+        Ok(best)
+    }
+}
+
+/// The (up to eight) distinct neighbours of `centre` at log steps `h` in s and q, with q <= 1.
+fn neighbours(centre: (f64, f64), h: (f64, f64)) -> Vec<(f64, f64)> {
+    let mut points: Vec<(f64, f64)> = Vec::new();
+    for i in -1..=1 {
+        for j in -1..=1 {
+            let p = (
+                centre.0 * (f64::from(i) * h.0).exp(),
+                centre.1 * (f64::from(j) * h.1).exp(),
+            );
+            if p != centre && p.1 <= 1.0 && !points.contains(&p) {
+                points.push(p);
+            }
+        }
+    }
+    points
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{local_step, neighbours};
+
+    #[test]
+    fn neighbours_skip_the_centre_and_repeats() {
+        assert_eq!(neighbours((1.0, 1e-3), (0.1, 0.2)).len(), 8);
+        // No step in q: the two neighbours in s.
+        assert_eq!(neighbours((1.0, 1e-3), (0.1, 0.0)).len(), 2);
+        // q never above 1.
+        assert_eq!(neighbours((1.0, 1.0), (0.1, 0.2)).len(), 5);
+    }
+
+    #[test]
+    fn local_step_is_the_nearest_log_distance() {
+        let axis = [0.5, 1.0, 2.0, 2.5];
+        assert!((local_step(&axis, 2.0) - (1.25f64).ln()).abs() < 1e-12);
+        assert!((local_step(&axis, 0.5) - 2f64.ln()).abs() < 1e-12);
+        assert_eq!(local_step(&[1.0], 1.0), 0.0);
+    }
+}
