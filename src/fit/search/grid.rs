@@ -167,10 +167,7 @@ impl GridRule {
         let step = 2.0 * rho;
         let reach = window.width / std::f64::consts::SQRT_2;
         let n_alpha = ((TAU * reach / step).ceil() as usize).max(8);
-        let half = (self.u0_span * seed.u0).max(self.u0_floor);
-        let range = seed.u0_range(self.u0_misfit);
-        let lo = (seed.u0 - half).min(range.0).max(0.0);
-        let hi = (seed.u0 + half).max(range.1);
+        let (lo, hi) = self.u0_limits(seed);
         let n_u = ((hi - lo) / step).ceil().max(1.0);
         let du = (hi - lo) / n_u;
         let (cx, cy) = window.center;
@@ -188,6 +185,71 @@ impl GridRule {
         out
     }
 }
+
+impl GridRule {
+    /// The u0 range searched: the seed's u0 +- `max(u0_span u0, u0_floor)`, widened to the
+    /// range its valley allows ([`Seed::u0_range`]), never below 0.
+    fn u0_limits(&self, seed: &Seed) -> (f64, f64) {
+        let half = (self.u0_span * seed.u0).max(self.u0_floor);
+        let range = seed.u0_range(self.u0_misfit);
+        ((seed.u0 - half).min(range.0).max(0.0), (seed.u0 + half).max(range.1))
+    }
+
+    /// The lines that pass beside a window holding the host (`host`): a planet's caustic
+    /// near the host perturbs the magnification well beyond the caustic, and a source that
+    /// passes it at a few caustic widths shows that perturbation without any crossing. Their
+    /// offsets from the window's centre run from just beyond its half-diagonal `R` to
+    /// [`OUTER_REACH`] `R` in steps of [`OUTER_RATIO`] (the pattern is smooth on the scale of
+    /// the distance), on [`OUTER_ALPHAS`] directions, within the u0 range searched. They are
+    /// read off the map (exact point-source magnifications: a source that far from the caustic
+    /// is a point). None for other windows.
+    ///
+    /// ```
+    /// use causeway::fit::search::{GridRule, Seed};
+    /// use causeway::map::Window;
+    /// use num_complex::Complex64;
+    /// let rule = GridRule::default();
+    /// let seed = Seed::at(0.0, 0.1, 20.0);
+    /// let central = Window::new((0.0, 0.0), 0.05, 100).unwrap();
+    /// let outer = rule.outer_lines(&central, &seed, Complex64::new(0.0, 0.0));
+    /// let r = 0.05 / 2f64.sqrt();
+    /// assert!(!outer.is_empty());
+    /// assert!(outer.iter().all(|&(_, u0)| u0 > r && u0 <= 4.0 * r + 1e-12));
+    /// // A window away from the host has none.
+    /// let planetary = Window::new((1.0, 0.0), 0.05, 100).unwrap();
+    /// assert!(rule.outer_lines(&planetary, &seed, Complex64::new(0.0, 0.0)).is_empty());
+    /// ```
+    pub fn outer_lines(&self, window: &Window, seed: &Seed, host: Complex64) -> Vec<(f64, f64)> {
+        let reach = window.width / std::f64::consts::SQRT_2;
+        let (cx, cy) = window.center;
+        if (host.re - cx).hypot(host.im - cy) > reach {
+            return Vec::new();
+        }
+        let (lo, hi) = self.u0_limits(seed);
+        let mut out = Vec::new();
+        for k in 0..OUTER_ALPHAS {
+            let alpha = k as f64 * TAU / OUTER_ALPHAS as f64;
+            let pc = -cx * alpha.sin() + cy * alpha.cos();
+            let mut offset = reach * OUTER_RATIO;
+            while offset <= OUTER_REACH * reach * (1.0 + 1e-12) {
+                for u0 in [pc - offset, pc + offset] {
+                    if (lo..=hi).contains(&u0) {
+                        out.push((alpha, u0));
+                    }
+                }
+                offset *= OUTER_RATIO;
+            }
+        }
+        out
+    }
+}
+
+/// How far beyond a central window [`GridRule::outer_lines`] reach, in half-diagonals.
+pub const OUTER_REACH: f64 = 4.0;
+/// The ratio of successive offsets of [`GridRule::outer_lines`].
+pub const OUTER_RATIO: f64 = 1.2;
+/// Directions of [`GridRule::outer_lines`].
+pub const OUTER_ALPHAS: usize = 64;
 
 /// Times during which the straight line of `tr` lies in `window`, if any.
 pub(super) fn crossing(tr: &Trajectory, window: &Window) -> Option<(f64, f64)> {
@@ -213,7 +275,8 @@ pub(super) fn crossing(tr: &Trajectory, window: &Window) -> Option<(f64, f64)> {
     (lo <= hi).then_some((l.t0 + lo * l.te, l.t0 + hi * l.te))
 }
 
-/// A grid line that crosses the map's window, and the times during which it does.
+/// A grid line and the times during which it crosses the map's window (both infinite when it
+/// does not).
 pub(super) struct Line {
     pub(super) trajectory: Trajectory,
     /// First and last time in the window.
@@ -221,6 +284,15 @@ pub(super) struct Line {
 }
 
 impl Line {
+    /// The line of `trajectory` on `window`: its time span there, or none (every point read
+    /// off the map) when it does not cross it.
+    pub(super) fn on(trajectory: Trajectory, window: &Window) -> Line {
+        Line {
+            trajectory,
+            span: crossing(&trajectory, window).unwrap_or((f64::INFINITY, f64::INFINITY)),
+        }
+    }
+
     /// The line of `trajectory` if it crosses `window` at one of the sorted `times`.
     pub(super) fn observed(trajectory: Trajectory, window: &Window, times: &[f64]) -> Option<Line> {
         let span = crossing(&trajectory, window)?;

@@ -85,7 +85,7 @@ use crate::solve::ImageSolver;
 use crate::store::library::LibrarySpec;
 use crate::store::Store;
 use evaluate::Scratch;
-use grid::{crossing, distinct, host_timing, strongest_feature, Line};
+use grid::{distinct, host_timing, strongest_feature, Line};
 use rayon::prelude::*;
 use readers::Readers;
 use std::path::PathBuf;
@@ -342,15 +342,7 @@ pub fn trajectory_chi2_on_map(
     let readers = Readers::new(map, data, &rule.rhos, &mut notes)?;
     let sets: Vec<Weighted> = data.iter().map(Weighted::new).collect();
     let mut solver = ImageSolver::new(&map.provenance.lens)?;
-    let Some(span) = crossing(trajectory, &map.window) else {
-        return Err(Error::input(
-            "search: the trajectory does not cross the map's window",
-        ));
-    };
-    let line = Line {
-        trajectory: *trajectory,
-        span,
-    };
+    let line = Line::on(*trajectory, &map.window);
     let mut scratch = Scratch::default();
     scratch.trajectory_chi2(&mut solver, &sets, &readers, &line, rule)?;
     Ok(readers.rhos.iter().copied().zip(scratch.chi2).collect())
@@ -393,6 +385,15 @@ fn timed_lines(
             }
         }
     }
+    for (alpha, u0) in rule.outer_lines(&map.window, seed, readers.host.position) {
+        let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
+        for &f in &rule.te_factors {
+            for &shift in &rule.t0_shifts {
+                let tr = Trajectory::straight(t0 + shift * te * f, u0, te * f, alpha)?;
+                lines.push(Line::on(tr, &map.window));
+            }
+        }
+    }
     Ok(lines)
 }
 
@@ -416,10 +417,7 @@ impl Polisher<'_> {
     fn run(&self, start: &Candidate, r: usize) -> Result<Candidate> {
         let trials = self.rule.rhos.len();
         let mut best = self.polish_at(start, r)?;
-        let Some(line) = self.line(&best.model.trajectory) else {
-            return Ok(best);
-        };
-        let chi2 = self.chi2_all(&line);
+        let chi2 = self.chi2_all(&Line::on(best.model.trajectory, self.window));
         let mut others: Vec<usize> = (0..trials)
             .filter(|&i| i != r && chi2[i].is_finite())
             .collect();
@@ -447,14 +445,6 @@ impl Polisher<'_> {
         Ok(best)
     }
 
-    fn line(&self, trajectory: &Trajectory) -> Option<Line> {
-        let span = crossing(trajectory, self.window)?;
-        Some(Line {
-            trajectory: *trajectory,
-            span,
-        })
-    }
-
     /// chi^2 of `line` at every reader's radius (infinite where it cannot be read).
     fn chi2_all(&self, line: &Line) -> Vec<f64> {
         let mut solver = self.solver.clone();
@@ -472,9 +462,7 @@ impl Polisher<'_> {
             let Ok(trajectory) = Trajectory::straight(p[2], p[1], p[3].exp(), p[0]) else {
                 return f64::INFINITY;
             };
-            let Some(line) = self.line(&trajectory) else {
-                return f64::INFINITY;
-            };
+            let line = Line::on(trajectory, self.window);
             let mut guard = work.lock().unwrap_or_else(|e| e.into_inner());
             let (solver, scratch) = &mut *guard;
             match scratch.trajectory_chi2(solver, self.sets, self.readers, &line, self.rule) {
