@@ -114,6 +114,8 @@ fn negative_numbers_and_equals_forms_work_as_typed() {
     assert!(dir.join("a.fits").exists());
 }
 
+const IMAGES: [&str; 6] = ["--s", "1", "--q", "1e-3", "--points", "points.csv"];
+
 #[test]
 fn thread_counts_above_four_per_logical_core_are_refused() {
     // The shared --threads option of every command: 1 to 4 x the logical cores.
@@ -127,10 +129,7 @@ fn thread_counts_above_four_per_logical_core_are_refused() {
     .unwrap();
     let commands: [(&str, Vec<&str>); 4] = [
         ("map", [GOOD, &["--s", "1", "--q", "1e-3"]].concat()),
-        (
-            "images",
-            vec!["--s", "1", "--q", "1e-3", "--points", "points.csv"],
-        ),
+        ("images", IMAGES.to_vec()),
         (
             "contour",
             vec![
@@ -166,19 +165,8 @@ fn thread_counts_above_four_per_logical_core_are_refused() {
         );
     }
     // The limit itself is accepted.
-    let (code, _, stderr) = common::run_cli(
-        &dir,
-        "images",
-        &[
-            "--s",
-            "1",
-            "--q",
-            "1e-3",
-            "--points",
-            "points.csv",
-            "--threads",
-            &limit.to_string(),
-        ],
-    );
+    let limit = limit.to_string();
+    let all = [&IMAGES[..], &["--threads", &limit]].concat();
+    let (code, _, stderr) = common::run_cli(&dir, "images", &all);
     assert_eq!(code, 0, "{stderr}");
 }

@@ -47,6 +47,13 @@ fn run_ok(mut cmd: Command) -> String {
     String::from_utf8_lossy(&out.stderr).into_owned()
 }
 
+/// Runs `library build grid.toml` in `dir` and asserts its summary says `built` (for example
+/// "8 maps built, 0 already present").
+fn build_says(dir: &Path, built: &str) {
+    let summary = run_ok(library(dir, &["build", "grid.toml"]));
+    assert!(summary.contains(built), "{summary}");
+}
+
 /// Every grid point is present and verifies, and nothing else is.
 fn assert_complete(dir: &Path, spec: &LibrarySpec, context: &str) {
     let store = Store::open(&dir.join("maps")).unwrap();
@@ -68,13 +75,8 @@ fn assert_complete(dir: &Path, spec: &LibrarySpec, context: &str) {
 #[test]
 fn second_build_builds_nothing() {
     let (dir, spec) = setup("store-twice");
-    let first = run_ok(library(&dir, &["build", "grid.toml"]));
-    assert!(first.contains("8 maps built, 0 already present"), "{first}");
-    let second = run_ok(library(&dir, &["build", "grid.toml"]));
-    assert!(
-        second.contains("0 maps built, 8 already present"),
-        "{second}"
-    );
+    build_says(&dir, "8 maps built, 0 already present");
+    build_says(&dir, "0 maps built, 8 already present");
     assert_complete(&dir, &spec, "after two builds");
 }
 
@@ -137,17 +139,22 @@ fn killed_builds_resume_to_a_complete_verified_grid() {
     assert_complete(&dir, &spec, &format!("seed {seed}, after prune"));
 }
 
-#[test]
-fn two_builders_on_one_store_keep_it_consistent() {
-    let (dir, spec) = setup("store-two");
-    let children: Vec<_> = (0..2)
+/// Starts `count` one-thread builds of `grid.toml` in `dir`.
+fn spawn_builders(dir: &Path, count: usize) -> Vec<std::process::Child> {
+    (0..count)
         .map(|_| {
-            library(&dir, &["build", "grid.toml", "--threads", "1"])
+            library(dir, &["build", "grid.toml", "--threads", "1"])
                 .stderr(Stdio::null())
                 .spawn()
                 .unwrap()
         })
-        .collect();
+        .collect()
+}
+
+#[test]
+fn two_builders_on_one_store_keep_it_consistent() {
+    let (dir, spec) = setup("store-two");
+    let children = spawn_builders(&dir, 2);
     for mut c in children {
         assert!(c.wait().unwrap().success());
     }
@@ -169,11 +176,7 @@ fn a_flipped_byte_is_named_by_verify_and_replaced_by_a_rebuild() {
     let report = String::from_utf8_lossy(&out.stdout);
     assert!(report.contains(&victim), "{report}");
     assert_eq!(report.lines().count(), 1, "{report}");
-    let rebuilt = run_ok(library(&dir, &["build", "grid.toml"]));
-    assert!(
-        rebuilt.contains("1 maps built, 7 already present"),
-        "{rebuilt}"
-    );
+    build_says(&dir, "1 maps built, 7 already present");
     assert_complete(&dir, &spec, "after rebuild");
 }
 
@@ -204,8 +207,7 @@ fn sharded_builds_fill_one_store() {
         ));
     }
     assert_complete(&dir, &spec, "three shards");
-    let list = run_ok(library(&dir, &["build", "grid.toml"]));
-    assert!(list.contains("0 maps built"), "{list}");
+    build_says(&dir, "0 maps built");
 }
 
 #[test]
@@ -328,8 +330,7 @@ fn builds_mark_their_store_and_adopt_an_unmarked_folder_with_our_index() {
     // A store from before the marker: refused by readers, adopted by the next build.
     std::fs::remove_file(&marker).unwrap();
     assert_refused(library_in(&dir, &["verify"]), "maps", "unmarked verify");
-    let again = run_ok(library(&dir, &["build", "grid.toml"]));
-    assert!(again.contains("0 maps built, 8 already present"), "{again}");
+    build_says(&dir, "0 maps built, 8 already present");
     assert!(marker.exists());
     assert_complete(&dir, &spec, "adopted");
     // A folder of other files without an index is not taken over by a build.
@@ -448,11 +449,7 @@ fn prune_adopts_unindexed_maps_honours_min_age_and_dry_run() {
     assert_eq!(out.lines().count(), 2, "{out}");
     assert!(!maps.join(&damaged).exists() && !maps.join(&temporary).exists());
     assert!(maps.join(&unlisted).exists());
-    let rebuilt = run_ok(library(&dir, &["build", "grid.toml"]));
-    assert!(
-        rebuilt.contains("1 maps built, 7 already present"),
-        "{rebuilt}"
-    );
+    build_says(&dir, "1 maps built, 7 already present");
     assert_complete(&dir, &spec, "after prune and rebuild");
 }
 
@@ -489,14 +486,7 @@ fn exact_lookups_match_to_a_relative_tolerance_and_say_when_nothing_matched() {
 fn prune_beside_running_builders_removes_nothing_of_theirs() {
     let (dir, spec) = setup_with("store-prune-beside", SLOW_SPEC);
     let marker = dir.join("maps").join(causeway::store::MARKER);
-    let mut builders: Vec<_> = (0..2)
-        .map(|_| {
-            library(&dir, &["build", "grid.toml", "--threads", "1"])
-                .stderr(Stdio::null())
-                .spawn()
-                .unwrap()
-        })
-        .collect();
+    let mut builders = spawn_builders(&dir, 2);
     let mut prunes = 0;
     while builders.iter_mut().any(|b| b.try_wait().unwrap().is_none()) {
         if marker.exists() {

@@ -25,7 +25,8 @@ pub struct LibraryArgs {
 /// Where the store is.
 #[derive(Debug, Clone, Args)]
 pub struct StoreArgs {
-    /// Store directory (default: $CAUSEWAY_STORE, else ./maps).
+    /// Store directory (default: $CAUSEWAY_STORE, else ./maps). Commands that only read or
+    /// tidy a store need an existing one (marked by causeway-store.toml); builds create it.
     #[arg(long, value_name = "DIR")]
     pub store: Option<PathBuf>,
 }
