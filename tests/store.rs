@@ -376,6 +376,11 @@ fn prune_touches_only_the_stores_own_files_inside_it() {
         }
         assert_eq!(std::fs::read(dir.join("victim.txt")).unwrap(), b"keep me");
     }
+    // A row with a value that is not a finite number is refused as well.
+    let fields: Vec<&str> = row.split(',').collect();
+    let nan_row = [&fields[..1], &["NaN"], &fields[2..]].concat().join(",");
+    std::fs::write(&index, good.replace(row, &nan_row)).unwrap();
+    assert_refused(library_in(&dir, &["list"]), "index.csv:2", "NaN row");
     std::fs::write(&index, &good).unwrap();
     let before = common::listing(&maps);
     let (code, out, err) = library_in(&dir, &["prune", "--min-age", "0"]);
