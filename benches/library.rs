@@ -18,7 +18,7 @@ fn fresh_store(tag: &str) -> Store {
         std::process::id()
     ));
     let _ = std::fs::remove_dir_all(&dir);
-    Store::open(&dir).unwrap()
+    Store::create(&dir).unwrap()
 }
 
 fn pool(threads: usize) -> rayon::ThreadPool {

@@ -90,7 +90,7 @@ fn built(store: &Store, points: &[GridPoint]) -> Vec<LibraryMap> {
 fn library() -> (Store, Vec<GridPoint>, Vec<GridPoint>) {
     let spec = LibrarySpec::parse(SPEC, "bench").unwrap();
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("target/bench-store");
-    let store = Store::open(&root).unwrap();
+    let store = Store::create(&root).unwrap();
     let points = spec.points().unwrap();
     let ns = spec.s.len();
     let sub = [(10, 10), (11, 10), (10, 11), (11, 11)]

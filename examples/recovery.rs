@@ -41,7 +41,7 @@ fn main() {
         .filter(|e| names.is_empty() || names.iter().any(|n| *n == e.name))
         .collect();
     let broad = LibrarySpec::parse(BROAD_LIBRARY, "broad library").unwrap();
-    let store = Store::open(std::path::Path::new("target/recovery-store")).unwrap();
+    let store = Store::create(std::path::Path::new("target/recovery-store")).unwrap();
     let steps = log_steps(&broad);
     println!(
         "event,kind,s,q,u0,tE,rho,blend,best_s,best_q,best_u0,best_tE,best_rho,chi2,chi2_true,dof,\

@@ -113,3 +113,60 @@ fn negative_numbers_and_equals_forms_work_as_typed() {
     );
     assert!(dir.join("a.fits").exists());
 }
+
+const IMAGES: [&str; 6] = ["--s", "1", "--q", "1e-3", "--points", "points.csv"];
+
+#[test]
+fn thread_counts_above_four_per_logical_core_are_refused() {
+    // The shared --threads option of every command: 1 to 4 x the logical cores.
+    let dir = common::Scratch::new("cli-threads");
+    let limit = 4 * std::thread::available_parallelism().unwrap().get();
+    std::fs::write(dir.join("points.csv"), "x,y\n0.1,0\n").unwrap();
+    std::fs::write(
+        dir.join("grid.toml"),
+        "s = [1.0]\nq = [1e-3]\npixels = 8\nrays = 5\n[window]\ncenter = [0.0, 0.0]\nwidth = 1.0\n",
+    )
+    .unwrap();
+    let commands: [(&str, Vec<&str>); 4] = [
+        ("map", [GOOD, &["--s", "1", "--q", "1e-3"]].concat()),
+        ("images", IMAGES.to_vec()),
+        (
+            "contour",
+            vec![
+                "--s",
+                "1",
+                "--q",
+                "1e-3",
+                "--points",
+                "points.csv",
+                "--rho",
+                "0.01",
+            ],
+        ),
+        ("library", vec!["build", "grid.toml", "--store", "st"]),
+    ];
+    let too_many = (limit + 1).to_string();
+    for (command, args) in &commands {
+        for n in [too_many.as_str(), "100000", "0"] {
+            let mut all = args.clone();
+            all.extend(["--threads", n]);
+            let (code, _, stderr) = common::run_cli(&dir, command, &all);
+            assert_eq!(code, 2, "{command} --threads {n}: exit {code}, {stderr}");
+            assert!(
+                stderr.contains("--threads") && stderr.contains(&format!("1 to {limit}")),
+                "{command} --threads {n}: {stderr}"
+            );
+            assert_eq!(stderr.trim().lines().count(), 1, "{stderr}");
+        }
+        assert_eq!(
+            common::listing(&dir),
+            ["grid.toml", "points.csv"],
+            "{command}"
+        );
+    }
+    // The limit itself is accepted.
+    let limit = limit.to_string();
+    let all = [&IMAGES[..], &["--threads", &limit]].concat();
+    let (code, _, stderr) = common::run_cli(&dir, "images", &all);
+    assert_eq!(code, 0, "{stderr}");
+}

@@ -27,7 +27,7 @@ fn recovers(name: &str) {
         .unwrap();
     let broad = LibrarySpec::parse(BROAD_LIBRARY, "broad").unwrap();
     let spec = event.near_library(&broad);
-    let store = Store::open(&common::scratch(&format!("recovery-{name}"))).unwrap();
+    let store = Store::create(&common::scratch(&format!("recovery-{name}"))).unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
     let data = event.data().unwrap();

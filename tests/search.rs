@@ -59,7 +59,7 @@ fn search_library(name: &str, library: Library, rhos: &[f64], data: &[DataSet]) 
         timed: true,
         ..GridRule::default()
     };
-    let store = Store::open(&common::scratch(name)).unwrap();
+    let store = Store::create(&common::scratch(name)).unwrap();
     let spec = LibrarySpec::parse(&spec, "lib.toml").unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();

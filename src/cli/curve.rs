@@ -311,7 +311,7 @@ fn needed_map(
         return Ok(None);
     };
     let engine = RayShooting::try_new(args.rays)?;
-    let store = args.store.open()?;
+    let store = args.store.create()?;
     let key = MapKey::new(lens.clone(), window, "rays", args.rays);
     if let Some(map) = store.get(&key)? {
         eprintln!("using stored map {}", store.path_of(&key).display());

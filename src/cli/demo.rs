@@ -109,7 +109,7 @@ fn fitting_job(out: &Path) -> Result<()> {
     )?];
     crate::fsutil::write_atomic(&out.join("library.toml"), DEMO_LIBRARY.as_bytes())?;
     eprintln!("demo: building and searching a 3 x 3 library of 600^2 maps for it");
-    let store = Store::open(&out.join("maps"))?;
+    let store = Store::create(&out.join("maps"))?;
     let spec = LibrarySpec::parse(DEMO_LIBRARY, "library.toml")?;
     let reporter = Reporter::new();
     let points = spec.points()?;

@@ -16,7 +16,7 @@ use std::path::PathBuf;
     causeway library script grid.toml --shards 16 --store /shared/maps > fill.sh\n  \
     causeway library list --s 1.2 --q 1e-3\n  \
     causeway library verify\n  \
-    causeway library prune")]
+    causeway library prune --dry-run")]
 pub struct LibraryArgs {
     #[command(subcommand)]
     pub action: Action,
@@ -25,22 +25,29 @@ pub struct LibraryArgs {
 /// Where the store is.
 #[derive(Debug, Clone, Args)]
 pub struct StoreArgs {
-    /// Store directory (default: $CAUSEWAY_STORE, else ./maps).
+    /// Store directory (default: $CAUSEWAY_STORE, else ./maps). Commands that only read or
+    /// tidy a store need an existing one (marked by causeway-store.toml); builds create it.
     #[arg(long, value_name = "DIR")]
     pub store: Option<PathBuf>,
 }
 
 impl StoreArgs {
-    /// Opens the store.
+    /// Opens the existing store (for commands that read or tidy it).
     pub fn open(&self) -> Result<Store> {
         Store::open(&Store::location(self.store.as_deref()))
+    }
+
+    /// Opens the store for building, creating it if needed.
+    pub fn create(&self) -> Result<Store> {
+        Store::create(&Store::location(self.store.as_deref()))
     }
 }
 
 /// `causeway library` actions.
 #[derive(Debug, Subcommand)]
 pub enum Action {
-    /// Build the maps of a spec (TOML) that the store lacks; resumable.
+    /// Build the maps of a spec (TOML) that the store lacks; resumable. Creates the store
+    /// (a new or empty folder, marked by causeway-store.toml) if needed.
     Build {
         /// Library spec (TOML): s and q values, window, pixels, rays.
         spec: PathBuf,
@@ -65,12 +72,12 @@ pub enum Action {
         #[command(flatten)]
         store: StoreArgs,
     },
-    /// List the maps in the store (CSV), optionally those nearest to (s, q).
+    /// List the maps in the store (CSV), optionally those at or nearest to (s, q).
     List {
-        /// Separation to look up (with --q).
+        /// Separation to look up (with --q); matched to a relative 1e-9.
         #[arg(long, requires = "q")]
         s: Option<f64>,
-        /// Mass ratio to look up (with --s).
+        /// Mass ratio to look up (with --s); matched to a relative 1e-9.
         #[arg(long, requires = "s")]
         q: Option<f64>,
         /// With --s/--q: how many nearest grid points in (log s, log q); 0 = exact match only.
@@ -79,18 +86,23 @@ pub enum Action {
         #[command(flatten)]
         store: StoreArgs,
     },
-    /// Re-check every map's checksums and header against its key; report each bad entry.
+    /// Re-check every map's checksums and header against its key; report each bad entry,
+    /// and complete maps not yet indexed (which the next build adopts).
     Verify {
         #[command(flatten)]
         store: StoreArgs,
     },
-    /// Remove maps that fail verification or that the index does not name, and stale
-    /// temporary files.
+    /// Remove damaged maps and stale temporary files of the store, index complete maps it
+    /// does not list, and drop index entries whose file is missing. Touches only the store's
+    /// own files (hash-named maps, temporaries) in its folder.
     Prune {
-        /// Only remove temporary files at least this old (seconds): they may belong to a build
+        /// Only remove files at least this old (seconds): younger ones may belong to a build
         /// still running.
-        #[arg(long, default_value_t = 3600)]
+        #[arg(long, default_value_t = 3600, value_name = "SECONDS")]
         min_age: u64,
+        /// List what would be removed or adopted, and change nothing.
+        #[arg(long)]
+        dry_run: bool,
         #[command(flatten)]
         store: StoreArgs,
     },
@@ -111,7 +123,7 @@ pub fn run(args: LibraryArgs) -> Result<()> {
                 Some(sh) => lib.shard(sh)?,
                 None => lib.points()?,
             };
-            let store = store.open()?;
+            let store = store.create()?;
             let bar = progress_bar("library");
             bar.set_length(points.len() as u64);
             let started = std::time::Instant::now();
@@ -156,45 +168,102 @@ pub fn run(args: LibraryArgs) -> Result<()> {
             q,
             nearest,
             store,
-        } => {
-            let store = store.open()?;
-            let entries = match (s, q) {
-                (Some(s), Some(q)) if nearest > 0 => store.nearest(s, q, nearest)?,
-                (Some(s), Some(q)) => store.find(s, q)?,
-                _ => store.entries()?,
-            };
-            println!("{}", index_header());
-            for e in entries {
-                println!("{}", e.row());
-            }
-            Ok(())
-        }
-        Action::Verify { store } => {
-            let store = store.open()?;
-            let problems = store.verify()?;
-            let total = store.entries()?.len();
-            for p in &problems {
-                println!("{}: {}", p.path.display(), p.reason);
-            }
-            if problems.is_empty() {
-                eprintln!("verify: all {total} maps verify");
-                Ok(())
-            } else {
-                Err(Error::Numerical(format!(
-                    "verify: {} bad entries of {total} in {}",
-                    problems.len(),
-                    store.root().display()
-                )))
-            }
-        }
-        Action::Prune { min_age, store } => {
-            let store = store.open()?;
-            let removed = store.prune(std::time::Duration::from_secs(min_age))?;
-            for p in &removed {
-                println!("removed {}", p.display());
-            }
-            eprintln!("prune: removed {} files", removed.len());
-            Ok(())
-        }
+        } => list(&store.open()?, s.zip(q), nearest),
+        Action::Verify { store } => verify(&store.open()?),
+        Action::Prune {
+            min_age,
+            dry_run,
+            store,
+        } => prune(
+            &store.open()?,
+            std::time::Duration::from_secs(min_age),
+            dry_run,
+        ),
     }
+}
+
+/// `library list`: the index, or the maps at or nearest to (s, q).
+fn list(store: &Store, point: Option<(f64, f64)>, nearest: usize) -> Result<()> {
+    let entries = match point {
+        Some((s, q)) => {
+            for (name, v) in [("--s", s), ("--q", q)] {
+                if !(v.is_finite() && v > 0.0) {
+                    return Err(Error::input(format!(
+                        "{name}: must be a finite number > 0, got {v}"
+                    )));
+                }
+            }
+            let found = if nearest > 0 {
+                store.nearest(s, q, nearest)?
+            } else {
+                store.find(s, q)?
+            };
+            if found.is_empty() {
+                eprintln!(
+                    "list: no map at s = {s}, q = {q} in {} (--nearest N lists the nearest)",
+                    store.root().display()
+                );
+            }
+            found
+        }
+        None => store.entries()?,
+    };
+    println!("{}", index_header());
+    for e in entries {
+        println!("{}", e.row());
+    }
+    Ok(())
+}
+
+/// `library verify`: every problem on stdout; fails when there is any.
+fn verify(store: &Store) -> Result<()> {
+    let report = store.verify()?;
+    for p in &report.problems {
+        println!("{}: {}", p.path.display(), p.reason);
+    }
+    for e in &report.unindexed {
+        println!(
+            "{}: complete, not yet indexed (the next build adopts it)",
+            store.root().join(&e.file).display()
+        );
+    }
+    let total = report.indexed;
+    if report.problems.is_empty() {
+        eprintln!("verify: all {total} indexed maps verify");
+        Ok(())
+    } else {
+        Err(Error::Numerical(format!(
+            "verify: {} bad entries ({total} indexed) in {}",
+            report.problems.len(),
+            store.root().display()
+        )))
+    }
+}
+
+/// `library prune`: what was removed and adopted on stdout, a summary on stderr.
+fn prune(store: &Store, min_age: std::time::Duration, dry_run: bool) -> Result<()> {
+    let report = store.prune(min_age, dry_run)?;
+    let (remove, adopt) = if dry_run {
+        ("would remove", "would adopt")
+    } else {
+        ("removed", "adopted")
+    };
+    for p in &report.removed {
+        println!("{remove} {}", p.display());
+    }
+    for p in &report.adopted {
+        println!("{adopt} {}", p.display());
+    }
+    eprintln!(
+        "prune: {remove} {} files, {adopt} {} maps, {} younger than --min-age kept{}",
+        report.removed.len(),
+        report.adopted.len(),
+        report.young.len(),
+        if dry_run {
+            " (dry run: nothing changed)"
+        } else {
+            ""
+        }
+    );
+    Ok(())
 }

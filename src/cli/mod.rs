@@ -115,18 +115,36 @@ impl LensArgs {
 /// Parallelism: how many threads.
 #[derive(Debug, Clone, Args)]
 pub struct ThreadArgs {
-    /// Worker threads (default: all cores; RAYON_NUM_THREADS is honoured too).
-    #[arg(long, value_name = "N")]
+    /// Worker threads, 1 to 4 x the logical cores (default: all cores; RAYON_NUM_THREADS is
+    /// honoured too).
+    #[arg(long, value_name = "N", value_parser = parse_threads)]
     pub threads: Option<usize>,
+}
+
+/// The most threads a `--threads` option accepts: 4 x the logical cores.
+pub fn thread_limit() -> usize {
+    4 * std::thread::available_parallelism().map_or(1, |n| n.get())
+}
+
+/// Parses a thread count: at least 1, at most [`thread_limit`].
+pub fn parse_threads(s: &str) -> std::result::Result<usize, String> {
+    let n: usize = s
+        .trim()
+        .parse()
+        .map_err(|_| format!("'{s}' is not a thread count"))?;
+    let limit = thread_limit();
+    if n == 0 || n > limit {
+        return Err(format!(
+            "must be 1 to {limit} (4 x the logical cores), got {n}"
+        ));
+    }
+    Ok(n)
 }
 
 impl ThreadArgs {
     /// Sets up the global thread pool. Call once, before any parallel work.
     pub fn install(&self) -> Result<()> {
         if let Some(n) = self.threads {
-            if n == 0 {
-                return Err(Error::input("--threads: must be at least 1"));
-            }
             rayon::ThreadPoolBuilder::new()
                 .num_threads(n)
                 .build_global()

@@ -415,7 +415,7 @@ fn library_maps(
         return maps_of_store(&Store::open(library_path)?);
     }
     let spec = LibrarySpec::read(library_path)?;
-    let store = store.open()?;
+    let store = store.create()?;
     let points = spec.points()?;
     progress.start("library", points.len() as u64);
     let summary = library::build(&store, &points, |_, _| progress.advance(1))?;

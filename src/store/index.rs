@@ -1,5 +1,6 @@
 //! The store's index: one CSV row per map, rewritten atomically.
 
+use super::layout::is_map_name;
 use crate::error::{Error, Result};
 use crate::fsutil::write_atomic;
 use crate::map::MagnificationMap;
@@ -89,13 +90,21 @@ pub fn header() -> &'static str {
     HEADER
 }
 
-/// Reads the index; a missing file is an empty index.
+/// Reads the index; a missing file is an empty index. A header other than ours, a file field
+/// that is not a map name of the store (so never a path out of it) and a number that is not
+/// finite are errors naming the line.
 pub fn read(path: &Path) -> Result<Vec<Entry>> {
     let text = match std::fs::read_to_string(path) {
         Ok(t) => t,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(Vec::new()),
         Err(e) => return Err(Error::io(path, e)),
     };
+    if text.lines().next().map(str::trim_end) != Some(HEADER) {
+        return Err(Error::input(format!(
+            "{}:1: not a map index (its header is not the store's)",
+            path.display()
+        )));
+    }
     let mut entries = Vec::new();
     for (no, line) in text.lines().enumerate().skip(1) {
         if line.trim().is_empty() {
@@ -106,7 +115,19 @@ pub fn read(path: &Path) -> Result<Vec<Entry>> {
         if f.len() != 14 {
             return Err(bad("expected 14 fields"));
         }
-        let num = |i: usize| f[i].parse::<f64>().map_err(|_| bad("bad number"));
+        if !is_map_name(f[0]) {
+            let shown: String = f[0].chars().take(40).collect();
+            return Err(bad(&format!(
+                "file '{}' is not the name of a map in the store",
+                shown.escape_debug()
+            )));
+        }
+        let num = |i: usize| {
+            f[i].parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+                .ok_or_else(|| bad("bad number"))
+        };
         let int = |i: usize| f[i].parse::<u64>().map_err(|_| bad("bad integer"));
         let opt = |i: usize| -> Result<Option<f64>> {
             if f[i].is_empty() {

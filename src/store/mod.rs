@@ -1,5 +1,10 @@
 //! The map store: content-addressed FITS files under one directory, and an index by (s, q).
 //!
+//! A folder is a store when it holds the marker `causeway-store.toml` (with the store's format
+//! version). [`Store::create`] makes one (the call for anything that builds maps);
+//! [`Store::open`] opens an existing one and refuses a missing or unmarked folder (the call for
+//! anything that only reads or tidies a store).
+//!
 //! A map lives at `<store>/<hash>.fits`, the hash taken over the canonical text of its
 //! [`MapKey`] (SHA-256, stable across versions and platforms). `<store>/index.csv` lists every
 //! map with its parameters and build statistics; it is rewritten atomically under an exclusive
@@ -7,21 +12,26 @@
 //! shared file system that honours `flock`) never lose each other's entries. Map files are
 //! written to a temporary name (`.<hash>.fits.<pid>.<n>.tmp`) and renamed, so a file named
 //! `<hash>.fits` is always complete; a build killed at any moment leaves at most a temporary
-//! that [`Store::prune`] removes.
+//! that [`Store::prune`] removes. The store's upkeep touches only files with the store's own
+//! names (see [`is_map_name`] and [`is_temporary_name`]), never anything else in the folder.
 //!
 //! The default store is `./maps`, overridden by `--store DIR` or `CAUSEWAY_STORE`.
 
 mod index;
 mod key;
+mod layout;
 pub mod library;
+mod upkeep;
 
 pub use index::{header as index_header, Entry};
 pub use key::{MapKey, KEY_FORMAT};
+pub use layout::{is_map_name, is_temporary_name, MARKER, STORE_FORMAT};
+pub use upkeep::{Problem, PruneReport, Verification};
 
 use crate::error::{Error, Result};
 use crate::map::fits::{read_fits, write_fits};
 use crate::map::MagnificationMap;
-use std::fs::{self, File};
+use std::fs::File;
 use std::path::{Path, PathBuf};
 
 /// Environment variable naming the store directory.
@@ -33,7 +43,8 @@ pub const STORE_ENV: &str = "CAUSEWAY_STORE";
 /// use causeway::engine::{Engine, RayShooting};
 /// use causeway::{lens::LensSystem, map::Window, store::{MapKey, Store}};
 /// let dir = std::env::temp_dir().join(format!("causeway-doc-store-{}", std::process::id()));
-/// let store = Store::open(&dir).unwrap();
+/// let store = Store::create(&dir).unwrap();
+/// assert!(dir.join(causeway::store::MARKER).exists());
 /// let lens = LensSystem::binary(1.0, 0.1).unwrap();
 /// let window = Window::new((0.0, 0.0), 1.0, 16).unwrap();
 /// let key = MapKey::new(lens.clone(), window, "rays", 10.0);
@@ -49,14 +60,9 @@ pub struct Store {
     root: PathBuf,
 }
 
-/// A problem found by [`Store::verify`].
-#[derive(Debug, Clone, PartialEq)]
-pub struct Problem {
-    /// The file concerned.
-    pub path: PathBuf,
-    /// What is wrong with it.
-    pub reason: String,
-}
+/// Relative tolerance of the exact lookups by (s, q) ([`Store::find`]): stored values such as
+/// 0.0010000000000000002 from a log-spaced grid match 1e-3.
+pub const MATCH_TOLERANCE: f64 = 1e-9;
 
 impl Store {
     /// The store directory from `--store`, else `$CAUSEWAY_STORE`, else `./maps`.
@@ -67,12 +73,32 @@ impl Store {
             .unwrap_or_else(|| PathBuf::from("maps"))
     }
 
-    /// Opens (creating if needed) the store at `root`.
+    /// Opens the existing store at `root`: a missing folder, a folder without the store's
+    /// marker and a store of a newer format are errors naming the folder. Creates nothing.
+    ///
+    /// ```
+    /// use causeway::store::Store;
+    /// let err = Store::open("/no/such/store".as_ref()).unwrap_err();
+    /// assert_eq!(err.to_string(), "store /no/such/store: no such folder");
+    /// ```
     pub fn open(root: &Path) -> Result<Store> {
-        fs::create_dir_all(root).map_err(|e| Error::io(root, e))?;
+        layout::check_marked(root)?;
         Ok(Store {
             root: root.to_path_buf(),
         })
+    }
+
+    /// Opens the store at `root` for building maps into it: creates and marks a missing
+    /// folder; marks (adopts) an unmarked folder that holds a valid index of ours or only
+    /// files the store writes (an empty folder among them), and refuses any other unmarked
+    /// folder. Complete maps that the index does not list yet are adopted (indexed).
+    pub fn create(root: &Path) -> Result<Store> {
+        layout::prepare(root)?;
+        let store = Store {
+            root: root.to_path_buf(),
+        };
+        store.adopt()?;
+        Ok(store)
     }
 
     /// The store directory.
@@ -86,7 +112,7 @@ impl Store {
     }
 
     fn index_path(&self) -> PathBuf {
-        self.root.join("index.csv")
+        self.root.join(layout::INDEX)
     }
 
     /// Reads the map of `key` if present; a present file that fails its checksums or whose
@@ -131,18 +157,22 @@ impl Store {
         index::read(&self.index_path())
     }
 
-    /// Entries of binaries with exactly this (s, q).
+    /// Entries of binaries with this (s, q), to a relative [`MATCH_TOLERANCE`]; s and q must
+    /// be finite and > 0.
     pub fn find(&self, s: f64, q: f64) -> Result<Vec<Entry>> {
+        check_point(s, q)?;
+        let close = |a: f64, b: f64| (a - b).abs() <= MATCH_TOLERANCE * a.abs().max(b.abs());
         Ok(self
             .entries()?
             .into_iter()
-            .filter(|e| e.s == Some(s) && e.q == Some(q))
+            .filter(|e| e.s.is_some_and(|es| close(es, s)) && e.q.is_some_and(|eq| close(eq, q)))
             .collect())
     }
 
     /// Binary entries ordered by distance from (s, q) in (log s, log q), nearest first, at most
     /// `count` distinct (s, q) grid points (all maps of each).
     pub fn nearest(&self, s: f64, q: f64, count: usize) -> Result<Vec<Entry>> {
+        check_point(s, q)?;
         let mut binaries: Vec<(f64, Entry)> = self
             .entries()?
             .into_iter()
@@ -168,91 +198,9 @@ impl Store {
         Ok(out)
     }
 
-    /// Checks every indexed map (present, checksums, header matching its key and its file
-    /// name) and every map file the index does not name; returns each problem found.
-    pub fn verify(&self) -> Result<Vec<Problem>> {
-        let entries = self.entries()?;
-        let mut problems = Vec::new();
-        for e in &entries {
-            let path = self.root.join(&e.file);
-            if !path.exists() {
-                problems.push(Problem {
-                    path,
-                    reason: "listed in the index but missing".into(),
-                });
-                continue;
-            }
-            if let Err(err) = read_fits(&path).and_then(|m| check_key(&m, &path)) {
-                let text = err.to_string();
-                let prefix = format!("{}: ", path.display());
-                let reason = text.strip_prefix(&prefix).unwrap_or(&text).to_string();
-                problems.push(Problem { path, reason });
-            }
-        }
-        for path in self.map_files()? {
-            let name = file_name(&path);
-            if !entries.iter().any(|e| e.file == name) {
-                problems.push(Problem {
-                    path,
-                    reason: "not in the index".into(),
-                });
-            }
-        }
-        Ok(problems)
-    }
-
-    /// Removes map files that fail verification or that the index does not name, index entries
-    /// whose file is missing or bad, and temporary files older than `min_age` (a build killed
-    /// mid-write leaves one). Do not prune while a build writes to the store with a `min_age`
-    /// shorter than a map's write. Returns the files removed.
-    pub fn prune(&self, min_age: std::time::Duration) -> Result<Vec<PathBuf>> {
-        self.with_lock(|| {
-            let mut removed = Vec::new();
-            let problems = self.verify()?;
-            for p in &problems {
-                if p.path.exists() {
-                    fs::remove_file(&p.path).map_err(|e| Error::io(&p.path, e))?;
-                    removed.push(p.path.clone());
-                }
-            }
-            let bad: Vec<String> = problems.iter().map(|p| file_name(&p.path)).collect();
-            let mut entries = self.entries()?;
-            entries.retain(|e| !bad.contains(&e.file));
-            index::write(&self.index_path(), &entries)?;
-            for entry in fs::read_dir(&self.root).map_err(|e| Error::io(&self.root, e))? {
-                let path = entry.map_err(|e| Error::io(&self.root, e))?.path();
-                let name = file_name(&path);
-                let old = fs::metadata(&path)
-                    .and_then(|m| m.modified())
-                    .ok()
-                    .and_then(|t| t.elapsed().ok())
-                    .is_some_and(|age| age >= min_age);
-                if name.starts_with('.') && name.ends_with(".tmp") && old {
-                    fs::remove_file(&path).map_err(|e| Error::io(&path, e))?;
-                    removed.push(path);
-                }
-            }
-            Ok(removed)
-        })
-    }
-
-    /// Map files (`*.fits`) in the store directory, sorted.
-    fn map_files(&self) -> Result<Vec<PathBuf>> {
-        let mut files = Vec::new();
-        for entry in fs::read_dir(&self.root).map_err(|e| Error::io(&self.root, e))? {
-            let path = entry.map_err(|e| Error::io(&self.root, e))?.path();
-            let name = file_name(&path);
-            if name.ends_with(".fits") && !name.starts_with('.') {
-                files.push(path);
-            }
-        }
-        files.sort();
-        Ok(files)
-    }
-
     /// Runs `f` holding the store's exclusive lock.
     fn with_lock<T>(&self, f: impl FnOnce() -> Result<T>) -> Result<T> {
-        let lock_path = self.root.join(".lock");
+        let lock_path = self.root.join(layout::LOCK);
         let lock = File::options()
             .create(true)
             .truncate(false)
@@ -263,6 +211,17 @@ impl Store {
         let result = f();
         let _ = lock.unlock();
         result
+    }
+}
+
+/// Refuses a lookup point that is not a finite, positive (s, q).
+fn check_point(s: f64, q: f64) -> Result<()> {
+    if s.is_finite() && s > 0.0 && q.is_finite() && q > 0.0 {
+        Ok(())
+    } else {
+        Err(Error::input(format!(
+            "lookup: s and q must be finite and > 0, got s = {s}, q = {q}"
+        )))
     }
 }
 

@@ -60,6 +60,30 @@ pub fn scratch(name: &str) -> PathBuf {
     dir
 }
 
+/// A fresh empty directory for one test, removed with everything in it when dropped (also
+/// when the test fails).
+pub struct Scratch(PathBuf);
+
+impl Scratch {
+    /// A fresh `scratch(name)` that cleans up after itself.
+    pub fn new(name: &str) -> Scratch {
+        Scratch(scratch(name))
+    }
+}
+
+impl std::ops::Deref for Scratch {
+    type Target = Path;
+    fn deref(&self) -> &Path {
+        &self.0
+    }
+}
+
+impl Drop for Scratch {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_dir_all(&self.0);
+    }
+}
+
 /// Files in a directory (names), sorted.
 pub fn listing(dir: &Path) -> Vec<String> {
     let mut names: Vec<String> = std::fs::read_dir(dir)
