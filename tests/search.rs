@@ -231,7 +231,7 @@ fn the_zoom_finds_a_separation_between_grid_points() {
     let (truth, data) = planetary_crossing(12);
     let spec = "s = [1.18, 1.43]\nq = [3e-3]\npixels = 300\nrays = 1\nengine = \"polygon\"\n\
                 [window]\nrule = \"planetary\"\n";
-    let store = Store::open(&common::scratch("search-zoom")).unwrap();
+    let store = Store::create(&common::scratch("search-zoom")).unwrap();
     let spec = LibrarySpec::parse(spec, "lib.toml").unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
