@@ -192,7 +192,10 @@ impl GridRule {
     fn u0_limits(&self, seed: &Seed) -> (f64, f64) {
         let half = (self.u0_span * seed.u0).max(self.u0_floor);
         let range = seed.u0_range(self.u0_misfit);
-        ((seed.u0 - half).min(range.0).max(0.0), (seed.u0 + half).max(range.1))
+        (
+            (seed.u0 - half).min(range.0).max(0.0),
+            (seed.u0 + half).max(range.1),
+        )
     }
 
     /// The lines that pass beside a window holding the host (`host`): a planet's caustic

@@ -35,6 +35,12 @@
 //! or blending biases the single-lens tE by several percent, which moves a caustic crossing
 //! by many source radii; the timed copy does not depend on it.
 //!
+//! On a window that holds the host, the lines of [`GridRule::outer_lines`] are tried as well:
+//! lines that pass beside the window, out to a few of its half-diagonals, read wholly off the
+//! map, with the same timings (less the anomaly anchoring, which needs a feature on the map).
+//! A planet's central caustic perturbs the magnification well beyond itself, and a source that
+//! passes it at a few caustic widths shows the planet without crossing it.
+//!
 //! Negative `u0` are not searched: a binary is symmetric about its axis, and `(u0, alpha)` and
 //! `(-u0, -alpha)` give the same curve, so the twin minima are one (reported with `u0 >= 0`).
 //! Lines that cross the window at no observed time are skipped: the map adds nothing to them.
