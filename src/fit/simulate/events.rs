@@ -197,6 +197,9 @@ pub struct Verdict {
     pub chi2: f64,
     /// chi^2 of the true model over the same data.
     pub chi2_true: f64,
+    /// chi^2 of the best minimum and of the true model over the data the fit last minimised
+    /// (outliers clipped, error bars scaled).
+    pub chi2_fit: (f64, f64),
     /// Degrees of freedom of a binary model.
     pub dof: usize,
     /// The single lens's chi^2 less the best minimum's.
@@ -211,8 +214,11 @@ pub struct Verdict {
 impl BenchEvent {
     /// Judges a fit of the event's `data`: recovered when a reported minimum has (s, q) within
     /// one grid step (`steps`: natural-log steps of the library's s and q axes) of the truth or
-    /// of its close/wide partner, and the best chi^2 over the data as given is at most the
-    /// truth's plus max(25, 0.002 dof); a single lens when the best binary improves on the
+    /// of its close/wide partner, and the best chi^2 is at most the truth's plus
+    /// max(25, 0.002 dof), over the data as given or over the data the fit minimised (the two
+    /// weight the sets differently when the fit scaled their error bars, and the fit can only
+    /// be asked to beat the truth on its own objective); a single lens when the best binary
+    /// improves on the
     /// single lens by less than 100.
     pub fn judge(&self, data: &[DataSet], fit: &FitResult, steps: (f64, f64)) -> Result<Verdict> {
         let truth = &self.truth;
@@ -220,6 +226,10 @@ impl BenchEvent {
         let n: usize = data.iter().map(DataSet::len).sum();
         let dof = n.saturating_sub(7 + 2 * data.len());
         let chi2 = fit.minima[0].chi2_as_given;
+        let chi2_fit = (
+            fit.minima[0].refined.chi2,
+            exact_chi2(&fit.data, truth, 1e-4)?.0,
+        );
         let improvement = fit.single.chi2 - chi2;
         let within = |x: f64, step: f64| x.ln().abs() <= step * 1.01;
         let near_truth = fit.minima.iter().any(|m| {
@@ -230,11 +240,13 @@ impl BenchEvent {
         let recovered = if self.kind == EventKind::SingleLens {
             improvement < 100.0
         } else {
-            near_truth && chi2 <= chi2_true + (0.002 * dof as f64).max(25.0)
+            let slack = (0.002 * dof as f64).max(25.0);
+            near_truth && (chi2 <= chi2_true + slack || chi2_fit.0 <= chi2_fit.1 + slack)
         };
         Ok(Verdict {
             chi2,
             chi2_true,
+            chi2_fit,
             dof,
             improvement,
             near_truth,
