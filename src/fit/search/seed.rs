@@ -223,6 +223,9 @@ impl Seed {
     pub fn of_baseline(baseline: &Baseline, data: &[DataSet]) -> Seed {
         let fit = &baseline.fit;
         let anomaly = Self::departure(fit, data);
+        // A set with (almost) nothing outside the anomaly (a follow-up run over it) says
+        // nothing of the single lens: it is left out of the valley, as the baseline leaves it
+        // out, rather than letting the anomaly back in.
         let masked: Vec<DataSet> = data
             .iter()
             .map(|d| {
@@ -231,11 +234,12 @@ impl Seed {
                     .iter()
                     .fold(d.clone(), |d, &(a, b)| d.without(a, b))
             })
+            .filter(|d| d.len() >= 3)
             .collect();
-        let masked = if masked.iter().all(|d| d.len() >= 3) {
-            masked
-        } else {
+        let masked = if masked.is_empty() {
             data.to_vec()
+        } else {
+            masked
         };
         Self::along_valley(fit, &masked, anomaly)
     }
