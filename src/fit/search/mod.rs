@@ -338,6 +338,30 @@ pub fn search_map(
 /// chi^2 of one trajectory on `map`, read as the search reads it, at each trial radius of
 /// `rule` (infinite where a radius cannot be read on this map): what the search would rank
 /// that trajectory at. Returns `(rho, chi2)` pairs.
+///
+/// ```
+/// use causeway::engine::{Engine, PolygonMapping};
+/// use causeway::fit::model::{paczynski, Trajectory};
+/// use causeway::fit::photometry::DataSet;
+/// use causeway::fit::search::{trajectory_chi2_on_map, GridRule};
+/// use causeway::lens::LensSystem;
+/// use causeway::map::Window;
+/// // A binary whose companion hardly matters far from it, and data of the host alone
+/// // (Paczynski 1986) along a line that misses the map: chi^2 about 0 at every radius.
+/// let lens = LensSystem::binary(1.5, 1e-4).unwrap();
+/// let map = PolygonMapping::new(1.0).build(&lens, &Window::new((0.8, 0.0), 0.05, 64).unwrap()).unwrap();
+/// let mut text = String::from("t,flux,flux_err\n");
+/// for k in 0..50 {
+///     let t = -25.0 + k as f64;
+///     text += &format!("{t},{},0.01\n", paczynski((0.09f64 + (t / 20.0).powi(2)).sqrt()));
+/// }
+/// let data = [DataSet::parse(&text, "a.csv", 22.0).unwrap()];
+/// let rule = GridRule { rhos: vec![2e-3, 4e-3], ..GridRule::default() };
+/// let line = Trajectory::straight(0.0, 0.3, 20.0, std::f64::consts::FRAC_PI_2).unwrap();
+/// let chi2 = trajectory_chi2_on_map(&data, &map, &rule, &line).unwrap();
+/// assert_eq!(chi2.len(), 2);
+/// assert!(chi2.iter().all(|&(_, c)| c < 1.0), "{chi2:?}");
+/// ```
 pub fn trajectory_chi2_on_map(
     data: &[DataSet],
     map: &MagnificationMap,
