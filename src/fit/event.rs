@@ -30,14 +30,13 @@
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
 
-use super::minima::{refine_models, Minimum, RefineOptions};
+use super::minima::{best_start, grid_starts, refine_models, Minimum, RefineOptions};
 use super::model::{BinaryModel, Trajectory};
 use super::noise::{clean, Clipped};
 use super::photometry::DataSet;
 use super::refine::exact_chi2;
 use super::search::{
-    local_minima, merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed,
-    ValleyPoint,
+    merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
 use super::zoom::{MapRecipe, ZoomOptions, Zoomer};
@@ -386,17 +385,8 @@ fn refine_starts(
     options: &FitOptions,
     progress: &dyn Progress,
 ) -> Result<(Starts, Vec<MapOutcome>)> {
-    let centres: Vec<usize> = local_minima(outcomes)
-        .into_iter()
-        .take(options.refine.candidates)
-        .collect();
-    if centres.is_empty() {
-        return Err(Error::Numerical(
-            "search: no trajectory of any map could be evaluated".into(),
-        ));
-    }
-    let best = |o: &MapOutcome| (o.candidates[0].model, o.candidates[0].chi2);
-    let mut starts: Starts = centres.iter().map(|&i| best(&outcomes[i])).collect();
+    let centres = grid_starts(outcomes, options.refine.candidates)?;
+    let mut starts: Starts = centres.iter().map(|&i| best_start(&outcomes[i])).collect();
     let mut zoomed = Vec::new();
     let Some(zoom) = options.zoom.filter(|z| z.levels > 0 && z.centres > 0) else {
         return Ok((starts, zoomed));
@@ -405,15 +395,15 @@ fn refine_starts(
         data: local,
         seed,
         rule,
-        recipe: MapRecipe::of_map(&match maps {
-            MapSource::Files(files) => read_fits(&files[0].path)?,
-            MapSource::Loaded(loaded) => loaded[0].clone(),
-        }),
+        recipe: match maps {
+            MapSource::Files(files) => MapRecipe::of_map(&read_fits(&files[0].path)?),
+            MapSource::Loaded(loaded) => MapRecipe::of_map(&loaded[0]),
+        },
     };
     progress.start("zoom", 0);
     for (k, &i) in centres.iter().take(zoom.centres).enumerate() {
         let found = zoomer.zoom(outcomes, i, zoom.levels, &|| progress.advance(1))?;
-        starts[k] = best(&found);
+        starts[k] = best_start(&found);
         zoomed.push(found);
     }
     progress.finish(&format!(

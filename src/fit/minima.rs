@@ -62,20 +62,29 @@ pub fn refine_minima(
     options: &RefineOptions,
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<Minimum>> {
-    let starts: Vec<(BinaryModel, f64)> = local_minima(outcomes)
+    let starts: Vec<(BinaryModel, f64)> = grid_starts(outcomes, options.candidates)?
         .into_iter()
-        .take(options.candidates)
-        .map(|i| {
-            let c = outcomes[i].candidates[0];
-            (c.model, c.chi2)
-        })
+        .map(|i| best_start(&outcomes[i]))
         .collect();
+    refine_models(data, &starts, options, progress)
+}
+
+/// The best `count` (s, q)-grid local minima of `outcomes` (indices, best first); an error when
+/// no trajectory of any map could be evaluated.
+pub fn grid_starts(outcomes: &[MapOutcome], count: usize) -> Result<Vec<usize>> {
+    let starts: Vec<usize> = local_minima(outcomes).into_iter().take(count).collect();
     if starts.is_empty() {
         return Err(Error::Numerical(
             "search: no trajectory of any map could be evaluated".into(),
         ));
     }
-    refine_models(data, &starts, options, progress)
+    Ok(starts)
+}
+
+/// The best candidate of an outcome as a refinement's start: its model and search chi^2.
+pub fn best_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
+    let c = outcome.candidates[0];
+    (c.model, c.chi2)
 }
 
 /// Refines each `(model, search chi^2)` of `starts` (in parallel, within the options' time
