@@ -32,8 +32,8 @@ pub(super) struct Scratch {
 }
 
 impl Scratch {
-    /// chi^2 of a trajectory at each trial rho, into `self.chi2` (infinite where that rho could
-    /// not be read).
+    /// chi^2 of a trajectory at each trial rho (or only at the reader `only`), into `self.chi2`
+    /// (infinite where that rho could not be read or was not asked for).
     pub(super) fn trajectory_chi2(
         &mut self,
         solver: &mut ImageSolver,
@@ -41,6 +41,7 @@ impl Scratch {
         readers: &Readers,
         line: &Line,
         rule: &GridRule,
+        only: Option<usize>,
     ) -> Result<()> {
         self.chi2.clear();
         self.chi2.resize(readers.rhos.len(), 0.0);
@@ -78,7 +79,7 @@ impl Scratch {
                 off.add(weighted, i, self.point[i]);
             }
             for (r, conv) in row.iter().enumerate() {
-                let Some(conv) = conv else {
+                let Some(conv) = conv.as_ref().filter(|_| only.is_none_or(|o| o == r)) else {
                     self.chi2[r] = f64::INFINITY;
                     continue;
                 };

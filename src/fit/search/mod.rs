@@ -100,6 +100,9 @@ use sums::Weighted;
 
 /// Iteration limit of the polish of each kept candidate on its map.
 pub const POLISH_ITERATIONS: u64 = 300;
+/// Convergence of the polish: the spread (standard deviation) of chi^2 over the simplex. The
+/// search only ranks; the refinement fits exactly.
+pub const POLISH_TOLERANCE: f64 = 0.5;
 /// Trial radii besides the grid's best at which each kept line is polished again.
 pub const RHO_RETRIES: usize = 2;
 
@@ -271,7 +274,7 @@ pub fn search_map(
             || (solver.clone(), Scratch::default()),
             |(solver, scratch), line| {
                 scratch
-                    .trajectory_chi2(solver, &sets, &readers, line, rule)
+                    .trajectory_chi2(solver, &sets, &readers, line, rule, None)
                     .ok()?;
                 let chi2 = &scratch.chi2;
                 points.fetch_add((chi2.len() * all_times.len()) as u64, Ordering::Relaxed);
@@ -374,7 +377,7 @@ pub fn trajectory_chi2_on_map(
     let mut solver = ImageSolver::new(&map.provenance.lens)?;
     let line = Line::on(*trajectory, &map.window);
     let mut scratch = Scratch::default();
-    scratch.trajectory_chi2(&mut solver, &sets, &readers, &line, rule)?;
+    scratch.trajectory_chi2(&mut solver, &sets, &readers, &line, rule, None)?;
     Ok(readers.rhos.iter().copied().zip(scratch.chi2).collect())
 }
 
@@ -479,7 +482,7 @@ impl Polisher<'_> {
     fn chi2_all(&self, line: &Line) -> Vec<f64> {
         let mut solver = self.solver.clone();
         let mut scratch = Scratch::default();
-        match scratch.trajectory_chi2(&mut solver, self.sets, self.readers, line, self.rule) {
+        match scratch.trajectory_chi2(&mut solver, self.sets, self.readers, line, self.rule, None) {
             Ok(()) => scratch.chi2,
             Err(_) => vec![f64::INFINITY; self.readers.rhos.len()],
         }
@@ -495,7 +498,14 @@ impl Polisher<'_> {
             let line = Line::on(trajectory, self.window);
             let mut guard = work.lock().unwrap_or_else(|e| e.into_inner());
             let (solver, scratch) = &mut *guard;
-            match scratch.trajectory_chi2(solver, self.sets, self.readers, &line, self.rule) {
+            match scratch.trajectory_chi2(
+                solver,
+                self.sets,
+                self.readers,
+                &line,
+                self.rule,
+                Some(r),
+            ) {
                 Ok(()) => scratch.chi2[r],
                 Err(_) => f64::INFINITY,
             }
@@ -503,7 +513,7 @@ impl Polisher<'_> {
         let l = start.model.trajectory.line();
         let x0 = [l.alpha, l.u0, l.t0, l.te.ln()];
         let step = [self.steps.0, self.steps.1, 0.01 * l.te, 0.03];
-        let found = minimize(&chi2, &x0, &step, 0.01, POLISH_ITERATIONS)?;
+        let found = minimize(&chi2, &x0, &step, POLISH_TOLERANCE, POLISH_ITERATIONS)?;
         if found.value >= start.chi2 {
             return Ok(*start);
         }
