@@ -35,7 +35,7 @@
 //! centres, [`Preconvolved::interpolation_bound`] returns
 //! `(1/8) (max|D_xx| + max|D_yy|)`. The finite-source read is only piecewise smooth (its second
 //! derivative has integrable peaks where the source rim is tangent to a pixel edge or crosses a
-//! caustic), so the bound is an estimate; tests/curve.rs measures how it holds on a caustic
+//! caustic), so the bound is an estimate; tests/integration/curve.rs measures how it holds on a caustic
 //! crossing.
 
 use super::sample::{bilinear, disks_in_pixels};

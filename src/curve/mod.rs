@@ -12,7 +12,7 @@
 //!    ([`small_source`]), where that correction is accurate to the tolerance; elsewhere the
 //!    sampler fails, naming the first such point.
 //!
-//! # Accuracy (derived in the module docs named, measured in tests/curve.rs)
+//! # Accuracy (derived in the module docs named, measured in tests/integration/curve.rs)
 //! - Map reads under the source: lattice counting noise plus pixelisation, about
 //!   `(d^2/12 rho) |dA/dn|` for a pixel of side `d` (the map holds box means; measured 7e-4 at
 //!   rho = 10 px on a point lens, the Witt & Mao value being the reference).

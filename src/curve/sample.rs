@@ -13,7 +13,7 @@
 //! pixel edge, so the quadrature converges only as about `nodes^-2.5` (measured: 8 nodes give
 //! 2e-3, 16 give 7e-4, 32 give 1e-4 on a caustic crossing with `u = 1`). Stated tolerance:
 //! relative error below `1e-4` against the same profile integrated with four times as many
-//! nodes (tests/curve.rs measures it on a caustic crossing, for the steepest laws).
+//! nodes (tests/integration/curve.rs measures it on a caustic crossing, for the steepest laws).
 //!
 //! # Point-source reads: the smoothing of bilinear interpolation
 //! For `rho = 0` the map is read by bilinear interpolation between pixel centres. Pixel values

@@ -4,6 +4,7 @@
 use causeway::table::Table;
 use std::path::{Path, PathBuf};
 use std::process::Command;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// The crate root.
 pub fn root() -> PathBuf {
@@ -52,28 +53,33 @@ pub fn causeway() -> Command {
     Command::new(env!("CARGO_BIN_EXE_causeway"))
 }
 
-/// A fresh empty directory for one test.
-pub fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("causeway-test-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
 /// A fresh empty directory for one test, removed with everything in it when dropped (also
-/// when the test fails).
+/// when the test fails). Every test module runs in the one test process, so the folder's name
+/// holds the process id and a counter besides `name`: no two tests share a folder.
 pub struct Scratch(PathBuf);
 
 impl Scratch {
-    /// A fresh `scratch(name)` that cleans up after itself.
+    /// A fresh empty folder under the system's temporary directory.
     pub fn new(name: &str) -> Scratch {
-        Scratch(scratch(name))
+        static NEXT: AtomicUsize = AtomicUsize::new(0);
+        let n = NEXT.fetch_add(1, Ordering::Relaxed);
+        let dir =
+            std::env::temp_dir().join(format!("causeway-test-{}-{n}-{name}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        Scratch(dir)
     }
 }
 
 impl std::ops::Deref for Scratch {
     type Target = Path;
     fn deref(&self) -> &Path {
+        &self.0
+    }
+}
+
+impl AsRef<Path> for Scratch {
+    fn as_ref(&self) -> &Path {
         &self.0
     }
 }

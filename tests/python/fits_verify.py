@@ -1,4 +1,4 @@
-"""Independent check of a causeway map file with astropy, called by tests/fits.rs.
+"""Independent check of a causeway map file with astropy, called by tests/integration/fits.rs.
 
 Usage: fits_verify.py FILE
        fits_verify.py --sums-only FILE...

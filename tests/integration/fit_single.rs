@@ -3,7 +3,7 @@
 //! the bounded fluxes against scipy.optimize.nnls (tests/reference/bounded_fluxes.py), and on
 //! simulated binary events against the host-centred single lens of the true trajectory.
 
-mod common;
+use crate::common;
 
 use causeway::fit::fluxes::fit_fluxes;
 use causeway::fit::model::{paczynski, BinaryModel, Trajectory};

@@ -1,7 +1,7 @@
 //! `causeway images` and `causeway caustics` from the outside: output columns and order, bad
 //! input (one line naming the culprit, exit status 2, no file written).
 
-mod common;
+use crate::common;
 
 use causeway::lens::LensSystem;
 use causeway::table::Table;
@@ -23,7 +23,7 @@ fn run_in(dir: &Path, args: &[&str]) -> (i32, String, String) {
 
 #[test]
 fn images_prints_one_row_per_source_in_order() {
-    let dir = common::scratch("cli-images");
+    let dir = common::Scratch::new("cli-images");
     std::fs::write(
         dir.join("p.csv"),
         "x,y,note\n0.1,-0.05,7\n# a comment\n-0.8,0.3,1\n1.5,0,2\n",
@@ -75,7 +75,7 @@ fn images_prints_one_row_per_source_in_order() {
 
 #[test]
 fn images_bad_input_exits_2() {
-    let dir = common::scratch("cli-images-bad");
+    let dir = common::Scratch::new("cli-images-bad");
     std::fs::write(dir.join("p.csv"), "x,y\n0.1,0\n0.2,oops\n").unwrap();
     std::fs::write(dir.join("good.csv"), "x,y\n0.1,0\n").unwrap();
     let five: String = (0..5)
@@ -109,7 +109,7 @@ fn images_bad_input_exits_2() {
 
 #[test]
 fn caustics_writes_csv_and_png() {
-    let dir = common::scratch("cli-caustics");
+    let dir = common::Scratch::new("cli-caustics");
     let (code, _, err) = run_in(
         &dir,
         &[
@@ -139,7 +139,7 @@ fn caustics_writes_csv_and_png() {
 
 #[test]
 fn caustics_bad_input_exits_2_and_writes_nothing() {
-    let dir = common::scratch("cli-caustics-bad");
+    let dir = common::Scratch::new("cli-caustics-bad");
     for (args, culprit) in [
         (vec!["--s", "1", "--q", "0", "--out", "c.csv"], "--q"),
         (

@@ -1,6 +1,6 @@
 //! Critical curves, caustics and binary topology against outside references.
 
-mod common;
+use crate::common;
 
 use causeway::caustics::{self, Curve, Topology};
 use causeway::lens::LensSystem;

@@ -4,20 +4,12 @@
 //!
 //! Python: `CAUSEWAY_PYTHON`, else `<crate root>/.venv/bin/python`, with astropy installed.
 
+use crate::common::Scratch;
 use causeway::lens::LensSystem;
 use causeway::map::{read_fits, write_fits, MagnificationMap, Provenance, Window};
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::process::Command;
-
-/// A scratch directory for one test.
-fn scratch(name: &str) -> PathBuf {
-    let dir =
-        std::env::temp_dir().join(format!("causeway-test-fits-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
 
 /// A map made by hand: the point-lens magnification A(u) = (u^2+2)/(u sqrt(u^2+4))
 /// (Paczynski 1986) at each pixel centre, an odd window that is not centred on the origin, and
@@ -57,7 +49,7 @@ fn triple_map() -> MagnificationMap {
 
 #[test]
 fn binary_map_round_trips_exactly() {
-    let dir = scratch("binary");
+    let dir = Scratch::new("binary");
     let path = dir.join("binary.fits");
     let map = binary_map();
     write_fits(&map, &path).unwrap();
@@ -73,12 +65,11 @@ fn binary_map_round_trips_exactly() {
     // The whole file has whole blocks: 2880-byte header blocks plus ceil(37*37*4/2880) = 2.
     let len = std::fs::metadata(&path).unwrap().len() as usize;
     assert_eq!(len % 2880, 0);
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn general_lens_round_trips() {
-    let dir = scratch("triple");
+    let dir = Scratch::new("triple");
     let path = dir.join("triple.fits");
     let map = triple_map();
     write_fits(&map, &path).unwrap();
@@ -104,7 +95,6 @@ fn general_lens_round_trips() {
         (q.version.as_str(), q.build_time.as_str(), q.build_seconds),
         (p.version.as_str(), p.build_time.as_str(), p.build_seconds)
     );
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 /// Header cards of a file, by keyword, up to END.
@@ -122,7 +112,7 @@ fn cards(bytes: &[u8]) -> Vec<String> {
 
 #[test]
 fn writing_is_deterministic_apart_from_build_time() {
-    let dir = scratch("determinism");
+    let dir = Scratch::new("determinism");
     let (a, b, c) = (dir.join("a.fits"), dir.join("b.fits"), dir.join("c.fits"));
     let map = binary_map();
     write_fits(&map, &a).unwrap();
@@ -144,12 +134,11 @@ fn writing_is_deterministic_apart_from_build_time() {
         .map(|(x, _)| x[..8].trim_end())
         .collect();
     assert_eq!(differing, ["DATE", "BUILDSEC", "CHECKSUM"]);
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn bad_files_give_one_line_errors_naming_file_and_keyword() {
-    let dir = scratch("errors");
+    let dir = Scratch::new("errors");
     let path = dir.join("edited.fits");
     write_fits(&binary_map(), &path).unwrap();
     let mut bytes = std::fs::read(&path).unwrap();
@@ -185,12 +174,11 @@ fn bad_files_give_one_line_errors_naming_file_and_keyword() {
 
     let missing = dir.join("missing.fits");
     assert_eq!(read_fits(&missing).unwrap_err().exit_code(), 2);
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn a_map_that_cannot_be_written_leaves_no_file() {
-    let dir = scratch("unwritable");
+    let dir = Scratch::new("unwritable");
     let path = dir.join("bad.fits");
     let mut map = binary_map();
     map.provenance.density = f64::NAN;
@@ -200,7 +188,6 @@ fn a_map_that_cannot_be_written_leaves_no_file() {
     map.data = ndarray::Array2::zeros((3, 4));
     assert!(write_fits(&map, &path).is_err());
     assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 0);
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 // ---- astropy -------------------------------------------------------------------------------
@@ -263,7 +250,7 @@ fn close(a: f64, b: f64, rel: f64) -> bool {
 
 #[test]
 fn astropy_verifies_the_file_its_checksums_and_its_wcs() {
-    let dir = scratch("astropy");
+    let dir = Scratch::new("astropy");
     let path = dir.join("binary.fits");
     let map = binary_map();
     write_fits(&map, &path).unwrap();
@@ -323,12 +310,11 @@ fn astropy_verifies_the_file_its_checksums_and_its_wcs() {
         }
     }
     assert_eq!((worlds, values), (37 * 37, 37 * 37));
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn a_flipped_byte_fails_the_checksums_in_astropy_and_in_our_reader() {
-    let dir = scratch("flipped");
+    let dir = Scratch::new("flipped");
     let good = dir.join("good.fits");
     write_fits(&triple_map(), &good).unwrap();
     let bytes = std::fs::read(&good).unwrap();
@@ -363,14 +349,13 @@ fn a_flipped_byte_fails_the_checksums_in_astropy_and_in_our_reader() {
         .unwrap_err()
         .to_string()
         .contains("CHECKSUM"));
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn astropy_agrees_with_the_checksum_encoding_of_many_files() {
     // astropy compares the CHECKSUM string with its own encoding of the convention, so many
     // different sums exercise every branch of ours (the punctuation nudges among them).
-    let dir = scratch("many");
+    let dir = Scratch::new("many");
     let mut map = test_map(LensSystem::single(), 4);
     let files: Vec<PathBuf> = (0..48)
         .map(|k| {
@@ -386,5 +371,4 @@ fn astropy_agrees_with_the_checksum_encoding_of_many_files() {
     for (k, sums) in astropy_sums(&refs).into_iter().enumerate() {
         assert_eq!(sums, ("1".into(), "1".into()), "map{k}.fits");
     }
-    std::fs::remove_dir_all(&dir).unwrap();
 }

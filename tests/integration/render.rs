@@ -3,20 +3,11 @@
 //! The PNGs are decoded with the `image` crate's PNG decoder; the colours at the ends of the
 //! scale are those of the magma gradient at 0 and 1 (colorous, after matplotlib's magma).
 
+use crate::common::Scratch;
 use causeway::lens::LensSystem;
 use causeway::map::render::{COLOUR_BAR_MIN_PIXELS, CURVE_COLOUR, LENS_COLOUR};
 use causeway::map::{render_png, MagnificationMap, Overlay, Provenance, Window};
-use std::path::{Path, PathBuf};
-
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!(
-        "causeway-test-render-{name}-{}",
-        std::process::id()
-    ));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
+use std::path::Path;
 
 /// A flat map (magnification 1) over [-1, 1]^2 with `n` pixels per side.
 fn flat_map(n: usize) -> MagnificationMap {
@@ -47,7 +38,7 @@ fn magma(t: f64) -> [u8; 3] {
 
 #[test]
 fn small_and_large_maps_have_the_expected_size() {
-    let dir = scratch("size");
+    let dir = Scratch::new("size");
     let path = dir.join("map.png");
     // Below the colour-bar threshold: exactly one PNG pixel per map pixel.
     render_png(&flat_map(20), &Overlay::default(), &path).unwrap();
@@ -60,12 +51,11 @@ fn small_and_large_maps_have_the_expected_size() {
     assert_eq!(img.height(), 300);
     assert!(img.width() > 300 && img.width() < 400, "{}", img.width());
     assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 1);
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn top_left_of_the_source_plane_is_top_left_of_the_picture() {
-    let dir = scratch("orientation");
+    let dir = Scratch::new("orientation");
     let path = dir.join("map.png");
     let n = 40;
     let mut map = flat_map(n);
@@ -86,12 +76,11 @@ fn top_left_of_the_source_plane_is_top_left_of_the_picture() {
             assert_eq!(img.get_pixel(col, row).0, want, "PNG pixel ({col}, {row})");
         }
     }
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn caustic_lines_and_lens_marks_are_drawn_in_their_colours() {
-    let dir = scratch("overlay");
+    let dir = Scratch::new("overlay");
     let path = dir.join("map.png");
     let n = 64;
     let map = flat_map(n);
@@ -121,12 +110,11 @@ fn caustic_lines_and_lens_marks_are_drawn_in_their_colours() {
         .filter(|(c, _, p)| (*c as usize) < n && p.0 == LENS_COLOUR)
         .count();
     assert_eq!(marked, 9, "one cross of 2 x 4 + 1 pixels");
-    std::fs::remove_dir_all(&dir).unwrap();
 }
 
 #[test]
 fn colour_bar_runs_from_the_bottom_to_the_top_of_the_scale() {
-    let dir = scratch("bar");
+    let dir = Scratch::new("bar");
     let path = dir.join("map.png");
     let n = 64;
     let mut map = flat_map(n);
@@ -146,5 +134,4 @@ fn colour_bar_runs_from_the_bottom_to_the_top_of_the_scale() {
     assert!(near(bottom, magma(0.0)), "{bottom:?}");
     assert!(near(img.get_pixel(0, 0).0, magma(1.0)));
     assert!(near(img.get_pixel(0, n as u32 - 1).0, magma(0.0)));
-    std::fs::remove_dir_all(&dir).unwrap();
 }

@@ -5,7 +5,7 @@
 //! second order in the cell size h: the tests check the level at a stated density and the
 //! convergence rate, not a noise model.
 
-mod common;
+use crate::common;
 
 use causeway::engine::{Engine, PolygonMapping, RayShooting};
 use causeway::lens::LensSystem;
@@ -88,7 +88,7 @@ fn pixel_means_converge_at_second_order() {
 #[test]
 fn polygon_and_dense_rays_agree_within_the_rays_noise() {
     // A binary (s = 1, q = 0.1) off its caustics: rays at 4e4 per pixel have a typical lattice
-    // error near 1e-4 (tests/engine.rs model); the polygon map at 4 cells per pixel agrees to a
+    // error near 1e-4 (tests/integration/engine.rs model); the polygon map at 4 cells per pixel agrees to a
     // median of a few 1e-4, at 1/10000 of the image-plane samples.
     let lens = LensSystem::binary(1.0, 0.1).unwrap();
     let rays = build(&RayShooting::new(4e4), &lens, (0.5, 0.6), 0.3, 60);
@@ -120,7 +120,7 @@ fn polygon_and_dense_rays_agree_within_the_rays_noise() {
 
 #[test]
 fn distant_close_binary_looks_like_a_single_lens_of_the_total_mass() {
-    // As in tests/engine.rs: A - 1 of a close binary (s = 0.05, q = 1) at u = 3 against the
+    // As in tests/integration/engine.rs: A - 1 of a close binary (s = 0.05, q = 1) at u = 3 against the
     // single-lens window mean, to the multipole order m1 m2 s^2 (u^2 + 1/u^2) (coefficient
     // taken <= 3; from memory, measured near 1.2).
     let refs = common::reference(
@@ -161,7 +161,7 @@ fn caustic_crossing_curves_agree_with_contour_integration() {
     // The study's claim (docs/engine-study.csv, curve columns): finite-source curves read from a
     // polygon map at one cell per pixel across a caustic agree with contour integration (Green's
     // theorem, an independent calculation; itself checked against Witt & Mao 1994 and numpy
-    // lattice counts in tests/contour.rs) to a median of about 5e-5, and to about 3e-2 at the
+    // lattice counts in tests/integration/contour.rs) to a median of about 5e-5, and to about 3e-2 at the
     // 99th percentile, where the 5-pixel source straddles a caustic fold.
     let (s, q) = (1.3, 1e-3);
     let lens = LensSystem::binary(s, q).unwrap();

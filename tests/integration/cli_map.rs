@@ -1,7 +1,7 @@
 //! `causeway map` from the outside: bad input gets one line naming the culprit, exit status 2,
 //! and no file on disk (DESIGN.md, "Stable command-line interface").
 
-mod common;
+use crate::common;
 
 use std::path::Path;
 
@@ -27,7 +27,7 @@ fn with(overrides: &[(&str, &str)], extra: &[&str]) -> Vec<String> {
 
 #[test]
 fn bad_input_exits_2_naming_the_culprit_and_writes_nothing() {
-    let dir = common::scratch("cli-map-bad");
+    let dir = common::Scratch::new("cli-map-bad");
     std::fs::write(dir.join("neg.csv"), "x,y,mass\n0,0,1\n0.5,0.1,-0.2\n").unwrap();
     std::fs::write(dir.join("broken.csv"), "x,y,mass\n0,0,1\n0.5,zero,1\n").unwrap();
     std::fs::write(dir.join("twin.csv"), "x,y,mass\n0.1,0,1\n0.1,0,2\n").unwrap();
@@ -90,7 +90,7 @@ fn bad_input_exits_2_naming_the_culprit_and_writes_nothing() {
 
 #[test]
 fn negative_numbers_and_equals_forms_work_as_typed() {
-    let dir = common::scratch("cli-map-forms");
+    let dir = common::Scratch::new("cli-map-forms");
     let (code, stderr) = map_in(
         &dir,
         &[

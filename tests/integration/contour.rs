@@ -1,6 +1,6 @@
 //! Contour-integration magnifications against outside references.
 
-mod common;
+use crate::common;
 
 use causeway::contour::{self, ContourSolver, Method};
 use causeway::lens::LensSystem;
@@ -96,7 +96,7 @@ fn binaries_against_lattice_counts() {
 }
 
 /// rho = 0 is the point source: the solver's magnification (itself checked against numpy and
-/// mpmath in tests/solve.rs), bit for bit.
+/// mpmath in tests/integration/solve.rs), bit for bit.
 #[test]
 fn zero_radius_is_the_point_source() {
     let lens = LensSystem::binary(1.2, 1e-3).unwrap();
@@ -170,7 +170,7 @@ fn batch_is_deterministic() {
 /// one-line message naming the culprit.
 #[test]
 fn command_line() {
-    let dir = common::scratch("contour-cli");
+    let dir = common::Scratch::new("contour-cli");
     let points = dir.join("points.csv");
     std::fs::write(&points, "x,y\n0.5,0\n0,0.1\n").unwrap();
     let out = common::causeway()

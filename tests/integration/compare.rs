@@ -4,7 +4,7 @@
 //! 1994 closed form for the uniform disk, scipy.special); numpy.percentile (default linear
 //! rule) for the summary's statistics; the straight-line convention of DESIGN.md.
 
-mod common;
+use crate::common;
 
 use causeway::engine::{Engine, RayShooting};
 use causeway::lens::LensSystem;
@@ -44,7 +44,7 @@ fn num(field: &str) -> f64 {
 
 #[test]
 fn contour_column_matches_witt_mao_and_the_summary_matches_the_table() {
-    let dir = common::scratch("compare-path");
+    let dir = common::Scratch::new("compare-path");
     write_single_lens_map(&dir);
     let reference = common::reference(
         "finite_source.csv",
@@ -90,7 +90,7 @@ fn contour_column_matches_witt_mao_and_the_summary_matches_the_table() {
         // The column is |map/contour - 1| of the printed (round-trip) numbers, exactly.
         assert_eq!(relative, (map / contour - 1.0).abs(), "u = {u}");
         // The map read at the same point: loosely the same number (the map's own accuracy is
-        // checked in tests/curve.rs).
+        // checked in tests/integration/curve.rs).
         assert!(relative < 0.01, "u = {u}: map {map} vs contour {contour}");
         let method = if u + RHO <= 0.3 {
             "direct"
@@ -124,7 +124,7 @@ fn contour_column_matches_witt_mao_and_the_summary_matches_the_table() {
 
 #[test]
 fn straight_trajectory_has_times_and_a_two_chart_picture() {
-    let dir = common::scratch("compare-line");
+    let dir = common::Scratch::new("compare-line");
     write_single_lens_map(&dir);
     // t0 = 1, u0 = 0.05, tE = 20, alpha = 90 degrees: the source at (-u0, (t - t0)/tE)
     // (DESIGN.md: (tau cos a - u0 sin a, tau sin a + u0 cos a)).
@@ -174,7 +174,7 @@ fn straight_trajectory_has_times_and_a_two_chart_picture() {
 
 #[test]
 fn bad_input_is_one_line_exit_2_and_nothing_written() {
-    let dir = common::scratch("compare-bad");
+    let dir = common::Scratch::new("compare-bad");
     write_single_lens_map(&dir);
     std::fs::write(dir.join("path.csv"), "x,y\n0.1,0\n0.2,oops\n").unwrap();
     std::fs::write(dir.join("good.csv"), "x,y\n0.1,0\n").unwrap();

@@ -6,9 +6,10 @@
 //! one grid step of the truth, chi2 at most the truth's plus max(25, 0.002 dof)).
 //!
 //! Each takes one to three minutes on two cores, so they are `#[ignore]`d in the edit loop;
-//! the README's test command runs them (`--include-ignored`).
+//! the README's test command runs them (`scripts/test`: `cargo test --release --test
+//! integration -- --ignored`).
 
-mod common;
+use crate::common;
 
 use causeway::fit::event::{fit_event, FitOptions};
 use causeway::fit::search::{maps_of_spec, MapSource};
@@ -27,7 +28,8 @@ fn recovers(name: &str) {
         .unwrap();
     let broad = LibrarySpec::parse(BROAD_LIBRARY, "broad").unwrap();
     let spec = event.near_library(&broad);
-    let store = Store::create(&common::scratch(&format!("recovery-{name}"))).unwrap();
+    let dir = common::Scratch::new(&format!("recovery-{name}"));
+    let store = Store::create(&dir).unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
     let data = event.data().unwrap();

@@ -1,8 +1,8 @@
 //! The map store and library builds, from the outside: resuming, crashes, concurrent builders,
 //! corruption, shards. (Properties of the project's own promises in DESIGN.md; the maps
-//! themselves are checked against outside references in tests/engine.rs and tests/fits.rs.)
+//! themselves are checked against outside references in tests/integration/engine.rs and tests/integration/fits.rs.)
 
-mod common;
+use crate::common;
 
 use causeway::store::library::{LibrarySpec, Shard};
 use causeway::store::Store;

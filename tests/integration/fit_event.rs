@@ -1,8 +1,6 @@
 //! The whole fit as one library call (`fit::event::fit_event`): maps in memory, times on a
 //! JD scale, outliers and error bars that are too small.
 
-mod common;
-
 use causeway::curve::time_range;
 use causeway::engine::{Engine, PolygonMapping};
 use causeway::fit::event::{fit_event, FitOptions, FitResult};

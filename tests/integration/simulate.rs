@@ -2,15 +2,14 @@
 //! outside references, the noise statistics, determinism, and bad input; observing plans in
 //! `simulate/plan.rs`.
 
-mod common;
-#[path = "simulate/plan.rs"]
+use crate::common;
 mod plan;
 
 use causeway::fit::model::{paczynski, BinaryModel, Trajectory};
 use causeway::fit::photometry::{flux_to_mag, DataSet, Measured, DEFAULT_ZERO_POINT};
 use causeway::fit::simulate::{Noise, Simulation};
 use causeway::source::LimbDarkening;
-use common::{reference, run_cli, scratch};
+use common::{reference, run_cli, Scratch};
 
 /// A planetary event whose source crosses a caustic (so contour integration runs).
 const PLANETARY: &str =
@@ -23,7 +22,7 @@ fn words(s: &str) -> Vec<&str> {
 
 #[test]
 fn writes_a_data_set_file() {
-    let dir = scratch("simulate-file");
+    let dir = Scratch::new("simulate-file");
     let mut args = words(PLANETARY);
     args.extend(["--fs", "2", "--fb", "0.5", "--out", "event.csv"]);
     let (code, _, err) = run_cli(&dir, "simulate", &args);
@@ -205,7 +204,7 @@ fn noise_has_the_stated_distribution() {
 
 #[test]
 fn same_seed_same_bytes_whatever_the_threads() {
-    let dir = scratch("simulate-bytes");
+    let dir = Scratch::new("simulate-bytes");
     let run = |out: &str, extra: &[&str]| {
         let mut args = words(PLANETARY);
         args.extend(["--out", out]);
@@ -224,7 +223,7 @@ fn same_seed_same_bytes_whatever_the_threads() {
 
 #[test]
 fn bad_input_is_one_line_exit_2_and_no_file() {
-    let dir = scratch("simulate-bad");
+    let dir = Scratch::new("simulate-bad");
     std::fs::write(dir.join("dup.csv"), "t\n1\n2\n1\n").unwrap();
     let base = "--t0 0 --u0 0.1 --te 20 --alpha 30 --out x.csv";
     let binary = "--s 1 --q 1 --time-range -5,5,10";

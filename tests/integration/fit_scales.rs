@@ -1,7 +1,7 @@
 //! Physical scales against astropy.constants and astropy.units
 //! (tests/reference/physical_scales.py: kappa = 4G/(c^2 au), Gould 2000, ApJ 542, 785).
 
-mod common;
+use crate::common;
 
 use causeway::fit::scales::{kappa, scales, PhysicalInput, Scales};
 

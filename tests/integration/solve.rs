@@ -1,6 +1,6 @@
 //! Point-source images against outside references.
 
-mod common;
+use crate::common;
 
 use causeway::lens::LensSystem;
 use causeway::solve::{self, ImageSolver};

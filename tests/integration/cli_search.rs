@@ -1,9 +1,9 @@
 //! The `simulate` and `search` commands from the command line: a small library, the table of
 //! minima, the pictures, and bad input.
 
-mod common;
+use crate::common;
 
-use common::{run_cli, scratch};
+use common::{run_cli, Scratch};
 use std::path::Path;
 
 const LIBRARY: &str = "s = [1.25, 1.35]\nq = [2e-3, 4e-3]\npixels = 200\nrays = 1\n\
@@ -61,10 +61,12 @@ fn quick_search(dir: &Path, extra: &[&str]) -> (i32, String, String) {
 
 #[test]
 fn search_writes_a_ranked_table_and_pictures() {
-    let dir = scratch("cli-search");
+    let dir = Scratch::new("cli-search");
     let (code, csv, stderr) = quick_search(
         &dir,
         &[
+            "--zoom",
+            "1",
             "--chi2-map",
             "chi2.png",
             "--plot",
@@ -127,7 +129,7 @@ fn search_writes_a_ranked_table_and_pictures() {
 
 #[test]
 fn bad_input_is_named_and_writes_nothing() {
-    let dir = scratch("cli-search-bad");
+    let dir = Scratch::new("cli-search-bad");
     simulate(&dir);
     std::fs::write(dir.join("lib.toml"), LIBRARY).unwrap();
     std::fs::write(
@@ -168,10 +170,12 @@ fn bad_input_is_named_and_writes_nothing() {
 
 #[test]
 fn the_baseline_can_be_given_and_times_excluded() {
-    let dir = scratch("cli-search-steer");
+    let dir = Scratch::new("cli-search-steer");
     let (code, csv, stderr) = quick_search(
         &dir,
         &[
+            "--zoom",
+            "0",
             "--exclude",
             "30,35",
             "--exclude=-45,-40",

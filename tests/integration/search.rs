@@ -3,7 +3,7 @@
 //! refined: a planetary caustic crossing, a central caustic with its close/wide partner, and a
 //! resonant caustic.
 
-mod common;
+use crate::common;
 
 use causeway::curve::time_range;
 use causeway::fit::minima::{refine_minima, Minimum, RefineOptions};
@@ -59,7 +59,8 @@ fn search_library(name: &str, library: Library, rhos: &[f64], data: &[DataSet]) 
         timed: true,
         ..GridRule::default()
     };
-    let store = Store::create(&common::scratch(name)).unwrap();
+    let dir = common::Scratch::new(name);
+    let store = Store::create(&dir).unwrap();
     let spec = LibrarySpec::parse(&spec, "lib.toml").unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();
@@ -231,7 +232,8 @@ fn the_zoom_finds_a_separation_between_grid_points() {
     let (truth, data) = planetary_crossing(12);
     let spec = "s = [1.18, 1.43]\nq = [3e-3]\npixels = 300\nrays = 1\nengine = \"polygon\"\n\
                 [window]\nrule = \"planetary\"\n";
-    let store = Store::create(&common::scratch("search-zoom")).unwrap();
+    let dir = common::Scratch::new("search-zoom");
+    let store = Store::create(&dir).unwrap();
     let spec = LibrarySpec::parse(spec, "lib.toml").unwrap();
     library::build(&store, &spec.points().unwrap(), |_, _| {}).unwrap();
     let maps = maps_of_spec(&store, &spec).unwrap();

@@ -7,7 +7,7 @@
 //! A read is `sum_p w_p hits_p / (R pi rho_px^2)` over the pixels the disk touches (`w_p` the
 //! exact overlap areas in pixel units, `R` rays per pixel area, `h = d / sqrt(R)` the ray
 //! spacing, `d` the pixel size). Two errors:
-//! - lattice counting (the engine's model, tests/engine.rs): a region whose image-plane
+//! - lattice counting (the engine's model, tests/integration/engine.rs): a region whose image-plane
 //!   pre-image has boundary length `P` is miscounted by about `sqrt(cells / 12)` rays,
 //!   `cells = 4 (P / h + 2)`. The pixels wholly inside the disk form one region (its staircase
 //!   boundary is taken 4/pi times the circle's); each rim pixel (at most `4 (2 rho_px + 1)`)
@@ -19,7 +19,7 @@
 //!   their area; over a rim band of area `2 pi rho d` that is
 //!   `sqrt(2) |grad A| d^2 / rho`. Allowed: the sum, with `|grad A|` the largest on the band.
 
-mod common;
+use crate::common;
 
 use causeway::curve::{
     small_source, DirectReader, Evaluation, MapSpectrum, Method, Preconvolved, Route, Sampler,
@@ -531,7 +531,7 @@ fn curve_cli(dir: &std::path::Path, args: &[&str]) -> (i32, String, String) {
 
 #[test]
 fn cli_prints_the_curve_with_methods_and_reuses_the_stored_map() {
-    let dir = common::scratch("curve-cli");
+    let dir = common::Scratch::new("curve-cli");
     std::fs::write(dir.join("single.csv"), "x,y,mass\n0,0,1\n").unwrap();
     let args = [
         "--lenses",
@@ -604,7 +604,7 @@ fn cli_prints_the_curve_with_methods_and_reuses_the_stored_map() {
 
 #[test]
 fn cli_reads_a_map_file_and_a_path_file() {
-    let dir = common::scratch("curve-map");
+    let dir = common::Scratch::new("curve-map");
     let status = common::causeway()
         .args([
             "map",
@@ -648,7 +648,7 @@ fn cli_reads_a_map_file_and_a_path_file() {
 
 #[test]
 fn cli_bad_input_is_one_line_exit_2_and_no_output() {
-    let dir = common::scratch("curve-bad");
+    let dir = common::Scratch::new("curve-bad");
     std::fs::write(dir.join("single.csv"), "x,y,mass\n0,0,1\n").unwrap();
     std::fs::write(dir.join("path.csv"), "x,y\n0.3,0\n0.4,oops\n").unwrap();
     let base = ["--lenses", "single.csv", "--store", "st"];

@@ -2,7 +2,7 @@
 //! error scale, outliers, the time offset, determinism and bad plans.
 
 use super::{planetary, words};
-use crate::common::{listing, reference, root, run_cli, scratch};
+use crate::common::{listing, reference, root, run_cli, Scratch};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
 use causeway::fit::simulate::plan::{ErrorModel, Observed, ObservingPlan, Site, EXAMPLE_PLAN};
@@ -355,7 +355,7 @@ fn time_offset_moves_only_the_written_times() {
 
 #[test]
 fn plan_files_are_the_same_whatever_the_threads() {
-    let dir = scratch("simulate-plan");
+    let dir = Scratch::new("simulate-plan");
     std::fs::write(dir.join("plan.toml"), PLAN).unwrap();
     let run = |out: &str, extra: &[&str]| {
         std::fs::create_dir_all(dir.join(out)).unwrap();
@@ -391,7 +391,7 @@ fn plan_files_are_the_same_whatever_the_threads() {
 
 #[test]
 fn bad_plans_are_one_line_exit_2_and_no_file() {
-    let dir = scratch("simulate-plan-bad");
+    let dir = Scratch::new("simulate-plan-bad");
     std::fs::create_dir_all(dir.join("out")).unwrap();
     let model = "--s 1.1 --q 2e-3 --t0 200 --u0 0.02 --te 30 --alpha 40";
     let edits = [
@@ -512,7 +512,7 @@ fn example_plan_is_the_readme_example_and_runs() {
         .next()
         .unwrap();
     assert_eq!(block, EXAMPLE_PLAN);
-    let dir = scratch("simulate-example");
+    let dir = Scratch::new("simulate-example");
     let (code, out, _) = run_cli(&dir, "simulate", &["--example-plan"]);
     assert_eq!((code, out.as_str()), (0, EXAMPLE_PLAN));
     let plan = ObservingPlan::parse(EXAMPLE_PLAN, "example").unwrap();

@@ -11,7 +11,7 @@
 //! - typical: if each touched cell's error is independent and uniform in [-1/2, 1/2], the count's
 //!   standard deviation is sqrt(cells / 12).
 
-mod common;
+use crate::common;
 
 use causeway::engine::{ray_budget, Engine, RayShooting};
 use causeway::lens::LensSystem;

@@ -1,0 +1,30 @@
+//! The integration tests, one module per topic, built as one test binary so that an edit costs
+//! one link: `cargo test --release --test integration` runs them all, and a filter runs one
+//! module (`cargo test --release --test integration -- curve::`; the filter is a substring of
+//! the test's path, so `search::` also runs `cli_search::`).
+//!
+//! Slow checks are `#[ignore]`d: the edit loop skips them and `scripts/test` runs them
+//! (`-- --ignored`). Scaffolding shared by the modules lives in `tests/common`.
+
+#[path = "../common/mod.rs"]
+mod common;
+
+mod caustics;
+mod cli_map;
+mod cli_search;
+mod cli_solve;
+mod compare;
+mod contour;
+mod curve;
+mod engine;
+mod fit_event;
+mod fit_scales;
+mod fit_single;
+mod fits;
+mod polygon;
+mod recovery;
+mod render;
+mod search;
+mod simulate;
+mod solve;
+mod store;
