@@ -12,6 +12,12 @@ use std::time::{Duration, Instant};
 const SPEC: &str = "s = { log = [0.5, 2.0, 5] }\nq = { log = [1e-4, 1e-1, 5] }\npixels = 500\n\
                     rays = 100\n[window]\ncenter = [0.0, 0.0]\nwidth = 2.0\n";
 
+/// Whether this is a measuring run (`cargo bench`), not the one-pass check of `cargo test`,
+/// which builds the same grid at 100^2 pixels.
+fn measuring() -> bool {
+    std::env::args().any(|a| a == "--bench")
+}
+
 fn fresh_store(tag: &str) -> Store {
     let dir = std::env::temp_dir().join(format!(
         "causeway-bench-library-{}-{tag}",
@@ -41,7 +47,12 @@ fn timed(iters: u64, tag: &str, run: impl Fn(&Store)) -> Duration {
 }
 
 fn bench(c: &mut Criterion) {
-    let spec = LibrarySpec::parse(SPEC, "bench").unwrap();
+    let text = if measuring() {
+        SPEC.to_string()
+    } else {
+        SPEC.replace("pixels = 500", "pixels = 100")
+    };
+    let spec = LibrarySpec::parse(&text, "bench").unwrap();
     let whole = |threads: usize| {
         let points = spec.points().unwrap();
         move |store: &Store| {

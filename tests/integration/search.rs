@@ -2,6 +2,10 @@
 //! integration) are searched over small map libraries from the fitted single-lens seed, and
 //! refined: a planetary caustic crossing, a central caustic with its close/wide partner, and a
 //! resonant caustic.
+//!
+//! The planetary and the central caustic take about a minute each on two cores (map libraries
+//! and refinements): like the recovery tests they are `#[ignore]`d in the edit loop and run by
+//! `scripts/test`.
 
 use crate::common;
 
@@ -117,6 +121,7 @@ fn planetary_crossing(seed: u64) -> (BinaryModel, Vec<DataSet>) {
 }
 
 #[test]
+#[ignore = "slow (about a minute on two cores): run by scripts/test"]
 fn a_planetary_caustic_crossing_is_recovered() {
     let (truth, data) = planetary_crossing(11);
     // The seed: a single-lens fit, made again without the anomaly. Without the anomaly it is
@@ -149,6 +154,7 @@ fn a_planetary_caustic_crossing_is_recovered() {
 /// wide planet at about 1/s makes a central caustic of nearly the same shape (Griest & Safizadeh
 /// 1998; Dominik 1999; from memory), so both must be reported, as partners.
 #[test]
+#[ignore = "slow (about a minute on two cores): run by scripts/test"]
 fn a_central_caustic_and_its_close_wide_partner_are_recovered() {
     let truth = BinaryModel {
         s: 0.8,
