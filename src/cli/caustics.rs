@@ -104,7 +104,7 @@ pub fn csv_text(curves: &[Curve]) -> String {
     s
 }
 
-/// Caustics (red) and critical curves (blue) on common, equal-scale axes, lenses as black
+/// Caustics (sea green) and critical curves (amber) on common, equal-scale axes, lenses as black
 /// markers, through the shared chart module.
 pub fn picture(lens: &LensSystem, curves: &[Curve]) -> Chart {
     // One series per kind: curves joined with a non-finite point between them (a line break).
@@ -121,7 +121,7 @@ pub fn picture(lens: &LensSystem, curves: &[Curve]) -> Chart {
     let mut chart = Chart::new(
         &format!("{lens}: caustics and critical curves"),
         Axis::linear("x (Einstein radii)"),
-        Axis::linear("y"),
+        Axis::linear("y (Einstein radii)"),
     );
     chart.equal_aspect = true;
     chart
@@ -141,6 +141,6 @@ pub fn picture(lens: &LensSystem, curves: &[Curve]) -> Chart {
     chart
 }
 
-const CAUSTIC: [u8; 3] = [200, 20, 20];
-const CRITICAL: [u8; 3] = [60, 90, 220];
+const CAUSTIC: [u8; 3] = [0, 150, 130];
+const CRITICAL: [u8; 3] = [215, 125, 0];
 const INK: [u8; 3] = [0, 0, 0];

@@ -22,6 +22,11 @@ use std::path::Path;
 /// std::fs::remove_file(&path).unwrap();
 /// ```
 pub fn plot_png(samples: &[Sample], abscissa: &[f64], x_label: &str, path: &Path) -> Result<()> {
+    chart(samples, abscissa, x_label)?.write_png(path)
+}
+
+/// The chart [`plot_png`] draws.
+fn chart(samples: &[Sample], abscissa: &[f64], x_label: &str) -> Result<Chart> {
     if samples.is_empty() || samples.len() != abscissa.len() {
         return Err(Error::input("--png: nothing to plot"));
     }
@@ -48,5 +53,35 @@ pub fn plot_png(samples: &[Sample], abscissa: &[f64], x_label: &str, path: &Path
                 .styled(Style::Markers),
         );
     }
-    chart.write_png(path)
+    Ok(chart)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::plot::check::framed;
+    use crate::plot::{HEIGHT, WIDTH};
+    use image::Rgb;
+
+    #[test]
+    fn the_light_curve_has_its_axes_labelled_and_nothing_cut() {
+        let samples: Vec<Sample> = (0..400)
+            .map(|k| Sample {
+                x: k as f64 * 0.01,
+                y: 0.0,
+                magnification: 1.0 + 30.0 / (1.0 + (k as f64 - 200.0).abs()),
+                method: if k < 350 {
+                    Method::Direct
+                } else {
+                    Method::Expansion
+                },
+            })
+            .collect();
+        let t: Vec<f64> = (0..400).map(|k| 2_460_000.0 + 0.1 * k as f64).collect();
+        let img = chart(&samples, &t, "t (days)").unwrap().render().unwrap();
+        assert_eq!(img.dimensions(), (WIDTH, HEIGHT));
+        // The plot area starts right of the widest magnification label ("30"), by the margins.
+        framed(&img, 80, Rgb([255, 255, 255]));
+        assert!(chart(&samples[..2], &t, "t").is_err());
+    }
 }

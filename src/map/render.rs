@@ -1,28 +1,34 @@
-//! PNG pictures of magnification maps: log-scaled colours, y up, lens marks, caustic lines and a
-//! colour bar.
+//! PNG figures of magnification maps: the map in log-scaled colours with y up, framed by axes
+//! in Einstein radii, lens marks and caustic lines over it, and a colour bar of log10
+//! magnification at the right.
 //!
-//! One PNG pixel per map pixel, row 0 of the picture at the top (largest y). Colours follow
-//! log10 of the mean magnification on the perceptually uniform "magma" gradient, between robust
-//! limits: the 0.5th and 99.5th percentiles of the map, or its full range when those coincide.
-//! Maps of at least [`COLOUR_BAR_MIN_PIXELS`] pixels get a colour bar at the right, labelled
-//! with the magnifications at its ends and ticked at powers of ten.
+//! Maps of fewer than [`MIN_SIDE`] pixels are enlarged by a whole factor (each map pixel a
+//! square of picture pixels); larger maps keep one picture pixel per map pixel. Colours follow
+//! log10 of the mean magnification on the perceptually uniform "magma" gradient, between
+//! robust limits: the 0.5th and 99.5th percentiles of the map, or its full range when those
+//! coincide. Text grows with the picture.
 
 use super::{MagnificationMap, Window};
 use crate::error::Result;
 use crate::fsutil::write_png;
 use crate::lens::LensSystem;
+use crate::plot::axes::{Frame, Scale, INK, PAD};
+use crate::plot::colourbar::ColourBar;
+use crate::plot::draw::segment;
+use crate::plot::text::{self, Anchor};
 use image::{Rgb, RgbImage};
 use std::path::Path;
 
-/// Colour of caustic lines: cyan, far from every colour of the gradient.
-pub const CURVE_COLOUR: [u8; 3] = [0, 230, 255];
-/// Colour of lens marks: green, far from every colour of the gradient.
-pub const LENS_COLOUR: [u8; 3] = [60, 255, 60];
-/// Maps narrower than this get no colour bar.
-pub const COLOUR_BAR_MIN_PIXELS: usize = 32;
+/// Colour of caustic lines: a sea green absent from the gradient.
+pub const CURVE_COLOUR: [u8; 3] = [30, 215, 170];
+/// Colour of lens marks (crosses edged in black): a light lime.
+pub const LENS_COLOUR: [u8; 3] = [190, 255, 90];
+/// Every map gets a colour bar; this minimum side (one pixel) is kept for callers that name it.
+pub const COLOUR_BAR_MIN_PIXELS: usize = 1;
+/// Maps with fewer pixels per side are enlarged to at least this side.
+pub const MIN_SIDE: usize = 480;
 
-const MARGIN_COLOUR: Rgb<u8> = Rgb([255, 255, 255]);
-const INK: Rgb<u8> = Rgb([0, 0, 0]);
+const PAPER: Rgb<u8> = Rgb([255, 255, 255]);
 const GRADIENT: colorous::Gradient = colorous::MAGMA;
 
 /// What to draw over a map, in its own frames.
@@ -81,47 +87,119 @@ impl Overlay {
 /// std::fs::remove_file(&path).unwrap();
 /// ```
 pub fn render_png(map: &MagnificationMap, overlay: &Overlay, path: &Path) -> Result<()> {
-    write_png(path, &render(map, overlay))
+    write_png(path, &figure(map, overlay).0)
 }
 
-/// The picture: the map's pixels, then the overlay, then the colour bar to the right.
-fn render(map: &MagnificationMap, overlay: &Overlay) -> RgbImage {
+/// Whole-number enlargement of an `n`-pixel map, the side it is drawn at, and the text scale.
+fn sizes(n: usize) -> (usize, i64, i64) {
+    let k = MIN_SIDE.div_ceil(n.max(1)).max(1);
+    let side = (n * k) as i64;
+    (k, side, ((side + 200) / 400).max(2))
+}
+
+/// The figure (title, framed map with its overlay, colour bar) and the frame of the map in it.
+fn figure(map: &MagnificationMap, overlay: &Overlay) -> (RgbImage, Frame) {
     let n = map.window.pixels;
+    let (k, side, ts) = sizes(n);
     let scale = LogScale::of(map.data.iter().copied());
-    let bar = ColourBar::for_pixels(n);
-    let width = n + bar.as_ref().map_or(0, ColourBar::width);
     let palette = Palette::new();
-    let mut image = RgbImage::from_pixel(width as u32, n as u32, MARGIN_COLOUR);
-    let stride = 3 * width;
+    let colour = |t: f64| palette.at(t);
+    let ticks = Scale::linear(scale.lo, scale.hi)
+        .ticks()
+        .into_iter()
+        .map(|(v, label)| ((v - scale.lo) / (scale.hi - scale.lo), label))
+        .collect();
+    let bar = ColourBar {
+        label: "log10 magnification",
+        colour: &colour,
+        ticks,
+    };
+    let (x0, y0) = map.window.origin();
+    let w = map.window.width;
+    let title_h = text::height(ts);
+    let top = PAD * ts + title_h + 4 * ts;
+    let (frame, (width, height)) = Frame::placed(
+        Scale::linear(x0, x0 + w),
+        Scale::linear(y0, y0 + w),
+        (side, side),
+        (top, bar.width(ts)),
+        ts,
+    );
+    let mut image = RgbImage::from_pixel(width as u32, height as u32, PAPER);
+    let area = frame.area;
+    // Map rows, the top picture row first (largest y): each map row k picture rows.
+    let stride = 3 * width as usize;
     for (iy, values) in map.data.outer_iter().enumerate() {
-        let start = (n - 1 - iy) * stride;
-        let row = &mut image.as_mut()[start..start + 3 * n];
-        for (px, &v) in row.chunks_exact_mut(3).zip(values.iter()) {
-            px.copy_from_slice(&palette.at(scale.position(v)).0);
+        let first = area.top as usize + (n - 1 - iy) * k;
+        let start = first * stride + 3 * area.left as usize;
+        let row = &mut image.as_mut()[start..start + 3 * side as usize];
+        for (px, &v) in row.chunks_exact_mut(3 * k).zip(values.iter()) {
+            let c = palette.at(scale.position(v)).0;
+            for p in px.chunks_exact_mut(3) {
+                p.copy_from_slice(&c);
+            }
+        }
+        for copy in 1..k {
+            image
+                .as_mut()
+                .copy_within(start..start + 3 * side as usize, start + copy * stride);
         }
     }
-    let mut canvas = Canvas::new(&mut image, n, (n / 1024) as i64);
+    draw_overlay(&mut image, &frame, &map.window, overlay);
+    let title = format!("magnification map, {}", map.provenance.lens);
+    let title = text::fitted(&title, ts, width - area.left - PAD * ts);
+    text::draw(
+        &mut image,
+        (area.left, PAD * ts),
+        &title,
+        ts,
+        INK,
+        Anchor::Left,
+    );
+    frame.draw(
+        &mut image,
+        ("x (Einstein radii)", "y (Einstein radii)"),
+        ts,
+        false,
+    );
+    bar.draw(
+        &mut image,
+        area.left + area.width,
+        (area.top, area.top + area.height),
+        ts,
+    );
+    (image, frame)
+}
+
+/// Caustic lines, then lens crosses edged in black, clipped to the map's area.
+fn draw_overlay(image: &mut RgbImage, frame: &Frame, window: &Window, overlay: &Overlay) {
+    let area = frame.area;
+    let line = (area.width / 400).max(2);
+    let px = |(x, y): (f64, f64)| frame.to_px((x, y));
     for curve in &overlay.curves {
         for pair in curve.windows(2) {
-            let (a, b) = (
-                Canvas::to_pixels(&map.window, pair[0]),
-                Canvas::to_pixels(&map.window, pair[1]),
+            segment(
+                image,
+                px(pair[0]),
+                px(pair[1]),
+                line,
+                Rgb(CURVE_COLOUR),
+                area,
             );
-            canvas.segment(a, b, Rgb(CURVE_COLOUR));
         }
     }
-    let arm = (n / 64).max(2) as f64;
-    for &(x, y) in &overlay.lenses {
-        if map.window.contains(x, y) {
-            let (px, py) = Canvas::to_pixels(&map.window, (x, y));
-            canvas.segment((px - arm, py), (px + arm, py), Rgb(LENS_COLOUR));
-            canvas.segment((px, py - arm), (px, py + arm), Rgb(LENS_COLOUR));
+    let arm = (area.width / 45).max(6) as f64;
+    for &(x, y) in overlay
+        .lenses
+        .iter()
+        .filter(|&&(x, y)| window.contains(x, y))
+    {
+        let (cx, cy) = px((x, y));
+        for (size, c) in [(line + 4, INK), (line + 2, Rgb(LENS_COLOUR))] {
+            segment(image, (cx - arm, cy), (cx + arm, cy), size, c, area);
+            segment(image, (cx, cy - arm), (cx, cy + arm), size, c, area);
         }
     }
-    if let Some(bar) = bar {
-        bar.draw(&mut image, n, &scale, &palette);
-    }
-    image
 }
 
 /// The gradient sampled at 4096 evenly spaced points, 0 and 1 included: a table look-up is
@@ -195,177 +273,11 @@ impl LogScale {
     }
 }
 
-/// Line drawing on the map part of the picture, with a square brush.
-struct Canvas<'a> {
-    image: &'a mut RgbImage,
-    n: usize,
-    brush: i64,
-}
-
-impl<'a> Canvas<'a> {
-    fn new(image: &'a mut RgbImage, n: usize, brush: i64) -> Self {
-        Canvas { image, n, brush }
-    }
-
-    /// Continuous pixel coordinates (along x, along y, in pixels from the lower-left corner) of
-    /// a source-plane point: pixel (ix, iy) covers [ix, ix + 1) x [iy, iy + 1), as in
-    /// [`Window::pixel_of`].
-    fn to_pixels(w: &Window, (x, y): (f64, f64)) -> (f64, f64) {
-        let (x0, y0) = w.origin();
-        let d = w.pixel_size();
-        ((x - x0) / d, (y - y0) / d)
-    }
-
-    /// The segment a-b clipped to the map (Liang-Barsky), stepped in half pixels.
-    fn segment(&mut self, a: (f64, f64), b: (f64, f64), c: Rgb<u8>) {
-        let Some((a, b)) = clip(a, b, self.n as f64) else {
-            return;
-        };
-        let steps = (2.0 * (b.0 - a.0).abs().max((b.1 - a.1).abs())).ceil() as usize + 1;
-        for k in 0..=steps {
-            let t = k as f64 / steps as f64;
-            self.dot(a.0 + t * (b.0 - a.0), a.1 + t * (b.1 - a.1), c);
-        }
-    }
-
-    /// Paints the brush around the pixel containing (fx, fy); picture rows run down.
-    fn dot(&mut self, fx: f64, fy: f64, c: Rgb<u8>) {
-        let last = self.n as i64 - 1;
-        let (ix, iy) = (fx.floor() as i64, fy.floor() as i64);
-        for dy in -self.brush..=self.brush {
-            for dx in -self.brush..=self.brush {
-                let (col, iy) = (ix + dx, iy + dy);
-                if (0..=last).contains(&col) && (0..=last).contains(&iy) {
-                    self.image.put_pixel(col as u32, (last - iy) as u32, c);
-                }
-            }
-        }
-    }
-}
-
-/// Clips a segment to the square [0, size]^2; `None` when it misses, or has a non-finite end.
-fn clip(a: (f64, f64), b: (f64, f64), size: f64) -> Option<((f64, f64), (f64, f64))> {
-    if !(a.0.is_finite() && a.1.is_finite() && b.0.is_finite() && b.1.is_finite()) {
-        return None;
-    }
-    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
-    let (mut t0, mut t1) = (0.0f64, 1.0f64);
-    for (p, q) in [(-dx, a.0), (dx, size - a.0), (-dy, a.1), (dy, size - a.1)] {
-        if p == 0.0 {
-            if q < 0.0 {
-                return None;
-            }
-        } else {
-            let r = q / p;
-            if p < 0.0 {
-                t0 = t0.max(r);
-            } else {
-                t1 = t1.min(r);
-            }
-        }
-    }
-    (t0 <= t1).then_some((
-        (a.0 + t0 * dx, a.1 + t0 * dy),
-        (a.0 + t1 * dx, a.1 + t1 * dy),
-    ))
-}
-
-/// The colour bar right of the map: a gap, the bar with decade ticks, the end labels.
-struct ColourBar {
-    /// Size unit in picture pixels (font pixel, tick length).
-    unit: usize,
-}
-
-impl ColourBar {
-    /// Characters in the longest end label.
-    const LABEL_CHARS: usize = 6;
-
-    fn for_pixels(n: usize) -> Option<Self> {
-        (n >= COLOUR_BAR_MIN_PIXELS).then(|| ColourBar {
-            unit: (n / 256).max(1),
-        })
-    }
-
-    fn width(&self) -> usize {
-        // gap 2, ticks 2, bar 4, gap 2, label (4 per character).
-        self.unit * (10 + 4 * Self::LABEL_CHARS)
-    }
-
-    fn draw(&self, image: &mut RgbImage, n: usize, scale: &LogScale, palette: &Palette) {
-        let u = self.unit;
-        let (tick_x, bar_x, label_x) = (n + 2 * u, n + 4 * u, n + 10 * u);
-        for row in 0..n {
-            let t = 1.0 - (row as f64 + 0.5) / n as f64;
-            for x in bar_x..bar_x + 4 * u {
-                image.put_pixel(x as u32, row as u32, palette.at(t));
-            }
-        }
-        // Ticks at the powers of ten inside the range.
-        let row_of =
-            |log: f64| ((1.0 - (log - scale.lo) / (scale.hi - scale.lo)) * n as f64) as usize;
-        for decade in (scale.lo.ceil() as i64)..=(scale.hi.floor() as i64) {
-            let row = row_of(decade as f64).min(n - 1);
-            for x in tick_x..tick_x + 2 * u {
-                image.put_pixel(x as u32, row as u32, INK);
-            }
-        }
-        let label = |log: f64| magnification_label(10f64.powf(log));
-        text(image, label_x, 0, u, &label(scale.hi));
-        text(image, label_x, n - 5 * u, u, &label(scale.lo));
-    }
-}
-
-/// Two or three significant digits, at most [`ColourBar::LABEL_CHARS`] characters.
-fn magnification_label(v: f64) -> String {
-    let s = match v {
-        v if v >= 999_999.5 => format!("{v:.0e}"),
-        v if v >= 100.0 => format!("{v:.0}"),
-        v if v >= 10.0 => format!("{v:.1}"),
-        _ => format!("{v:.2}"),
-    };
-    s.chars().take(ColourBar::LABEL_CHARS).collect()
-}
-
-/// A 3 x 5 pixel font for digits, the point and the exponent 'e'.
-fn glyph(c: char) -> [u8; 5] {
-    match c {
-        '0' => [0b111, 0b101, 0b101, 0b101, 0b111],
-        '1' => [0b010, 0b110, 0b010, 0b010, 0b111],
-        '2' => [0b111, 0b001, 0b111, 0b100, 0b111],
-        '3' => [0b111, 0b001, 0b111, 0b001, 0b111],
-        '4' => [0b101, 0b101, 0b111, 0b001, 0b001],
-        '5' => [0b111, 0b100, 0b111, 0b001, 0b111],
-        '6' => [0b111, 0b100, 0b111, 0b101, 0b111],
-        '7' => [0b111, 0b001, 0b010, 0b010, 0b010],
-        '8' => [0b111, 0b101, 0b111, 0b101, 0b111],
-        '9' => [0b111, 0b101, 0b111, 0b001, 0b111],
-        '.' => [0b000, 0b000, 0b000, 0b000, 0b010],
-        'e' => [0b000, 0b111, 0b111, 0b100, 0b111],
-        _ => [0; 5],
-    }
-}
-
-/// Writes `s` with its top-left corner at (x, y), each font pixel `u` x `u`.
-fn text(image: &mut RgbImage, x: usize, y: usize, u: usize, s: &str) {
-    for (i, c) in s.chars().enumerate() {
-        for (r, bits) in glyph(c).iter().enumerate() {
-            for col in 0..3 {
-                if bits >> (2 - col) & 1 == 1 {
-                    let (px, py) = (x + (4 * i + col) * u, y + r * u);
-                    for dy in 0..u {
-                        for dx in 0..u {
-                            image.put_pixel((px + dx) as u32, (py + dy) as u32, INK);
-                        }
-                    }
-                }
-            }
-        }
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::plot::check::{blank_border, inked};
+    use crate::plot::draw::Rect;
 
     #[test]
     fn log_scale_uses_percentiles_or_the_full_range() {
@@ -381,22 +293,152 @@ mod tests {
         assert_eq!((s.lo, s.hi), (0.0, 3.0));
     }
 
-    #[test]
-    fn clipping_keeps_the_inside_part() {
-        let (a, b) = clip((-1.0, 1.0), (3.0, 1.0), 2.0).unwrap();
-        assert_eq!((a, b), ((0.0, 1.0), (2.0, 1.0)));
-        assert!(clip((-1.0, -1.0), (-0.5, 3.0), 2.0).is_none());
-        assert!(clip((0.5, f64::NAN), (1.0, 1.0), 2.0).is_none());
+    fn map_of(n: usize, data: impl Fn(usize, usize) -> f32) -> MagnificationMap {
+        MagnificationMap {
+            window: Window::new((0.0, 0.0), 2.0, n).unwrap(),
+            data: ndarray::Array2::from_shape_fn((n, n), |(iy, ix)| data(iy, ix)),
+            provenance: crate::map::Provenance {
+                lens: LensSystem::binary(0.8, 1.0).unwrap(),
+                engine: "hand-made".into(),
+                density: 0.0,
+                rays_shot: 0,
+                rays_landed: 0,
+                version: "0".into(),
+                build_time: "2026-01-01T00:00:00".into(),
+                build_seconds: 0.0,
+            },
+        }
+    }
+
+    fn magma(t: f64) -> [u8; 3] {
+        let c = GRADIENT.eval_continuous(t);
+        [c.r, c.g, c.b]
+    }
+
+    /// Checks what every map figure must show: the border blank, tick labels left of and below
+    /// the map, the colour bar's labels right of it.
+    fn check_layout(img: &RgbImage, a: Rect) {
+        let (w, h) = (img.width(), img.height());
+        assert!(blank_border(img, PAPER), "something runs off the picture");
+        let below = Rect {
+            top: a.top + a.height + 2,
+            height: h as i64 - a.top - a.height - 2,
+            ..a
+        };
+        let left = Rect {
+            left: 0,
+            width: a.left - 2,
+            ..a
+        };
+        let right = Rect {
+            left: a.left + a.width + 2,
+            width: w as i64 - a.left - a.width - 2,
+            ..a
+        };
+        let title = Rect {
+            top: 0,
+            height: a.top - 2,
+            ..a
+        };
+        for (r, what) in [
+            (below, "x axis"),
+            (left, "y axis"),
+            (right, "colour bar"),
+            (title, "title"),
+        ] {
+            assert!(inked(img, r), "{what}: no text");
+        }
     }
 
     #[test]
-    fn labels_fit_the_bar() {
-        assert_eq!(magnification_label(1.0), "1.00");
-        assert_eq!(magnification_label(12.34), "12.3");
-        assert_eq!(magnification_label(1234.0), "1234");
-        assert_eq!(magnification_label(2e7), "2e7");
-        for c in "0123456789.e".chars() {
-            assert_ne!(glyph(c), [0; 5], "{c}");
+    fn small_maps_are_enlarged_and_framed_with_nothing_cut() {
+        for n in [8, 64, 500] {
+            let map = map_of(n, |iy, ix| 1.0 + (ix * iy) as f32);
+            let (img, frame) = figure(&map, &Overlay::default());
+            let a = frame.area;
+            let side = if n < MIN_SIDE {
+                n * MIN_SIDE.div_ceil(n)
+            } else {
+                n
+            };
+            assert_eq!((a.width, a.height), (side as i64, side as i64));
+            assert!(
+                img.width() as i64 > a.left + a.width + 60,
+                "room for the bar"
+            );
+            check_layout(&img, a);
         }
+    }
+
+    #[test]
+    fn the_top_left_of_the_source_plane_is_the_top_left_of_the_map() {
+        let n = 40;
+        // A flat map with one spike at the pixel of smallest x and largest y.
+        let map = map_of(
+            n,
+            |iy, ix| if (iy, ix) == (n - 1, 0) { 1000.0 } else { 1.0 },
+        );
+        let (img, frame) = figure(&map, &Overlay::default());
+        let a = frame.area;
+        let k = a.width / n as i64;
+        let at = |col: i64, row: i64| img.get_pixel((a.left + col) as u32, (a.top + row) as u32).0;
+        assert_eq!(at(0, 0), magma(1.0));
+        assert_eq!(at(k - 1, k - 1), magma(1.0));
+        assert_eq!(at(k, 0), magma(0.0));
+        assert_eq!(at(a.width - 1, a.height - 1), magma(0.0));
+        // The colour bar: the top of the gradient at its top, the bottom at its bottom.
+        let bar = (a.left + a.width..img.width() as i64)
+            .find(|&x| {
+                img.get_pixel(x as u32, (a.top + a.height / 2) as u32).0 != PAPER.0
+                    && img.get_pixel(x as u32, (a.top + a.height / 2) as u32) != &INK
+            })
+            .unwrap();
+        let near = |p: [u8; 3], q: [u8; 3]| p.iter().zip(q).all(|(x, y)| x.abs_diff(y) <= 8);
+        assert!(near(
+            img.get_pixel(bar as u32 + 2, a.top as u32).0,
+            magma(1.0)
+        ));
+        assert!(near(
+            img.get_pixel(bar as u32 + 2, (a.top + a.height - 1) as u32)
+                .0,
+            magma(0.0)
+        ));
+    }
+
+    #[test]
+    fn caustic_lines_and_lens_marks_are_drawn_in_their_colours() {
+        let map = map_of(64, |_, _| 1.0);
+        // A line at y = 0.5 running beyond both edges, a lens at (-0.5, -0.5), and one outside.
+        let overlay = Overlay {
+            lenses: vec![(-0.5, -0.5), (5.0, 5.0)],
+            curves: vec![vec![(-3.0, 0.5), (3.0, 0.5)]],
+        };
+        let (img, frame) = figure(&map, &overlay);
+        let a = frame.area;
+        let (_, row) = frame.to_px((0.0, 0.5));
+        for x in a.left..a.left + a.width {
+            assert_eq!(
+                img.get_pixel(x as u32, row as u32).0,
+                CURVE_COLOUR,
+                "column {x}"
+            );
+        }
+        assert_ne!(
+            img.get_pixel((a.left - 3) as u32, row as u32).0,
+            CURVE_COLOUR
+        );
+        let (cx, cy) = frame.to_px((-0.5, -0.5));
+        assert_eq!(img.get_pixel(cx as u32, cy as u32).0, LENS_COLOUR);
+        assert_eq!(img.get_pixel(cx as u32 + 6, cy as u32).0, LENS_COLOUR);
+        assert_eq!(img.get_pixel(cx as u32, cy as u32 - 6).0, LENS_COLOUR);
+        // One cross only: no lime in the top-right quarter, where the outside lens points.
+        let lime = img
+            .enumerate_pixels()
+            .filter(|(x, y, p)| {
+                p.0 == LENS_COLOUR && (*x as f64) > cx + 20.0 && (*y as f64) < cy - 20.0
+            })
+            .count();
+        assert_eq!(lime, 0);
+        check_layout(&img, a);
     }
 }
