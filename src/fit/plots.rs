@@ -482,7 +482,15 @@ mod tests {
         );
         let path =
             std::env::temp_dir().join(format!("causeway-unit-model-{}.png", std::process::id()));
-        model_png(&data, &single, &best, (&times, &a), &[a.clone()], &path).unwrap();
+        model_png(
+            &data,
+            &single,
+            &best,
+            (&times, &a),
+            std::slice::from_ref(&a),
+            &path,
+        )
+        .unwrap();
         let img = image::open(&path).unwrap().to_rgb8();
         std::fs::remove_file(&path).unwrap();
         assert_eq!(

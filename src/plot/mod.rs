@@ -1,5 +1,6 @@
-//! Simple PNG charts: framed axes (linear or log10) with ticks and labels, titled, with lines
-//! and markers in several colours and a legend. Used for light curves, caustics and study plots.
+//! Simple PNG charts: framed axes (linear or log10) with ticks and labels, a title, lines and
+//! markers in several colours, and a legend above the plot where no data can hide it. Used for
+//! light curves, caustics and study plots; the submodules hold what every picture shares.
 //!
 //! ```
 //! use causeway::plot::{Axis, Chart, Series};
