@@ -23,8 +23,6 @@ use std::path::Path;
 pub const CURVE_COLOUR: [u8; 3] = [30, 215, 170];
 /// Colour of lens marks (crosses edged in black): a light lime.
 pub const LENS_COLOUR: [u8; 3] = [190, 255, 90];
-/// Every map gets a colour bar; this minimum side (one pixel) is kept for callers that name it.
-pub const COLOUR_BAR_MIN_PIXELS: usize = 1;
 /// Maps with fewer pixels per side are enlarged to at least this side.
 pub const MIN_SIDE: usize = 480;
 

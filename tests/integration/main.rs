@@ -23,7 +23,6 @@ mod fit_single;
 mod fits;
 mod polygon;
 mod recovery;
-mod render;
 mod search;
 mod simulate;
 mod solve;
