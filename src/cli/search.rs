@@ -108,6 +108,10 @@ pub struct SearchArgs {
     /// Most trajectories tried on one map (the lines are spaced more widely beyond it).
     #[arg(long, value_name = "N", default_value_t = GridRule::default().max_trajectories)]
     pub max_trajectories: usize,
+    /// The search's model error, a fraction of each point's flux above its set's tenth
+    /// percentile added to its error bar in quadrature (0 = none; the refinement never uses it).
+    #[arg(long, value_name = "FRACTION", default_value_t = GridRule::default().model_floor)]
+    pub model_floor: f64,
     /// Distinct trajectories kept per map.
     #[arg(long, value_name = "N", default_value_t = GridRule::default().keep)]
     pub keep: usize,
@@ -188,6 +192,7 @@ impl SearchArgs {
             t0_shifts: self.t0_shifts.clone(),
             keep: self.keep,
             max_trajectories: self.max_trajectories,
+            model_floor: self.model_floor,
             ..GridRule::default()
         };
         rule.validate()?;

@@ -39,7 +39,7 @@ use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
-use super::zoom::{MapRecipe, ZoomOptions, Zoomer};
+use super::zoom::{MapRecipe, ZoomOptions, Zoomer, POINTS_PER_LEVEL};
 use crate::error::{Error, Result};
 use crate::map::read_fits;
 use crate::progress::Progress;
@@ -400,14 +400,15 @@ fn refine_starts(
             MapSource::Loaded(loaded) => MapRecipe::of_map(&loaded[0]),
         },
     };
-    progress.start("zoom", 0);
+    let points = centres.len().min(zoom.centres) * zoom.levels * POINTS_PER_LEVEL;
+    progress.start("zoom", points as u64);
     for (k, &i) in centres.iter().take(zoom.centres).enumerate() {
         let found = zoomer.zoom(outcomes, i, zoom.levels, &|| progress.advance(1))?;
         starts[k] = best_start(&found);
         zoomed.push(found);
     }
     progress.finish(&format!(
-        "zoom: {} grid points, {} levels",
+        "zoom: around {} grid points, {} levels",
         zoomed.len(),
         zoom.levels
     ));

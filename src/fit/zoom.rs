@@ -107,7 +107,8 @@ impl Zoomer<'_> {
     /// Zooms on `outcomes[start]` (one of the merged outcomes of a library search, whose grid
     /// sets the step) over `levels` halvings, as the module documentation says; returns the
     /// best outcome found, `outcomes[start]` itself if no finer map beats it. `progress` is
-    /// called after each map searched.
+    /// called after each (s, q) point is built and searched (at most [`POINTS_PER_LEVEL`] a
+    /// level).
     pub fn zoom(
         &self,
         outcomes: &[MapOutcome],
@@ -120,17 +121,18 @@ impl Zoomer<'_> {
         let steps = (local_step(&ss, best.s), local_step(&qs, best.q));
         for level in 1..=levels {
             let scale = 0.5f64.powi(level as i32);
-            let mut maps = Vec::new();
+            let mut found = Vec::new();
             for (s, q) in neighbours((best.s, best.q), (steps.0 * scale, steps.1 * scale)) {
-                maps.extend(self.recipe.build(s, q)?);
+                let maps = self.recipe.build(s, q)?;
+                found.extend(search_maps(
+                    self.data,
+                    self.seed,
+                    MapSource::Loaded(&maps),
+                    self.rule,
+                    &|| {},
+                )?);
+                progress();
             }
-            let found = search_maps(
-                self.data,
-                self.seed,
-                MapSource::Loaded(&maps),
-                self.rule,
-                progress,
-            )?;
             for o in merge_grid_points(found, self.rule.keep) {
                 if o.best_chi2() < best.best_chi2() {
                     best = o;
@@ -140,6 +142,9 @@ impl Zoomer<'_> {
         Ok(best)
     }
 }
+
+/// Most (s, q) points of one zoom level: the eight neighbours.
+pub const POINTS_PER_LEVEL: usize = 8;
 
 /// The (up to eight) distinct neighbours of `centre` at log steps `h` in s and q, with q <= 1.
 fn neighbours(centre: (f64, f64), h: (f64, f64)) -> Vec<(f64, f64)> {

@@ -38,6 +38,10 @@ pub struct GridRule {
     pub coarse_divisions: f64,
     /// Most trajectories (lines times timings) tried on one map before the polish.
     pub max_trajectories: usize,
+    /// The search's model error: each error bar is widened by this fraction of the point's
+    /// flux above its data set's tenth percentile, so that a crossing a coarse map puts a
+    /// little early does not outweigh the shape of the whole curve.
+    pub model_floor: f64,
 }
 
 impl Default for GridRule {
@@ -54,6 +58,7 @@ impl Default for GridRule {
             timed: false,
             coarse_divisions: 100.0,
             max_trajectories: 10_000,
+            model_floor: 0.03,
         }
     }
 }
@@ -98,6 +103,12 @@ impl GridRule {
             return bad(format!(
                 "coarse divisions: must be >= 1, got {}",
                 self.coarse_divisions
+            ));
+        }
+        if !(self.model_floor.is_finite() && (0.0..1.0).contains(&self.model_floor)) {
+            return bad(format!(
+                "--model-floor: must be in [0, 1), got {}",
+                self.model_floor
             ));
         }
         if self.max_trajectories == 0 {

@@ -65,6 +65,19 @@
 //! line is in the window (a time span found once per line) are looked up on the maps; the
 //! others are off every map without a look.
 //!
+//! # The search's weights
+//!
+//! The search compares data with curves read from maps at a few fixed (s, q) and radii, so its
+//! models are wrong by far more than the photometric errors near caustics: a fold that a map of
+//! a slightly different s puts a few source radii early turns hundreds of precise follow-up
+//! points into misfits of many sigma, and such points would outweigh the shape of the whole
+//! curve (the timing of the peak, the wings) in the ranking. Each error bar is therefore
+//! widened in quadrature by [`GridRule::model_floor`] (default 3%) times the point's flux above
+//! its data set's tenth percentile (the magnified part, where the model error grows): baseline
+//! points keep their own weight, a planet's few-percent deviation still counts, and a stellar
+//! binary's crossings no longer decide alone. The refinement fits the data with their own error
+//! bars.
+//!
 //! The fluxes are not formed: for each data set the weights and the sums of the data alone are
 //! computed once per map, and a curve's chi^2 at its best `(fs, fb)` follows from three sums
 //! over it (`sum w A`, `sum w A^2`, `sum w A (F - Fbar)`; see `Weighted::chi2`). The sums over
@@ -102,7 +115,7 @@ use sums::Weighted;
 pub const POLISH_ITERATIONS: u64 = 300;
 /// Convergence of the polish: the spread (standard deviation) of chi^2 over the simplex. The
 /// search only ranks; the refinement fits exactly.
-pub const POLISH_TOLERANCE: f64 = 0.5;
+pub const POLISH_TOLERANCE: f64 = 0.01;
 /// Trial radii besides the grid's best at which each kept line is polished again.
 pub const RHO_RETRIES: usize = 2;
 
@@ -265,7 +278,10 @@ pub fn search_map(
     let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
     all_times.sort_by(f64::total_cmp);
     let lines = timed_lines(seed, map, rule, &readers, grid_rho, &all_times)?;
-    let sets: Vec<Weighted> = data.iter().map(Weighted::new).collect();
+    let sets: Vec<Weighted> = data
+        .iter()
+        .map(|d| Weighted::new(d, rule.model_floor))
+        .collect();
     let solver = ImageSolver::new(lens)?;
     let points = AtomicU64::new(0);
     let evaluated: Vec<Option<(f64, usize)>> = lines
@@ -373,7 +389,10 @@ pub fn trajectory_chi2_on_map(
 ) -> Result<Vec<(f64, f64)>> {
     let mut notes = Vec::new();
     let readers = Readers::new(map, data, &rule.rhos, &mut notes)?;
-    let sets: Vec<Weighted> = data.iter().map(Weighted::new).collect();
+    let sets: Vec<Weighted> = data
+        .iter()
+        .map(|d| Weighted::new(d, rule.model_floor))
+        .collect();
     let mut solver = ImageSolver::new(&map.provenance.lens)?;
     let line = Line::on(*trajectory, &map.window);
     let mut scratch = Scratch::default();

@@ -20,8 +20,22 @@ pub(super) struct Weighted<'a> {
 }
 
 impl<'a> Weighted<'a> {
-    pub(super) fn new(set: &'a DataSet) -> Self {
-        let w: Vec<f64> = (0..set.len()).map(|i| set.sigma(i).powi(-2)).collect();
+    /// The weights of `set`, each error bar widened by `floor` times the point's flux above the
+    /// set's tenth percentile (the model error of a coarse grid grows with the magnification).
+    pub(super) fn new(set: &'a DataSet, floor: f64) -> Self {
+        let base = if floor > 0.0 {
+            let mut f = set.flux.clone();
+            f.sort_by(f64::total_cmp);
+            f[f.len() / 10]
+        } else {
+            0.0
+        };
+        let w: Vec<f64> = (0..set.len())
+            .map(|i| {
+                let extra = floor * (set.flux[i] - base).max(0.0);
+                1.0 / (set.sigma(i).powi(2) + extra * extra)
+            })
+            .collect();
         let sw: f64 = w.iter().sum();
         let sf: f64 = w.iter().zip(&set.flux).map(|(w, f)| w * f).sum();
         let mean = sf / sw;
@@ -110,7 +124,7 @@ mod tests {
             curves[2].push(1.0 + 1e-7 * (t / 50.0).powi(2));
         }
         let set = DataSet::parse(&text, "bright.csv", 22.0).unwrap();
-        let weighted = Weighted::new(&set);
+        let weighted = Weighted::new(&set, 0.0);
         for curve in &curves {
             let mut sums = CurveSums::default();
             for (i, &a) in curve.iter().enumerate() {
@@ -125,5 +139,21 @@ mod tests {
                 "sums give {fast}, residuals {direct} (scale {scale:e})"
             );
         }
+    }
+
+    /// The floor widens error bars in quadrature by a fraction of the flux above the set's
+    /// tenth percentile (the definition in the module documentation of the search).
+    #[test]
+    fn the_model_floor_widens_magnified_points_only() {
+        let mut text = String::from("t,flux,flux_err\n");
+        for i in 0..20 {
+            let flux = if i < 18 { 1.0 } else { 11.0 };
+            text += &format!("{i},{flux},0.01\n");
+        }
+        let set = DataSet::parse(&text, "floor.csv", 22.0).unwrap();
+        let w = Weighted::new(&set, 0.03);
+        assert!((w.w[0] - 1e4).abs() < 1e-9);
+        // 0.03 x (11 - 1) = 0.3 added to 0.01 in quadrature.
+        assert!((w.w[19] - 1.0 / (1e-4 + 0.09)).abs() < 1e-9, "{}", w.w[19]);
     }
 }
