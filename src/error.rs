@@ -55,3 +55,82 @@ impl Error {
         }
     }
 }
+
+/// The most characters of a user's value that a message echoes (see [`shown`]).
+pub const SHOWN_CHARS: usize = 40;
+
+/// A user's value (a CSV field, a TOML value, an option value) as an error message echoes it:
+/// at most [`SHOWN_CHARS`] characters (then `...`), control characters escaped as `\u{..}`,
+/// so that a message stays one short readable line whatever the input held.
+///
+/// ```
+/// use causeway::error::shown;
+/// assert_eq!(shown("1.5e3"), "1.5e3");
+/// assert_eq!(shown("a\0b\x0c"), "a\\u{0}b\\u{c}");
+/// assert_eq!(shown(&"x".repeat(1000)), format!("{}...", "x".repeat(40)));
+/// ```
+pub fn shown(value: &str) -> String {
+    let mut out = String::new();
+    for (i, c) in value.chars().enumerate() {
+        if i == SHOWN_CHARS {
+            out.push_str("...");
+            break;
+        }
+        push_escaped(&mut out, c);
+    }
+    out
+}
+
+/// A whole message made safe for one line of a terminal: control characters (line breaks
+/// included) escaped, and every quoted run (between `'`, `"` or `` ` ``) longer than
+/// [`SHOWN_CHARS`] cut as [`shown`] cuts a value. For messages built elsewhere (the TOML
+/// parser's, the option parser's) that echo the user's text.
+///
+/// ```
+/// use causeway::error::tidy;
+/// let long = format!("invalid value '{}' for '--s'", "9".repeat(500));
+/// assert_eq!(tidy(&long), format!("invalid value '{}...' for '--s'", "9".repeat(40)));
+/// assert_eq!(tidy("bad\nline\0"), "bad\\u{a}line\\u{0}");
+/// ```
+pub fn tidy(message: &str) -> String {
+    let mut out = String::new();
+    let mut rest = message;
+    while let Some(open) = rest.find(['\'', '"', '`']) {
+        let quote = rest[open..].chars().next().unwrap_or('\'');
+        let (before, after) = rest.split_at(open + 1);
+        before.chars().for_each(|c| push_escaped(&mut out, c));
+        match after.find(quote) {
+            Some(close) => {
+                out.push_str(&shown(&after[..close]));
+                out.push(quote);
+                rest = &after[close + 1..];
+            }
+            None => {
+                out.push_str(&shown(after));
+                return out;
+            }
+        }
+    }
+    rest.chars().for_each(|c| push_escaped(&mut out, c));
+    out
+}
+
+fn push_escaped(out: &mut String, c: char) {
+    if c.is_control() {
+        out.push_str(&c.escape_unicode().to_string());
+    } else {
+        out.push(c);
+    }
+}
+
+/// A message on one line: control characters (line breaks included) escaped, nothing cut.
+/// The command line prints every error through this.
+///
+/// ```
+/// assert_eq!(causeway::error::one_line("a\nb"), "a\\u{a}b");
+/// ```
+pub fn one_line(message: &str) -> String {
+    let mut out = String::with_capacity(message.len());
+    message.chars().for_each(|c| push_escaped(&mut out, c));
+    out
+}

@@ -146,3 +146,74 @@ mod tests {
         assert!(temp_path(Path::new("/")).is_err());
     }
 }
+
+/// One file a command will write: `what` names it in messages (the option that gave it), and
+/// `extension` is the one it must have (`None`: any).
+#[derive(Debug, Clone, Copy)]
+pub struct Output<'a> {
+    /// The name of the output in messages, e.g. the option that gave the path.
+    pub what: &'a str,
+    /// Where it goes.
+    pub path: &'a Path,
+    /// The extension the file must have, without the dot.
+    pub extension: Option<&'a str>,
+}
+
+/// Checks every output of a command before any work, so that a bad path fails at once and no
+/// output is written when another one could not be: each path must have its extension, name
+/// no existing folder, and lie in a folder that exists; no two outputs may be the same file.
+///
+/// ```
+/// use causeway::fsutil::{check_outputs, Output};
+/// use std::path::Path;
+/// let dir = std::env::temp_dir();
+/// let ok = dir.join("causeway-doc-check.csv");
+/// assert!(check_outputs(&[Output { what: "table", path: &ok, extension: Some("csv") }]).is_ok());
+/// let err = check_outputs(&[Output { what: "picture", path: &dir, extension: None }]).unwrap_err();
+/// assert!(err.to_string().starts_with("picture: "));
+/// let missing = Path::new("no/such/folder/x.csv");
+/// assert!(check_outputs(&[Output { what: "table", path: missing, extension: Some("csv") }])
+///     .is_err());
+/// ```
+pub fn check_outputs(outputs: &[Output]) -> Result<()> {
+    for (i, out) in outputs.iter().enumerate() {
+        let (what, path) = (out.what, out.path);
+        let shown = || crate::error::one_line(&path.display().to_string());
+        if let Some(ext) = out.extension {
+            if path.extension().and_then(|e| e.to_str()) != Some(ext) {
+                return Err(Error::input(format!(
+                    "{what}: expected a .{ext} file name, got '{}'",
+                    shown()
+                )));
+            }
+        }
+        if path.is_dir() {
+            return Err(Error::input(format!(
+                "{what}: '{}' is a folder, expected a file name",
+                shown()
+            )));
+        }
+        if path.file_name().is_none() {
+            return Err(Error::input(format!(
+                "{what}: '{}' is not a file name",
+                shown()
+            )));
+        }
+        if let Some(dir) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
+            if !dir.is_dir() {
+                return Err(Error::input(format!(
+                    "{what}: the folder '{}' does not exist",
+                    crate::error::one_line(&dir.display().to_string())
+                )));
+            }
+        }
+        if let Some(other) = outputs[..i].iter().find(|o| o.path == path) {
+            return Err(Error::input(format!(
+                "{what}: '{}' is also the file of {}",
+                shown(),
+                other.what
+            )));
+        }
+    }
+    Ok(())
+}

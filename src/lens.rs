@@ -5,7 +5,7 @@
 //! zeta = z - sum_i m_i / (conj(z) - conj(z_i)).
 
 use crate::error::{Error, Result};
-use crate::table::Table;
+use crate::table::{fmt_f64, Table};
 use num_complex::Complex64;
 use std::path::Path;
 
@@ -66,8 +66,9 @@ impl LensSystem {
             }
             if m <= 0.0 {
                 return Err(Error::input(format!(
-                    "{}: mass must be > 0, got {m}",
-                    name(i)
+                    "{}: mass must be > 0, got {}",
+                    name(i),
+                    fmt_f64(m)
                 )));
             }
         }
@@ -79,8 +80,8 @@ impl LensSystem {
                         "{} coincides with {} at ({}, {})",
                         name(i),
                         name(j),
-                        lenses[i].0,
-                        lenses[i].1
+                        fmt_f64(lenses[i].0),
+                        fmt_f64(lenses[i].1)
                     )));
                 }
             }

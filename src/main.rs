@@ -19,13 +19,16 @@ fn main() {
                     .take_while(|l| !l.trim().is_empty())
                     .map(str::trim)
                     .collect();
-                eprintln!("causeway: {}", message.join(" "));
+                eprintln!("causeway: {}", causeway::error::tidy(&message.join(" ")));
                 std::process::exit(2);
             }
         },
     };
     if let Err(err) = causeway::cli::run(cli) {
-        eprintln!("causeway: error: {err}");
+        eprintln!(
+            "causeway: error: {}",
+            causeway::error::one_line(&err.to_string())
+        );
         std::process::exit(err.exit_code());
     }
 }

@@ -4,7 +4,7 @@
 //! a header row. Columns are found by name, extra columns are ignored, blank lines and lines
 //! starting with `#` are skipped.
 
-use crate::error::{Error, Result};
+use crate::error::{shown, Error, Result};
 use std::path::Path;
 
 /// A numeric table read from CSV: the named columns, row by row, with the line each came from.
@@ -77,13 +77,13 @@ impl Table {
                 let v: f64 = fields[idx].parse().map_err(|_| {
                     Error::input(format!(
                         "{origin}:{no}: column '{col}' is not a number: '{}'",
-                        fields[idx]
+                        shown(fields[idx])
                     ))
                 })?;
                 if !v.is_finite() {
                     return Err(Error::input(format!(
                         "{origin}:{no}: column '{col}' is not finite: '{}'",
-                        fields[idx]
+                        shown(fields[idx])
                     )));
                 }
                 row.push(v);

@@ -3,13 +3,13 @@
 use super::LensArgs;
 use crate::caustics::{self, CausticOptions, Curve};
 use crate::error::{Error, Result};
-use crate::fsutil::write_atomic;
+use crate::fsutil::{check_outputs, write_atomic, Output};
 use crate::lens::LensSystem;
 use crate::plot::{Axis, Chart, Series, Style};
 use crate::table::fmt_f64;
 use clap::Args;
 use std::fmt::Write as _;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 /// Options of `causeway caustics`.
 #[derive(Debug, Args)]
@@ -41,15 +41,25 @@ pub struct CausticsArgs {
 
 /// Runs `causeway caustics`.
 pub fn run(args: CausticsArgs) -> Result<()> {
+    let mut outputs = vec![Output {
+        what: "--out",
+        path: &args.out,
+        extension: None,
+    }];
+    if let Some(png) = &args.png {
+        outputs.push(Output {
+            what: "--png",
+            path: png,
+            extension: Some("png"),
+        });
+    }
+    check_outputs(&outputs)?;
     let lens = args.lens.lens_system()?;
     if !(args.max_chord > 0.0 && args.max_chord <= 0.5) {
         return Err(Error::input(format!(
             "--max-chord: must be in (0, 0.5], got {}",
             args.max_chord
         )));
-    }
-    for path in std::iter::once(&args.out).chain(args.png.as_ref()) {
-        check_parent(path)?;
     }
     let opts = CausticOptions {
         max_chord: args.max_chord,
@@ -69,24 +79,6 @@ pub fn run(args: CausticsArgs) -> Result<()> {
     if let Some(path) = &args.png {
         picture(&lens, &curves).write_png(path)?;
         eprintln!("wrote {}", path.display());
-    }
-    Ok(())
-}
-
-/// An output path must be a file name in a directory that exists.
-fn check_parent(path: &Path) -> Result<()> {
-    let parent = path.parent().filter(|p| !p.as_os_str().is_empty());
-    if let Some(dir) = parent {
-        if !dir.is_dir() {
-            return Err(Error::input(format!(
-                "{}: directory {} does not exist",
-                path.display(),
-                dir.display()
-            )));
-        }
-    }
-    if path.file_name().is_none() {
-        return Err(Error::input(format!("{}: not a file name", path.display())));
     }
     Ok(())
 }

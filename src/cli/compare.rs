@@ -7,6 +7,7 @@ use super::ThreadArgs;
 use crate::contour::{self, Estimate};
 use crate::curve::{Sample, Sampler};
 use crate::error::{Error, Result};
+use crate::fsutil::{check_outputs, Output};
 use crate::map::read_fits;
 use crate::plot::{write_stacked_png, Axis, Chart, Series, Style};
 use crate::table::fmt_f64;
@@ -150,17 +151,15 @@ impl Summary {
 
 /// Runs `causeway compare`.
 pub fn run(args: CompareArgs) -> Result<()> {
+    let png = args.png.as_deref().map(|path| Output {
+        what: "--png",
+        path,
+        extension: Some("png"),
+    });
+    check_outputs(png.as_slice())?;
     args.threads.install()?;
     let profile = args.source.profile()?;
     let path = args.trajectory.path()?;
-    if let Some(png) = &args.png {
-        if png.extension().and_then(|e| e.to_str()) != Some("png") {
-            return Err(Error::input(format!(
-                "--png: expected a .png file name, got '{}'",
-                png.display()
-            )));
-        }
-    }
     let map = read_fits(&args.map)?;
     let lens = map.provenance.lens.clone();
     // Checks the tolerance and the lens before the long work.

@@ -10,6 +10,7 @@ use crate::curve::{
 use crate::engine::RayShooting;
 use crate::error::{Error, Result};
 use crate::fit::photometry::DEFAULT_ZERO_POINT;
+use crate::fsutil::{check_outputs, Output};
 use crate::map::{read_fits, MagnificationMap};
 use crate::solve::ImageSolver;
 use crate::source::{LimbDarkening, SourceProfile};
@@ -96,7 +97,7 @@ pub struct TrajectoryArgs {
     /// Times: CSV with header t.
     #[arg(long, value_name = "FILE", conflicts_with = "time_range")]
     pub times: Option<PathBuf>,
-    /// Times: START,END,COUNT evenly spaced, ends included.
+    /// Times: START,END,COUNT evenly spaced, ends included (COUNT at most 10,000,000).
     #[arg(long, value_name = "START,END,COUNT", allow_hyphen_values = true)]
     pub time_range: Option<String>,
 }
@@ -174,7 +175,12 @@ impl TrajectoryArgs {
 
 /// Parses `START,END,COUNT`.
 fn parse_range(s: &str) -> Result<Vec<f64>> {
-    let bad = || Error::input(format!("--time-range: expected START,END,COUNT, got '{s}'"));
+    let bad = || {
+        Error::input(format!(
+            "--time-range: expected START,END,COUNT, got '{}'",
+            crate::error::shown(s)
+        ))
+    };
     let parts: Vec<&str> = s.split(',').map(str::trim).collect();
     let [a, b, n] = parts.as_slice() else {
         return Err(bad());
@@ -185,6 +191,12 @@ fn parse_range(s: &str) -> Result<Vec<f64>> {
 
 /// Runs `causeway curve`.
 pub fn run(args: CurveArgs) -> Result<()> {
+    let png = args.png.as_deref().map(|path| Output {
+        what: "--png",
+        path,
+        extension: Some("png"),
+    });
+    check_outputs(png.as_slice())?;
     args.threads.install()?;
     let profile = args.source.profile()?;
     let path = args.trajectory.path()?;
@@ -195,14 +207,6 @@ pub fn run(args: CurveArgs) -> Result<()> {
     ] {
         if !v.is_finite() {
             return Err(Error::input(format!("{name}: must be finite, got {v}")));
-        }
-    }
-    if let Some(png) = &args.png {
-        if png.extension().and_then(|e| e.to_str()) != Some("png") {
-            return Err(Error::input(format!(
-                "--png: expected a .png file name, got '{}'",
-                png.display()
-            )));
         }
     }
     let limit = args.max_memory.unwrap_or_else(default_memory_limit);

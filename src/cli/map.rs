@@ -3,7 +3,8 @@
 use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::caustics::caustic_curves;
 use crate::engine::{self, Engine};
-use crate::error::{Error, Result};
+use crate::error::{shown, Error, Result};
+use crate::fsutil::{check_outputs, Output};
 use crate::lens::LensSystem;
 use crate::map::fits::write_fits;
 use crate::map::render::{render_png, Overlay};
@@ -69,7 +70,12 @@ pub fn parse_size(s: &str) -> std::result::Result<u64, String> {
                 'M' => 1 << 20,
                 'G' => 1 << 30,
                 'T' => 1 << 40,
-                _ => return Err(format!("unknown size suffix in '{s}' (use K, M, G or T)")),
+                _ => {
+                    return Err(format!(
+                        "unknown size suffix in '{}' (use K, M, G or T)",
+                        shown(s)
+                    ))
+                }
             };
             (&t[..i], mult)
         }
@@ -77,34 +83,33 @@ pub fn parse_size(s: &str) -> std::result::Result<u64, String> {
     };
     let v: f64 = num
         .parse()
-        .map_err(|_| format!("'{s}' is not a size (e.g. 4G, 512M)"))?;
+        .map_err(|_| format!("'{}' is not a size (e.g. 4G, 512M)", shown(s)))?;
     if !v.is_finite() || v <= 0.0 {
-        return Err(format!("'{s}' must be a positive size"));
+        return Err(format!("'{}' must be a positive size", shown(s)));
     }
     Ok((v * mult as f64) as u64)
 }
 
-/// Half the machine's memory (from /proc/meminfo), or 4 GiB where that is unknown.
-pub fn default_memory_limit() -> u64 {
-    std::fs::read_to_string("/proc/meminfo")
-        .ok()
-        .and_then(|text| {
-            let line = text.lines().find(|l| l.starts_with("MemTotal:"))?;
-            let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
-            Some(kib * 1024 / 2)
-        })
-        .unwrap_or(4 << 30)
-}
+pub use crate::engine::default_memory_limit;
 
 /// Runs `causeway map`.
 pub fn run(args: MapArgs) -> Result<()> {
+    let mut outputs = vec![Output {
+        what: "--out",
+        path: &args.out,
+        extension: Some("fits"),
+    }];
+    if let Some(png) = &args.png {
+        outputs.push(Output {
+            what: "--png",
+            path: png,
+            extension: Some("png"),
+        });
+    }
+    check_outputs(&outputs)?;
     args.threads.install()?;
     let lens = args.lens.lens_system()?;
     let window = Window::new(args.center, args.width, args.pixels)?;
-    check_output(&args.out, "fits", "--out")?;
-    if let Some(png) = &args.png {
-        check_output(png, "png", "--png")?;
-    }
     let engine = match args.accuracy {
         Some(target) => {
             let (name, density) = engine::accuracy::choose(&lens, &window, target)?;
@@ -118,26 +123,6 @@ pub fn run(args: MapArgs) -> Result<()> {
     write_outputs(&map, &args.out, args.png.as_deref())
 }
 
-/// Refuses output paths that could not be written, before any work is done.
-fn check_output(path: &Path, ext: &str, option: &str) -> Result<()> {
-    if path.extension().and_then(|e| e.to_str()) != Some(ext) {
-        return Err(Error::input(format!(
-            "{option}: expected a .{ext} file name, got '{}'",
-            path.display()
-        )));
-    }
-    let dir = path.parent().filter(|p| !p.as_os_str().is_empty());
-    if let Some(dir) = dir {
-        if !dir.is_dir() {
-            return Err(Error::input(format!(
-                "{option}: directory '{}' does not exist",
-                dir.display()
-            )));
-        }
-    }
-    Ok(())
-}
-
 /// Builds a map with a progress bar and a closing line on stderr.
 pub fn build_reported(
     engine: &dyn Engine,
@@ -145,16 +130,14 @@ pub fn build_reported(
     window: &Window,
     memory_limit: u64,
 ) -> Result<MagnificationMap> {
-    let need = engine.memory_bytes(lens, window);
-    if need > memory_limit {
-        return Err(Error::input(format!(
-            "--pixels {}: the build needs about {:.1} GiB, more than the allowed {:.1} GiB \
-             (--max-memory)",
+    engine::check_memory(engine, lens, window, memory_limit).map_err(|need| {
+        Error::input(format!(
+            "--pixels {}: the build needs about {}, more than the allowed {} (--max-memory)",
             window.pixels,
-            need as f64 / (1u64 << 30) as f64,
-            memory_limit as f64 / (1u64 << 30) as f64
-        )));
-    }
+            engine::gib(need),
+            engine::gib(memory_limit)
+        ))
+    })?;
     let bar = progress_bar("tracing");
     let map = engine.build_with_progress(lens, window, &bar)?;
     bar.finish_and_clear();

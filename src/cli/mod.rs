@@ -3,7 +3,7 @@
 //! Each command lives in its own file with an `Args` struct and a `run` function. Shared option
 //! groups (the lens, threads) are defined here.
 
-use crate::error::{Error, Result};
+use crate::error::{shown, Error, Result};
 use crate::lens::LensSystem;
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
@@ -131,7 +131,7 @@ pub fn parse_threads(s: &str) -> std::result::Result<usize, String> {
     let n: usize = s
         .trim()
         .parse()
-        .map_err(|_| format!("'{s}' is not a thread count"))?;
+        .map_err(|_| format!("'{}' is not a thread count", shown(s)))?;
     let limit = thread_limit();
     if n == 0 || n > limit {
         return Err(format!(
@@ -158,13 +158,13 @@ impl ThreadArgs {
 pub fn parse_pair(s: &str) -> std::result::Result<(f64, f64), String> {
     let (a, b) = s
         .split_once(',')
-        .ok_or_else(|| format!("expected X,Y, got '{s}'"))?;
+        .ok_or_else(|| format!("expected X,Y, got '{}'", shown(s)))?;
     let parse = |t: &str| {
         t.trim()
             .parse::<f64>()
             .ok()
             .filter(|v| v.is_finite())
-            .ok_or_else(|| format!("'{t}' is not a finite number"))
+            .ok_or_else(|| format!("'{}' is not a finite number", shown(t)))
     };
     Ok((parse(a)?, parse(b)?))
 }

@@ -14,7 +14,7 @@ use crate::fit::report::Report;
 use crate::fit::scales::PhysicalInput;
 use crate::fit::search::{maps_of_spec, maps_of_store, GridRule, LibraryMap, MapSource};
 use crate::fit::zoom::ZoomOptions;
-use crate::fsutil::write_atomic;
+use crate::fsutil::{check_outputs, write_atomic, Output};
 use crate::progress::Progress;
 use crate::source::LimbDarkening;
 use crate::store::library::{self, LibrarySpec};
@@ -291,36 +291,22 @@ pub struct Outputs {
 impl Outputs {
     /// Checks every output path before any work: its extension, and that its folder exists.
     pub fn check(&self) -> Result<()> {
-        for (name, path, ext) in [
+        let outputs: Vec<Output> = [
             ("--out", &self.table, "csv"),
             ("--clipped", &self.clipped, "csv"),
             ("--chi2-map", &self.chi2_map, "png"),
             ("--plot", &self.plot, "png"),
-        ] {
-            let Some(p) = path else { continue };
-            if p.extension().and_then(|e| e.to_str()) != Some(ext) {
-                return Err(Error::input(format!(
-                    "{name}: expected a .{ext} file name, got '{}'",
-                    p.display()
-                )));
-            }
-            let dir = p.parent().filter(|d| !d.as_os_str().is_empty());
-            if let Some(dir) = dir {
-                if !dir.is_dir() {
-                    return Err(Error::input(format!(
-                        "{name}: the folder '{}' does not exist",
-                        dir.display()
-                    )));
-                }
-            }
-            if p.is_dir() {
-                return Err(Error::input(format!(
-                    "{name}: '{}' is a folder",
-                    p.display()
-                )));
-            }
-        }
-        Ok(())
+        ]
+        .into_iter()
+        .filter_map(|(what, path, ext)| {
+            Some(Output {
+                what,
+                path: path.as_deref()?,
+                extension: Some(ext),
+            })
+        })
+        .collect();
+        check_outputs(&outputs)
     }
 
     /// Writes the results of a fit of `data` (as given): everything is computed before the

@@ -8,7 +8,7 @@ use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::photometry::DEFAULT_ZERO_POINT;
 use crate::fit::simulate::plan::{truth_csv, ObservingPlan, EXAMPLE_PLAN};
 use crate::fit::simulate::{Noise, Simulation};
-use crate::fsutil::write_atomic;
+use crate::fsutil::{check_outputs, write_atomic, Output};
 use crate::source::SourceProfile;
 use clap::Args;
 use std::path::{Path, PathBuf};
@@ -96,6 +96,14 @@ pub fn run(args: SimulateArgs) -> Result<()> {
     if args.example_plan {
         print!("{EXAMPLE_PLAN}");
         return Ok(());
+    }
+    if args.plan.is_none() {
+        let out = args.out.as_deref().map(|path| Output {
+            what: "--out",
+            path,
+            extension: None,
+        });
+        check_outputs(out.as_slice())?;
     }
     let (Some(s), Some(q)) = (args.lens.s, args.lens.q) else {
         return Err(Error::input(

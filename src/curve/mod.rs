@@ -56,7 +56,7 @@ pub use convolve::{MapSpectrum, Preconvolved, DIRECT_MARGIN};
 pub use plan::{plan_window, POINT_SOURCE_PIXELS};
 pub use plot::plot_png;
 pub use sample::{ld_nodes, point_read, DirectReader};
-pub use trajectory::{parse_times, read_times, time_range, SourcePath, StraightLine};
+pub use trajectory::{parse_times, read_times, time_range, SourcePath, StraightLine, MAX_TIMES};
 
 use crate::error::{Error, Result};
 use crate::map::MagnificationMap;

@@ -118,13 +118,22 @@ pub fn read_times(path: &Path) -> Result<Vec<f64>> {
     parse_times(&text, &path.display().to_string())
 }
 
-/// `count` evenly spaced times from `start` to `end` inclusive.
+/// The most times a range may give: ten million, far past any observed light curve, and
+/// refused before a time is made.
+pub const MAX_TIMES: usize = 10_000_000;
+
+/// `count` evenly spaced times from `start` to `end` inclusive (at most [`MAX_TIMES`]).
 ///
 /// ```
 /// let t = causeway::curve::time_range(0.0, 1.0, 5).unwrap();
 /// assert_eq!(t, vec![0.0, 0.25, 0.5, 0.75, 1.0]);
 /// ```
 pub fn time_range(start: f64, end: f64, count: usize) -> Result<Vec<f64>> {
+    if count > MAX_TIMES {
+        return Err(Error::input(format!(
+            "--time-range: COUNT {count} is more than the limit of {MAX_TIMES} times"
+        )));
+    }
     if !start.is_finite() || !end.is_finite() || count == 0 || (count == 1 && start != end) {
         return Err(Error::input(format!(
             "--time-range: expected START,END,COUNT with finite ends and COUNT >= 2 \

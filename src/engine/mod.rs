@@ -116,8 +116,57 @@ pub fn by_name(name: &str, density: f64) -> Result<Box<dyn Engine>> {
         "rays" => Ok(Box::new(RayShooting::try_new(density)?)),
         "polygon" => Ok(Box::new(PolygonMapping::try_new(density)?)),
         other => Err(Error::input(format!(
-            "--engine: unknown engine '{other}' (known: {})",
+            "--engine: unknown engine '{}' (known: {})",
+            crate::error::shown(other),
             ENGINE_NAMES.join(", ")
         ))),
     }
+}
+
+/// Whether `engine` may build `window` within `limit` bytes of working memory: `Err` holds
+/// the bytes it would need. A window too large for the engine's own estimate (pixel counts
+/// past the address space) is refused on a lower bound of 12 bytes a pixel, before any
+/// estimate that could overflow.
+///
+/// ```
+/// use causeway::{engine, lens::LensSystem, map::Window};
+/// let rays = engine::by_name("rays", 100.0).unwrap();
+/// let lens = LensSystem::binary(1.0, 1e-3).unwrap();
+/// let small = Window::new((0.0, 0.0), 2.0, 100).unwrap();
+/// assert!(engine::check_memory(rays.as_ref(), &lens, &small, 1 << 30).is_ok());
+/// let huge = Window::new((0.0, 0.0), 2.0, 100_000_000).unwrap();
+/// assert!(engine::check_memory(rays.as_ref(), &lens, &huge, 1 << 30).unwrap_err() > 1 << 50);
+/// ```
+pub fn check_memory(
+    engine: &dyn Engine,
+    lens: &LensSystem,
+    window: &Window,
+    limit: u64,
+) -> std::result::Result<(), u64> {
+    let floor = 12.0 * (window.pixels as f64).powi(2);
+    if floor > limit as f64 {
+        return Err(floor.min(u64::MAX as f64) as u64);
+    }
+    match engine.memory_bytes(lens, window) {
+        need if need > limit => Err(need),
+        _ => Ok(()),
+    }
+}
+
+/// A byte count in GiB for messages, e.g. `74.5 GiB`.
+pub fn gib(bytes: u64) -> String {
+    format!("{:.1} GiB", bytes as f64 / (1u64 << 30) as f64)
+}
+
+/// The default working-memory limit of a build: half the machine's memory (from
+/// /proc/meminfo), or 4 GiB where that is unknown.
+pub fn default_memory_limit() -> u64 {
+    std::fs::read_to_string("/proc/meminfo")
+        .ok()
+        .and_then(|text| {
+            let line = text.lines().find(|l| l.starts_with("MemTotal:"))?;
+            let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+            Some(kib * 1024 / 2)
+        })
+        .unwrap_or(4 << 30)
 }

@@ -11,7 +11,7 @@
 
 use crate::error::{Error, Result};
 use crate::source::LimbDarkening;
-use crate::table::Table;
+use crate::table::{fmt_f64, Table};
 use std::path::Path;
 
 /// Zero point of the magnitude scale: a flux of 1 is magnitude 22.
@@ -105,7 +105,8 @@ impl DataSet {
             let (t, v, e) = (row[0], row[iv], row[ie]);
             if e <= 0.0 {
                 return Err(Error::input(format!(
-                    "{origin}:{line}: {error} must be > 0, got {e}"
+                    "{origin}:{line}: {error} must be > 0, got {}",
+                    fmt_f64(e)
                 )));
             }
             let (f, fe) = match measured {
@@ -128,7 +129,7 @@ impl DataSet {
             return Err(Error::input(format!(
                 "{origin}:{}: time {} repeats the time of line {}",
                 w[1].3.max(w[0].3),
-                w[1].0,
+                fmt_f64(w[1].0),
                 w[1].3.min(w[0].3)
             )));
         }

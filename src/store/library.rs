@@ -33,11 +33,14 @@
 //! Grid points are numbered q-major (`index = iq * len(s) + is`); shard `K/N` takes the points
 //! whose index is `K - 1` modulo `N`, so the shards of one spec are disjoint and together
 //! make the whole grid.
+//!
+//! A spec gives at most [`MAX_GRID_POINTS`] (100,000) grid points, and one map of it must fit in
+//! half the machine's memory; larger specs are refused when read, before anything is built.
 
 use super::{MapKey, Store};
 use crate::caustics::caustic_curves;
 use crate::engine::{self, Engine};
-use crate::error::{Error, Result};
+use crate::error::{shown, tidy, Error, Result};
 use crate::lens::LensSystem;
 use crate::map::Window;
 use serde::Deserialize;
@@ -55,6 +58,13 @@ enum Axis {
 impl Axis {
     fn values(&self, name: &str) -> Result<Vec<f64>> {
         let bad = |m: String| Error::input(format!("spec: {name}: {m}"));
+        if let Axis::Linear { linear: (_, _, n) } | Axis::Log { log: (_, _, n) } = *self {
+            if n > MAX_GRID_POINTS {
+                return Err(bad(format!(
+                    "count {n} is more than the limit of {MAX_GRID_POINTS} grid points"
+                )));
+            }
+        }
         let v = match *self {
             Axis::List(ref v) => v.clone(),
             Axis::Linear { linear: (a, b, n) } => spaced(a, b, n, |x| x, |x| x),
@@ -104,6 +114,10 @@ struct WindowSpec {
     margin: Option<f64>,
 }
 
+/// The most grid points a spec may give (values of s times values of q): a larger grid is a
+/// typing slip, not a library, and is refused before any value is made.
+pub const MAX_GRID_POINTS: usize = 100_000;
+
 /// The least window side of [`WindowRule::Caustics`] (Einstein radii): four times the largest
 /// trial source radius of the search, so that the map of a tiny caustic still serves every
 /// source the fit tries.
@@ -145,7 +159,8 @@ impl WindowSpec {
                 "window: center and width go with rule = \"fixed\" only",
             )),
             (Some(other), _, _) => Err(Error::input(format!(
-                "window.rule: unknown rule '{other}' (fixed, central, planetary or caustics)"
+                "window.rule: unknown rule '{}' (fixed, central, planetary or caustics)",
+                shown(other)
             ))),
         }
     }
@@ -301,14 +316,14 @@ impl std::str::FromStr for Shard {
     fn from_str(s: &str) -> std::result::Result<Self, String> {
         let (k, n) = s
             .split_once('/')
-            .ok_or_else(|| format!("expected K/N, got '{s}'"))?;
+            .ok_or_else(|| format!("expected K/N, got '{}'", shown(s)))?;
         let (k, n): (usize, usize) = (
             k.trim()
                 .parse()
-                .map_err(|_| format!("'{k}' is not a shard number"))?,
+                .map_err(|_| format!("'{}' is not a shard number", shown(k)))?,
             n.trim()
                 .parse()
-                .map_err(|_| format!("'{n}' is not a shard count"))?,
+                .map_err(|_| format!("'{}' is not a shard count", shown(n)))?,
         );
         if n == 0 || k == 0 || k > n {
             return Err(format!("shard {k}/{n}: need 1 <= K <= N"));
@@ -334,12 +349,7 @@ impl LibrarySpec {
                 .span()
                 .map(|sp| text[..sp.start.min(text.len())].matches('\n').count() + 1)
                 .unwrap_or(1);
-            let msg = e
-                .message()
-                .lines()
-                .next()
-                .unwrap_or("invalid spec")
-                .to_string();
+            let msg = tidy(e.message().lines().next().unwrap_or("invalid spec"));
             Error::input(format!("{origin}:{line}: {msg}"))
         })?;
         let named = |e: Error| Error::input(format!("{origin}: {e}"));
@@ -347,10 +357,37 @@ impl LibrarySpec {
             return Err(Error::input(format!("{origin}: pixels must be at least 1")));
         }
         let window = file.window.rule(file.pixels).map_err(named)?;
-        engine::by_name(&file.engine, file.rays).map_err(named)?;
+        let builder = engine::by_name(&file.engine, file.rays).map_err(named)?;
+        let s = file.s.values("s").map_err(named)?;
+        let q = file.q.values("q").map_err(named)?;
+        if s.len().saturating_mul(q.len()) > MAX_GRID_POINTS {
+            return Err(Error::input(format!(
+                "{origin}: s and q: {} x {} grid points, more than the limit of \
+                 {MAX_GRID_POINTS}",
+                s.len(),
+                q.len()
+            )));
+        }
+        // The memory of one map, at the first grid point (a fixed window, or a unit window
+        // of the spec's pixels where each map frames its caustic).
+        let sample = match window {
+            WindowRule::Fixed(w) => w,
+            _ => Window::new((0.0, 0.0), 1.0, file.pixels)?,
+        };
+        let lens = LensSystem::binary(s[0], q[0]).map_err(named)?;
+        let limit = engine::default_memory_limit();
+        engine::check_memory(builder.as_ref(), &lens, &sample, limit).map_err(|need| {
+            Error::input(format!(
+                "{origin}: pixels = {}: each map needs about {}, more than the allowed {} \
+                 (half the memory)",
+                file.pixels,
+                engine::gib(need),
+                engine::gib(limit)
+            ))
+        })?;
         Ok(LibrarySpec {
-            s: file.s.values("s").map_err(named)?,
-            q: file.q.values("q").map_err(named)?,
+            s,
+            q,
             window,
             engine: file.engine,
             density: file.rays,

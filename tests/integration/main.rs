@@ -9,6 +9,7 @@
 #[path = "../common/mod.rs"]
 mod common;
 
+mod bad_input;
 mod caustics;
 mod cli_map;
 mod cli_search;

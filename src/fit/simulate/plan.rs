@@ -50,7 +50,7 @@ change when sites are added after it.
 "#)]
 
 pub use super::observe::{truth_csv, Observed};
-use crate::error::{Error, Result};
+use crate::error::{shown, tidy, Error, Result};
 use crate::fit::photometry::{flux_to_mag, Measured, DEFAULT_ZERO_POINT};
 use serde::{Deserialize, Deserializer};
 use std::collections::HashSet;
@@ -190,8 +190,8 @@ impl ObservingPlan {
         let mut plan: ObservingPlan = toml::from_str(text).map_err(|e| {
             let at = e.span().map_or(0, |sp| sp.start.min(text.len()));
             let line = text[..at].matches('\n').count() + 1;
-            let source = text.lines().nth(line - 1).unwrap_or("").trim();
-            let msg = e.message().lines().next().unwrap_or("invalid plan");
+            let source = shown(text.lines().nth(line - 1).unwrap_or("").trim());
+            let msg = tidy(e.message().lines().next().unwrap_or("invalid plan"));
             Error::input(format!("{origin}:{line}: {msg} (in `{source}`)"))
         })?;
         plan.origin = origin.to_string();
