@@ -159,6 +159,17 @@ pub struct Output<'a> {
     pub extension: Option<&'a str>,
 }
 
+impl<'a> Output<'a> {
+    /// A PNG picture, named `what` in messages.
+    pub fn png(what: &'a str, path: &'a Path) -> Output<'a> {
+        Output {
+            what,
+            path,
+            extension: Some("png"),
+        }
+    }
+}
+
 /// Checks every output of a command before any work, so that a bad path fails at once and no
 /// output is written when another one could not be: each path must have its extension, name
 /// no existing folder, and lie in a folder that exists; no two outputs may be the same file.

@@ -46,13 +46,7 @@ pub fn run(args: CausticsArgs) -> Result<()> {
         path: &args.out,
         extension: None,
     }];
-    if let Some(png) = &args.png {
-        outputs.push(Output {
-            what: "--png",
-            path: png,
-            extension: Some("png"),
-        });
-    }
+    outputs.extend(args.png.as_deref().map(|p| Output::png("--png", p)));
     check_outputs(&outputs)?;
     let lens = args.lens.lens_system()?;
     if !(args.max_chord > 0.0 && args.max_chord <= 0.5) {

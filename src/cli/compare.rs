@@ -151,11 +151,7 @@ impl Summary {
 
 /// Runs `causeway compare`.
 pub fn run(args: CompareArgs) -> Result<()> {
-    let png = args.png.as_deref().map(|path| Output {
-        what: "--png",
-        path,
-        extension: Some("png"),
-    });
+    let png = args.png.as_deref().map(|p| Output::png("--png", p));
     check_outputs(png.as_slice())?;
     args.threads.install()?;
     let profile = args.source.profile()?;

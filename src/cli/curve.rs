@@ -191,11 +191,7 @@ fn parse_range(s: &str) -> Result<Vec<f64>> {
 
 /// Runs `causeway curve`.
 pub fn run(args: CurveArgs) -> Result<()> {
-    let png = args.png.as_deref().map(|path| Output {
-        what: "--png",
-        path,
-        extension: Some("png"),
-    });
+    let png = args.png.as_deref().map(|p| Output::png("--png", p));
     check_outputs(png.as_slice())?;
     args.threads.install()?;
     let profile = args.source.profile()?;

@@ -99,13 +99,7 @@ pub fn run(args: MapArgs) -> Result<()> {
         path: &args.out,
         extension: Some("fits"),
     }];
-    if let Some(png) = &args.png {
-        outputs.push(Output {
-            what: "--png",
-            path: png,
-            extension: Some("png"),
-        });
-    }
+    outputs.extend(args.png.as_deref().map(|p| Output::png("--png", p)));
     check_outputs(&outputs)?;
     args.threads.install()?;
     let lens = args.lens.lens_system()?;
