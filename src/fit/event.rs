@@ -34,7 +34,7 @@ use super::minima::{best_start, grid_starts, refine_models, Minimum, RefineOptio
 use super::model::{BinaryModel, Trajectory};
 use super::noise::{clean, Clipped};
 use super::photometry::DataSet;
-use super::refine::exact_chi2;
+use super::refine::{exact_chi2, refine_until};
 use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
@@ -303,27 +303,27 @@ fn converge_best(
     options: &RefineOptions,
     progress: &dyn Progress,
 ) -> Result<()> {
-    let lm_only = RefineOptions {
-        simplex: false,
-        ..*options
-    };
     let first = minima[0].refined.chi2;
-    let started = Instant::now();
+    // One deadline for all passes: the budget holds for them together.
+    let deadline = options.budget.map(|b| Instant::now() + b);
     progress.start("converge", EXTRA_PASSES as u64);
     for _ in 0..EXTRA_PASSES {
-        if options.budget.is_some_and(|b| started.elapsed() >= b) {
+        if deadline.is_some_and(|d| Instant::now() >= d) {
             break;
         }
-        let best = &minima[0];
-        let again = refine_models(
+        let best = &minima[0].refined;
+        let again = refine_until(
             data,
-            &[(best.refined.model, best.search_chi2)],
-            &lm_only,
-            &|| progress.advance(1),
+            &best.model,
+            options.tol,
+            options.max_iters,
+            false,
+            deadline,
         )?;
-        let gain = best.refined.chi2 - again[0].refined.chi2;
+        progress.advance(1);
+        let gain = best.chi2 - again.chi2;
         if gain > 0.0 {
-            minima[0].refined = again[0].refined.clone();
+            minima[0].refined = again;
         }
         if gain <= CONVERGED_GAIN {
             break;
