@@ -236,7 +236,9 @@ pub fn fit_event(
             fitted.iter().map(DataSet::len).sum::<usize>()
         ));
     }
-    converge_best(&fitted, &mut minima, &options.refine, progress)?;
+    // On the data the minima were refined on: their chi^2 values compare only there.
+    let refined_on = if changed { &fitted } else { &local };
+    converge_best(refined_on, &mut minima, &options.refine, progress)?;
     for m in &mut minima {
         m.chi2_as_given = exact_chi2(&local, &m.refined.model, options.refine.tol)?.0;
     }
