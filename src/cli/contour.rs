@@ -15,7 +15,8 @@ use std::path::PathBuf;
 #[command(
     allow_negative_numbers = true,
     after_help = "Prints CSV x,y,magnification,error,method (error: estimated absolute error of the \
-        magnification; method: point, small-source or contour).\n\nExamples:\n  \
+        magnification; method: point (rho = 0), far-point (far from the caustics: the point source \
+        stands in), small-source or contour).\n\nExamples:\n  \
         causeway contour --s 1.2 --q 1e-3 --points sources.csv --rho 0.01\n  \
         causeway contour --s 1 --q 1 --points sources.csv --rho 0.05 --ld 0.6 --tol 1e-6"
 )]
@@ -69,6 +70,7 @@ pub fn run(args: ContourArgs) -> Result<()> {
     for (row, est) in table.rows.iter().zip(&estimates) {
         let method = match est.method {
             contour::Method::PointSource => "point",
+            contour::Method::FarPoint => "far-point",
             contour::Method::SmallSource => "small-source",
             contour::Method::Contour => "contour",
         };

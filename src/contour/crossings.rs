@@ -18,6 +18,9 @@ const CHUNK: usize = 32;
 /// The caustics of a lens as line segments, in chunks with bounding boxes.
 #[derive(Debug, Clone, Default)]
 pub(crate) struct CausticTrace {
+    /// False when the caustics could not be traced (the trace is then empty, and no distance
+    /// from it can be trusted).
+    traced: bool,
     segments: Vec<(Complex64, Complex64)>,
     /// Per chunk: (min corner, max corner).
     boxes: Vec<(Complex64, Complex64)>,
@@ -31,7 +34,9 @@ impl CausticTrace {
         if lens.len() < 2 {
             return CausticTrace::default();
         }
-        let curves = crate::caustics::curves(lens).unwrap_or_default();
+        let Ok(curves) = crate::caustics::curves(lens) else {
+            return CausticTrace::default();
+        };
         let mut segments = Vec::new();
         for c in &curves {
             segments.extend(c.caustic.windows(2).map(|w| (w[0], w[1])));
@@ -54,7 +59,39 @@ impl CausticTrace {
                 )
             })
             .collect();
-        CausticTrace { segments, boxes }
+        CausticTrace {
+            traced: true,
+            segments,
+            boxes,
+        }
+    }
+
+    /// Distance from `c` to the nearest traced caustic segment; 0 when nothing was traced (so
+    /// that no test built on it passes by default).
+    pub fn distance(&self, c: Complex64) -> f64 {
+        if !self.traced {
+            return 0.0;
+        }
+        let mut best = f64::INFINITY;
+        for (k, (lo, hi)) in self.boxes.iter().enumerate() {
+            let dx = (lo.re - c.re).max(c.re - hi.re).max(0.0);
+            let dy = (lo.im - c.im).max(c.im - hi.im).max(0.0);
+            if dx * dx + dy * dy >= best {
+                continue;
+            }
+            let end = ((k + 1) * CHUNK).min(self.segments.len());
+            for &(p, q) in &self.segments[k * CHUNK..end] {
+                let d = q - p;
+                let aa = d.norm_sqr();
+                let t = if aa > 0.0 {
+                    ((c - p).conj() * d).re / aa
+                } else {
+                    0.0
+                };
+                best = best.min((p + d * t.clamp(0.0, 1.0) - c).norm_sqr());
+            }
+        }
+        best.sqrt()
     }
 
     /// Angles in [0, 2 pi) at which the circle `|zeta - c| = rho` meets the traced caustics,
@@ -117,5 +154,21 @@ mod tests {
         assert!(out[0] > std::f64::consts::FRAC_PI_2 && out[0] < std::f64::consts::PI);
         trace.crossings(Complex64::new(3.0, 0.0), 0.1, &mut out);
         assert!(out.is_empty());
+    }
+
+    /// The distance to the same cusp from points on the axis beyond it is their offset (the
+    /// cusp is the caustic's rightmost point on the axis, by the symmetry of the equal-mass
+    /// binary); a trace of nothing is at distance 0.
+    #[test]
+    fn distance_to_a_cusp() {
+        let trace = CausticTrace::new(&LensSystem::binary(1.0, 1.0).unwrap());
+        for dx in [0.01, 0.1, 1.0] {
+            let d = trace.distance(Complex64::new(0.34062501931660 + dx, 0.0));
+            assert!((d / dx - 1.0).abs() < 1e-3, "{d} vs {dx}");
+        }
+        assert_eq!(
+            CausticTrace::default().distance(Complex64::new(5.0, 5.0)),
+            0.0
+        );
     }
 }

@@ -32,6 +32,19 @@
 //! size — the reported error — is at most `tol` times the magnification; for a single lens the disk must also
 //! stay three radii clear of the lens.
 //!
+//! # Far from the caustics
+//!
+//! A source whose centre is at distance `d` from the nearest caustic (of the traced polyline;
+//! from the lens for a single lens) takes the point-source magnification alone when
+//! `FAR_SAFETY (rho / d)^2 <= tol`, and reports the error `FAR_SAFETY (rho / d)^2 A`. To
+//! leading order the finite-source correction is `(rho^2 / 8) ∇²A` for a uniform disk: near a
+//! fold (`A ~ d^-1/2`) that is `(3/32) (rho/d)^2 A`, near a cusp or a point caustic (`A ~ 1/d`)
+//! `(1/8) (rho/d)^2 A`; a scan of planetary, resonant and stellar binaries (rho 1e-3 to 0.05,
+//! tolerances 1e-2 to 1e-4, checked against contours at 1e-8) found it up to twice
+//! `(rho/d)^2 A` beside a planetary caustic, hence [`FAR_SAFETY`] = 10. One image solve instead
+//! of the shortcut's thirteen: most points of a long light curve are there. Checked in
+//! `tests/integration/contour.rs`.
+//!
 //! ```
 //! use causeway::contour::{ContourSolver, Method};
 //! use causeway::lens::LensSystem;
@@ -66,6 +79,10 @@ use std::sync::Arc;
 /// The default relative tolerance.
 pub const DEFAULT_TOLERANCE: f64 = 1e-4;
 
+/// The far-from-caustics rule's error is this many times `(rho / d)^2 A` (see
+/// [far from the caustics](self#far-from-the-caustics)).
+pub const FAR_SAFETY: f64 = 10.0;
+
 /// Sources per parallel work item in [`magnifications`] (fixed, so results do not depend on the
 /// number of threads; each source is computed from a fresh start anyway).
 const BATCH_CHUNK: usize = 16;
@@ -75,6 +92,9 @@ const BATCH_CHUNK: usize = 16;
 pub enum Method {
     /// rho = 0: the point-source magnification.
     PointSource,
+    /// The point-source magnification of a source far from every caustic (see
+    /// [far from the caustics](self#far-from-the-caustics)).
+    FarPoint,
     /// The small-source shortcut (point source plus quadrupole and hexadecapole).
     SmallSource,
     /// Contour integration.
@@ -157,6 +177,20 @@ impl ContourSolver {
         }
         if self.shortcut {
             self.solver.reset();
+            let d = if self.lens.len() == 1 {
+                (center - self.lens.lenses()[0].position).norm()
+            } else {
+                self.trace.distance(center)
+            };
+            let relative = FAR_SAFETY * (rho / d).powi(2);
+            if d > rho && relative <= self.tol {
+                let magnification = self.solver.magnification(center)?;
+                return Ok(Estimate {
+                    magnification,
+                    error: relative * magnification,
+                    method: Method::FarPoint,
+                });
+            }
             let found = shortcut::small_source(
                 &mut self.solver,
                 &self.lens,

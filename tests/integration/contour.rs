@@ -220,3 +220,76 @@ fn command_line() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("broken.csv:3"));
 }
+
+/// Far from the caustics the point-source magnification stands in, with an error of
+/// `FAR_SAFETY (rho/d)^2 A` that must bound the true one: single-lens disks against Witt & Mao
+/// 1994 (tests/reference/contour_single.csv: the rows far enough from the lens for the rule).
+#[test]
+fn far_from_caustics_single_lens_against_witt_mao() {
+    let table = common::reference("contour_single.csv", &["u", "rho", "ld", "magnification"]);
+    let mut taken = 0;
+    for tol in [1e-2, 1e-3, 1e-4] {
+        for (row, line) in table.rows.iter().zip(&table.lines) {
+            let (u, rho, ld, want) = (row[0], row[1], row[2], row[3]);
+            let est = contour::magnification(
+                &LensSystem::single(),
+                Complex64::new(u, 0.0),
+                &profile(rho, ld),
+                tol,
+            )
+            .unwrap();
+            if est.method != Method::FarPoint {
+                continue;
+            }
+            taken += 1;
+            let err = (est.magnification - want).abs();
+            assert!(
+                err <= est.error && est.error <= tol * est.magnification,
+                "line {line} tol {tol:e}: {est:?} vs {want}"
+            );
+        }
+    }
+    assert!(taken >= 5, "far rule taken {taken} times");
+}
+
+/// The same bound for binaries (planetary, resonant, stellar; rho 1e-3 and 5e-3, linear limb
+/// darkening 0.6 for the larger): on a 20 x 20 scan of the source plane, every value the far
+/// rule gives at tolerance 1e-3 is within its error of contour integration at 1e-8 without the
+/// shortcut (itself checked against lattice counts in `binaries_against_lattice_counts`), and
+/// the rule is taken for at least half of the scan.
+#[test]
+fn far_from_caustics_binaries_against_contours() {
+    for (s, q) in [(1.35, 3e-3), (1.0, 0.01), (0.9, 0.3)] {
+        let lens = LensSystem::binary(s, q).unwrap();
+        let mut exact = ContourSolver::new(&lens, 1e-8)
+            .unwrap()
+            .with_shortcut(false);
+        for (rho, ld) in [(1e-3, 0.0), (5e-3, 0.6)] {
+            let source = profile(rho, ld);
+            let mut fast = ContourSolver::new(&lens, 1e-3).unwrap();
+            let mut taken = 0;
+            for i in 0..20 {
+                for j in 0..20 {
+                    let c = Complex64::new(
+                        -2.0 + 0.2 * (i as f64 + 0.37),
+                        -2.0 + 0.2 * (j as f64 + 0.61),
+                    );
+                    let est = fast.magnification(c, &source).unwrap();
+                    if est.method != Method::FarPoint {
+                        continue;
+                    }
+                    taken += 1;
+                    let want = exact.magnification(c, &source).unwrap().magnification;
+                    assert!(
+                        (est.magnification - want).abs() <= est.error,
+                        "s {s} q {q} rho {rho} at {c}: {est:?} vs {want}"
+                    );
+                }
+            }
+            assert!(
+                taken >= 200,
+                "s {s} q {q} rho {rho}: far rule taken {taken} of 400"
+            );
+        }
+    }
+}

@@ -98,6 +98,15 @@ def rows():
         for f in [0.0, 0.5, 1.5, 5.0]:
             for ld in [0.6, 1.0]:
                 out.append((f * rho, rho, ld, direct_linear(f * rho, rho, ld)))
+    # Far from the lens (40 to 300 radii), where the point source stands in.
+    for rho in [1e-3, 1e-2]:
+        for f in [40.0, 100.0, 300.0]:
+            u = f * rho
+            value = witt_mao(u, rho)
+            direct = direct_uniform(u, rho)
+            if abs(value / direct - 1) > 1e-10:
+                sys.exit(f"Witt-Mao and direct integral disagree at u={u}, rho={rho}: {value} {direct}")
+            out.append((u, rho, 0.0, value))
     return out
 
 
