@@ -26,11 +26,16 @@
 //!    ([`super::noise`]; [`FitOptions::rescale_errors`]); when either changed the data
 //!    by more than 5%, every minimum is refined again on the cleaned, rescaled data (by
 //!    Levenberg-Marquardt alone: it starts at a minimum).
+//! 8. **Converge** (Levenberg-Marquardt again from the best while it gains) and
+//!    **uncertainties**: the curvature of chi^2 at each minimum, measured once, on the data of
+//!    the last refinement.
 //!
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
 
-use super::minima::{best_start, grid_starts, refine_models, Minimum, RefineOptions};
+use super::minima::{
+    best_start, grid_starts, refine_models, with_uncertainties, Minimum, RefineOptions,
+};
 use super::model::{BinaryModel, Trajectory};
 use super::noise::{clean, Clipped};
 use super::photometry::DataSet;
@@ -239,6 +244,12 @@ pub fn fit_event(
     // On the data the minima were refined on: their chi^2 values compare only there.
     let refined_on = if changed { &fitted } else { &local };
     converge_best(refined_on, &mut minima, &options.refine, progress)?;
+    progress.start("uncertainties", 0);
+    let mut minima = with_uncertainties(refined_on, minima, options.refine.tol);
+    progress.finish(&format!(
+        "uncertainties: from the curvature of chi2 at {} minima",
+        minima.len()
+    ));
     for m in &mut minima {
         m.chi2_as_given = exact_chi2(&local, &m.refined.model, options.refine.tol)?.0;
     }

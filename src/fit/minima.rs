@@ -4,7 +4,7 @@
 
 use super::model::BinaryModel;
 use super::photometry::DataSet;
-use super::refine::{close_wide, refine_until, same_minimum, Refined};
+use super::refine::{close_wide, refine_until, same_minimum, uncertainties, Refined};
 use super::search::{local_minima, MapOutcome};
 use crate::error::{Error, Result};
 use rayon::prelude::*;
@@ -54,8 +54,8 @@ impl Default for RefineOptions {
 }
 
 /// Refines the best (s, q)-grid local minima of `outcomes` (in parallel), merges those that
-/// reach the same model, ranks them by chi^2 and marks close/wide pairs. `progress` is called
-/// after each refinement.
+/// reach the same model, ranks them by chi^2, marks close/wide pairs and measures their
+/// uncertainties ([`with_uncertainties`]). `progress` is called after each refinement.
 pub fn refine_minima(
     data: &[DataSet],
     outcomes: &[MapOutcome],
@@ -66,7 +66,8 @@ pub fn refine_minima(
         .into_iter()
         .map(|i| best_start(&outcomes[i]))
         .collect();
-    refine_models(data, &starts, options, progress)
+    let minima = refine_models(data, &starts, options, progress)?;
+    Ok(with_uncertainties(data, minima, options.tol))
 }
 
 /// The best `count` (s, q)-grid local minima of `outcomes` (indices, best first); an error when
@@ -89,7 +90,9 @@ pub fn best_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
 
 /// Refines each `(model, search chi^2)` of `starts` (in parallel, within the options' time
 /// budget), merges those that reach the same model, ranks them by chi^2 and marks close/wide
-/// pairs. `progress` is called after each refinement.
+/// pairs. Their uncertainties are left NaN (the curvature costs as much as a refinement's
+/// last stage: [`with_uncertainties`] measures it once, on the final data). `progress` is
+/// called after each refinement.
 pub fn refine_models(
     data: &[DataSet],
     starts: &[(BinaryModel, f64)],
@@ -97,7 +100,7 @@ pub fn refine_models(
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<Minimum>> {
     let deadline = options.budget.map(|b| Instant::now() + b);
-    let refined: Vec<(Refined, f64)> = starts
+    let refined: Vec<Minimum> = starts
         .par_iter()
         .map(|(model, chi2)| {
             let r = refine_until(
@@ -109,26 +112,51 @@ pub fn refine_models(
                 deadline,
             );
             progress();
-            r.map(|r| (r, *chi2))
+            r.map(|r| Minimum {
+                chi2_as_given: r.chi2,
+                refined: r,
+                search_chi2: *chi2,
+                partner: None,
+            })
         })
         .collect::<Result<_>>()?;
-    let mut order: Vec<usize> = (0..refined.len()).collect();
+    Ok(distinct(refined))
+}
+
+/// `minima` with the uncertainties of each measured from the curvature of chi^2 over `data`
+/// (magnification tolerance `tol`; in parallel), merged again where they now overlap, ranked,
+/// with close/wide pairs marked.
+pub fn with_uncertainties(data: &[DataSet], minima: Vec<Minimum>, tol: f64) -> Vec<Minimum> {
+    let measured = minima
+        .into_par_iter()
+        .map(|mut m| {
+            m.refined.sigma = uncertainties(data, &m.refined.model, tol, None);
+            m
+        })
+        .collect();
+    distinct(measured)
+}
+
+/// The distinct minima of `all`, best first: a minimum the same as a better one
+/// ([`same_minimum`]) is dropped; close/wide partners are marked.
+fn distinct(all: Vec<Minimum>) -> Vec<Minimum> {
+    let mut order: Vec<usize> = (0..all.len()).collect();
     order.sort_by(|&a, &b| {
-        refined[a]
-            .0
+        all[a]
+            .refined
             .chi2
-            .total_cmp(&refined[b].0.chi2)
+            .total_cmp(&all[b].refined.chi2)
             .then(a.cmp(&b))
     });
     let mut minima: Vec<Minimum> = Vec::new();
     for i in order {
-        let (r, search_chi2) = &refined[i];
-        if minima.iter().all(|m| !same_minimum(&m.refined, r)) {
+        if minima
+            .iter()
+            .all(|m| !same_minimum(&m.refined, &all[i].refined))
+        {
             minima.push(Minimum {
-                refined: r.clone(),
-                search_chi2: *search_chi2,
                 partner: None,
-                chi2_as_given: r.chi2,
+                ..all[i].clone()
             });
         }
     }
@@ -142,5 +170,5 @@ pub fn refine_models(
             })
             .map(|j| j + 1);
     }
-    Ok(minima)
+    minima
 }

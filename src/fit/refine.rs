@@ -110,13 +110,30 @@ pub fn canonical(model: &BinaryModel) -> BinaryModel {
 /// Refines `start` by minimising the exact chi^2 (relative magnification tolerance `tol`),
 /// then measures the curvature at the minimum.
 pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -> Result<Refined> {
-    refine_until(data, start, tol, max_iters, true, None)
+    let mut r = refine_until(data, start, tol, max_iters, true, None)?;
+    r.sigma = uncertainties(data, &r.model, tol, None);
+    Ok(r)
 }
 
-/// [`refine`], with the simplex stages only when `simplex` (without them, Levenberg-Marquardt
-/// alone: enough from a start already at a minimum), stopped at `deadline`: from then on every
-/// trial counts as infeasible, so each stage ends at once with the best model it had (the
-/// uncertainties are then NaN).
+/// The minimiser's steps at `model`: simplex steps; Levenberg-Marquardt's Jacobian steps are
+/// a fiftieth of them, the curvature's a twentieth.
+fn steps(model: &BinaryModel) -> [f64; 7] {
+    let l = model.trajectory.line();
+    [
+        0.02,
+        0.1,
+        0.01,
+        0.02 * l.u0.abs().max(0.01),
+        0.005 * l.te,
+        0.02,
+        0.1,
+    ]
+}
+
+/// [`refine`] without the curvature (the uncertainties are NaN: see [`uncertainties`]), with
+/// the simplex stages only when `simplex` (without them, Levenberg-Marquardt alone: enough
+/// from a start already at a minimum), stopped at `deadline`: from then on every trial counts
+/// as infeasible, so each stage ends at once with the best model it had.
 pub fn refine_until(
     data: &[DataSet],
     start: &BinaryModel,
@@ -141,9 +158,7 @@ pub fn refine_until(
         }
     };
     let x0 = to_vector(start);
-    let te = start.trajectory.line().te;
-    let u0 = start.trajectory.line().u0.abs();
-    let step = [0.02, 0.1, 0.01, 0.02 * u0.max(0.01), 0.005 * te, 0.02, 0.1];
+    let step = steps(start);
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
     // along. Its Jacobian steps are a fiftieth of the simplex's.
@@ -205,15 +220,42 @@ pub fn refine_until(
             }
         }
     }
-    // The curvature from differences of chi^2 of order 1 needs chi^2 ten times finer.
-    let h: Vec<f64> = step.iter().map(|s| 0.05 * s).collect();
-    let fine = chi2_to(0.1 * tol);
-    let steps = curvature_steps(&fine, &found.x, &h);
+    let model = canonical(&from_vector(&found.x)?);
+    let (chi2_min, fluxes) = exact_chi2(data, &model, tol)?;
+    Ok(Refined {
+        model,
+        sigma: [f64::NAN; 7],
+        chi2: chi2_min,
+        fluxes,
+        evaluations: evaluations.into_inner() + 1,
+    })
+}
+
+/// Uncertainties of [`PARAMETERS`] at `model` (a minimum of the exact chi^2 at tolerance
+/// `tol`) from the curvature of chi^2, NaN where it is not positive definite or `deadline`
+/// passed. Differences of chi^2 of order 1 need chi^2 ten times finer than `tol`.
+pub fn uncertainties(
+    data: &[DataSet],
+    model: &BinaryModel,
+    tol: f64,
+    deadline: Option<Instant>,
+) -> [f64; 7] {
+    let fine = |p: &[f64]| {
+        if deadline.is_some_and(|d| Instant::now() >= d) {
+            return INFEASIBLE;
+        }
+        match from_vector(p) {
+            Ok(m) => exact_chi2(data, &m, 0.1 * tol).map_or(INFEASIBLE, |c| c.0),
+            Err(_) => INFEASIBLE,
+        }
+    };
+    let x = to_vector(model);
+    let h: Vec<f64> = steps(model).iter().map(|s| 0.05 * s).collect();
+    let steps = curvature_steps(&fine, &x, &h);
     // Where the data do not resolve the source (no point during a caustic crossing), chi^2 is
     // flat in rho and the full curvature is singular: the others are then measured at fixed
     // rho, and rho's uncertainty is left unknown.
-    let cov = covariance(&fine, &found.x, &steps).or_else(|| {
-        let x = &found.x;
+    let cov = covariance(&fine, &x, &steps).or_else(|| {
         let fixed_rho = |p: &[f64]| fine(&[p, &x[6..]].concat());
         covariance(&fixed_rho, &x[..6], &steps[..6]).map(|mut c| {
             for row in &mut c {
@@ -223,8 +265,6 @@ pub fn refine_until(
             c
         })
     });
-    let model = canonical(&from_vector(&found.x)?);
-    let (chi2_min, fluxes) = exact_chi2(data, &model, tol)?;
     // Natural parameters from the minimiser's: d s = s d(ln s), and so on.
     let scale = [
         model.s,
@@ -241,13 +281,7 @@ pub fn refine_until(
             sigma[i] = scale[i] * c[i][i].sqrt();
         }
     }
-    Ok(Refined {
-        model,
-        sigma,
-        chi2: chi2_min,
-        fluxes,
-        evaluations: evaluations.into_inner() + 1,
-    })
+    sigma
 }
 
 /// Whether two refined models are the same minimum: every parameter within three times the
