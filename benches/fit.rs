@@ -1,14 +1,22 @@
-//! Cost of the single-lens point-source fit, one thread.
+//! Cost of the single-lens point-source fit, one thread; and of the refinement's exact chi^2.
 //!
-//! Data: 2000 points of an invented planetary event (s = 1.3, q = 3e-3, rho = 1e-3, u0 = 0.2,
+//! Single lens. Data: 2000 points of an invented planetary event (s = 1.3, q = 3e-3, rho = 1e-3, u0 = 0.2,
 //! tE = 30 d), simulated once with magnitude noise. Measured: `fit_single_lens` on it. Baseline
 //! in the same run: one evaluation of the model the fit minimises (Paczynski's curve at every
 //! point and the linear fluxes), so the ratio reads as "chi^2 evaluations per fit".
+//!
+//! Exact chi^2 (what every refinement step costs): the recovery events `wide-1`, `stellar-1`
+//! and `single-1` of `fit::simulate::events` (about 3,300 points each, four sites), at the
+//! truth, at the refinement's two tolerances (1e-3 for its search stages, 1e-4 for the last),
+//! on the machine's threads. Baseline in the same run: the same chi^2 with rho = 0 (one image
+//! solve per point), so the ratio reads as "point-source solves per point".
 //!
 //! Run: `cargo bench --bench fit`
 
 use causeway::fit::fluxes::fit_fluxes;
 use causeway::fit::model::{paczynski, BinaryModel, Trajectory};
+use causeway::fit::refine::exact_chi2;
+use causeway::fit::simulate::events::recovery_events;
 use causeway::fit::simulate::Simulation;
 use causeway::fit::single::fit_single_lens;
 use causeway::source::LimbDarkening;
@@ -45,6 +53,30 @@ fn bench(c: &mut Criterion) {
         b.iter(|| black_box(fit_single_lens(std::slice::from_ref(&data)).unwrap().chi2))
     });
     group.finish();
+
+    for event in recovery_events().unwrap() {
+        if !["wide-1", "stellar-1", "single-1"].contains(&event.name) {
+            continue;
+        }
+        let data = event.data().unwrap();
+        let points: usize = data.iter().map(|d| d.len()).sum();
+        let mut group = c.benchmark_group(format!("exact chi2, {}", event.name));
+        group.sample_size(20);
+        group.throughput(Throughput::Elements(points as u64));
+        let point = BinaryModel {
+            rho: 0.0,
+            ..event.truth
+        };
+        group.bench_function("baseline: point source", |b| {
+            b.iter(|| black_box(exact_chi2(&data, &point, 1e-3).unwrap().0))
+        });
+        for tol in [1e-3, 1e-4] {
+            group.bench_function(format!("tol {tol:e}"), |b| {
+                b.iter(|| black_box(exact_chi2(&data, &event.truth, tol).unwrap().0))
+            });
+        }
+        group.finish();
+    }
 }
 
 criterion_group!(benches, bench);
