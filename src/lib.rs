@@ -24,6 +24,7 @@ pub mod engine;
 pub mod error;
 pub mod fit;
 pub mod fsutil;
+pub mod galaxy;
 pub mod lens;
 pub mod map;
 pub mod plot;
