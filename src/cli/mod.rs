@@ -49,6 +49,9 @@ pub enum Command {
     Simulate(Box<simulate::SimulateArgs>),
     /// Fit photometry with binary-lens models: single-lens seed, grid search over a map library, refinement.
     Search(Box<search::SearchArgs>),
+    /// Who the lens is: mass, distance and class posteriors from a Galactic model, with the
+    /// lens-light test.
+    Nature(Box<nature::NatureArgs>),
 }
 
 /// Runs a parsed command line.
@@ -64,6 +67,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Compare(args) => compare::run(*args),
         Command::Simulate(args) => simulate::run(*args),
         Command::Search(args) => search::run(*args),
+        Command::Nature(args) => nature::run(*args),
     }
 }
 
@@ -75,6 +79,7 @@ pub mod demo;
 pub mod images;
 pub mod library;
 pub mod map;
+pub mod nature;
 pub mod physical;
 pub mod progress;
 pub mod search;

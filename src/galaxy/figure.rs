@@ -1,4 +1,5 @@
-//! Pictures of the lens posterior: host mass against lens distance (a weighted density with a
+//! Pictures of the lens posterior: host mass against lens distance (a weighted density on a log
+//! colour scale down to 1e-3 of its peak, with a
 //! colour bar, the lens-light limit drawn), and the marginal histograms.
 
 use super::light::LensLight;
@@ -17,6 +18,8 @@ const SIZE: (i64, i64) = (1000, 760);
 const PAPER: Rgb<u8> = Rgb([255, 255, 255]);
 /// Colour of the lens-light limit.
 const LIMIT: Rgb<u8> = Rgb([213, 94, 0]);
+/// Lowest density drawn, relative to the peak (the colour scale is logarithmic down to it).
+const DENSITY_FLOOR: f64 = 1e-3;
 /// Cells of the density across each axis.
 const CELLS: usize = 60;
 
@@ -47,20 +50,22 @@ fn density(post: &LensPosterior, dl: (f64, f64), lm: (f64, f64)) -> Vec<f64> {
 /// at which a main-sequence host would have the imaging's magnitude (`b_deg`: the latitude).
 fn mass_distance(post: &LensPosterior, light: Option<&LensLight>, b_deg: f64) -> Result<RgbImage> {
     let q = |f: fn(&LensSample) -> f64, p: &[f64]| post.quantiles(f, false, p);
-    let d = q(|s| s.dl, &[0.001, 0.999]);
-    let m = q(|s| s.host_mass.log10(), &[0.001, 0.999]);
-    let ds_max = q(|s| s.ds, &[0.999])[0];
+    let d = q(|s| s.dl, &[0.005, 0.995]);
+    let m = q(|s| s.host_mass.log10(), &[0.005, 0.995]);
+    let ds_max = q(|s| s.ds, &[0.99])[0];
     if !(d[0].is_finite() && m[0].is_finite()) {
         return Err(Error::Numerical("lens picture: no weighted sample".into()));
     }
-    let dl = (0.0, (d[1] * 1.05).max(ds_max).max(0.5));
-    let lm = ((m[0] - 0.3).floor(), (m[1] + 0.3).ceil());
+    let dl = (0.0, (d[1] * 1.05).max(ds_max).max(0.5).ceil());
+    let lm = ((m[0] - 0.2).floor(), (m[1] + 0.2).ceil());
     let h = density(post, dl, lm);
     let bar = ColourBar {
         label: "posterior density / peak",
         colour: &density_colour,
-        ticks: (0..=4)
-            .map(|k| (k as f64 / 4.0, format!("{}", k as f64 / 4.0)))
+        ticks: ["0.001", "0.01", "0.1", "1"]
+            .iter()
+            .enumerate()
+            .map(|(k, t)| (k as f64 / 3.0, t.to_string()))
             .collect(),
     };
     let th = text::height(TEXT);
@@ -71,7 +76,7 @@ fn mass_distance(post: &LensPosterior, light: Option<&LensLight>, b_deg: f64) ->
     let left = Frame::fitted(x, y, SIZE, 0, TEXT).area.left;
     let frame = Frame::fitted_with(x, y, SIZE, legend_y + th + 6 * TEXT, bar.width(TEXT), TEXT);
     let area = frame.area;
-    for (k, v) in h.iter().enumerate().filter(|(_, v)| **v > 0.0) {
+    for (k, v) in h.iter().enumerate().filter(|(_, v)| **v >= DENSITY_FLOOR) {
         let (i, j) = ((k % CELLS) as f64, (k / CELLS) as f64);
         let cx = |i: f64| dl.0 + (dl.1 - dl.0) * i / CELLS as f64;
         let cy = |j: f64| lm.0 + (lm.1 - lm.0) * j / CELLS as f64;
@@ -83,7 +88,7 @@ fn mass_distance(post: &LensPosterior, light: Option<&LensLight>, b_deg: f64) ->
             width: (x1.round() - x0.round()) as i64,
             height: (y1.round() - y0.round()) as i64,
         };
-        fill(&mut img, cell, density_colour(*v));
+        fill(&mut img, cell, density_colour(1.0 + v.log10() / 3.0));
     }
     let legend = match light {
         Some(light) => {
@@ -92,7 +97,8 @@ fn mass_distance(post: &LensPosterior, light: Option<&LensLight>, b_deg: f64) ->
             for k in 1..=400 {
                 let d = dl.0 + (dl.1 - dl.0) * k as f64 / 400.0;
                 let p = light
-                    .boundary_mass(d.min(ds * 0.999), ds, b_deg)
+                    .boundary_mass(d, ds, b_deg)
+                    .filter(|_| d < ds)
                     .map(|mass| frame.to_px((d, mass.log10())));
                 if let (Some(a), Some(b)) = (prev, p) {
                     segment(&mut img, a, b, 3, LIMIT, area);
@@ -100,7 +106,7 @@ fn mass_distance(post: &LensPosterior, light: Option<&LensLight>, b_deg: f64) ->
                 prev = p;
             }
             format!(
-                "line: a main-sequence host of {} = {} (above it: brighter)",
+                "main-sequence host at {} = {} (brighter above)",
                 light.band.name(),
                 match light.imaging {
                     super::Imaging::Excess { mag, .. } | super::Imaging::Fainter { mag } => mag,

@@ -31,6 +31,7 @@
 //! ```
 
 pub mod figure;
+pub mod input;
 pub mod light;
 pub mod mass;
 pub mod model;

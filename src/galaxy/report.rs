@@ -16,6 +16,9 @@ pub const QUANTITIES: [(&str, fn(&LensSample) -> f64); 7] = [
     ("mu_rel, heliocentric (mas/yr)", |s| s.mu_rel),
 ];
 
+/// Samples lighter than this fraction of the heaviest are left out of the CSV.
+pub const CSV_WEIGHT_FLOOR: f64 = 1e-6;
+
 /// Long names of the classes, in the order of [`LensClass::ALL`].
 pub const CLASS_NAMES: [&str; 5] = [
     "main-sequence star",
@@ -107,7 +110,9 @@ pub fn summary(post: &LensPosterior) -> String {
     out
 }
 
-/// CSV of the samples with a non-zero weight (with or without the imaging). Columns:
+/// CSV of the samples that carry weight: those whose weight, with or without the imaging, is
+/// above [`CSV_WEIGHT_FLOOR`] times the largest (the rest together carry at most that fraction
+/// times their number of the total; a few 1e-6 in practice). Columns:
 /// `weight,weight_imaging,population,dl_kpc,ds_kpc,mass_total_msun,mass_host_msun,
 /// mass_companion_mjup,separation_au,theta_E_mas,mu_rel_mas_per_yr,pi_rel_mas,tE_days,
 /// p_ms,p_bd,p_wd,p_ns,p_bh,host_mag`; empty where undefined (no q, no s, a dark host).
@@ -127,10 +132,15 @@ pub fn samples_csv(post: &LensPosterior) -> String {
             String::new()
         }
     };
+    let max = |f: fn(&LensSample) -> f64| post.samples.iter().map(f).fold(0.0, f64::max);
+    let (w0, w1) = (
+        CSV_WEIGHT_FLOOR * max(|s| s.weight),
+        CSV_WEIGHT_FLOOR * max(|s| s.weight_light),
+    );
     for s in post
         .samples
         .iter()
-        .filter(|s| s.weight > 0.0 || s.weight_light > 0.0)
+        .filter(|s| s.weight > w0 || s.weight_light > w1)
     {
         let _ = write!(
             out,
