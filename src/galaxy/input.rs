@@ -49,11 +49,9 @@ impl FitRow {
             .ok_or_else(|| Error::input(format!("{origin}: no minimum of rank {rank}")))?;
         let r = &core.rows[i];
         let pi_e = (core.columns.len() == 9).then(|| [r[5], r[6], r[7], r[8]]);
-        // rho and its error may be NaN (unresolved source): read them on their own.
-        let rho = Table::parse(text, origin, &["rank", "rho", "rho_err"], &[])
-            .ok()
-            .and_then(|t| t.rows.into_iter().find(|r| r[0] == rank as f64))
-            .map(|r| (r[1], r[2]));
+        // rho and its error may be NaN in some rows (an unresolved source): read the row's own
+        // fields, on the line the table found it.
+        let rho = rho_fields(text, core.lines[i]);
         Ok(FitRow {
             rank,
             te: (r[1], r[2]),
@@ -103,6 +101,25 @@ impl FitRow {
             q: Some(self.q),
         })
     }
+}
+
+/// `rho` and `rho_err` on line `line` (1-based) of the table's text, when both are finite.
+fn rho_fields(text: &str, line: usize) -> Option<(f64, f64)> {
+    let mut lines = text
+        .lines()
+        .map(str::trim)
+        .filter(|l| !l.is_empty() && !l.starts_with('#'));
+    let header: Vec<&str> = lines.next()?.split(',').map(str::trim).collect();
+    let col = |name: &str| header.iter().position(|h| h.eq_ignore_ascii_case(name));
+    let (a, b) = (col("rho")?, col("rho_err")?);
+    let fields: Vec<&str> = text
+        .lines()
+        .nth(line - 1)?
+        .split(',')
+        .map(str::trim)
+        .collect();
+    let value = |k: usize| fields.get(k)?.parse::<f64>().ok().filter(|v| v.is_finite());
+    Some((value(a)?, value(b)?))
 }
 
 /// `theta_E = theta_* / rho` (mas, with `theta_*` in microarcseconds), relative errors added

@@ -153,14 +153,34 @@ impl MassFunction {
             bh_fraction: 0.0,
             mean_mass: 0.0,
         };
-        // Remnant fractions and the mean mass by quadrature over log initial mass.
-        let n = 40_000;
-        let (lo, hi) = (IMF_BREAKS[0].ln(), IMF_BREAKS[3].ln());
-        let h = (hi - lo) / n as f64;
+        // Remnant fractions and the mean mass by Simpson's rule over log initial mass, in
+        // pieces between the breaks, the turn-off and the remnant boundaries.
+        let turn_off = (10.0 / AGE_GYR).powf(0.4);
+        let edges = [
+            IMF_BREAKS[0],
+            IMF_BREAKS[1],
+            IMF_BREAKS[2],
+            turn_off,
+            NS_PROGENITOR,
+            BH_PROGENITOR,
+            IMF_BREAKS[3],
+        ];
+        let n = 2_000;
         let (mut ns, mut bh, mut mean) = (0.0, 0.0, 0.0);
-        for i in 0..=n {
-            let m = (lo + h * i as f64).exp();
-            let w = if i == 0 || i == n { 0.5 } else { 1.0 } * h * m * mf.imf(m);
+        // End points are taken just inside each piece: the survival steps at the turn-off.
+        for (m, w) in edges.windows(2).flat_map(|e| {
+            let (lo, hi) = (e[0].ln() + 1e-12, e[1].ln() - 1e-12);
+            let h = (hi - lo) / n as f64;
+            (0..=n).map(move |i| {
+                let simpson = if i == 0 || i == n {
+                    1.0
+                } else {
+                    (2 + 2 * (i % 2)) as f64
+                };
+                ((lo + h * i as f64).exp(), simpson * h / 3.0)
+            })
+        }) {
+            let w = w * m * mf.imf(m);
             let alive = mf.surviving(m);
             let dead = 1.0 - alive;
             let final_mass = if m < NS_PROGENITOR {

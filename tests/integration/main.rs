@@ -22,6 +22,7 @@ mod fit_event;
 mod fit_scales;
 mod fit_single;
 mod fits;
+mod galaxy;
 mod polygon;
 mod recovery;
 mod search;
