@@ -291,4 +291,36 @@ impl MotionMoments {
         let d = (self.cov[1][1] - c * c).max(0.0).sqrt();
         [self.mean[0] + a * z[0], self.mean[1] + c * z[0] + d * z[1]]
     }
+
+    /// The distribution of this motion less an independent `other` (means and covariances
+    /// subtract and add).
+    pub fn less(&self, other: &MotionMoments) -> MotionMoments {
+        let mut cov = self.cov;
+        for (i, row) in cov.iter_mut().enumerate() {
+            for (j, c) in row.iter_mut().enumerate() {
+                *c += other.cov[i][j];
+            }
+        }
+        MotionMoments {
+            mean: [self.mean[0] - other.mean[0], self.mean[1] - other.mean[1]],
+            cov,
+        }
+    }
+
+    /// Probability density at `x` ((mas/yr)^-2).
+    ///
+    /// ```
+    /// use causeway::galaxy::MotionMoments;
+    /// let m = MotionMoments { mean: [1.0, 0.0], cov: [[4.0, 0.0], [0.0, 1.0]] };
+    /// let peak = 1.0 / (2.0 * std::f64::consts::PI * 2.0);
+    /// assert!((m.density([1.0, 0.0]) - peak).abs() < 1e-15);
+    /// assert!((m.density([3.0, 0.0]) - peak * (-0.5f64).exp()).abs() < 1e-15);
+    /// ```
+    pub fn density(&self, x: [f64; 2]) -> f64 {
+        let [[a, b], [_, d]] = self.cov;
+        let det = a * d - b * b;
+        let (u, v) = (x[0] - self.mean[0], x[1] - self.mean[1]);
+        let q = (d * u * u - 2.0 * b * u * v + a * v * v) / det;
+        (-0.5 * q).exp() / (std::f64::consts::TAU * det.sqrt())
+    }
 }

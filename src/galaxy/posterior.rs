@@ -6,8 +6,11 @@
 //! population and distance (from `D_L^2 n(D_L)` below `D_S`), lens and source velocities from
 //! their populations (heliocentric proper motions, the Sun's motion subtracted) and a lens mass.
 //! The event rate `Gamma ~ D_L^2 n(D_L) theta_E mu_rel` (Han & Gould 1995, 2003) and the
-//! Gaussian likelihoods of `tE`, `theta_E` and `|pi_E|` give its weight. How the mass is drawn
-//! depends on what was measured, so that precise measurements keep many samples:
+//! Gaussian likelihoods of `tE`, `theta_E` and `|pi_E|` give its weight. The relative proper
+//! motion comes from `tE` drawn from its measurement (`mu_rel = theta_E / tE`, a uniform
+//! direction) weighted by its prior density, a Gaussian (lens less source); without `tE`, from
+//! the two populations' velocity distributions. How the mass is drawn depends on what was
+//! measured, so that precise measurements keep many samples:
 //!
 //! - nothing beyond `tE`: mass and class from the population's mass function;
 //! - `theta_E`: `theta_E` from its measurement, `M = theta_E^2 / (kappa pi_rel)`, weighted by
@@ -279,16 +282,33 @@ impl Sampler<'_> {
             return None;
         }
         let theta_e = (self.kappa * mass * pi_rel).sqrt();
-        let z =
-            |rng: &mut _| -> [f64; 2] { [StandardNormal.sample(rng), StandardNormal.sample(rng)] };
-        let mu_l = model.motion_moments(pop, los, dl).draw(z(rng));
-        let mu_s = model.motion_moments(src_pop, los, ds).draw(z(rng));
-        let mu_rel = (mu_l[0] - mu_s[0]).hypot(mu_l[1] - mu_s[1]);
-        let te = theta_e / mu_rel * DAYS_PER_YEAR;
-        weight *= theta_e * mu_rel;
-        if let Some(m) = self.data.te {
-            weight *= m.likelihood(te);
-        }
+        let lens_motion = model.motion_moments(pop, los, dl);
+        let source_motion = model.motion_moments(src_pop, los, ds);
+        let (mu_rel, te) = match self.data.te {
+            None => {
+                let z = |rng: &mut _| -> [f64; 2] {
+                    [StandardNormal.sample(rng), StandardNormal.sample(rng)]
+                };
+                let mu_l = lens_motion.draw(z(rng));
+                let mu_s = source_motion.draw(z(rng));
+                let mu_rel = (mu_l[0] - mu_s[0]).hypot(mu_l[1] - mu_s[1]);
+                weight *= theta_e * mu_rel;
+                (mu_rel, theta_e / mu_rel * DAYS_PER_YEAR)
+            }
+            Some(m) => {
+                // tE from its measurement and a uniform direction give the relative proper
+                // motion; its prior density (lens less source, a Gaussian) enters the weight.
+                // Proposal density of the vector: N(tE) (theta_E / mu^2) / (2 pi mu) in mu;
+                // target: prior x N(tE) x theta_E mu (the rate): weight prior x 2 pi mu^4.
+                let te = m.draw(rng);
+                let mu = theta_e / te * DAYS_PER_YEAR;
+                let phi = std::f64::consts::TAU * rng.random::<f64>();
+                let rel = lens_motion.less(&source_motion);
+                let prior = rel.density([mu * phi.cos(), mu * phi.sin()]);
+                weight *= prior * std::f64::consts::TAU * mu.powi(4);
+                (mu, te)
+            }
+        };
         let host_mass = mass / self.one_plus_q;
         let (host_mag, light_like) = match &self.options.light {
             Some(light) => {
@@ -384,10 +404,9 @@ pub fn infer(
         has_light: options.light.is_some(),
     };
     progress.finish(&format!(
-        "lens posterior: {} samples, {:.0} effective ({:.0} with the imaging)",
+        "lens posterior: {} samples, {:.0} effective",
         post.samples.len(),
         post.effective_samples(false),
-        post.effective_samples(true)
     ));
     if post.effective_samples(false) < 1.0 {
         return Err(Error::Numerical(
