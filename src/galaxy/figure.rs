@@ -4,6 +4,7 @@
 
 use super::light::LensLight;
 use super::posterior::{LensPosterior, LensSample};
+use super::report::Quantity;
 use crate::error::{Error, Result};
 use crate::fsutil::write_png;
 use crate::plot::axes::{Frame, Scale, INK, PAD};
@@ -202,7 +203,7 @@ fn histogram(
 /// Marginal histograms (host mass, lens distance, and the companion's mass and projected
 /// separation when known), without and with the imaging, one chart above the other.
 pub fn marginals(post: &LensPosterior) -> Vec<Chart> {
-    let panels: [(&str, fn(&LensSample) -> f64, bool); 4] = [
+    let panels: [(&str, Quantity, bool); 4] = [
         ("host mass (M_sun)", |s| s.host_mass, true),
         ("lens distance (kpc)", |s| s.dl, false),
         ("companion mass (M_jup)", |s| s.planet_mjup, true),

@@ -149,7 +149,7 @@ pub const LOWEST_MS_MASS: f64 = 0.08;
 /// assert!(absolute_magnitude(0.3, Band::K).unwrap() > k_sun);
 /// ```
 pub fn absolute_magnitude(m: f64, band: Band) -> Option<f64> {
-    if !(m >= LOWEST_MS_MASS) {
+    if m.is_nan() || m < LOWEST_MS_MASS {
         return None;
     }
     if band == Band::K && m <= 0.70 {

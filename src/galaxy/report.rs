@@ -5,8 +5,11 @@ use super::posterior::{LensPosterior, LensSample};
 use crate::table::fmt_f64;
 use std::fmt::Write as _;
 
+/// A quantity read from a sample.
+pub type Quantity = fn(&LensSample) -> f64;
+
 /// The quantities summarised, with their labels and units.
-pub const QUANTITIES: [(&str, fn(&LensSample) -> f64); 7] = [
+pub const QUANTITIES: [(&str, Quantity); 7] = [
     ("host mass (M_sun)", |s| s.host_mass),
     ("lens distance (kpc)", |s| s.dl),
     ("source distance (kpc)", |s| s.ds),

@@ -163,7 +163,9 @@ fn prior_and_te_posterior_match_a_direct_numpy_monte_carlo() {
     // galaxy.py draws 1.5 million events directly (lens distances uniform and weighted by
     // D^2 n, 3-D velocities, masses from the IMF with remnants) and weights them by the event
     // rate; the tE-only posterior is that prior reweighted by the tE likelihood (25 +- 2 d).
-    // Tolerances: a few per cent, the Monte Carlo noise of both sides.
+    // Rust draws tE from its measurement instead (another sampler of the same posterior).
+    // Tolerances: 1 to 3 per cent, the Monte Carlo noise of both sides (measured: 0.3%, 0.6%
+    // and 0.1% at the medians of tE, mass and D_L).
     let r = reference_mc();
     let options = LensOptions {
         samples: 300_000,
@@ -177,7 +179,7 @@ fn prior_and_te_posterior_match_a_direct_numpy_monte_carlo() {
         .enumerate()
     {
         assert!(
-            close(te[k], r[*name], 0.03),
+            close(te[k], r[*name], 0.02),
             "{name}: {} against numpy {}",
             te[k],
             r[*name]
@@ -194,12 +196,12 @@ fn prior_and_te_posterior_match_a_direct_numpy_monte_carlo() {
         let q = ["16", "50", "84"][k];
         let (wm, wd) = (r[&format!("post_mass_q{q}")], r[&format!("post_dl_q{q}")]);
         assert!(
-            close(mass[k], wm, 0.05),
+            close(mass[k], wm, 0.03),
             "mass q{q}: {} against numpy {wm}",
             mass[k]
         );
         assert!(
-            close(dl[k], wd, 0.02),
+            close(dl[k], wd, 0.01),
             "D_L q{q}: {} against numpy {wd}",
             dl[k]
         );
@@ -222,8 +224,8 @@ fn prior_and_te_posterior_match_a_direct_numpy_monte_carlo() {
 #[test]
 fn event_rate_weighted_te_median_toward_the_bulge_is_15_to_30_days() {
     // Common practice, from memory: bulge events have tE of days to a few hundred days, with
-    // a median of roughly 15 to 30 days. This model gives about 17 days at (l, b) = (1, -3)
-    // with sources drawn along the line of sight.
+    // a median of roughly 15 to 30 days. This model gives 17.5 days at (l, b) = (1, -3)
+    // with sources drawn along the line of sight (16.8 with sources at 8 kpc).
     let options = LensOptions {
         samples: 100_000,
         ..LensOptions::new(field())
