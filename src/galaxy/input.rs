@@ -135,7 +135,7 @@ pub fn theta_e(theta_star: Measured, rho: f64, rho_err: f64, rank: usize) -> Res
 /// propagation).
 ///
 /// ```
-/// let m = causeway::galaxy::input::pi_e_size([0.3, 0.03, 0.4, 0.04]).unwrap();
+/// let m = causeway::galaxy::input::pi_e_size([0.3, 0.05, 0.4, 0.05]).unwrap();
 /// assert!((m.value - 0.5).abs() < 1e-12 && (m.err - 0.05).abs() < 1e-12);
 /// ```
 pub fn pi_e_size([n, n_err, e, e_err]: [f64; 4]) -> Result<Measured> {

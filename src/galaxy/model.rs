@@ -129,9 +129,9 @@ impl Sightline {
     /// (ICRS-to-Galactic values as astropy uses them; from memory).
     ///
     /// ```
-    /// // The Galactic centre (Sgr A* region): l ~ 359.94, b ~ -0.05.
-    /// let s = causeway::galaxy::Sightline::from_equatorial(266.405, -28.936).unwrap();
-    /// assert!((s.l_deg - 359.94).abs() < 0.02 && (s.b_deg + 0.05).abs() < 0.02);
+    /// // Sgr A*: l = 359.9443, b = -0.0462 (astropy).
+    /// let s = causeway::galaxy::Sightline::from_equatorial(266.41683, -29.00781).unwrap();
+    /// assert!((s.l_deg - 359.9443).abs() < 1e-3 && (s.b_deg + 0.0462).abs() < 1e-3);
     /// ```
     pub fn from_equatorial(ra_deg: f64, dec_deg: f64) -> Result<Sightline> {
         if !(ra_deg.is_finite() && dec_deg.is_finite() && dec_deg.abs() <= 90.0) {

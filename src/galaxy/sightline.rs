@@ -56,7 +56,7 @@ impl LineOfSight {
     /// let los = LineOfSight::new(GalacticModel::default(), Sightline::new(1.0, -3.0).unwrap(), 1.0);
     /// let n = los.number_density(8.0);
     /// assert!(n[1] > n[0]); // bulge stars outnumber disk stars at the centre
-    /// assert!(los.lens_cumulative(8.0) > 0.5 * los.lens_cumulative(16.0));
+    /// assert!(los.lens_cumulative(8.0) > los.lens_cumulative(4.0));
     /// ```
     pub fn new(model: GalacticModel, sightline: Sightline, source_beta: f64) -> LineOfSight {
         let mean_mass = Population::ALL.map(|p| MassFunction::new(p).mean_mass());

@@ -46,6 +46,22 @@ fn densities_match_numpy() {
 }
 
 #[test]
+fn equatorial_coordinates_match_astropy() {
+    // galaxy.py: astropy's ICRS to Galactic transformation. The pole and node constants in
+    // Sightline::from_equatorial are the IAU values (from memory): agreement to 1e-4 degrees.
+    let t = common::reference("galaxy_coords.csv", &["ra", "dec", "l", "b"]);
+    for r in &t.rows {
+        let s = Sightline::from_equatorial(r[0], r[1]).unwrap();
+        let dl = (s.l_deg - r[2] + 180.0).rem_euclid(360.0) - 180.0;
+        let tol = 1e-4 / r[3].to_radians().cos().max(1e-3);
+        assert!(
+            dl.abs() < tol && (s.b_deg - r[3]).abs() < 1e-4,
+            "{r:?}: {s:?}"
+        );
+    }
+}
+
+#[test]
 fn velocity_moments_match_numpy_and_the_draws() {
     // galaxy.py projects the 3-D dispersion tensors with a matrix product (independent route).
     let cols = [

@@ -17,7 +17,10 @@ and scipy from the published formulas.
   distribution of the prior, and the posterior given tE alone (the prior reweighted by the tE
   likelihood).
 
-Writes galaxy_density.csv, galaxy_motion.csv, galaxy_rate.csv and galaxy_mc.csv;
+- Coordinates: astropy's ICRS to Galactic transformation for the equatorial input.
+
+Writes galaxy_density.csv, galaxy_motion.csv, galaxy_rate.csv, galaxy_coords.csv and
+galaxy_mc.csv;
 `python3 galaxy.py --check` compares with the committed files.
 """
 from pathlib import Path
@@ -213,6 +216,14 @@ def main():
             f = lambda x: x * x * sum(number(l, b, x))
             rate.append((l, b, d, integrate.quad(f, 0, d, limit=400, epsrel=1e-10)[0], 0.0))
     emit(HERE / "galaxy_rate.csv", ["l", "b", "d", "cumulative", "mean_mass_bulge"], rate, rel=1e-8)
+
+    from astropy.coordinates import SkyCoord
+    import astropy.units as u
+    eq = [(266.41683, -29.00781), (270.1, -29.5), (268.0, -30.0), (10.0, 40.0), (192.0, 27.0),
+          (83.6, -5.4)]
+    gal = [SkyCoord(ra=ra * u.deg, dec=dec * u.deg, frame="icrs").galactic for ra, dec in eq]
+    emit(HERE / "galaxy_coords.csv", ["ra", "dec", "l", "b"],
+         [(ra, dec, float(g.l.deg), float(g.b.deg)) for (ra, dec), g in zip(eq, gal)], rel=1e-10)
 
     l, b, ds = 1.0, -3.0, 8.0
     w, te, mass, dl, cls = monte_carlo(l, b, ds, 1_500_000, 20261202)
