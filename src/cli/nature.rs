@@ -82,7 +82,7 @@ pub struct NatureArgs {
     /// The imaging sees no excess: any lens is fainter than this apparent magnitude.
     #[arg(long, value_name = "MAG")]
     pub fainter_than: Option<f64>,
-    /// Samples drawn.
+    /// Samples drawn (at most 5,000,000).
     #[arg(long, value_name = "N", default_value_t = 200_000)]
     pub samples: usize,
     /// Seed of the random streams.
@@ -188,9 +188,9 @@ impl NatureArgs {
             .map(|i| LensLight::new(band, self.extinction, i))
             .transpose()
             .map_err(|e| Error::input(format!("--extinction/--excess/--fainter-than: {e}")))?;
-        if !(1..=50_000_000).contains(&self.samples) {
+        if !(1..=5_000_000).contains(&self.samples) {
             return Err(Error::input(format!(
-                "--samples: must be 1 to 50000000, got {}",
+                "--samples: must be 1 to 5000000 (about 200 bytes each), got {}",
                 self.samples
             )));
         }

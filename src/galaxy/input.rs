@@ -124,6 +124,12 @@ fn rho_fields(text: &str, line: usize) -> Option<(f64, f64)> {
 
 /// `theta_E = theta_* / rho` (mas, with `theta_*` in microarcseconds), relative errors added
 /// in quadrature.
+///
+/// ```
+/// use causeway::galaxy::{input::theta_e, Measured};
+/// let t = theta_e(Measured::new("theta_*", 6.0, 0.3).unwrap(), 0.02, 0.001, 1).unwrap();
+/// assert!((t.value - 0.3).abs() < 1e-12 && (t.err - 0.3 * 0.05 * 2f64.sqrt()).abs() < 1e-12);
+/// ```
 pub fn theta_e(theta_star: Measured, rho: f64, rho_err: f64, rank: usize) -> Result<Measured> {
     let rho = Measured::new(&format!("rho of rank {rank}"), rho, rho_err)?;
     let value = theta_star.value / 1000.0 / rho.value;

@@ -267,6 +267,13 @@ impl LensLight {
 
     /// The host mass (M_sun) whose predicted magnitude equals the imaging's (the limit, or the
     /// measured excess) at lens distance `dl`; `None` if no main-sequence mass reaches it.
+    ///
+    /// ```
+    /// use causeway::galaxy::{Band, Imaging, LensLight};
+    /// let c = LensLight::new(Band::K, 0.3, Imaging::Fainter { mag: 21.0 }).unwrap();
+    /// let m = c.boundary_mass(6.0, 8.0, -3.0).unwrap();
+    /// assert!((c.apparent(m, 6.0, 8.0, -3.0).unwrap() - 21.0).abs() < 1e-6);
+    /// ```
     pub fn boundary_mass(&self, dl: f64, ds: f64, b_deg: f64) -> Option<f64> {
         let target = match self.imaging {
             Imaging::Excess { mag, .. } | Imaging::Fainter { mag } => mag,

@@ -77,6 +77,11 @@ pub const BH_MASS: (f64, f64) = (5.0, 1.0);
 pub const AGE_GYR: f64 = 10.0;
 
 /// White-dwarf mass from the initial mass (Kalirai et al. 2008).
+///
+/// ```
+/// // a 2 M_sun star leaves a 0.61 M_sun white dwarf
+/// assert!((causeway::galaxy::mass::white_dwarf_mass(2.0) - 0.612).abs() < 1e-12);
+/// ```
 pub fn white_dwarf_mass(initial: f64) -> f64 {
     0.109 * initial + 0.394
 }
@@ -255,6 +260,18 @@ impl MassFunction {
     }
 
     /// Draws a present-day object: its mass (M_sun) and class.
+    ///
+    /// ```
+    /// use causeway::galaxy::{LensClass, MassFunction, Population};
+    /// use rand::SeedableRng;
+    /// let bulge = MassFunction::new(Population::Bulge);
+    /// let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(1);
+    /// for _ in 0..1000 {
+    ///     let (m, class) = bulge.draw(&mut rng);
+    ///     // a 10 Gyr burst: no main-sequence star above the 1 M_sun turn-off
+    ///     assert!(class != LensClass::MainSequence || m <= 1.0);
+    /// }
+    /// ```
     pub fn draw(&self, rng: &mut impl Rng) -> (f64, LensClass) {
         let m = self.initial_mass(rng.random());
         if rng.random::<f64>() < self.surviving(m) {

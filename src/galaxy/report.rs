@@ -45,6 +45,11 @@ fn fmt_interval([m, lo, hi]: [f64; 3]) -> String {
 }
 
 /// The most probable class and its probability.
+///
+/// ```
+/// use causeway::galaxy::{report::verdict, LensClass};
+/// assert_eq!(verdict(&[0.1, 0.0, 0.8, 0.1, 0.0]), (LensClass::WhiteDwarf, 0.8));
+/// ```
 pub fn verdict(p: &[f64; 5]) -> (LensClass, f64) {
     let k = (0..5).fold(0, |best, k| if p[k] > p[best] { k } else { best });
     (LensClass::ALL[k], p[k])
