@@ -182,9 +182,9 @@ fn lens_nature(out: &Path) -> Result<()> {
     let data = EventData {
         te: Some(Measured::new("tE", 25.0, 0.5)?),
         theta_e: Some(input::theta_e(theta_star, 0.003, 0.0002, 1)?),
-        pi_e: None,
         s: Some(1.3),
         q: Some(3e-3),
+        ..Default::default()
     };
     let light = LensLight::new(Band::K, 0.25, Imaging::Fainter { mag: 21.5 })?;
     let options = LensOptions {

@@ -6,7 +6,7 @@ use super::{parse_pair, ThreadArgs};
 use crate::error::{Error, Result};
 use crate::fsutil::{check_outputs, write_atomic, Output};
 use crate::galaxy::figure::{marginals_png, mass_distance_png};
-use crate::galaxy::input::{theta_e, FitRow};
+use crate::galaxy::input::{pi_e_angle, pi_e_size, theta_e, FitRow};
 use crate::galaxy::report::{samples_csv, summary};
 use crate::galaxy::{
     infer, Band, EventData, Imaging, LensLight, LensOptions, Measured, Sightline, SourceDistance,
@@ -20,7 +20,9 @@ use std::path::PathBuf;
     allow_negative_numbers = true,
     after_help = "The measurements come from the fit's table of minima (--minima: tE, tE_err, \
         rho, rho_err, s, q, and pi_EN, pi_EE with errors when present) or from explicit \
-        values; explicit values win. theta_E is theta_* / rho (--theta-star) or --theta-e.\n\n\
+        values; explicit values win. The parallax's size and direction (the direction of the \
+        geocentric relative proper motion) enter; --earth-velocity turns geocentric into \
+        heliocentric. theta_E is theta_* / rho (--theta-star) or --theta-e.\n\n\
         Units: days (tE), microarcseconds (theta_*), mas (theta_E), kpc (distances), degrees \
         (coordinates), magnitudes (imaging, extinction to the source in the imaging's band).\n\n\
         The summary (medians, 68% intervals, class probabilities, without and with the \
@@ -29,8 +31,8 @@ use std::path::PathBuf;
         same --seed gives the same samples whatever the thread count.\n\nExamples:\n  \
         causeway nature --minima minima.csv --theta-star 0.6,0.05 --galactic 1.2,-2.8 \
             --band K --extinction 0.25 --fainter-than 21.5 --out lens.csv --png lens.png\n  \
-        causeway nature --te 32,1.5 --theta-e 0.45,0.05 --pi-e 0.12,0.02 --q 3e-3 --s 1.1 \
-            --equatorial 270.1,-29.5 --ds 8.2,0.5 --band I --extinction 1.4 --excess 20.3,0.2"
+        causeway nature --te 32,1.5 --theta-e 0.45,0.05 --pi-en 0.1,0.02 --pi-ee 0.07,0.02 \
+            --earth-velocity 5.2,-21 --q 3e-3 --s 1.1 --equatorial 270.1,-29.5 --ds 8.2,0.5 --band I --extinction 1.4 --excess 20.3,0.2"
 )]
 pub struct NatureArgs {
     /// The fit's table of minima (CSV written by `causeway search`).
@@ -51,9 +53,20 @@ pub struct NatureArgs {
     /// Einstein angle and its error (mas), instead of theta_* / rho.
     #[arg(long, value_name = "MAS,ERR", value_parser = parse_pair, conflicts_with = "theta_star")]
     pub theta_e: Option<(f64, f64)>,
-    /// Size of the microlens parallax |pi_E| and its error.
-    #[arg(long, value_name = "PIE,ERR", value_parser = parse_pair)]
+    /// Size of the microlens parallax |pi_E| and its error (direction unknown).
+    #[arg(long, value_name = "PIE,ERR", value_parser = parse_pair, conflicts_with_all = ["pi_en", "pi_ee"])]
     pub pi_e: Option<(f64, f64)>,
+    /// North component of the parallax vector and its error (with --pi-ee): its size and its
+    /// direction, the direction of the geocentric relative proper motion, both enter.
+    #[arg(long, value_name = "PIEN,ERR", value_parser = parse_pair, requires = "pi_ee")]
+    pub pi_en: Option<(f64, f64)>,
+    /// East component of the parallax vector and its error (with --pi-en).
+    #[arg(long, value_name = "PIEE,ERR", value_parser = parse_pair, requires = "pi_en")]
+    pub pi_ee: Option<(f64, f64)>,
+    /// The Earth's velocity projected on the sky at the parallax reference time, north and east
+    /// (km/s): turns the measured (geocentric) tE and direction into heliocentric proper motion.
+    #[arg(long, value_name = "VN,VE", value_parser = parse_pair)]
+    pub earth_velocity: Option<(f64, f64)>,
     /// Companion separation (Einstein radii), for its projected separation.
     #[arg(long, value_name = "S")]
     pub s: Option<f64>,
@@ -143,7 +156,15 @@ impl NatureArgs {
         }
         if let Some(p) = measured("--pi-e", self.pi_e)? {
             data.pi_e = Some(p);
+            data.pi_e_angle = None;
         }
+        if let (Some((n, n_err)), Some((e, e_err))) = (self.pi_en, self.pi_ee) {
+            let v = [n, n_err, e, e_err];
+            data.pi_e =
+                Some(pi_e_size(v).map_err(|e| Error::input(format!("--pi-en/--pi-ee: {e}")))?);
+            data.pi_e_angle = Some(pi_e_angle(v));
+        }
+        data.earth_velocity = self.earth_velocity.map(|(n, e)| [n, e]);
         for (what, v, slot) in [("--s", self.s, &mut data.s), ("--q", self.q, &mut data.q)] {
             if let Some(v) = v {
                 if !(v.is_finite() && v > 0.0) {

@@ -97,6 +97,8 @@ impl FitRow {
             te: Some(te),
             theta_e,
             pi_e,
+            pi_e_angle: self.pi_e.map(pi_e_angle),
+            earth_velocity: None,
             s: Some(self.s),
             q: Some(self.q),
         })
@@ -135,6 +137,18 @@ pub fn theta_e(theta_star: Measured, rho: f64, rho_err: f64, rank: usize) -> Res
     let value = theta_star.value / 1000.0 / rho.value;
     let rel = (theta_star.err / theta_star.value).hypot(rho.err / rho.value);
     Measured::new("theta_E", value, rel * value)
+}
+
+/// The position angle (radians, north through east) of the parallax vector `(pi_EN, err,
+/// pi_EE, err)` and its error (linear propagation).
+///
+/// ```
+/// let (a, e) = causeway::galaxy::input::pi_e_angle([0.0, 0.01, 0.2, 0.01]);
+/// assert!((a - std::f64::consts::FRAC_PI_2).abs() < 1e-12 && (e - 0.05).abs() < 1e-12);
+/// ```
+pub fn pi_e_angle([n, n_err, e, e_err]: [f64; 4]) -> (f64, f64) {
+    let size2 = n * n + e * e;
+    (e.atan2(n), (e * n_err).hypot(n * e_err) / size2)
 }
 
 /// The size of the parallax vector `(pi_EN, err, pi_EE, err)` and its error (linear

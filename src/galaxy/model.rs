@@ -98,6 +98,10 @@ impl Default for GalacticModel {
     }
 }
 
+/// The north Galactic pole (RA, Dec, J2000) and the Galactic longitude of the north celestial
+/// pole, degrees.
+const GALACTIC_POLE: (f64, f64, f64) = (192.859_48, 27.128_25, 122.931_92);
+
 /// A line of sight in Galactic coordinates (degrees).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Sightline {
@@ -139,11 +143,8 @@ impl Sightline {
                 "line of sight: need finite RA and |Dec| <= 90 degrees, got {ra_deg}, {dec_deg}"
             )));
         }
-        let (ra_p, dec_p, l_ncp) = (
-            192.859_48f64.to_radians(),
-            27.128_25f64.to_radians(),
-            122.931_92f64,
-        );
+        let (ra_p, dec_p, l_ncp) = GALACTIC_POLE;
+        let (ra_p, dec_p) = (ra_p.to_radians(), dec_p.to_radians());
         let (ra, dec) = (ra_deg.to_radians(), dec_deg.to_radians());
         let sb = dec.sin() * dec_p.sin() + dec.cos() * dec_p.cos() * (ra - ra_p).cos();
         let b = sb.clamp(-1.0, 1.0).asin();
@@ -151,6 +152,53 @@ impl Sightline {
         let x = dec.sin() * dec_p.cos() - dec.cos() * dec_p.sin() * (ra - ra_p).cos();
         let l = (l_ncp - y.atan2(x).to_degrees()).rem_euclid(360.0);
         Sightline::new(l, b.to_degrees())
+    }
+
+    /// Equatorial J2000 coordinates (degrees) of this line of sight, the inverse of
+    /// [`Sightline::from_equatorial`].
+    ///
+    /// ```
+    /// use causeway::galaxy::Sightline;
+    /// let s = Sightline::from_equatorial(270.1, -29.5).unwrap();
+    /// let (ra, dec) = s.equatorial();
+    /// assert!((ra - 270.1).abs() < 1e-9 && (dec + 29.5).abs() < 1e-9);
+    /// ```
+    pub fn equatorial(&self) -> (f64, f64) {
+        let (ra_p, dec_p, l_ncp) = GALACTIC_POLE;
+        let (l, b) = (self.l_deg.to_radians(), self.b_deg.to_radians());
+        let dl = l_ncp.to_radians() - l;
+        let sd = b.sin() * dec_p.to_radians().sin() + b.cos() * dec_p.to_radians().cos() * dl.cos();
+        let y = b.cos() * dl.sin();
+        let x = b.sin() * dec_p.to_radians().cos() - b.cos() * dec_p.to_radians().sin() * dl.cos();
+        let ra = (ra_p + y.atan2(x).to_degrees()).rem_euclid(360.0);
+        (ra, sd.clamp(-1.0, 1.0).asin().to_degrees())
+    }
+
+    /// Position angle (radians, from equatorial north through east) of the direction of
+    /// increasing Galactic latitude at this line of sight: a vector of (north, east) parts
+    /// `(n, e)` has the parts `(e cos a - n sin a, n cos a + e sin a)` along `(l, b)`.
+    ///
+    /// ```
+    /// use causeway::galaxy::Sightline;
+    /// // Towards the bulge, Galactic north lies about 60 degrees west of equatorial north
+    /// // (astropy: 299.6 degrees), and the plane runs north-east.
+    /// let a = Sightline::new(1.0, -3.0).unwrap().galactic_north_angle();
+    /// assert!((a.rem_euclid(std::f64::consts::TAU).to_degrees() - 299.6).abs() < 0.1, "{a}");
+    /// ```
+    pub fn galactic_north_angle(&self) -> f64 {
+        let (ra, dec) = self.equatorial();
+        let h = 1e-5;
+        let (lo, hi) = (
+            Sightline::from_equatorial(ra, dec - h),
+            Sightline::from_equatorial(ra, dec + h),
+        );
+        let (Ok(lo), Ok(hi)) = (lo, hi) else {
+            return 0.0;
+        };
+        let dl = ((hi.l_deg - lo.l_deg + 180.0).rem_euclid(360.0) - 180.0)
+            * self.b_deg.to_radians().cos();
+        let db = hi.b_deg - lo.b_deg;
+        (-dl).atan2(db)
     }
 
     /// Unit vectors `(towards the star, along l, along b)` in the heliocentric frame.

@@ -91,6 +91,13 @@ pub struct EventData {
     pub theta_e: Option<Measured>,
     /// Size of the microlens parallax vector.
     pub pi_e: Option<Measured>,
+    /// Direction of the parallax vector, the direction of the geocentric relative proper
+    /// motion: position angle (radians, north through east) and its error.
+    pub pi_e_angle: Option<(f64, f64)>,
+    /// The Earth's velocity projected on the sky at the parallax reference time, (north, east)
+    /// in km/s: `mu_hel = mu_geo + v_earth pi_rel / au` (Gould 2004, ApJ 606, 319). Without
+    /// it the measured tE and the direction are taken as heliocentric.
+    pub earth_velocity: Option<[f64; 2]>,
     /// Separation of the companion (Einstein radii), for its projected separation.
     pub s: Option<f64>,
     /// Mass ratio of the companion, for its mass.
@@ -220,6 +227,8 @@ struct Sampler<'a> {
     mass_functions: [MassFunction; 2],
     kappa: f64,
     one_plus_q: f64,
+    /// Position angle of the Galactic north at the line of sight (radians).
+    north_angle: f64,
 }
 
 impl Sampler<'_> {
@@ -296,17 +305,30 @@ impl Sampler<'_> {
                 (mu_rel, theta_e / mu_rel * DAYS_PER_YEAR)
             }
             Some(m) => {
-                // tE from its measurement and a uniform direction give the relative proper
-                // motion; its prior density (lens less source, a Gaussian) enters the weight.
-                // Proposal density of the vector: N(tE) (theta_E / mu^2) / (2 pi mu) in mu;
-                // target: prior x N(tE) x theta_E mu (the rate): weight prior x 2 pi mu^4.
+                // tE from its measurement and a direction (uniform, or pi_E's) give the
+                // geocentric relative proper motion; its heliocentric counterpart's prior
+                // density (lens less source, a Gaussian) enters the weight. Proposal density
+                // of the vector: N(tE) (theta_E / mu^2) p(phi) / mu; target: prior x N(tE) x
+                // L(phi) x theta_E mu (the rate), with L(phi) = p(phi) for pi_E's direction
+                // and p constant otherwise: the weight is prior x mu^4 either way.
                 let te = m.draw(rng);
                 let mu = theta_e / te * DAYS_PER_YEAR;
-                let phi = std::f64::consts::TAU * rng.random::<f64>();
+                let phi = match self.data.pi_e_angle {
+                    Some((angle, err)) => {
+                        let z: f64 = StandardNormal.sample(rng);
+                        angle + err * z
+                    }
+                    None => std::f64::consts::TAU * rng.random::<f64>(),
+                };
+                let v = self.data.earth_velocity.unwrap_or([0.0; 2]);
+                let shift = pi_rel / super::model::KMS_PER_MASYR_KPC;
+                let north = mu * phi.cos() + v[0] * shift;
+                let east = mu * phi.sin() + v[1] * shift;
+                let (s, c) = self.north_angle.sin_cos();
+                let hel = [east * c - north * s, north * c + east * s];
                 let rel = lens_motion.less(&source_motion);
-                let prior = rel.density([mu * phi.cos(), mu * phi.sin()]);
-                weight *= prior * std::f64::consts::TAU * mu.powi(4);
-                (mu, te)
+                weight *= rel.density(hel) * mu.powi(4);
+                (hel[0].hypot(hel[1]), te)
             }
         };
         let host_mass = mass / self.one_plus_q;
@@ -384,6 +406,7 @@ pub fn infer(
         mass_functions: Population::ALL.map(MassFunction::new),
         kappa: kappa(),
         one_plus_q: 1.0 + data.q.unwrap_or(0.0),
+        north_angle: options.sightline.galactic_north_angle(),
     };
     let blocks = options.samples.div_ceil(BLOCK);
     progress.start("lens posterior", blocks as u64);

@@ -49,9 +49,22 @@ fn densities_match_numpy() {
 fn equatorial_coordinates_match_astropy() {
     // galaxy.py: astropy's ICRS to Galactic transformation. The pole and node constants in
     // Sightline::from_equatorial are the IAU values (from memory): agreement to 1e-4 degrees.
-    let t = common::reference("galaxy_coords.csv", &["ra", "dec", "l", "b"]);
+    let t = common::reference("galaxy_coords.csv", &["ra", "dec", "l", "b", "north_pa"]);
     for r in &t.rows {
         let s = Sightline::from_equatorial(r[0], r[1]).unwrap();
+        let (ra, dec) = s.equatorial();
+        let dra = (ra - r[0] + 180.0).rem_euclid(360.0) - 180.0;
+        assert!(
+            dra.abs() < 1e-8 && (dec - r[1]).abs() < 1e-8,
+            "{r:?}: {ra}, {dec}"
+        );
+        if r[3].abs() < 80.0 {
+            // astropy's position angle of increasing b
+            let da = (s.galactic_north_angle() - r[4] + 3.0 * std::f64::consts::PI)
+                .rem_euclid(std::f64::consts::TAU)
+                - std::f64::consts::PI;
+            assert!(da.abs() < 1e-5, "{r:?}: {}", s.galactic_north_angle());
+        }
         let dl = (s.l_deg - r[2] + 180.0).rem_euclid(360.0) - 180.0;
         let tol = 1e-4 / r[3].to_radians().cos().max(1e-3);
         assert!(
@@ -274,6 +287,44 @@ fn precise_theta_e_and_pi_e_collapse_onto_gould_2000() {
     assert!(close(pi_rel, theta * pie, 0.003), "{pi_rel}");
     let spread = post.quantiles(|s| s.mass, false, &[0.16, 0.84]);
     assert!(spread[1] - spread[0] < 0.01 * expected);
+}
+
+#[test]
+fn the_direction_of_pi_e_favours_disk_lenses_along_rotation() {
+    // Toward the bulge a disk lens moves with the Sun while a bulge source drifts towards -l
+    // (Han & Gould 1995): mu_rel of disk lenses points towards +l. A parallax vector (the
+    // direction of mu_rel) towards +l makes a disk lens likelier than one towards -l.
+    let los = field();
+    let a = los.galactic_north_angle();
+    let disk_share = |sign: f64| {
+        // +l is the position angle a + 90 degrees (east of Galactic north)
+        let angle = a + sign * std::f64::consts::FRAC_PI_2;
+        let data = EventData {
+            te: Some(m(40.0, 1.0)),
+            theta_e: Some(m(0.6, 0.03)),
+            pi_e: Some(m(0.15, 0.02)),
+            pi_e_angle: Some((angle, 0.05)),
+            ..Default::default()
+        };
+        let options = LensOptions {
+            samples: 60_000,
+            ..LensOptions::new(los)
+        };
+        let post = infer(&data, &options, &Silent).unwrap();
+        let total: f64 = post.samples.iter().map(|s| s.weight).sum();
+        let disk: f64 = post
+            .samples
+            .iter()
+            .filter(|s| s.population == Population::Disk)
+            .map(|s| s.weight)
+            .sum();
+        disk / total
+    };
+    let (along, against) = (disk_share(1.0), disk_share(-1.0));
+    assert!(
+        along > against + 0.1,
+        "disk share {along} along +l, {against} along -l"
+    );
 }
 
 #[test]

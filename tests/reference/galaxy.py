@@ -17,7 +17,8 @@ and scipy from the published formulas.
   distribution of the prior, and the posterior given tE alone (the prior reweighted by the tE
   likelihood).
 
-- Coordinates: astropy's ICRS to Galactic transformation for the equatorial input.
+- Coordinates: astropy's ICRS to Galactic transformation for the equatorial input, and the
+  position angle of Galactic north (for the direction of pi_E).
 
 Writes galaxy_density.csv, galaxy_motion.csv, galaxy_rate.csv, galaxy_coords.csv and
 galaxy_mc.csv;
@@ -222,8 +223,12 @@ def main():
     eq = [(266.41683, -29.00781), (270.1, -29.5), (268.0, -30.0), (10.0, 40.0), (192.0, 27.0),
           (83.6, -5.4)]
     gal = [SkyCoord(ra=ra * u.deg, dec=dec * u.deg, frame="icrs").galactic for ra, dec in eq]
-    emit(HERE / "galaxy_coords.csv", ["ra", "dec", "l", "b"],
-         [(ra, dec, float(g.l.deg), float(g.b.deg)) for (ra, dec), g in zip(eq, gal)], rel=1e-10)
+    # position angle (east of north) of the direction of increasing b
+    up = [SkyCoord(l=g.l, b=g.b + 1e-4 * u.deg, frame="galactic") for g in gal]
+    pa = [float(g.icrs.position_angle(p.icrs).rad) for g, p in zip(gal, up)]
+    emit(HERE / "galaxy_coords.csv", ["ra", "dec", "l", "b", "north_pa"],
+         [(ra, dec, float(g.l.deg), float(g.b.deg), a)
+          for (ra, dec), g, a in zip(eq, gal, pa)], rel=1e-10)
 
     l, b, ds = 1.0, -3.0, 8.0
     w, te, mass, dl, cls = monte_carlo(l, b, ds, 1_500_000, 20261202)
