@@ -328,6 +328,46 @@ fn the_direction_of_pi_e_favours_disk_lenses_along_rotation() {
 }
 
 #[test]
+fn earth_velocity_turns_geocentric_into_heliocentric_proper_motion() {
+    // Gould 2004 (ApJ 606, 319; from memory): mu_hel = mu_geo + v_earth pi_rel / au, with
+    // v_earth the Earth's velocity projected on the sky. 30 km/s is 6.33 au/yr.
+    let (angle, v) = (0.4f64, [27.6, 11.7]); // 30 km/s along the motion
+    let data = EventData {
+        te: Some(m(30.0, 0.01)),
+        theta_e: Some(m(0.5, 0.0005)),
+        pi_e: Some(m(0.3, 0.0003)),
+        pi_e_angle: Some((angle, 1e-6)),
+        earth_velocity: Some(v),
+        ..Default::default()
+    };
+    let options = LensOptions {
+        samples: 4096,
+        ..LensOptions::new(field())
+    };
+    let post = infer(&data, &options, &Silent).unwrap();
+    let au_per_year = 4.740_470_463_533_348; // km/s (IAU au, Julian year)
+    for s in post.samples.iter().take(200) {
+        let mu_geo = s.theta_e / s.te * 365.25;
+        let shift = s.pi_rel / au_per_year;
+        let n = mu_geo * angle.cos() + v[0] * shift;
+        let e = mu_geo * angle.sin() + v[1] * shift;
+        assert!(
+            close(s.mu_rel, n.hypot(e), 1e-3),
+            "{} against {}",
+            s.mu_rel,
+            n.hypot(e)
+        );
+    }
+    // and it matters: 0.3 x 0.5 mas of pi_rel at 30 km/s shifts mu by about 1 mas/yr
+    let shifted = post
+        .samples
+        .iter()
+        .filter(|s| !close(s.mu_rel, s.theta_e / s.te * 365.25, 0.02))
+        .count();
+    assert!(shifted > post.samples.len() / 2, "{shifted}");
+}
+
+#[test]
 fn mass_luminosity_relations_reproduce_their_published_forms() {
     // Mann et al. 2019 (ApJ 871, 63), from memory: at the zero point M_K = 7.5 the mass is
     // 10^-0.642 = 0.228 M_sun; the inversion returns the magnitude it was given.
