@@ -173,7 +173,8 @@ fn light_curve(map: &MagnificationMap, out: &Path) -> Result<()> {
 /// theta_E = 0.5 mas; s = 1.3, q = 3e-3) toward (l, b) = (1.5, -2.5), and an invented follow-up
 /// image in K (extinction 0.25 to the source) that sees no light beyond the source's down to
 /// K = 21.5, where a main-sequence host of the likely mass would have shown. Writes
-/// `lens-samples.csv`, `lens-mass-distance.png` and `lens-marginals.png` and prints the verdict.
+/// `lens-mass-distance.png` and `lens-marginals.png` and prints the verdict (`causeway nature
+/// --out` would write the samples, some 30 MB here).
 fn lens_nature(out: &Path) -> Result<()> {
     use crate::galaxy::{figure, input, report, EventData, Measured};
     use crate::galaxy::{infer, Band, Imaging, LensLight, LensOptions, Sightline};
@@ -194,13 +195,11 @@ fn lens_nature(out: &Path) -> Result<()> {
     };
     let post = infer(&data, &options, &crate::progress::Silent)?;
     eprint!("{}", report::summary(&post));
-    let csv = out.join("lens-samples.csv");
-    crate::fsutil::write_atomic(&csv, report::samples_csv(&post).as_bytes())?;
     let png = out.join("lens-mass-distance.png");
     figure::mass_distance_png(&post, Some(&light), options.sightline.b_deg, &png)?;
     let marginals = out.join("lens-marginals.png");
     figure::marginals_png(&post, &marginals)?;
-    for f in [&csv, &png, &marginals] {
+    for f in [&png, &marginals] {
         eprintln!("wrote {}", f.display());
     }
     Ok(())
