@@ -134,20 +134,11 @@ fn chi2_map(outcomes: &[MapOutcome], minima: &[Minimum]) -> Result<RgbImage> {
             text::draw(&mut img, at, &label, TEXT, INK, Anchor::Left);
         }
     }
-    let title = "best search chi2 of each map over (s, q)";
-    text::draw(
+    bar.finish(
         &mut img,
-        (area.left, title_y),
-        title,
-        TEXT,
-        INK,
-        Anchor::Left,
-    );
-    frame.draw(&mut img, ("separation s", "mass ratio q"), TEXT, false);
-    bar.draw(
-        &mut img,
-        area.left + area.width,
-        (area.top, area.top + area.height),
+        &frame,
+        ("best search chi2 of each map over (s, q)", title_y),
+        ("separation s", "mass ratio q"),
         TEXT,
     );
     Ok(img)

@@ -134,25 +134,14 @@ fn mass_distance(post: &LensPosterior, light: Option<&LensLight>, b_deg: f64) ->
         INK,
         Anchor::Left,
     );
-    let title = "host mass against lens distance (without the imaging)";
-    text::draw(
+    bar.finish(
         &mut img,
-        (area.left, title_y),
-        title,
-        TEXT,
-        INK,
-        Anchor::Left,
-    );
-    frame.draw(
-        &mut img,
+        &frame,
+        (
+            "host mass against lens distance (without the imaging)",
+            title_y,
+        ),
         ("lens distance (kpc)", "host mass (M_sun)"),
-        TEXT,
-        false,
-    );
-    bar.draw(
-        &mut img,
-        area.left + area.width,
-        (area.top, area.top + area.height),
         TEXT,
     );
     Ok(img)

@@ -15,7 +15,7 @@ use crate::lens::LensSystem;
 use crate::plot::axes::{Frame, Scale, INK, PAD};
 use crate::plot::colourbar::ColourBar;
 use crate::plot::draw::segment;
-use crate::plot::text::{self, Anchor};
+use crate::plot::text;
 use image::{Rgb, RgbImage};
 use std::path::Path;
 
@@ -146,24 +146,11 @@ fn figure(map: &MagnificationMap, overlay: &Overlay) -> (RgbImage, Frame) {
     draw_overlay(&mut image, &frame, &map.window, overlay);
     let title = format!("magnification map, {}", map.provenance.lens);
     let title = text::fitted(&title, ts, width - area.left - PAD * ts);
-    text::draw(
+    bar.finish(
         &mut image,
-        (area.left, PAD * ts),
-        &title,
-        ts,
-        INK,
-        Anchor::Left,
-    );
-    frame.draw(
-        &mut image,
+        &frame,
+        (&title, PAD * ts),
         ("x (Einstein radii)", "y (Einstein radii)"),
-        ts,
-        false,
-    );
-    bar.draw(
-        &mut image,
-        area.left + area.width,
-        (area.top, area.top + area.height),
         ts,
     );
     (image, frame)

@@ -11,7 +11,7 @@
 //! assert!(10 + bar.width(2) <= 200);
 //! ```
 
-use super::axes::{INK, PAD};
+use super::axes::{Frame, INK, PAD};
 use super::draw::{fill, outline, Rect};
 use super::text::{self, Anchor};
 use image::{Rgb, RgbImage};
@@ -32,6 +32,23 @@ pub struct ColourBar<'a> {
 }
 
 impl ColourBar<'_> {
+    /// Finishes a picture of values over a frame: `title` above the plot area (at row
+    /// `title_y`), the frame with its axis `labels` (no grid), and this bar at its right, text
+    /// at `scale`.
+    pub fn finish(
+        &self,
+        img: &mut RgbImage,
+        frame: &Frame,
+        (title, title_y): (&str, i64),
+        labels: (&str, &str),
+        scale: i64,
+    ) {
+        let a = frame.area;
+        text::draw(img, (a.left, title_y), title, scale, INK, Anchor::Left);
+        frame.draw(img, labels, scale, false);
+        self.draw(img, a.left + a.width, (a.top, a.top + a.height), scale);
+    }
+
     /// Pixels the bar takes right of the plot area, its labels and border included.
     pub fn width(&self, scale: i64) -> i64 {
         let widest = self
