@@ -15,7 +15,12 @@
 //! cargo run --release --example recovery                     # all sixteen, broad library
 //! cargo run --release --example recovery -- wide-1 stellar-1 # some of them
 //! cargo run --release --example recovery -- --near wide-1    # 3 x 3 of the broad grid around the truth
+//! cargo run --release --example recovery -- --variant 2       # each event observed another way
 //! ```
+//!
+//! `--variant K` fits variant K of each event instead (`BenchEvent::variant`: the same lens and
+//! path, another tE, rho, blending, timing within the night and noise): events the fit was
+//! not tuned on.
 //!
 //! The library is built once into `target/recovery-store` (its build time is reported
 //! separately) and reused. The table goes to stdout as CSV, with one line per event on stderr
@@ -35,11 +40,18 @@ const LIMIT: f64 = 900.0;
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let near = args.iter().any(|a| a == "--near");
-    let names: Vec<&String> = args.iter().filter(|a| !a.starts_with("--")).collect();
+    let variant: u64 = args.iter().position(|a| a == "--variant").map_or(0, |i| {
+        args[i + 1].parse().expect("--variant takes a number")
+    });
+    let names: Vec<&String> = args
+        .iter()
+        .filter(|a| !a.starts_with("--") && a.parse::<u64>().is_err())
+        .collect();
     let events: Vec<BenchEvent> = recovery_events()
         .unwrap()
         .into_iter()
         .filter(|e| names.is_empty() || names.iter().any(|n| *n == e.name))
+        .map(|e| e.variant(variant).unwrap())
         .collect();
     let broad = LibrarySpec::parse(BROAD_LIBRARY, "broad library").unwrap();
     let store = Store::create(std::path::Path::new("target/recovery-store")).unwrap();

@@ -125,6 +125,10 @@ pub struct SearchArgs {
     /// Local minima of the (s, q) grid to refine.
     #[arg(long, value_name = "N", default_value_t = RefineOptions::default().candidates)]
     pub refine: usize,
+    /// Refine only the grid minima whose search chi2 is at most FACTOR times the best's
+    /// (inf: all of them).
+    #[arg(long, value_name = "FACTOR", default_value_t = RefineOptions::default().within)]
+    pub refine_within: f64,
     /// Relative tolerance of the exact magnifications in the refinement.
     #[arg(long, value_name = "T", default_value_t = RefineOptions::default().tol)]
     pub tol: f64,
@@ -243,6 +247,7 @@ impl SearchArgs {
                 tol: self.tol,
                 max_iters: self.max_iters,
                 budget: (self.budget > 0.0).then(|| Duration::from_secs_f64(self.budget)),
+                within: self.refine_within,
                 ..RefineOptions::default()
             },
             clip_sigma: (self.clip > 0.0).then_some(self.clip),
@@ -264,6 +269,12 @@ impl SearchArgs {
         self.outputs().check()?;
         if self.refine == 0 {
             return Err(Error::input("--refine: must be at least 1"));
+        }
+        if self.refine_within.is_nan() || self.refine_within < 1.0 {
+            return Err(Error::input(format!(
+                "--refine-within: must be >= 1, got {}",
+                self.refine_within
+            )));
         }
         if !(self.tol.is_finite() && self.tol > 0.0 && self.tol <= 0.1) {
             return Err(Error::input(format!(

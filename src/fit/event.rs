@@ -19,7 +19,9 @@
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
 //!    half and a quarter of the library's step are built and searched ([`super::zoom`]).
 //! 6. **Refinement** of the best (s, q) local minima with exact magnifications, each from its
-//!    zoom's best where it was zoomed, within the time budget ([`RefineOptions::budget`]).
+//!    zoom's best where it was zoomed, within the time budget ([`RefineOptions::budget`]);
+//!    starts whose search chi^2 is above [`RefineOptions::within`] times the best's are left
+//!    out (with a note).
 //! 7. **Noise.** At the best model, isolated outliers are clipped ([`FitOptions::clip_sigma`],
 //!    rule in [`super::noise::clip_outliers`]) and each data set's error bars are scaled by the
 //!    robust spread of its normalised residuals, capped by its point-to-point scatter
@@ -34,7 +36,7 @@
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
 
 use super::minima::{
-    best_start, grid_starts, refine_models, with_uncertainties, Minimum, RefineOptions,
+    best_start, grid_starts, promising, refine_models, with_uncertainties, Minimum, RefineOptions,
 };
 use super::model::{BinaryModel, Trajectory};
 use super::noise::{clean, Clipped};
@@ -190,7 +192,7 @@ pub fn fit_event(
     }
 
     let started = Instant::now();
-    let (starts, zoomed) =
+    let (mut starts, zoomed) =
         refine_starts(&local, &seed, &rule, &maps, &outcomes, options, progress)?;
     let zoom_seconds = started.elapsed().as_secs_f64();
     for z in &zoomed {
@@ -202,6 +204,14 @@ pub fn fit_event(
         ));
     }
 
+    let left_out = promising(&mut starts, options.refine.within);
+    if left_out > 0 {
+        note(format!(
+            "refine: {left_out} of {} starts left out (search chi2 above {} times the best's)",
+            starts.len() + left_out,
+            options.refine.within
+        ));
+    }
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
     let mut minima = refine_models(&local, &starts, &options.refine, &|| progress.advance(1))?;
@@ -364,6 +374,12 @@ fn validate(data: &[DataSet], maps: &MapSource, options: &FitOptions) -> Result<
     }
     if options.refine.candidates == 0 {
         return Err(Error::input("--refine: must be at least 1"));
+    }
+    if options.refine.within.is_nan() || options.refine.within < 1.0 {
+        return Err(Error::input(format!(
+            "--refine-within: must be >= 1, got {}",
+            options.refine.within
+        )));
     }
     Ok(())
 }

@@ -139,7 +139,7 @@ fn bad_input_is_named_and_writes_nothing() {
     .unwrap();
     // The last two are caught by the option parser (clap), whose usage text is cut to the
     // one line that names the culprit.
-    let cases: [(&[&str], &str); 9] = [
+    let cases: [(&[&str], &str); 10] = [
         (&["event.csv", "--exclude", "5,3"], "--exclude"),
         (&["event.csv", "--baseline", "0,0.1"], "--baseline"),
         (&["event.csv", "--clip", "1"], "--clip"),
@@ -147,6 +147,7 @@ fn bad_input_is_named_and_writes_nothing() {
         (&["event.csv", "--ld", "0.5,0.6"], "--ld"),
         (&["event.csv", "--rho", "-1"], "--rho"),
         (&["event.csv", "--refine", "0"], "--refine"),
+        (&["event.csv", "--refine-within", "0.5"], "--refine-within"),
         (&["event.csv", "--keep", "three"], "--keep"),
         (&["event.csv", "--no-such-option"], "--no-such-option"),
     ];

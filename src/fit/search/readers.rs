@@ -58,10 +58,12 @@ impl Readers {
                 let fits = rho >= pixel && 4.0 * rho < map.window.width;
                 if !fits {
                     notes.push(format!(
-                        "rho {rho} skipped on the map of s = {}, q = {}: it needs 1 pixel \
-                         ({pixel:e}) <= rho < width/4",
+                        "rho {rho} skipped on the map of s = {:.4}, q = {:.3e}: it needs one \
+                         pixel ({:.3e}) <= rho < a quarter of the map's width ({:.3e})",
                         map_s(map),
-                        map_q(map)
+                        map_q(map),
+                        pixel,
+                        0.25 * map.window.width
                     ));
                 }
                 row.push(if fits {

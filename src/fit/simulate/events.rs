@@ -18,6 +18,8 @@ use crate::fit::refine::exact_chi2;
 use crate::lens::paczynski;
 use crate::source::LimbDarkening;
 use crate::store::library::LibrarySpec;
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
 
 /// The library spec a user who does not know the answer would search with: s log-spaced over
 /// [0.5, 2] (13 values), q log-spaced over [1e-4, 0.3] (11 values), a map on every caustic of
@@ -94,6 +96,45 @@ impl BenchEvent {
             &[(t - 1.0, t + 1.5)],
             self.blend,
         ))
+    }
+
+    /// Variant `k` of the event (`k = 0` is the event itself): the same lens and the same
+    /// path across it (s, q, u0, alpha), observed another way, drawn from a stream seeded by
+    /// the event's seed and `k`: tE scaled by 0.67 to 1.5, rho by 0.74 to 1.35, t0 moved by up
+    /// to half a day (the anomaly falls elsewhere in the night), the season moved by up to 15
+    /// days about the peak, blending from 0 to 3, and other noise. For measuring the fit on
+    /// events it was not tuned on.
+    ///
+    /// ```
+    /// let e = &causeway::fit::simulate::events::recovery_events().unwrap()[0];
+    /// let v = e.variant(3).unwrap();
+    /// assert_eq!((v.truth.s, v.truth.q), (e.truth.s, e.truth.q));
+    /// assert_ne!(v.seed, e.seed);
+    /// assert_eq!(e.variant(0).unwrap(), *e);
+    /// ```
+    pub fn variant(&self, k: u64) -> Result<BenchEvent> {
+        if k == 0 {
+            return Ok(self.clone());
+        }
+        let mut rng = ChaCha8Rng::seed_from_u64(self.seed.wrapping_mul(1_000_003).wrapping_add(k));
+        let l = *self.truth.trajectory.line();
+        let te = l.te * rng.random_range(-0.4f64..0.4).exp();
+        let t0 = l.t0 + rng.random_range(-0.5..0.5);
+        let rho = self.truth.rho * rng.random_range(-0.3f64..0.3).exp();
+        let blend = [0.0, 0.2, 0.5, 1.0, 2.0, 3.0][rng.random_range(0..6)];
+        let shift = rng.random_range(-15.0..15.0);
+        let half = 0.5 * (self.season.1 - self.season.0);
+        Ok(BenchEvent {
+            truth: BinaryModel {
+                rho,
+                trajectory: Trajectory::straight(t0, l.u0, te, l.alpha)?,
+                ..self.truth
+            },
+            blend,
+            season: (t0 + shift - half, t0 + shift + half),
+            seed: self.seed + 1000 * k,
+            ..self.clone()
+        })
     }
 
     /// The event's data sets, one per site (uniform source; magnifications to 1e-4).
