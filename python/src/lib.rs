@@ -1,0 +1,45 @@
+//! The Python module `causeway`: a thin layer over the library (lenses, images, caustics, maps,
+//! finite-source magnifications, the store, photometry, fits, simulation) that speaks numpy.
+//! Long calls release the GIL; vectorised calls check Ctrl-C between chunks.
+
+mod convert;
+mod fit;
+mod lens;
+mod light;
+mod map;
+mod store;
+mod timing;
+
+use pyo3::prelude::*;
+
+#[pymodule]
+#[pyo3(name = "causeway")]
+fn causeway_module(m: &Bound<'_, PyModule>) -> PyResult<()> {
+    m.add("__version__", env!("CARGO_PKG_VERSION"))?;
+    m.add("MAP_METHODS", light::MAP_METHODS.to_vec())?;
+    m.add("CONTOUR_METHODS", light::CONTOUR_METHODS.to_vec())?;
+    m.add(
+        "DEFAULT_ZERO_POINT",
+        causeway::fit::photometry::DEFAULT_ZERO_POINT,
+    )?;
+    m.add_class::<lens::Lens>()?;
+    m.add_class::<map::Map>()?;
+    m.add_class::<store::Store>()?;
+    m.add_class::<fit::DataSet>()?;
+    m.add_function(wrap_pyfunction!(lens::magnification, m)?)?;
+    m.add_function(wrap_pyfunction!(lens::images, m)?)?;
+    m.add_function(wrap_pyfunction!(lens::caustics, m)?)?;
+    m.add_function(wrap_pyfunction!(lens::topology, m)?)?;
+    m.add_function(wrap_pyfunction!(map::build_map, m)?)?;
+    m.add_function(wrap_pyfunction!(light::trajectory, m)?)?;
+    m.add_function(wrap_pyfunction!(light::map_magnification, m)?)?;
+    m.add_function(wrap_pyfunction!(light::contour_magnification, m)?)?;
+    m.add_function(wrap_pyfunction!(light::model_magnification, m)?)?;
+    m.add_function(wrap_pyfunction!(store::build_library, m)?)?;
+    m.add_function(wrap_pyfunction!(fit::fit_single_lens, m)?)?;
+    m.add_function(wrap_pyfunction!(fit::fit_event, m)?)?;
+    m.add_function(wrap_pyfunction!(fit::simulate, m)?)?;
+    m.add_function(wrap_pyfunction!(timing::_time_magnification, m)?)?;
+    m.add_function(wrap_pyfunction!(timing::_time_map_magnification, m)?)?;
+    Ok(())
+}

@@ -1,0 +1,240 @@
+//! Finite sources: trajectories, magnifications read from a map, by contour integration, and
+//! the exact magnification of a binary-lens model along its trajectory.
+
+use crate::convert::{bad, chunked, ok, pair, shaped, values, with_threads, Array, Floats};
+use crate::lens::{sources, Lens};
+use crate::map::Map;
+use causeway::contour;
+use causeway::curve::{Evaluation, Method, PointMagnification, Sampler, StraightLine};
+use causeway::fit::model::{BinaryModel, Trajectory};
+use causeway::lens::LensSystem;
+use causeway::map::MagnificationMap;
+use causeway::solve::ImageSolver;
+use causeway::source::{LimbDarkening, SourceProfile};
+use pyo3::prelude::*;
+
+/// Names of the codes in the `method` array of `map_magnification`.
+pub const MAP_METHODS: [&str; 5] = ["direct", "convolved", "bilinear", "expansion", "point"];
+/// Names of the codes in the `method` array of `contour_magnification`.
+pub const CONTOUR_METHODS: [&str; 3] = ["point", "small-source", "contour"];
+
+/// The limb-darkening law of the `ld` (linear u) and `ld_sqrt` ((c, d)) arguments.
+pub fn law(ld: Option<f64>, ld_sqrt: Option<(f64, f64)>) -> PyResult<LimbDarkening> {
+    Ok(match (ld, ld_sqrt) {
+        (None, None) => LimbDarkening::Uniform,
+        (Some(u), None) => LimbDarkening::Linear { u },
+        (None, Some((c, d))) => LimbDarkening::SquareRoot { c, d },
+        (Some(_), Some(_)) => return Err(bad("ld_sqrt", "give ld or ld_sqrt, not both")),
+    })
+}
+
+/// The source profile of `rho` and the limb-darkening arguments.
+pub fn profile(rho: f64, ld: Option<f64>, ld_sqrt: Option<(f64, f64)>) -> PyResult<SourceProfile> {
+    ok(SourceProfile::new(rho, law(ld, ld_sqrt)?))
+}
+
+/// trajectory(t0, u0, te, alpha, times) -> (x, y): source positions (Einstein radii) on a
+/// straight line at `times` (days, any shape): tau = (t - t0)/te, position
+/// (tau cos(alpha) - u0 sin(alpha), tau sin(alpha) + u0 cos(alpha)), alpha in degrees.
+#[pyfunction]
+pub fn trajectory<'py>(
+    py: Python<'py>,
+    t0: f64,
+    u0: f64,
+    te: f64,
+    alpha: f64,
+    times: Floats,
+) -> PyResult<(Array<'py, f64>, Array<'py, f64>)> {
+    let line = ok(StraightLine::new(t0, u0, te, alpha.to_radians()))?;
+    let (t, shape) = values(&times);
+    let pts = line.path(&t).points;
+    Ok((
+        shaped(py, pts.iter().map(|p| p.0).collect(), &shape)?,
+        shaped(py, pts.iter().map(|p| p.1).collect(), &shape)?,
+    ))
+}
+
+/// The evaluation named by `evaluation`.
+pub fn evaluation(name: &str) -> PyResult<Evaluation> {
+    match name {
+        "auto" => Ok(Evaluation::Auto),
+        "direct" => Ok(Evaluation::Direct),
+        "convolved" => Ok(Evaluation::Convolved),
+        _ => Err(bad(
+            "evaluation",
+            format!("must be 'auto', 'direct' or 'convolved', got {name:?}"),
+        )),
+    }
+}
+
+/// Finite-source values from `map` at `points`, continued off the map with the map's lens
+/// (as the command line's `curve --map` does): magnifications, method codes and warnings.
+pub fn sample_map(
+    map: &MagnificationMap,
+    profile: SourceProfile,
+    points: &[(f64, f64)],
+    tol: f64,
+    evaluation: Evaluation,
+) -> causeway::Result<(Vec<f64>, Vec<u8>, Vec<String>)> {
+    let lens: &LensSystem = &map.provenance.lens;
+    let solver = (lens.len() > 1)
+        .then(|| ImageSolver::new(lens).ok())
+        .flatten();
+    let point: &dyn PointMagnification = match &solver {
+        Some(s) => s,
+        None => lens,
+    };
+    let curve = Sampler::new(profile)
+        .tol(tol)
+        .evaluation(evaluation)
+        .lens(point)
+        .map(map)
+        .sample(points)?;
+    let code = |m: Method| MAP_METHODS.iter().position(|&n| n == m.name()).unwrap() as u8;
+    Ok((
+        curve.samples.iter().map(|s| s.magnification).collect(),
+        curve.samples.iter().map(|s| code(s.method)).collect(),
+        curve.warnings,
+    ))
+}
+
+/// map_magnification(map, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, evaluation="auto",
+/// threads=None) -> (A, method)
+///
+/// Magnification of a source of radius `rho` (Einstein radii; 0 is a point source) centred at
+/// (x, y) (arrays of one shape), read from `map`: A float64 and method uint8 of that shape,
+/// method codes naming `causeway.MAP_METHODS` ("direct", "convolved", "bilinear",
+/// "expansion", "point"). Off the map the point-source magnification with its small-source
+/// correction serves where its error estimate is below `tol` (relative); a point it cannot
+/// serve raises ValueError. `ld` is the linear limb-darkening coefficient u, `ld_sqrt` the
+/// square-root law's (c, d). Warnings (a source too small for the map) go to `warnings.warn`.
+#[pyfunction]
+#[pyo3(signature = (map, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, evaluation="auto", threads=None))]
+#[allow(clippy::too_many_arguments)]
+pub fn map_magnification<'py>(
+    py: Python<'py>,
+    map: &Map,
+    x: Floats,
+    y: Floats,
+    rho: f64,
+    ld: Option<f64>,
+    ld_sqrt: Option<(f64, f64)>,
+    tol: f64,
+    evaluation: &str,
+    threads: Option<usize>,
+) -> PyResult<(Array<'py, f64>, Array<'py, u8>)> {
+    let profile = profile(rho, ld, ld_sqrt)?;
+    let evaluation = self::evaluation(evaluation)?;
+    let (xs, ys, shape) = pair(&x, &y, ("x", "y"))?;
+    let points: Vec<(f64, f64)> = xs.into_iter().zip(ys).collect();
+    let (a, m, warnings) = py.detach(|| {
+        with_threads(threads, || {
+            sample_map(&map.inner, profile, &points, tol, evaluation)
+        })
+    })?;
+    py.check_signals()?;
+    if !warnings.is_empty() {
+        let warn = py.import("warnings")?.getattr("warn")?;
+        for w in warnings {
+            warn.call1((w.trim_start_matches("warning: "),))?;
+        }
+    }
+    Ok((shaped(py, a, &shape)?, shaped(py, m, &shape)?))
+}
+
+/// contour_magnification(lens, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, threads=None)
+/// -> (A, error, method)
+///
+/// Finite-source magnification by contour integration of the image boundaries, to relative
+/// tolerance `tol` in (0, 0.1], at source centres (x, y) (arrays of one shape, Einstein radii):
+/// A and its estimated absolute error (float64), method (uint8 codes naming
+/// `causeway.CONTOUR_METHODS`: "point" for rho = 0, "small-source" where the expansion meets
+/// the tolerance, "contour"). Up to 4 lenses.
+#[pyfunction]
+#[pyo3(signature = (lens, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, threads=None))]
+#[allow(clippy::too_many_arguments)]
+pub fn contour_magnification<'py>(
+    py: Python<'py>,
+    lens: &Lens,
+    x: Floats,
+    y: Floats,
+    rho: f64,
+    ld: Option<f64>,
+    ld_sqrt: Option<(f64, f64)>,
+    tol: f64,
+    threads: Option<usize>,
+) -> PyResult<(Array<'py, f64>, Array<'py, f64>, Array<'py, u8>)> {
+    let profile = profile(rho, ld, ld_sqrt)?;
+    let (zeta, shape) = sources(&x, &y)?;
+    // Checks the tolerance and the lens once, before any chunk.
+    ok(contour::ContourSolver::new(&lens.inner, tol))?;
+    let est = chunked(py, zeta.len(), threads, |r| {
+        contour::magnifications(&lens.inner, &zeta[r], &profile, tol)
+    })?;
+    let code = |m: contour::Method| match m {
+        contour::Method::PointSource => 0u8,
+        contour::Method::SmallSource => 1,
+        contour::Method::Contour => 2,
+    };
+    Ok((
+        shaped(py, est.iter().map(|e| e.magnification).collect(), &shape)?,
+        shaped(py, est.iter().map(|e| e.error).collect(), &shape)?,
+        shaped(py, est.iter().map(|e| code(e.method)).collect(), &shape)?,
+    ))
+}
+
+/// The binary-lens model of the arguments (alpha in degrees).
+#[allow(clippy::too_many_arguments)]
+pub fn model(
+    s: f64,
+    q: f64,
+    t0: f64,
+    u0: f64,
+    te: f64,
+    alpha: f64,
+    rho: f64,
+) -> PyResult<BinaryModel> {
+    crate::lens::check_binary(s, q)?;
+    if !(rho.is_finite() && rho >= 0.0) {
+        return Err(bad("rho", format!("must be finite and >= 0, got {rho}")));
+    }
+    Ok(BinaryModel {
+        s,
+        q,
+        rho,
+        trajectory: ok(Trajectory::straight(t0, u0, te, alpha.to_radians()))?,
+    })
+}
+
+/// model_magnification(s, q, t0, u0, te, alpha, rho, times, ld=None, ld_sqrt=None, tol=1e-4,
+/// threads=None) -> A
+///
+/// The exact magnification of a binary-lens model at `times` (days, any shape; A float64 of
+/// that shape): lens (s, q), straight trajectory (t0 days, u0 Einstein radii, te days, alpha
+/// degrees), source radius rho; point source plus small-source correction far from caustics,
+/// contour integration near them, to relative tolerance `tol`. The magnification the fit's
+/// refinement and `simulate` use.
+#[pyfunction]
+#[pyo3(signature = (s, q, t0, u0, te, alpha, rho, times, ld=None, ld_sqrt=None, tol=1e-4, threads=None))]
+#[allow(clippy::too_many_arguments)]
+pub fn model_magnification<'py>(
+    py: Python<'py>,
+    s: f64,
+    q: f64,
+    t0: f64,
+    u0: f64,
+    te: f64,
+    alpha: f64,
+    rho: f64,
+    times: Floats,
+    ld: Option<f64>,
+    ld_sqrt: Option<(f64, f64)>,
+    tol: f64,
+    threads: Option<usize>,
+) -> PyResult<Array<'py, f64>> {
+    let m = model(s, q, t0, u0, te, alpha, rho)?;
+    let law = law(ld, ld_sqrt)?;
+    let (t, shape) = values(&times);
+    let a = chunked(py, t.len(), threads, |r| m.magnifications(&t[r], law, tol))?;
+    shaped(py, a, &shape)
+}
