@@ -15,7 +15,7 @@ pub type Array<'py, T> = Bound<'py, PyArrayDyn<T>>;
 
 /// Points per chunk of a long vectorised call: Ctrl-C is checked between chunks. A multiple of
 /// the library's batch sizes, so chunking never changes a result.
-pub const CHUNK: usize = 1 << 16;
+pub const CHUNK: usize = 1 << 18;
 
 /// The library's error as a Python exception: `ValueError` for bad input (option names of the
 /// command line become argument names), `OSError` (or its subclass for the case) for files,

@@ -33,10 +33,19 @@ impl Lens {
                 format!("x, y and mass must be 1-D of one length, got {shape:?}, {m_shape:?}"),
             ));
         }
+        for (name, v) in [("x", &xs), ("y", &ys), ("mass", &ms)] {
+            let positive = name == "mass";
+            if let Some(i) = v
+                .iter()
+                .position(|a| !a.is_finite() || (positive && *a <= 0.0))
+            {
+                let need = if positive { "finite and > 0" } else { "finite" };
+                return Err(bad(name, format!("[{i}] must be {need}, got {}", v[i])));
+            }
+        }
         let lenses: Vec<(f64, f64, f64)> = (0..xs.len()).map(|i| (xs[i], ys[i], ms[i])).collect();
-        Ok(Lens {
-            inner: ok(LensSystem::new(&lenses))?,
-        })
+        let inner = LensSystem::new(&lenses).map_err(|e| bad("x, y", e))?;
+        Ok(Lens { inner })
     }
 
     /// Lens.binary(s, q): m1 = 1/(1+q) at (-s q/(1+q), 0), m2 = q/(1+q) at (s/(1+q), 0).
