@@ -239,6 +239,9 @@ pub fn fit_event<'py>(
     progress: Option<Py<PyAny>>,
     threads: Option<usize>,
 ) -> PyResult<Bound<'py, PyDict>> {
+    if data.is_empty() {
+        return Err(bad("data", "give at least one DataSet"));
+    }
     let sets = data_sets(data);
     if !(budget.is_finite() && budget >= 0.0) {
         return Err(bad("budget", format!("must be >= 0 seconds, got {budget}")));

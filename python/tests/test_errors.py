@@ -1,12 +1,18 @@
 """Bad input raises ValueError naming the argument; files raise OSError."""
+import os
+import signal
 import tempfile
+import threading
+import time
 
+import numpy as np
 import pytest
 
 import causeway
 
 L = causeway.Lens.binary(1.0, 0.5)
 S = causeway.Store.create(tempfile.mkdtemp())
+D = causeway.DataSet([1, 2, 3], flux=[1, 2, 3], flux_err=[1, 1, 1])
 M = causeway.build_map(causeway.Lens.single(), (0.0, 0.0), 1.0, 16, rays=4)
 
 
@@ -42,6 +48,9 @@ M = causeway.build_map(causeway.Lens.single(), (0.0, 0.0), 1.0, 16, rays=4)
         (lambda: causeway.DataSet([1, 2, 3], flux=[1, 2, 3], flux_err=[1, 1, 1], ld=2), "ld"),
         (lambda: causeway.simulate(1, 1e-3, 0, 0.1, 10, 0, 0.01, [0, 1, 2], sigma_mag=0), "sigma"),
         (lambda: S.nearest(1.0, -1.0), "q"),
+        (lambda: causeway.fit_event([], S), "data"),
+        (lambda: causeway.fit_event([D], [1, 2]), "maps"),
+        (lambda: causeway.fit_event([D], S, clip=1), "clip"),
     ],
 )
 def test_bad_input_names_the_argument(call, name):
@@ -72,3 +81,15 @@ def test_wrong_types_raise_type_errors():
         causeway.magnification("lens", [0], [0])
     with pytest.raises((TypeError, ValueError)):
         causeway.magnification(L, ["a"], [0])
+
+
+def test_ctrl_c_stops_a_long_call_between_chunks():
+    # SIGINT 0.3 s into a call of some 5 s: KeyboardInterrupt after the chunk that is running.
+    x = np.linspace(-1, 1, 4_000_000)
+    timer = threading.Timer(0.3, lambda: os.kill(os.getpid(), signal.SIGINT))
+    started = time.perf_counter()
+    timer.start()
+    with pytest.raises(KeyboardInterrupt):
+        causeway.magnification(L, x, 0.3 * x)
+    timer.join()
+    assert time.perf_counter() - started < 2.5
