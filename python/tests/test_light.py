@@ -74,8 +74,9 @@ def test_contour_against_scipy_dblquad():
 
 def test_map_reads_against_witt_mao_and_the_annulus_integral():
     # A ray map (400 rays per pixel, pixel = rho/10) read under the source against
-    # finite_source.csv; 3e-3 relative is some ten times the lattice noise of such a read
-    # (tests/integration/curve.rs derives the exact bound).
+    # finite_source.csv: 3e-3 relative over the lens (the pixels the lens falls in are the
+    # noisiest), 1e-3 beyond, about twice the largest error seen (tests/integration/curve.rs
+    # derives the lattice bound itself).
     ref = reference("finite_source.csv")
     m = causeway.build_map(causeway.Lens.single(), (0.05, 0.0), 0.4, 200, rays=400)
     on = (ref["u"] > 0) & (ref["u"] < 0.2)
@@ -84,7 +85,7 @@ def test_map_reads_against_witt_mao_and_the_annulus_integral():
         kw = law_args(ref["law"][i], ref["ld_a"][i], ref["ld_b"][i])
         a, method = causeway.map_magnification(m, [ref["u"][i]], [0.0], ref["rho"][i], evaluation="direct", **kw)
         assert causeway.MAP_METHODS[method[0]] == "direct"
-        assert abs(a[0] / ref["magnification"][i] - 1) < 3e-3
+        assert abs(a[0] / ref["magnification"][i] - 1) < (3e-3 if ref["u"][i] < ref["rho"][i] else 1e-3)
         checked += 1
     assert checked >= 10
     # Off the map: the point source with the small-source correction (Gould 2008).
