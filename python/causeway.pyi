@@ -14,6 +14,7 @@ __version__: str
 MAP_METHODS: list[str]
 CONTOUR_METHODS: list[str]
 DEFAULT_ZERO_POINT: float
+EXAMPLE_PLAN: str
 
 ArrayLike = npt.ArrayLike
 Floats = npt.NDArray[np.float64]
@@ -211,6 +212,19 @@ def simulate(
     zero_point: float = 22.0,
     tol: float = 1e-5,
 ) -> dict[str, Any]: ...
+def simulate_plan(
+    plan: str,
+    s: float,
+    q: float,
+    t0: float,
+    u0: float,
+    te: float,
+    alpha: float,
+    rho: float,
+    ld: Optional[float] = None,
+    seed: int = 1,
+    tol: float = 1e-5,
+) -> dict[str, dict[str, Any]]: ...
 def _time_magnification(
     lens: Lens, x: ArrayLike, y: ArrayLike, threads: Optional[int] = None
 ) -> float: ...

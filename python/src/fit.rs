@@ -10,7 +10,8 @@ use causeway::fit::model::BinaryModel;
 use causeway::fit::photometry::{DataSet as Set, Measured, DEFAULT_ZERO_POINT};
 use causeway::fit::refine::PARAMETERS;
 use causeway::fit::search::{maps_of_store, GridRule, MapSource};
-use causeway::fit::simulate::{Noise, Simulation};
+use causeway::fit::simulate::plan::ObservingPlan;
+use causeway::fit::simulate::{Noise, Simulation, Synthetic};
 use causeway::fit::single::fit_single_lens as fit_single;
 use causeway::fit::zoom::ZoomOptions;
 use causeway::map::MagnificationMap;
@@ -343,8 +344,9 @@ pub fn fit_event<'py>(
 /// Synthetic photometry of a binary-lens event (alpha in degrees) at `times` (days): exact
 /// magnifications, F = fs A + fb, Gaussian noise of one constant error in magnitudes (or in
 /// flux with sigma_flux), seeded. Returns float64 arrays "t" (sorted), "magnification",
-/// "model" (noise-free), "value", "error" (mag or flux, as "measured" says), and "data", the
-/// DataSet of the points (what the command line's file would read back as).
+/// "model" (noise-free), "value", "error" (mag or flux, as "measured" says), bool arrays
+/// "followup" and "outlier" (all False here), and "data", the DataSet of the points (what the
+/// command line's file would read back as).
 #[pyfunction]
 #[pyo3(signature = (s, q, t0, u0, te, alpha, rho, times, ld=None, fs=1.0, fb=0.0, sigma_mag=Simulation::DEFAULT_SIGMA_MAG, sigma_flux=None, seed=Simulation::DEFAULT_SEED, zero_point=DEFAULT_ZERO_POINT, tol=Simulation::DEFAULT_TOL))]
 #[allow(clippy::too_many_arguments)]
@@ -384,6 +386,11 @@ pub fn simulate<'py>(
     let out = py.detach(|| sim.synthesize(&t));
     let out = ok(out)?;
     let data = ok(out.data_set("simulated", zero_point, sim.law))?;
+    synthetic(py, &out, data)
+}
+
+/// The points of a simulation as a dict of arrays, with their DataSet.
+fn synthetic<'py>(py: Python<'py>, out: &Synthetic, data: Set) -> PyResult<Bound<'py, PyDict>> {
     let d = PyDict::new(py);
     d.set_item("t", PyArray1::from_slice(py, &out.times))?;
     d.set_item(
@@ -393,6 +400,8 @@ pub fn simulate<'py>(
     d.set_item("model", PyArray1::from_slice(py, &out.model))?;
     d.set_item("value", PyArray1::from_slice(py, &out.values))?;
     d.set_item("error", PyArray1::from_slice(py, &out.errors))?;
+    d.set_item("followup", PyArray1::from_slice(py, &out.followup))?;
+    d.set_item("outlier", PyArray1::from_slice(py, &out.outliers))?;
     d.set_item(
         "measured",
         match out.measured {
@@ -401,5 +410,46 @@ pub fn simulate<'py>(
         },
     )?;
     d.set_item("data", DataSet { inner: data })?;
+    Ok(d)
+}
+
+/// simulate_plan(plan, s, q, t0, u0, te, alpha, rho, ld=None, seed=1, tol=1e-5) -> dict
+///
+/// Synthetic photometry of a binary-lens event (alpha in degrees, t0 in the plan's days) as an
+/// observing plan gives it: `plan` is TOML text or a TOML file's path (`causeway.EXAMPLE_PLAN`
+/// is a commented one). Returns a dict by site name, each as `simulate` returns (times as
+/// written, with the plan's offset) plus "nights" and "nights_lost".
+#[pyfunction]
+#[pyo3(signature = (plan, s, q, t0, u0, te, alpha, rho, ld=None, seed=Simulation::DEFAULT_SEED, tol=Simulation::DEFAULT_TOL))]
+#[allow(clippy::too_many_arguments)]
+pub fn simulate_plan<'py>(
+    py: Python<'py>,
+    plan: &str,
+    s: f64,
+    q: f64,
+    t0: f64,
+    u0: f64,
+    te: f64,
+    alpha: f64,
+    rho: f64,
+    ld: Option<f64>,
+    seed: u64,
+    tol: f64,
+) -> PyResult<Bound<'py, PyDict>> {
+    let plan = if plan.contains('\n') || plan.contains('=') {
+        ok(ObservingPlan::parse(plan, "plan"))?
+    } else {
+        ok(ObservingPlan::read(std::path::Path::new(plan)))?
+    };
+    let model = model(s, q, t0, u0, te, alpha, rho)?;
+    let law = crate::light::profile(rho, ld, None)?.law;
+    let sites = py.detach(|| plan.observe(&model, law, seed, tol));
+    let d = PyDict::new(py);
+    for site in ok(sites)? {
+        let one = synthetic(py, &site.data, ok(site.data_set())?)?;
+        one.set_item("nights", site.nights)?;
+        one.set_item("nights_lost", site.nights_lost)?;
+        d.set_item(&site.site, one)?;
+    }
     Ok(d)
 }

@@ -22,6 +22,7 @@ fn causeway_module(m: &Bound<'_, PyModule>) -> PyResult<()> {
         "DEFAULT_ZERO_POINT",
         causeway::fit::photometry::DEFAULT_ZERO_POINT,
     )?;
+    m.add("EXAMPLE_PLAN", causeway::fit::simulate::plan::EXAMPLE_PLAN)?;
     m.add_class::<lens::Lens>()?;
     m.add_class::<map::Map>()?;
     m.add_class::<store::Store>()?;
@@ -39,6 +40,7 @@ fn causeway_module(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(fit::fit_single_lens, m)?)?;
     m.add_function(wrap_pyfunction!(fit::fit_event, m)?)?;
     m.add_function(wrap_pyfunction!(fit::simulate, m)?)?;
+    m.add_function(wrap_pyfunction!(fit::simulate_plan, m)?)?;
     m.add_function(wrap_pyfunction!(timing::_time_magnification, m)?)?;
     m.add_function(wrap_pyfunction!(timing::_time_map_magnification, m)?)?;
     Ok(())

@@ -97,3 +97,23 @@ rule = "planetary"
     dof = len(times) - 7 - 2
     assert abs(best["chi2"] / dof - 1) < 4 * (2 / dof) ** 0.5
     assert "start" in stages and fit["single"]["chi2"] > best["chi2"]
+
+
+def test_simulate_plan_equals_the_command_line(cli, tmp_path):
+    (tmp_path / "plan.toml").write_text(causeway.EXAMPLE_PLAN)
+    (tmp_path / "out").mkdir()
+    cli("simulate", "--s", 1.3, "--q", 3e-3, "--t0", 9009.6, "--u0", 0.12, "--te", 25, "--alpha", 30,
+        "--rho", 0.002, "--seed", 5, "--plan", tmp_path / "plan.toml", "--out-dir", tmp_path / "out",
+        "--truth", tmp_path / "truth.csv")
+    sites = causeway.simulate_plan(str(tmp_path / "plan.toml"), 1.3, 3e-3, 9009.6, 0.12, 25.0, 30.0, 0.002, seed=5)
+    truth = read_csv((tmp_path / "truth.csv").read_text())
+    assert len(sites) >= 2
+    for name, site in sites.items():
+        out = read_csv((tmp_path / "out" / f"{name}.csv").read_text())
+        column = "mag" if site["measured"] == "mag" else "flux"
+        np.testing.assert_array_equal(np.array(out["t"]), site["t"])
+        np.testing.assert_array_equal(np.array(out[column]), site["value"])
+        rows = [k for k, s in enumerate(truth["site"]) if s == name]
+        np.testing.assert_array_equal(np.array(truth["outlier"])[rows] == 1.0, site["outlier"])
+        np.testing.assert_array_equal(np.array(truth["followup"])[rows] == 1.0, site["followup"])
+        assert site["data"].name == f"{name}.csv" and 0 <= site["nights_lost"] <= site["nights"]
