@@ -16,7 +16,7 @@ use pyo3::prelude::*;
 /// Names of the codes in the `method` array of `map_magnification`.
 pub const MAP_METHODS: [&str; 5] = ["direct", "convolved", "bilinear", "expansion", "point"];
 /// Names of the codes in the `method` array of `contour_magnification`.
-pub const CONTOUR_METHODS: [&str; 3] = ["point", "small-source", "contour"];
+pub const CONTOUR_METHODS: [&str; 4] = ["point", "far-point", "small-source", "contour"];
 
 /// The limb-darkening law of the `ld` (linear u) and `ld_sqrt` ((c, d)) arguments.
 pub fn law(ld: Option<f64>, ld_sqrt: Option<(f64, f64)>) -> PyResult<LimbDarkening> {
@@ -148,8 +148,9 @@ pub fn map_magnification<'py>(
 /// Finite-source magnification by contour integration of the image boundaries, to relative
 /// tolerance `tol` in (0, 0.1], at source centres (x, y) (arrays of one shape, Einstein radii):
 /// A and its estimated absolute error (float64), method (uint8 codes naming
-/// `causeway.CONTOUR_METHODS`: "point" for rho = 0, "small-source" where the expansion meets
-/// the tolerance, "contour"). Up to 4 lenses.
+/// `causeway.CONTOUR_METHODS`: "point" for rho = 0, "far-point" far from the caustics where the
+/// point source meets the tolerance, "small-source" where the expansion does, "contour").
+/// Up to 4 lenses.
 #[pyfunction]
 #[pyo3(signature = (lens, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, threads=None))]
 #[allow(clippy::too_many_arguments)]
@@ -173,8 +174,9 @@ pub fn contour_magnification<'py>(
     })?;
     let code = |m: contour::Method| match m {
         contour::Method::PointSource => 0u8,
-        contour::Method::SmallSource => 1,
-        contour::Method::Contour => 2,
+        contour::Method::FarPoint => 1,
+        contour::Method::SmallSource => 2,
+        contour::Method::Contour => 3,
     };
     Ok((
         shaped(py, est.iter().map(|e| e.magnification).collect(), &shape)?,
