@@ -155,4 +155,8 @@ plt.close(fig)
 for k, name in enumerate(names):
     lo, mid, hi = np.percentile(chain[:, k], [16, 50, 84])
     print(f"posterior: {name} = {mid:.5g} (+{hi - mid:.2g} -{mid - lo:.2g}), truth {TRUTH[name]}")
+tau = np.max(sampler.get_autocorr_time(tol=0))
+if steps < 50 * tau:
+    print(f"posterior: {steps} steps are fewer than 50 autocorrelation times ({tau:.0f} each): "
+          "the chain shows the sampler at work, not a converged posterior (run without --quick)")
 print(f"acceptance {np.mean(sampler.acceptance_fraction):.2f}; wrote {args.out}/*.png in {time.time() - started:.0f} s")

@@ -71,12 +71,14 @@ def test_simulate_noise_and_the_command_line(cli, tmp_path):
     np.testing.assert_array_equal(np.array(out["mag_err"]), sim["error"])
 
 
-def test_fit_event_recovers_a_simulated_planet(tmp_path):
+def test_fit_event_recovers_a_simulated_planet_as_the_command_line_does(cli, tmp_path):
     # An invented event: a planet (s = 1.3, q = 3e-3) whose source crosses the planetary
-    # caustic; a 2 x 2 library around it. The fit must find the planet near the truth and a
-    # chi2/dof near 1 (the noise is Gaussian with the stated errors).
+    # caustic; a 2 x 2 library around it. The fit must find the planet near the truth with a
+    # chi2/dof near 1 (Gaussian noise of the stated errors), and `causeway search` on the same
+    # file and store must find the same minimum bit for bit (no time budget: deterministic).
     times = np.r_[np.linspace(-40, 40, 120), np.linspace(11, 14.5, 40)]
     sim = causeway.simulate(1.3, 3e-3, 0.0, 0.15, 25.0, 343.56, 0.003, times, seed=2)
+    write_csv(tmp_path / "event.csv", "t,mag,mag_err", sim["t"], sim["value"], sim["error"])
     spec = """
 s = [1.25, 1.35]
 q = [2e-3, 4e-3]
@@ -88,8 +90,9 @@ rule = "planetary"
     store = causeway.Store.create(tmp_path / "maps")
     causeway.build_library(spec, store)
     stages = []
-    fit = causeway.fit_event([sim["data"]], store, rhos=[0.002, 0.003, 0.005], refine=2,
-                             zoom_levels=0, clip=0, rescale_errors=False, budget=60,
+    data = causeway.DataSet.read(tmp_path / "event.csv")
+    fit = causeway.fit_event([data], store, rhos=[0.002, 0.003, 0.005], refine=2, zoom_levels=0,
+                             clip=0, rescale_errors=False, budget=0,
                              progress=lambda e, s: stages.append(e))
     best = fit["minima"][0]
     assert abs(best["s"] / 1.3 - 1) < 0.01 and abs(best["q"] / 3e-3 - 1) < 0.1
@@ -97,6 +100,11 @@ rule = "planetary"
     dof = len(times) - 7 - 2
     assert abs(best["chi2"] / dof - 1) < 4 * (2 / dof) ** 0.5
     assert "start" in stages and fit["single"]["chi2"] > best["chi2"]
+    out = read_csv(cli("search", tmp_path / "event.csv", "--library", tmp_path / "maps", "--rho",
+                       "0.002,0.003,0.005", "--refine", 2, "--zoom", 0, "--clip", 0,
+                       "--fixed-errors", "--budget", 0))
+    for ours, theirs in [("s", "s"), ("q", "q"), ("u0", "u0"), ("te", "tE"), ("rho", "rho"), ("chi2", "chi2")]:
+        assert best[ours] == out[theirs][0], ours
 
 
 def test_simulate_plan_equals_the_command_line(cli, tmp_path):
