@@ -254,8 +254,10 @@ pub fn fit_event(
     // On the data the minima were refined on: their chi^2 values compare only there.
     let refined_on = if changed { &fitted } else { &local };
     converge_best(refined_on, &mut minima, &options.refine, progress)?;
-    progress.start("uncertainties", 0);
-    let mut minima = with_uncertainties(refined_on, minima, options.refine.tol);
+    progress.start("uncertainties", minima.len() as u64);
+    let mut minima = with_uncertainties(refined_on, minima, options.refine.tol, &|| {
+        progress.advance(1)
+    });
     progress.finish(&format!(
         "uncertainties: from the curvature of chi2 at {} minima",
         minima.len()

@@ -98,7 +98,7 @@ pub fn refine_minima(
         .collect();
     promising(&mut starts, options.within);
     let minima = refine_models(data, &starts, options, progress)?;
-    Ok(with_uncertainties(data, minima, options.tol))
+    Ok(with_uncertainties(data, minima, options.tol, &|| {}))
 }
 
 /// The best `count` (s, q)-grid local minima of `outcomes` (indices, best first); an error when
@@ -156,12 +156,18 @@ pub fn refine_models(
 
 /// `minima` with the uncertainties of each measured from the curvature of chi^2 over `data`
 /// (magnification tolerance `tol`; in parallel), merged again where they now overlap, ranked,
-/// with close/wide pairs marked.
-pub fn with_uncertainties(data: &[DataSet], minima: Vec<Minimum>, tol: f64) -> Vec<Minimum> {
+/// with close/wide pairs marked. `progress` is called after each minimum.
+pub fn with_uncertainties(
+    data: &[DataSet],
+    minima: Vec<Minimum>,
+    tol: f64,
+    progress: &(dyn Fn() + Sync),
+) -> Vec<Minimum> {
     let measured = minima
         .into_par_iter()
         .map(|mut m| {
             m.refined.sigma = uncertainties(data, &m.refined.model, tol, None);
+            progress();
             m
         })
         .collect();
