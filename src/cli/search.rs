@@ -267,15 +267,12 @@ impl SearchArgs {
 
     fn check(&self) -> Result<()> {
         self.outputs().check()?;
-        if self.refine == 0 {
-            return Err(Error::input("--refine: must be at least 1"));
+        RefineOptions {
+            candidates: self.refine,
+            within: self.refine_within,
+            ..RefineOptions::default()
         }
-        if self.refine_within.is_nan() || self.refine_within < 1.0 {
-            return Err(Error::input(format!(
-                "--refine-within: must be >= 1, got {}",
-                self.refine_within
-            )));
-        }
+        .validate()?;
         if !(self.tol.is_finite() && self.tol > 0.0 && self.tol <= 0.1) {
             return Err(Error::input(format!(
                 "--tol: must be in (0, 0.1], got {}",

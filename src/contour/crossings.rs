@@ -27,12 +27,18 @@ pub(crate) struct CausticTrace {
 }
 
 impl CausticTrace {
-    /// Traces the caustics of `lens` with [`crate::caustics::curves`] (none for a single lens,
-    /// whose caustic is a point). A lens whose caustics cannot be traced gets an empty trace:
-    /// the boundary sampling then relies on its even start and refinement alone.
+    /// Traces the caustics of `lens` with [`crate::caustics::curves`]; a single lens's caustic
+    /// is its position, one segment of zero length (no boundary crosses it). A lens whose
+    /// caustics cannot be traced gets an empty trace: the boundary sampling then relies on its
+    /// even start and refinement alone.
     pub fn new(lens: &LensSystem) -> CausticTrace {
         if lens.len() < 2 {
-            return CausticTrace::default();
+            let p = lens.lenses()[0].position;
+            return CausticTrace {
+                traced: true,
+                segments: vec![(p, p)],
+                boxes: vec![(p, p)],
+            };
         }
         let Ok(curves) = crate::caustics::curves(lens) else {
             return CausticTrace::default();

@@ -177,11 +177,7 @@ impl ContourSolver {
         }
         if self.shortcut {
             self.solver.reset();
-            let d = if self.lens.len() == 1 {
-                (center - self.lens.lenses()[0].position).norm()
-            } else {
-                self.trace.distance(center)
-            };
+            let d = self.trace.distance(center);
             let relative = FAR_SAFETY * (rho / d).powi(2);
             if d > rho && relative <= self.tol {
                 let magnification = self.solver.magnification(center)?;

@@ -374,15 +374,7 @@ fn validate(data: &[DataSet], maps: &MapSource, options: &FitOptions) -> Result<
             return Err(Error::input(format!("--clip: must be >= 2 sigma, got {c}")));
         }
     }
-    if options.refine.candidates == 0 {
-        return Err(Error::input("--refine: must be at least 1"));
-    }
-    if options.refine.within.is_nan() || options.refine.within < 1.0 {
-        return Err(Error::input(format!(
-            "--refine-within: must be >= 1, got {}",
-            options.refine.within
-        )));
-    }
+    options.refine.validate()?;
     Ok(())
 }
 

@@ -57,6 +57,22 @@ impl Default for RefineOptions {
     }
 }
 
+impl RefineOptions {
+    /// Checks the candidate count (at least 1) and [`RefineOptions::within`] (at least 1).
+    pub fn validate(&self) -> Result<()> {
+        if self.candidates == 0 {
+            return Err(Error::input("--refine: must be at least 1"));
+        }
+        if self.within.is_nan() || self.within < 1.0 {
+            return Err(Error::input(format!(
+                "--refine-within: must be >= 1, got {}",
+                self.within
+            )));
+        }
+        Ok(())
+    }
+}
+
 /// The default of [`RefineOptions::within`]: a start whose map-based chi^2 is more than twice
 /// the best's has not, in the recovery benchmark, become the best minimum, and a wrong basin
 /// can cost minutes of refinement (on one wide planet, a close start at s 0.79 with three
