@@ -129,6 +129,10 @@ pub struct SearchArgs {
     /// (inf: all of them).
     #[arg(long, value_name = "FACTOR", default_value_t = RefineOptions::default().within)]
     pub refine_within: f64,
+    /// Restarts per round from random perturbations of the best minimum once it converged, kept
+    /// when one ends lower (up to 3 rounds; 0: none).
+    #[arg(long, value_name = "N", default_value_t = RefineOptions::default().hops)]
+    pub hops: usize,
     /// Relative tolerance of the exact magnifications in the refinement.
     #[arg(long, value_name = "T", default_value_t = RefineOptions::default().tol)]
     pub tol: f64,
@@ -248,6 +252,7 @@ impl SearchArgs {
                 max_iters: self.max_iters,
                 budget: (self.budget > 0.0).then(|| Duration::from_secs_f64(self.budget)),
                 within: self.refine_within,
+                hops: self.hops,
                 ..RefineOptions::default()
             },
             clip_sigma: (self.clip > 0.0).then_some(self.clip),

@@ -27,14 +27,17 @@
 //!    robust spread of its normalised residuals, capped by its point-to-point scatter
 //!    ([`super::noise`]; [`FitOptions::rescale_errors`]); when either changed the data
 //!    by more than 5%, every minimum is refined again on the cleaned, rescaled data (by
-//!    Levenberg-Marquardt alone: it starts at a minimum).
-//! 8. **Converge** (Levenberg-Marquardt again from the best while it gains) and
-//!    **uncertainties**: the curvature of chi^2 at each minimum, measured once, on the data of
-//!    the last refinement.
+//!    Levenberg-Marquardt alone: it starts at a minimum), and the best once more with the
+//!    simplex stages (the first pass can stop in a basin the cleaned data no longer hold).
+//! 8. **Converge** (Levenberg-Marquardt again from the best while it gains), **hop**
+//!    (Levenberg-Marquardt from seeded perturbations of the best, kept when one ends lower:
+//!    [`super::hop`], [`RefineOptions::hops`]) and **uncertainties**: the curvature of chi^2
+//!    at each minimum, measured once, on the data of the last refinement.
 //!
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
 
+use super::hop::hop_best;
 use super::minima::{
     best_start, grid_starts, promising, refine_models, with_uncertainties, Minimum, RefineOptions,
 };
@@ -245,6 +248,20 @@ pub fn fit_event(
             ..options.refine
         };
         minima = refine_models(&fitted, &starts, &again, &|| progress.advance(1))?;
+        // The best once more with the simplex: the first pass walked a landscape that the
+        // outliers and error bars shaped, and can have stopped in a basin the cleaned data
+        // no longer hold it in.
+        let best = refine_until(
+            &fitted,
+            &minima[0].refined.model,
+            options.refine.tol,
+            options.refine.max_iters,
+            true,
+            options.refine.budget.map(|b| Instant::now() + b),
+        )?;
+        if best.chi2 < minima[0].refined.chi2 {
+            minima[0].refined = best;
+        }
         progress.finish(&format!(
             "refine again: best chi2 {:.1} for {} points",
             minima[0].refined.chi2,
@@ -254,6 +271,9 @@ pub fn fit_event(
     // On the data the minima were refined on: their chi^2 values compare only there.
     let refined_on = if changed { &fitted } else { &local };
     converge_best(refined_on, &mut minima, &options.refine, progress)?;
+    if let Some(n) = hop_best(refined_on, &mut minima, &options.refine, progress)? {
+        note(n);
+    }
     progress.start("uncertainties", minima.len() as u64);
     let mut minima = with_uncertainties(refined_on, minima, options.refine.tol, &|| {
         progress.advance(1)

@@ -42,6 +42,9 @@ pub struct RefineOptions {
     /// Only starts whose search chi^2 is at most this many times the best start's are refined
     /// ([`promising`]; infinity refines them all).
     pub within: f64,
+    /// Perturbed restarts per round around the best minimum after it converged (see
+    /// [`super::hop`]); 0 for none.
+    pub hops: usize,
 }
 
 impl Default for RefineOptions {
@@ -53,6 +56,7 @@ impl Default for RefineOptions {
             simplex: true,
             budget: Some(Duration::from_secs(600)),
             within: DEFAULT_WITHIN,
+            hops: super::hop::HOPS,
         }
     }
 }

@@ -11,6 +11,7 @@
 //! - `search`: the grid search over the maps of a library;
 //! - `zoom`: finer maps around the search's best (s, q) before the refinement;
 //! - `refine`: local refinement with exact magnifications;
+//! - `hop`: seeded perturbed restarts that leave a nearby false minimum;
 //! - `minima`: from search outcomes to distinct refined minima, close/wide pairs;
 //! - `noise`: outliers clipped and error bars scaled at a fitted model;
 //! - `report`: the ranked table of minima (CSV) and its summary;
@@ -19,6 +20,7 @@
 
 pub mod event;
 pub mod fluxes;
+pub mod hop;
 pub mod minima;
 pub mod model;
 pub mod noise;

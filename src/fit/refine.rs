@@ -60,7 +60,7 @@ pub fn exact_chi2(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<(f6
 
 /// Residuals `(F_i - fs A_i - fb) / sigma_i` of `model` over all data sets, each set at its
 /// best fluxes, with exact magnifications.
-fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f64>> {
+pub(super) fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f64>> {
     let mut out = Vec::with_capacity(data.iter().map(DataSet::len).sum());
     for set in data {
         let a = model.magnifications(&set.times, set.limb_darkening, tol)?;
@@ -70,7 +70,7 @@ fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f
     Ok(out)
 }
 
-fn to_vector(m: &BinaryModel) -> Vec<f64> {
+pub(super) fn to_vector(m: &BinaryModel) -> Vec<f64> {
     let l = m.trajectory.line();
     vec![
         m.s.ln(),
@@ -83,7 +83,7 @@ fn to_vector(m: &BinaryModel) -> Vec<f64> {
     ]
 }
 
-fn from_vector(p: &[f64]) -> Result<BinaryModel> {
+pub(super) fn from_vector(p: &[f64]) -> Result<BinaryModel> {
     Ok(BinaryModel {
         s: p[0].exp(),
         q: p[1].exp(),
@@ -117,7 +117,7 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
 
 /// The minimiser's steps at `model`: simplex steps; Levenberg-Marquardt's Jacobian steps are
 /// a fiftieth of them, the curvature's a twentieth.
-fn steps(model: &BinaryModel) -> [f64; 7] {
+pub(super) fn steps(model: &BinaryModel) -> [f64; 7] {
     let l = model.trajectory.line();
     [
         0.02,

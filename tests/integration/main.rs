@@ -23,6 +23,7 @@ mod fit_scales;
 mod fit_single;
 mod fits;
 mod galaxy;
+mod hop;
 mod polygon;
 mod recovery;
 mod search;
