@@ -28,10 +28,13 @@ pub trait Progress: Sync {
     fn start(&self, _stage: &str, _total: u64) {}
     /// `n` more units of the current stage are done.
     fn advance(&self, _n: u64) {}
-    /// The current stage ends; `summary` says what it did, in one line.
+    /// The current stage ends; `summary` says what it did, in one line (nothing when empty).
     fn finish(&self, _summary: &str) {}
     /// A remark for the user, in one line.
     fn note(&self, _message: &str) {}
+    /// One unit of work finished that a batch log should name (a map built, say), in one line;
+    /// a terminal display may leave it to its bar.
+    fn item(&self, _message: &str) {}
 }
 
 /// Shows nothing.

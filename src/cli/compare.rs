@@ -3,6 +3,7 @@
 
 use super::curve::{distances, sample_reported, SourceArgs, TrajectoryArgs};
 use super::map::default_memory_limit;
+use super::progress::Reporter;
 use super::ThreadArgs;
 use crate::contour::{self, Estimate};
 use crate::curve::{Sample, Sampler};
@@ -10,6 +11,7 @@ use crate::error::{Error, Result};
 use crate::fsutil::{check_outputs, Output};
 use crate::map::read_fits;
 use crate::plot::{write_stacked_png, Axis, Chart, Series, Style};
+use crate::progress::Progress;
 use crate::table::fmt_f64;
 use clap::Args;
 use num_complex::Complex64;
@@ -167,7 +169,7 @@ pub fn run(args: CompareArgs) -> Result<()> {
         .iter()
         .map(|&(x, y)| Complex64::new(x, y))
         .collect();
-    let estimates = contour::magnifications(&lens, &centers, &profile, args.tol)?;
+    let estimates = contour_reported(&lens, &centers, &profile, args.tol)?;
     let pairs: Vec<Pair> = curve
         .samples
         .iter()
@@ -192,6 +194,27 @@ pub fn run(args: CompareArgs) -> Result<()> {
     eprintln!("{}", summary.line(times, &pairs));
     print!("{csv}");
     Ok(())
+}
+
+/// Contour magnifications of every centre, in blocks whose progress the reporter shows. The
+/// block is a multiple of the solver's own parallel chunk (16), so the results are the same
+/// bits as one call.
+fn contour_reported(
+    lens: &crate::lens::LensSystem,
+    centers: &[Complex64],
+    profile: &crate::source::SourceProfile,
+    tol: f64,
+) -> Result<Vec<Estimate>> {
+    const BLOCK: usize = 1024;
+    let reporter = Reporter::new().without_start_lines();
+    reporter.start("contour", centers.len() as u64);
+    let mut out = Vec::with_capacity(centers.len());
+    for block in centers.chunks(BLOCK) {
+        out.extend(contour::magnifications(lens, block, profile, tol)?);
+        reporter.advance(block.len() as u64);
+    }
+    reporter.finish(""); // the command's closing line is its error summary
+    Ok(out)
 }
 
 /// The output table: `t` when there are times, then

@@ -1,9 +1,12 @@
 //! `causeway library`: grid builds into the map store, and its upkeep.
 
-use super::map::progress_bar;
+use super::progress::Reporter;
 use super::ThreadArgs;
 use crate::error::{Error, Result};
-use crate::store::library::{self, job_array_script, LibrarySpec, Shard};
+use crate::progress::Progress;
+use crate::store::claim::{ClaimInfo, ClaimPolicy, REFRESH};
+use crate::store::jobs::{task_memory, JobArray};
+use crate::store::library::{self, BuildOptions, LibrarySpec, Outcome, PointState, Shard};
 use crate::store::{index_header, Store};
 use clap::{Args, Subcommand};
 use std::path::PathBuf;
@@ -13,7 +16,9 @@ use std::path::PathBuf;
 #[command(after_help = "Examples:\n  \
     causeway library build grid.toml\n  \
     causeway library build grid.toml --store /shared/maps --shard 3/16 --threads 2\n  \
-    causeway library script grid.toml --shards 16 --store /shared/maps > fill.sh\n  \
+    causeway library build grid.toml --store /shared/maps --worker\n  \
+    causeway library status grid.toml --store /shared/maps\n  \
+    causeway library script grid.toml --tasks 16 --store /shared/maps --logs ~/logs > fill.sh\n  \
     causeway library list --s 1.2 --q 1e-3\n  \
     causeway library verify\n  \
     causeway library prune --dry-run")]
@@ -47,28 +52,54 @@ impl StoreArgs {
 #[derive(Debug, Subcommand)]
 pub enum Action {
     /// Build the maps of a spec (TOML) that the store lacks; resumable. Creates the store
-    /// (a new or empty folder, marked by causeway-store.toml) if needed.
+    /// (a new or empty folder, marked by causeway-store.toml) if needed. Builders sharing a
+    /// store claim each map first (a <hash>.claim file, refreshed every 5 s, stale after 30 s
+    /// without refresh or at once when its process on this host is gone), so none is built
+    /// twice; a build waits for the maps other builders hold, and ends with all of its maps
+    /// in the store.
     Build {
         /// Library spec (TOML): s and q values, window, pixels, rays.
         spec: PathBuf,
         /// Build only shard K of N (for cluster job arrays), e.g. 3/16.
-        #[arg(long, value_name = "K/N")]
+        #[arg(long, value_name = "K/N", conflicts_with = "worker")]
         shard: Option<Shard>,
+        /// Take the next unclaimed map of the whole spec until none is left, and end without
+        /// waiting for maps other builders hold (the tasks of a job array balance themselves).
+        #[arg(long)]
+        worker: bool,
         #[command(flatten)]
         store: StoreArgs,
         #[command(flatten)]
         threads: ThreadArgs,
     },
-    /// Print a job-array script that fills the store from a spec in N tasks.
+    /// Print a Slurm job-array script that fills the store from a spec with N worker tasks
+    /// (each takes the next unclaimed map until none is left). Memory per task is the engine's
+    /// estimate for the largest map at T threads plus room; paths are made absolute; each task
+    /// logs to LOGS/causeway-library-<job>_<task>.log.
     Script {
         /// Library spec (TOML).
         spec: PathBuf,
         /// Number of array tasks.
-        #[arg(long, value_name = "N")]
-        shards: usize,
-        /// Threads per task.
+        #[arg(long, value_name = "N", visible_alias = "shards")]
+        tasks: usize,
+        /// Threads (CPUs) per task.
         #[arg(long, default_value_t = 1, value_name = "T")]
         threads_per_task: usize,
+        /// Existing folder for the tasks' logs (default: the current folder).
+        #[arg(long, value_name = "DIR")]
+        logs: Option<PathBuf>,
+        /// Time limit per task, in Slurm's notation (e.g. 2:00:00 or 1-00:00:00).
+        #[arg(long, value_name = "LIMIT")]
+        time: Option<String>,
+        #[command(flatten)]
+        store: StoreArgs,
+    },
+    /// Where each map of a spec stands (CSV on stdout: index, s, q, file, state, and for a
+    /// claimed map its holder: host, pid, since (UTC), seconds since its last refresh,
+    /// stale); a count of built, claimed and missing maps on stderr.
+    Status {
+        /// Library spec (TOML).
+        spec: PathBuf,
         #[command(flatten)]
         store: StoreArgs,
     },
@@ -87,14 +118,15 @@ pub enum Action {
         store: StoreArgs,
     },
     /// Re-check every map's checksums and header against its key; report each bad entry,
-    /// and complete maps not yet indexed (which the next build adopts).
+    /// complete maps not yet indexed (which the next build adopts), and builders' claims.
     Verify {
         #[command(flatten)]
         store: StoreArgs,
     },
-    /// Remove damaged maps and stale temporary files of the store, index complete maps it
-    /// does not list, and drop index entries whose file is missing. Touches only the store's
-    /// own files (hash-named maps, temporaries) in its folder.
+    /// Remove damaged maps, stale temporary files and stale claims of the store, index
+    /// complete maps it does not list, and drop index entries whose file is missing. Touches
+    /// only the store's own files (hash-named maps and claims, temporaries) in its folder;
+    /// never a live builder's claim.
     Prune {
         /// Only remove files at least this old (seconds): younger ones may belong to a build
         /// still running.
@@ -114,6 +146,7 @@ pub fn run(args: LibraryArgs) -> Result<()> {
         Action::Build {
             spec,
             shard,
+            worker,
             store,
             threads,
         } => {
@@ -123,46 +156,17 @@ pub fn run(args: LibraryArgs) -> Result<()> {
                 Some(sh) => lib.shard(sh)?,
                 None => lib.points()?,
             };
-            let store = store.create()?;
-            let bar = progress_bar("library");
-            bar.set_length(points.len() as u64);
-            let started = std::time::Instant::now();
-            let summary = library::build(&store, &points, |_, _| bar.inc(1))?;
-            bar.finish_and_clear();
-            eprintln!(
-                "library: {} maps built, {} already present, {:.1} s, store {}",
-                summary.built,
-                summary.skipped,
-                started.elapsed().as_secs_f64(),
-                store.root().display()
-            );
-            Ok(())
+            build(&store.create()?, &points, worker)
         }
         Action::Script {
             spec,
-            shards,
+            tasks,
             threads_per_task,
+            logs,
+            time,
             store,
-        } => {
-            if shards == 0 || threads_per_task == 0 {
-                return Err(Error::input(
-                    "--shards and --threads-per-task must be at least 1",
-                ));
-            }
-            LibrarySpec::read(&spec)?;
-            let root = Store::location(store.store.as_deref());
-            let root = std::path::absolute(&root).unwrap_or(root);
-            print!(
-                "{}",
-                job_array_script(
-                    &spec.display().to_string(),
-                    &root.display().to_string(),
-                    shards,
-                    threads_per_task
-                )
-            );
-            Ok(())
-        }
+        } => script(&spec, tasks, threads_per_task, logs, time, &store),
+        Action::Status { spec, store } => status(&LibrarySpec::read(&spec)?, &store.open()?),
         Action::List {
             s,
             q,
@@ -180,6 +184,135 @@ pub fn run(args: LibraryArgs) -> Result<()> {
             dry_run,
         ),
     }
+}
+
+/// `library build`: progress (a bar, or plain lines and a line per map built in a batch log)
+/// and a closing summary on stderr.
+fn build(store: &Store, points: &[library::GridPoint], worker: bool) -> Result<()> {
+    let reporter = Reporter::new();
+    let stage = if worker { "worker" } else { "library" };
+    reporter.start(stage, points.len() as u64);
+    let started = std::time::Instant::now();
+    let options = BuildOptions {
+        wait: !worker,
+        ..BuildOptions::default()
+    };
+    let summary = library::build_with(store, points, options, |p, outcome| {
+        if outcome == Outcome::Built {
+            reporter.item(&format!(
+                "built {} (s = {}, q = {}) at {:.1} s",
+                p.key.file_name(),
+                p.s,
+                p.q,
+                started.elapsed().as_secs_f64()
+            ));
+        }
+        reporter.advance(1);
+    })?;
+    let others = match (summary.elsewhere, worker) {
+        (0, _) => String::new(),
+        (n, true) => format!(", {n} left to other builders"),
+        (n, false) => format!(", {n} built by other builders"),
+    };
+    reporter.finish(&format!(
+        "{stage}: {} maps built, {} already present{others}, {:.1} s, store {}",
+        summary.built,
+        summary.skipped,
+        started.elapsed().as_secs_f64(),
+        store.root().display()
+    ));
+    Ok(())
+}
+
+/// `library script`: the job-array script on stdout.
+fn script(
+    spec: &std::path::Path,
+    tasks: usize,
+    threads: usize,
+    logs: Option<PathBuf>,
+    time: Option<String>,
+    store: &StoreArgs,
+) -> Result<()> {
+    if tasks == 0 || threads == 0 {
+        return Err(Error::input(
+            "--tasks and --threads-per-task must be at least 1",
+        ));
+    }
+    let lib = LibrarySpec::read(spec)?;
+    let absolute = |p: &std::path::Path| std::path::absolute(p).map_err(|e| Error::io(p, e));
+    let logs = absolute(&logs.unwrap_or_else(|| PathBuf::from(".")))?;
+    if !logs.is_dir() {
+        return Err(Error::input(format!(
+            "--logs {}: no such folder (Slurm does not create it; make it first)",
+            logs.display()
+        )));
+    }
+    let program =
+        std::env::current_exe().map_err(|e| Error::io(std::path::Path::new("causeway"), e))?;
+    let job = JobArray {
+        program,
+        spec: absolute(spec)?,
+        store: absolute(&Store::location(store.store.as_deref()))?,
+        logs: normal(&logs),
+        tasks,
+        threads,
+        memory: task_memory(&lib, threads)?,
+        time,
+    };
+    print!("{}", job.script()?);
+    Ok(())
+}
+
+/// `path` without `.` components (`/a/./b` to `/a/b`).
+fn normal(path: &std::path::Path) -> PathBuf {
+    path.components()
+        .filter(|c| !matches!(c, std::path::Component::CurDir))
+        .collect()
+}
+
+/// `library status`: a row per grid point on stdout, the counts on stderr.
+fn status(spec: &LibrarySpec, store: &Store) -> Result<()> {
+    let points = spec.points()?;
+    let states = library::status(store, &points, ClaimPolicy::default())?;
+    println!("index,s,q,file,state,host,pid,since,refreshed_s_ago,stale");
+    let (mut built, mut claimed, mut stale, mut missing) = (0, 0, 0, 0);
+    for (p, state) in points.iter().zip(&states) {
+        let head = format!("{},{},{},{}", p.index, p.s, p.q, p.key.file_name());
+        match state {
+            PointState::Built => {
+                built += 1;
+                println!("{head},built,,,,,");
+            }
+            PointState::Missing => {
+                missing += 1;
+                println!("{head},missing,,,,,");
+            }
+            PointState::Claimed(info) => {
+                claimed += 1;
+                stale += usize::from(info.stale);
+                println!("{head},claimed,{}", holder_fields(info));
+            }
+        }
+    }
+    eprintln!(
+        "status: {built} built, {claimed} claimed ({stale} stale), {missing} missing of {} in {}",
+        points.len(),
+        store.root().display()
+    );
+    Ok(())
+}
+
+/// `host,pid,since,refreshed_s_ago,stale` of a claim (empty holder fields while unreadable).
+fn holder_fields(info: &ClaimInfo) -> String {
+    let (host, pid, since) = match &info.holder {
+        Some(h) => (h.host.clone(), h.pid.to_string(), h.since.clone()),
+        None => Default::default(),
+    };
+    format!(
+        "{host},{pid},{since},{:.0},{}",
+        info.age.as_secs_f64(),
+        info.stale
+    )
 }
 
 /// `library list`: the index, or the maps at or nearest to (s, q).
@@ -226,6 +359,21 @@ fn verify(store: &Store) -> Result<()> {
             "{}: complete, not yet indexed (the next build adopts it)",
             store.root().join(&e.file).display()
         );
+    }
+    for c in &report.claims {
+        let who = match &c.holder {
+            Some(h) => format!("{} pid {} since {} UTC", h.host, h.pid, h.since),
+            None => "a builder still writing it".into(),
+        };
+        let state = if c.stale {
+            format!(
+                "stale (not refreshed for {:.0} s; the next build takes it over, prune removes it)",
+                c.age.as_secs_f64()
+            )
+        } else {
+            format!("live (refreshed every {} s)", REFRESH.as_secs())
+        };
+        println!("{}: claimed by {who}, {state}", c.path.display());
     }
     let total = report.indexed;
     if report.problems.is_empty() {

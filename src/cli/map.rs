@@ -1,5 +1,6 @@
 //! `causeway map`: build one magnification map and write its FITS file (and PNG).
 
+use super::progress::{EngineStage, Reporter};
 use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::caustics::caustic_curves;
 use crate::engine::{self, Engine};
@@ -9,6 +10,7 @@ use crate::lens::LensSystem;
 use crate::map::fits::write_fits;
 use crate::map::render::{render_png, Overlay};
 use crate::map::{MagnificationMap, Window};
+use crate::progress::Progress;
 use clap::Args;
 use std::path::{Path, PathBuf};
 
@@ -117,7 +119,7 @@ pub fn run(args: MapArgs) -> Result<()> {
     write_outputs(&map, &args.out, args.png.as_deref())
 }
 
-/// Builds a map with a progress bar and a closing line on stderr.
+/// Builds a map with progress (a bar, or lines in a batch log) and a closing line on stderr.
 pub fn build_reported(
     engine: &dyn Engine,
     lens: &LensSystem,
@@ -132,32 +134,17 @@ pub fn build_reported(
             engine::gib(memory_limit)
         ))
     })?;
-    let bar = progress_bar("tracing");
-    let map = engine.build_with_progress(lens, window, &bar)?;
-    bar.finish_and_clear();
+    let reporter = Reporter::new().without_start_lines();
+    let map = engine.build_with_progress(lens, window, &EngineStage::new(&reporter, "tracing"))?;
     let p = &map.provenance;
-    eprintln!(
+    reporter.finish(&format!(
         "rays shot {}, rays landed {}, {:.2} s, {:.3e} rays/s",
         p.rays_shot,
         p.rays_landed,
         p.build_seconds,
         p.rays_shot as f64 / p.build_seconds.max(1e-9)
-    );
+    ));
     Ok(map)
-}
-
-/// A progress bar on stderr (hidden when stderr is not a terminal).
-pub fn progress_bar(what: &str) -> indicatif::ProgressBar {
-    let bar = indicatif::ProgressBar::new(0);
-    bar.set_style(
-        indicatif::ProgressStyle::with_template(
-            "{msg} [{bar:40}] {percent:>3}% {elapsed_precise} eta {eta}",
-        )
-        .expect("valid template")
-        .progress_chars("=> "),
-    );
-    bar.set_message(what.to_string());
-    bar
 }
 
 /// Writes the FITS file and the optional PNG.

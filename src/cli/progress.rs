@@ -3,7 +3,11 @@
 //! When stderr is a terminal each stage draws an indicatif bar. Otherwise (a batch job's log, a
 //! pipe) it prints one plain line when a stage starts, one every [`LOG_INTERVAL`] while it runs
 //! (done of total, rate, time left; a clock thread prints it even while one long unit of work
-//! runs), and its summary when it ends. Notes are printed as they come, prefixed `note:`.
+//! runs), and its summary when it ends. Notes are printed as they come, prefixed `note:`;
+//! items (a map built, say) only in a batch log, where they are all one learns of them.
+//!
+//! Every long command reports through one [`Reporter`]: `map` (through [`EngineStage`], the
+//! engine's own progress), `library`, `compare` and `search`.
 
 use crate::progress::Progress;
 use std::io::IsTerminal;
@@ -17,6 +21,7 @@ pub const LOG_INTERVAL: Duration = Duration::from_secs(5);
 /// Reports progress on stderr.
 pub struct Reporter {
     terminal: bool,
+    start_lines: bool,
     state: Arc<Mutex<Stage>>,
     stop: Arc<AtomicBool>,
 }
@@ -64,9 +69,17 @@ impl Reporter {
         }
         Reporter {
             terminal,
+            start_lines: true,
             state,
             stop,
         }
+    }
+
+    /// The same reporter without the line a stage's start prints in a batch log: for a
+    /// command whose own closing line says what it did (the periodic lines still come).
+    pub fn without_start_lines(mut self) -> Reporter {
+        self.start_lines = false;
+        self
     }
 
     fn state(&self) -> std::sync::MutexGuard<'_, Stage> {
@@ -121,10 +134,10 @@ impl Progress for Reporter {
         s.started = Instant::now();
         s.last_line = Instant::now();
         if self.terminal {
-            let bar = super::map::progress_bar(stage);
+            let bar = progress_bar(stage);
             bar.set_length(total);
             s.bar = Some(bar);
-        } else {
+        } else if self.start_lines {
             match total {
                 0 => eprintln!("{stage}: started"),
                 n => eprintln!("{stage}: started ({n} to do)"),
@@ -146,7 +159,9 @@ impl Progress for Reporter {
         if let Some(bar) = s.bar.take() {
             bar.finish_and_clear();
         }
-        eprintln!("{summary}");
+        if !summary.is_empty() {
+            eprintln!("{summary}");
+        }
     }
 
     fn note(&self, message: &str) {
@@ -156,6 +171,49 @@ impl Progress for Reporter {
             None => eprintln!("note: {message}"),
         }
     }
+
+    fn item(&self, message: &str) {
+        if !self.terminal {
+            let _s = self.state(); // not between the clock thread's lines
+            eprintln!("{message}");
+        }
+    }
+}
+
+/// A stage of a [`Reporter`] fed by an engine's progress (its own units of work).
+pub struct EngineStage<'a> {
+    reporter: &'a Reporter,
+    stage: &'a str,
+}
+
+impl<'a> EngineStage<'a> {
+    /// Reports the engine's work as the stage `stage` of `reporter`.
+    pub fn new(reporter: &'a Reporter, stage: &'a str) -> Self {
+        EngineStage { reporter, stage }
+    }
+}
+
+impl crate::engine::Progress for EngineStage<'_> {
+    fn start(&self, total: u64) {
+        self.reporter.start(self.stage, total);
+    }
+    fn advance(&self, done: u64) {
+        self.reporter.advance(done);
+    }
+}
+
+/// A progress bar on stderr (hidden when stderr is not a terminal).
+fn progress_bar(what: &str) -> indicatif::ProgressBar {
+    let bar = indicatif::ProgressBar::new(0);
+    bar.set_style(
+        indicatif::ProgressStyle::with_template(
+            "{msg} [{bar:40}] {percent:>3}% {elapsed_precise} eta {eta}",
+        )
+        .expect("valid template")
+        .progress_chars("=> "),
+    );
+    bar.set_message(what.to_string());
+    bar
 }
 
 #[cfg(test)]

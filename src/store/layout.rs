@@ -2,9 +2,11 @@
 //! files the store writes (the only files its upkeep may ever remove).
 //!
 //! A store folder holds `causeway-store.toml` (the marker, with the store's format version),
-//! `index.csv`, the lock `.lock`, maps named `<32 hex digits>.fits` and, while they are being
-//! written, temporaries named `.<one of those names>.<pid>.<counter>.tmp`. Anything else in
-//! the folder belongs to someone else and is left alone.
+//! `index.csv`, the lock `.lock`, maps named `<32 hex digits>.fits`, while a map is being built
+//! its claim `<32 hex digits>.claim` (see [`super::claim`]) and, while they are being written,
+//! temporaries named `.<one of those names>.<pid>.<counter>.tmp` (a stale claim is renamed to
+//! one such name before it is removed). Anything else in the folder belongs to someone else and
+//! is left alone.
 
 use super::index;
 use crate::error::{Error, Result};
@@ -56,12 +58,37 @@ pub fn is_map_name(name: &str) -> bool {
     })
 }
 
-/// True for the name of a temporary the store writes: `.<map, index or marker name>.<pid>.<n>.tmp`.
+/// True for the name of a builder's claim on a map: 32 lower-case hex digits and `.claim`.
+///
+/// ```
+/// use causeway::store::is_claim_name;
+/// assert!(is_claim_name("0123456789abcdef0123456789abcdef.claim"));
+/// assert!(!is_claim_name("0123456789abcdef0123456789abcdef.fits"));
+/// ```
+pub fn is_claim_name(name: &str) -> bool {
+    name.strip_suffix(".claim")
+        .is_some_and(|stem| is_map_name(&format!("{stem}.fits")))
+}
+
+/// The claim's name for the map file `map_name`; anything but a map name is refused.
+pub(super) fn claim_name(map_name: &str) -> Result<String> {
+    match map_name.strip_suffix(".fits") {
+        Some(stem) if is_map_name(map_name) => Ok(format!("{stem}.claim")),
+        _ => Err(Error::input(format!(
+            "claim: '{}' is not the name of a map of the store",
+            crate::error::shown(map_name)
+        ))),
+    }
+}
+
+/// True for the name of a temporary the store writes:
+/// `.<map, claim, index or marker name>.<pid>.<n>.tmp`.
 ///
 /// ```
 /// use causeway::store::is_temporary_name;
 /// assert!(is_temporary_name(".index.csv.123.0.tmp"));
 /// assert!(is_temporary_name(".0123456789abcdef0123456789abcdef.fits.77.3.tmp"));
+/// assert!(is_temporary_name(".0123456789abcdef0123456789abcdef.claim.77.3.tmp"));
 /// assert!(!is_temporary_name(".notes.txt.1.2.tmp"));
 /// assert!(!is_temporary_name("index.csv.1.2.tmp"));
 /// ```
@@ -75,12 +102,19 @@ pub fn is_temporary_name(name: &str) -> bool {
         return false;
     };
     let number = |t: &str| !t.is_empty() && t.bytes().all(|b| b.is_ascii_digit());
-    number(counter) && number(pid) && (target == INDEX || target == MARKER || is_map_name(target))
+    number(counter)
+        && number(pid)
+        && (target == INDEX || target == MARKER || is_map_name(target) || is_claim_name(target))
 }
 
 /// True for any name the store itself writes.
 fn is_own_name(name: &str) -> bool {
-    name == MARKER || name == INDEX || name == LOCK || is_map_name(name) || is_temporary_name(name)
+    name == MARKER
+        || name == INDEX
+        || name == LOCK
+        || is_map_name(name)
+        || is_claim_name(name)
+        || is_temporary_name(name)
 }
 
 /// Checks that `root` is an existing, marked store of a format this version reads.

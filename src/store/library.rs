@@ -32,14 +32,18 @@
 //!
 //! Grid points are numbered q-major (`index = iq * len(s) + is`); shard `K/N` takes the points
 //! whose index is `K - 1` modulo `N`, so the shards of one spec are disjoint and together
-//! make the whole grid.
+//! make the whole grid. Builders sharing a store claim each map before they build it (see
+//! [`build_with`]), so shards and workers (`wait = false`) may run side by side.
 //!
 //! A spec gives at most [`MAX_GRID_POINTS`] (100,000) grid points, and one map of it must fit in
 //! half the machine's memory; larger specs are refused when read, before anything is built.
 
-use super::{MapKey, Store};
+pub use super::builder::{
+    build, build_with, status, BuildOptions, BuildSummary, Outcome, PointState,
+};
+use super::MapKey;
 use crate::caustics::caustic_curves;
-use crate::engine::{self, Engine};
+use crate::engine;
 use crate::error::{shown, tidy, Error, Result};
 use crate::lens::LensSystem;
 use crate::map::Window;
@@ -427,66 +431,4 @@ impl LibrarySpec {
             .filter(|p| p.index % shard.n == shard.k - 1)
             .collect())
     }
-}
-
-/// What a library build did.
-#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
-pub struct BuildSummary {
-    /// Maps built now.
-    pub built: usize,
-    /// Maps already present and verified.
-    pub skipped: usize,
-}
-
-/// Builds the missing maps of `points` into the store, reporting each finished point to
-/// `progress`. Maps present and verified are skipped (and re-entered into the index, in case a
-/// build was killed between writing a map and recording it).
-pub fn build(
-    store: &Store,
-    points: &[GridPoint],
-    mut progress: impl FnMut(&GridPoint, bool),
-) -> Result<BuildSummary> {
-    let mut summary = BuildSummary::default();
-    // Read the index once; an entry another builder adds meanwhile is only recorded again.
-    let indexed: std::collections::HashSet<String> =
-        store.entries()?.into_iter().map(|e| e.file).collect();
-    for p in points {
-        if let Some(map) = store.get(&p.key).ok().flatten() {
-            if !indexed.contains(&p.key.file_name()) {
-                store.record(super::Entry::of_map(&map, &p.key.file_name()))?;
-            }
-            summary.skipped += 1;
-            progress(p, false);
-            continue;
-        }
-        let engine: Box<dyn Engine> = engine::by_name(&p.key.engine, p.key.density)?;
-        let map = engine.build(&p.key.lens, &p.key.window)?;
-        store.put(&map)?;
-        summary.built += 1;
-        progress(p, true);
-    }
-    Ok(summary)
-}
-
-/// A job-array script for a Slurm-style scheduler that fills `store` from `spec` in `shards`
-/// tasks.
-///
-/// ```
-/// let script = causeway::store::library::job_array_script("lib.toml", "/shared/maps", 8, 2);
-/// assert!(script.contains("--array=1-8"));
-/// assert!(script.contains("--shard \"${SLURM_ARRAY_TASK_ID}/8\""));
-/// ```
-pub fn job_array_script(spec: &str, store: &str, shards: usize, threads: usize) -> String {
-    format!(
-        "#!/bin/bash\n\
-         # Fills the map store {store} from {spec} in {shards} array tasks.\n\
-         # Tasks share the store safely; rerun the array (or any task) to resume.\n\
-         #SBATCH --job-name=causeway-library\n\
-         #SBATCH --array=1-{shards}\n\
-         #SBATCH --cpus-per-task={threads}\n\
-         #SBATCH --output=causeway-library-%A_%a.log\n\
-         set -euo pipefail\n\
-         causeway library build '{spec}' --store '{store}' --threads {threads} \\\n    \
-         --shard \"${{SLURM_ARRAY_TASK_ID}}/{shards}\"\n"
-    )
 }

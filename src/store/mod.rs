@@ -12,12 +12,17 @@
 //! shared file system that honours `flock`) never lose each other's entries. Map files are
 //! written to a temporary name (`.<hash>.fits.<pid>.<n>.tmp`) and renamed, so a file named
 //! `<hash>.fits` is always complete; a build killed at any moment leaves at most a temporary
-//! that [`Store::prune`] removes. The store's upkeep touches only files with the store's own
-//! names (see [`is_map_name`] and [`is_temporary_name`]), never anything else in the folder.
+//! that [`Store::prune`] removes. Builders sharing a store claim each map before building it
+//! ([`claim`]), so that no map is built twice. The store's upkeep touches only files with the
+//! store's own names (see [`is_map_name`], [`is_claim_name`] and [`is_temporary_name`]), never
+//! anything else in the folder.
 //!
 //! The default store is `./maps`, overridden by `--store DIR` or `CAUSEWAY_STORE`.
 
+mod builder;
+pub mod claim;
 mod index;
+pub mod jobs;
 mod key;
 mod layout;
 pub mod library;
@@ -25,7 +30,7 @@ mod upkeep;
 
 pub use index::{header as index_header, Entry};
 pub use key::{MapKey, KEY_FORMAT};
-pub use layout::{is_map_name, is_temporary_name, MARKER, STORE_FORMAT};
+pub use layout::{is_claim_name, is_map_name, is_temporary_name, MARKER, STORE_FORMAT};
 pub use upkeep::{Problem, PruneReport, Verification};
 
 use crate::error::{Error, Result};

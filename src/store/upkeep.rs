@@ -4,7 +4,8 @@
 //! ([`is_map_name`], [`is_temporary_name`]); the index can name nothing else (its reader
 //! refuses other file names), so no index row leads out of the folder.
 
-use super::layout::{is_map_name, is_temporary_name};
+use super::claim::{ClaimInfo, ClaimPolicy};
+use super::layout::{is_claim_name, is_map_name, is_temporary_name};
 use super::{check_key, file_name, index, Entry, Store};
 use crate::error::{Error, Result};
 use crate::map::fits::read_fits;
@@ -33,18 +34,22 @@ pub struct Verification {
     /// Complete, verified maps the index does not list yet (a build killed between writing a
     /// map and recording it leaves one); the next build or prune adopts them.
     pub unindexed: Vec<Entry>,
+    /// Claims of builders on maps (live ones while builds run; stale ones a killed build
+    /// left, which the next build takes over and prune removes).
+    pub claims: Vec<ClaimInfo>,
 }
 
 /// What [`Store::prune`] removed, adopted and unlisted (or, on a dry run, would have).
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct PruneReport {
-    /// Files removed: damaged maps and temporaries, at least the minimum age old.
+    /// Files removed: damaged maps, temporaries and stale claims, at least the minimum age old.
     pub removed: Vec<PathBuf>,
     /// Complete maps entered into the index.
     pub adopted: Vec<PathBuf>,
     /// Index entries dropped (their file is missing or was removed).
     pub unlisted: Vec<String>,
-    /// Damaged maps and temporaries kept because they are younger than the minimum age.
+    /// Damaged maps, temporaries and stale claims kept because they are younger than the
+    /// minimum age.
     pub young: Vec<PathBuf>,
 }
 
@@ -89,6 +94,7 @@ impl Store {
             }
         }
         self.check_unlisted(&entries, &mut report)?;
+        report.claims = self.claims(ClaimPolicy::default())?;
         Ok(report)
     }
 
@@ -129,9 +135,9 @@ impl Store {
     }
 
     /// Tidies the store: adopts complete maps the index does not list, drops index entries
-    /// whose file is missing, and removes damaged maps (dropping their entries) and stale
-    /// temporaries, but only those at least `min_age` old (younger ones may belong to a build
-    /// still running). Removes nothing but files with the store's own names in its folder.
+    /// whose file is missing, and removes damaged maps (dropping their entries), stale
+    /// temporaries and stale claims ([`super::claim`]), but only those at least `min_age` old
+    /// (younger ones may belong to a build still running; a live claim is never removed). Removes nothing but files with the store's own names in its folder.
     /// With `dry_run`, changes nothing and reports what it would do.
     pub fn prune(&self, min_age: Duration, dry_run: bool) -> Result<PruneReport> {
         let plan = || -> Result<(PruneReport, Vec<Entry>)> {
@@ -154,6 +160,13 @@ impl Store {
                     report.removed.push(path);
                 } else {
                     report.young.push(path);
+                }
+            }
+            for claim in verification.claims.into_iter().filter(|c| c.stale) {
+                if claim.age >= min_age {
+                    report.removed.push(claim.path);
+                } else {
+                    report.young.push(claim.path);
                 }
             }
             report.adopted = verification
@@ -195,7 +208,7 @@ impl Store {
     /// directly inside its folder.
     fn remove_own(&self, path: &Path) -> Result<()> {
         let name = file_name(path);
-        let own = is_map_name(&name) || is_temporary_name(&name);
+        let own = is_map_name(&name) || is_claim_name(&name) || is_temporary_name(&name);
         if !own || path != self.root.join(&name) {
             return Err(Error::input(format!(
                 "{}: not a file of the store {}; left alone",
@@ -210,7 +223,7 @@ impl Store {
     }
 
     /// Names of the regular files in the store folder that pass `own`, sorted.
-    fn own_files(&self, own: fn(&str) -> bool) -> Result<Vec<String>> {
+    pub(super) fn own_files(&self, own: fn(&str) -> bool) -> Result<Vec<String>> {
         let mut names = Vec::new();
         for entry in fs::read_dir(&self.root).map_err(|e| Error::io(&self.root, e))? {
             let entry = entry.map_err(|e| Error::io(&self.root, e))?;
