@@ -11,6 +11,7 @@ mod common;
 
 mod bad_input;
 mod caustics;
+mod claims;
 mod cli_map;
 mod cli_search;
 mod cli_solve;
