@@ -29,5 +29,6 @@ mod polygon;
 mod recovery;
 mod search;
 mod simulate;
+mod slurm;
 mod solve;
 mod store;
