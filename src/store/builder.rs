@@ -58,18 +58,20 @@ pub struct BuildSummary {
 }
 
 /// Builds the missing maps of `points` into the store with the default [`BuildOptions`]
-/// (waiting for maps other builders hold), reporting each finished point to `progress`.
-/// Maps present and verified are skipped (and re-entered into the index, in case a build was
-/// killed between writing a map and recording it).
+/// (waiting for maps other builders hold), reporting each finished point to `progress`, with
+/// `true` when this build made it. Maps present and verified are skipped (and re-entered into
+/// the index, in case a build was killed between writing a map and recording it).
 pub fn build(
     store: &Store,
     points: &[GridPoint],
-    progress: impl FnMut(&GridPoint, Outcome),
+    mut progress: impl FnMut(&GridPoint, bool),
 ) -> Result<BuildSummary> {
-    build_with(store, points, BuildOptions::default(), progress)
+    build_with(store, points, BuildOptions::default(), |p, outcome| {
+        progress(p, outcome == Outcome::Built)
+    })
 }
 
-/// [`build`] with explicit options.
+/// [`build`] with explicit options, reporting what became of each point.
 ///
 /// ```
 /// use causeway::store::{library::{build_with, BuildOptions, LibrarySpec, Outcome}, Store};

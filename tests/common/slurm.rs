@@ -116,7 +116,7 @@ impl LocalSlurm {
                 started.elapsed() < timeout,
                 "job {job} still queued after {timeout:?}: {queue}"
             );
-            std::thread::sleep(Duration::from_millis(200));
+            std::thread::sleep(Duration::from_millis(100));
         }
     }
 
