@@ -102,7 +102,8 @@ SelectType=select/cons_tres
 SelectTypeParameters=CR_CPU
 SlurmdParameters=config_overrides
 ReturnToService=2
-SchedulerParameters=defer_batch
+SchedulerParameters=batch_sched_delay=0,sched_min_interval=0
+MinJobAge=2
 NodeName=$host NodeAddr=127.0.0.1 CPUs=$cpus RealMemory=$mem State=UNKNOWN
 PartitionName=local Nodes=$host Default=YES MaxTime=INFINITE State=UP OverSubscribe=FORCE:4
 EOF

@@ -65,6 +65,8 @@ pub enum Action {
         shard: Option<Shard>,
         /// Take the next unclaimed map of the whole spec until none is left, and end without
         /// waiting for maps other builders hold (the tasks of a job array balance themselves).
+        /// A worker trusts indexed maps whose file is there (a plain build reads and verifies
+        /// them, and rebuilds a damaged one).
         #[arg(long)]
         worker: bool,
         #[command(flatten)]
@@ -195,6 +197,7 @@ fn build(store: &Store, points: &[library::GridPoint], worker: bool) -> Result<(
     let started = std::time::Instant::now();
     let options = BuildOptions {
         wait: !worker,
+        read_present: !worker,
         ..BuildOptions::default()
     };
     let summary = library::build_with(store, points, options, |p, outcome| {

@@ -33,6 +33,10 @@ pub struct BuildOptions {
     /// Wait for maps other builders hold until they are stored (or taken over), rather than
     /// return without them.
     pub wait: bool,
+    /// Read and verify each map already present before skipping it, so that a damaged one is
+    /// rebuilt; `false` trusts a map that the index lists and whose file is there (a worker of
+    /// a large job array would otherwise read the whole store; `verify` finds damage).
+    pub read_present: bool,
     /// Refresh period and staleness of claims.
     pub policy: ClaimPolicy,
 }
@@ -41,6 +45,7 @@ impl Default for BuildOptions {
     fn default() -> Self {
         BuildOptions {
             wait: true,
+            read_present: true,
             policy: ClaimPolicy::default(),
         }
     }
@@ -79,7 +84,7 @@ pub fn build(
 ///     [window]\ncenter = [0.0, 0.0]\nwidth = 1.0\n", "lib.toml").unwrap();
 /// let dir = std::env::temp_dir().join(format!("causeway-doc-build-{}", std::process::id()));
 /// let store = Store::create(&dir).unwrap();
-/// let worker = BuildOptions { wait: false, ..BuildOptions::default() };
+/// let worker = BuildOptions { wait: false, read_present: false, ..BuildOptions::default() };
 /// let mut built = 0;
 /// let summary = build_with(&store, &spec.points().unwrap(), worker, |_, o| {
 ///     built += usize::from(o == Outcome::Built)
@@ -107,9 +112,12 @@ pub fn build_with(
     let indexed: HashSet<String> = store.entries()?.into_iter().map(|e| e.file).collect();
     let mut left = Vec::new();
     for p in points {
-        if let Some(map) = store.get(&p.key).ok().flatten() {
-            if !indexed.contains(&p.key.file_name()) {
-                store.record(Entry::of_map(&map, &p.key.file_name()))?;
+        let name = p.key.file_name();
+        if !options.read_present && indexed.contains(&name) && store.path_of(&p.key).exists() {
+            report(p, Outcome::Present);
+        } else if let Some(map) = store.get(&p.key).ok().flatten() {
+            if !indexed.contains(&name) {
+                store.record(Entry::of_map(&map, &name))?;
             }
             report(p, Outcome::Present);
         } else if try_build(store, p, options.policy)? {

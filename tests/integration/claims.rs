@@ -122,6 +122,7 @@ fn four_builder_threads_build_each_map_once() {
     let points = spec.points().unwrap();
     let options = BuildOptions {
         wait: true,
+        read_present: true,
         policy: QUICK,
     };
     let reports: Vec<Vec<String>> = std::thread::scope(|scope| {
