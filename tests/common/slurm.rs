@@ -108,8 +108,10 @@ impl LocalSlurm {
                 .output()
                 .unwrap();
             let queue = String::from_utf8_lossy(&out.stdout).trim().to_string();
-            // squeue fails for a job id it no longer knows: the job has ended.
-            if !out.status.success() || queue.is_empty() {
+            // squeue refuses a job id it no longer knows: the job has ended (any other
+            // failure, a busy controller say, is asked again).
+            let forgotten = String::from_utf8_lossy(&out.stderr).contains("Invalid job id");
+            if (out.status.success() && queue.is_empty()) || forgotten {
                 return;
             }
             assert!(
