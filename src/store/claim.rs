@@ -347,11 +347,17 @@ fn discard(path: &Path) -> Result<()> {
     }
 }
 
-/// The claim at `path` and whether it is stale; `None` when there is none.
+/// The claim at `path` and whether it is stale; `None` when there is none. The file is opened
+/// before its modification time is read: on NFS an open revalidates the cached attributes
+/// (close-to-open consistency), where a bare `stat` may see them up to a minute old.
 fn inspect(path: &Path, policy: ClaimPolicy) -> Option<ClaimInfo> {
-    let modified = fs::metadata(path).ok()?.modified().ok()?;
+    let mut file = fs::File::open(path).ok()?;
+    let mut text = String::new();
+    let holder = std::io::Read::read_to_string(&mut file, &mut text)
+        .ok()
+        .and_then(|_| toml::from_str::<Holder>(&text).ok());
+    let modified = file.metadata().ok()?.modified().ok()?;
     let age = modified.elapsed().unwrap_or(Duration::ZERO);
-    let holder = read_holder(path);
     let stale =
         age >= policy.stale_after || holder.as_ref().is_some_and(Holder::gone_from_this_host);
     Some(ClaimInfo {

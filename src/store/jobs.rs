@@ -173,3 +173,42 @@ fn plain(what: &str, path: &Path) -> Result<()> {
     }
     Ok(())
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn job() -> JobArray {
+        JobArray {
+            program: "/opt/causeway".into(),
+            spec: "/home/a/grid.toml".into(),
+            store: "/shared/maps".into(),
+            logs: "/home/a/logs".into(),
+            tasks: 4,
+            threads: 1,
+            memory: 100 << 20,
+            time: Some("1-00:00:00".into()),
+        }
+    }
+
+    #[test]
+    fn scripts_refuse_what_a_job_line_cannot_carry() {
+        assert!(job()
+            .script()
+            .unwrap()
+            .contains("#SBATCH --time=1-00:00:00\n"));
+        let cases: [(fn(&mut JobArray), &str); 5] = [
+            (|j| j.store = "maps".into(), "must be absolute"),
+            (|j| j.logs = "/home/a/my logs".into(), "logs path"),
+            (|j| j.spec = "/home/a/$HOME.toml".into(), "spec path"),
+            (|j| j.time = Some("1h; rm".into()), "time limit"),
+            (|j| j.tasks = 0, "at least 1"),
+        ];
+        for (spoil, culprit) in cases {
+            let mut j = job();
+            spoil(&mut j);
+            let err = j.script().unwrap_err().to_string();
+            assert!(err.contains(culprit), "{err}");
+        }
+    }
+}
