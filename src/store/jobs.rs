@@ -191,13 +191,16 @@ mod tests {
         }
     }
 
+    /// A change that spoils a job, and what the refusal names.
+    type Spoiled = (fn(&mut JobArray), &'static str);
+
     #[test]
     fn scripts_refuse_what_a_job_line_cannot_carry() {
         assert!(job()
             .script()
             .unwrap()
             .contains("#SBATCH --time=1-00:00:00\n"));
-        let cases: [(fn(&mut JobArray), &str); 5] = [
+        let cases: [Spoiled; 5] = [
             (|j| j.store = "maps".into(), "must be absolute"),
             (|j| j.logs = "/home/a/my logs".into(), "logs path"),
             (|j| j.spec = "/home/a/$HOME.toml".into(), "spec path"),
