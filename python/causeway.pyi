@@ -191,6 +191,7 @@ def fit_event(
     clip: float = 5.0,
     rescale_errors: bool = True,
     adaptive_timing: bool = True,
+    hops: int = 8,
     progress: Optional[Callable[[str, str], Any]] = None,
     threads: Optional[int] = None,
 ) -> dict[str, Any]: ...

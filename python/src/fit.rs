@@ -8,6 +8,7 @@ use causeway::fit::event::{fit_event as fit_whole, FitOptions, DEFAULT_CLIP_SIGM
 use causeway::fit::fluxes::FluxFit;
 use causeway::fit::model::BinaryModel;
 use causeway::fit::photometry::{DataSet as Set, Measured, DEFAULT_ZERO_POINT};
+use causeway::fit::hop::HOPS;
 use causeway::fit::refine::PARAMETERS;
 use causeway::fit::search::{maps_of_store, GridRule, MapSource};
 use causeway::fit::simulate::plan::ObservingPlan;
@@ -209,18 +210,19 @@ fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, PyDi
 
 /// fit_event(data, maps, rhos=None, exclude=(), baseline=None, zoom_levels=2, zoom_points=2,
 /// refine=4, tol=1e-4, budget=600.0, clip=5.0, rescale_errors=True, adaptive_timing=True,
-/// progress=None, threads=None) -> dict
+/// hops=8, progress=None, threads=None) -> dict
 ///
 /// The whole fit of a list of DataSet with the binary-lens maps of `maps` (a Store: all its
 /// binary maps; or a list of Map): single-lens baseline, search of every map, zoom, exact
-/// refinement, outlier clipping (clip sigmas, 0 for none), error rescaling, refinement again.
+/// refinement, outlier clipping (clip sigmas, 0 for none), error rescaling, refinement again,
+/// hops (`hops` perturbed restarts per round around the best minimum; 0 for none).
 /// Returns "minima" (best first; each a dict of "s", "q", "alpha" (degrees), "u0", "t0", "te"
 /// (days), "rho", "sigma" (dict of the same names), "chi2", "chi2_as_given", "search_chi2",
 /// "partner" (index of its close/wide partner or None), "fluxes"), "single" (the baseline's
 /// t0, u0, te, chi2), "error_scales", "clipped" (dicts "set", "t", "residual"), "notes",
 /// "seconds" (search, refinement). `progress(event, text)` receives the stages.
 #[pyfunction]
-#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, progress=None, threads=None))]
+#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, hops=HOPS, progress=None, threads=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn fit_event<'py>(
     py: Python<'py>,
@@ -237,6 +239,7 @@ pub fn fit_event<'py>(
     clip: f64,
     rescale_errors: bool,
     adaptive_timing: bool,
+    hops: usize,
     progress: Option<Py<PyAny>>,
     threads: Option<usize>,
 ) -> PyResult<Bound<'py, PyDict>> {
@@ -273,6 +276,7 @@ pub fn fit_event<'py>(
     }
     options.refine.candidates = refine;
     options.refine.tol = tol;
+    options.refine.hops = hops;
     options.refine.budget = (budget > 0.0).then(|| Duration::from_secs_f64(budget));
     let forward = Forward(progress);
     let result = if let Ok(store) = maps.cast::<Store>() {
