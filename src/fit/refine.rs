@@ -60,7 +60,7 @@ pub fn exact_chi2(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<(f6
 
 /// Residuals `(F_i - fs A_i - fb) / sigma_i` of `model` over all data sets, each set at its
 /// best fluxes, with exact magnifications.
-pub(super) fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f64>> {
+fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f64>> {
     let mut out = Vec::with_capacity(data.iter().map(DataSet::len).sum());
     for set in data {
         let a = model.magnifications(&set.times, set.limb_darkening, tol)?;
@@ -68,6 +68,24 @@ pub(super) fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> R
         out.extend((0..set.len()).map(|i| (set.flux[i] - f.fs * a[i] - f.fb) / set.sigma(i)));
     }
     Ok(out)
+}
+
+/// The normalised residuals ([`residuals_of`]) as a function of the minimiser's coordinates,
+/// each call counted in `evaluations`; `None` outside the model and once `deadline` has passed
+/// (so that every minimiser stage ends at once with the best it had).
+pub(super) fn counted_residuals<'a>(
+    data: &'a [DataSet],
+    tol: f64,
+    evaluations: &'a AtomicU64,
+    deadline: Option<Instant>,
+) -> impl Fn(&[f64]) -> Option<Vec<f64>> + Sync + 'a {
+    move |p: &[f64]| {
+        if deadline.is_some_and(|d| Instant::now() >= d) {
+            return None;
+        }
+        evaluations.fetch_add(1, Ordering::Relaxed);
+        residuals_of(data, &from_vector(p).ok()?, tol).ok()
+    }
 }
 
 pub(super) fn to_vector(m: &BinaryModel) -> Vec<f64> {
@@ -162,16 +180,7 @@ pub fn refine_until(
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
     // along. Its Jacobian steps are a fiftieth of the simplex's.
-    let residuals_to = |tol: f64| {
-        let evaluations = &evaluations;
-        move |p: &[f64]| {
-            if late() {
-                return None;
-            }
-            evaluations.fetch_add(1, Ordering::Relaxed);
-            residuals_of(data, &from_vector(p).ok()?, tol).ok()
-        }
-    };
+    let residuals_to = |tol: f64| counted_residuals(data, tol, &evaluations, deadline);
     // The search stages work at a coarser tolerance (contour integration costs less), the
     // last Levenberg-Marquardt pass at the one asked for.
     let coarse = if simplex { tol.max(COARSE_TOL) } else { tol };
@@ -227,7 +236,7 @@ pub fn refine_until(
         sigma: [f64::NAN; 7],
         chi2: chi2_min,
         fluxes,
-        evaluations: evaluations.into_inner() + 1,
+        evaluations: evaluations.load(Ordering::Relaxed) + 1,
     })
 }
 

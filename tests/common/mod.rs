@@ -161,3 +161,32 @@ pub fn quadruple() -> causeway::lens::LensSystem {
     ])
     .unwrap()
 }
+
+/// A small library spec (8 maps of 120^2 pixels) for the store's tests.
+pub const GRID_SPEC: &str =
+    "s = { log = [0.6, 1.6, 4] }\nq = [1e-3, 1e-2]\npixels = 120\nrays = 60\n\
+                    [window]\ncenter = [0.0, 0.0]\nwidth = 1.6\n";
+
+/// The same grid with heavier maps (about 0.3 s each on one core), so that kills land
+/// mid-build.
+pub const SLOW_GRID_SPEC: &str =
+    "s = { log = [0.6, 1.6, 4] }\nq = [1e-3, 1e-2]\npixels = 300\nrays = 300\n\
+                         [window]\ncenter = [0.0, 0.0]\nwidth = 1.6\n";
+
+/// A scratch folder (removed when dropped) holding `grid.toml` with `text`, and the spec.
+pub fn grid_folder(name: &str, text: &str) -> (Scratch, causeway::store::library::LibrarySpec) {
+    let dir = Scratch::new(name);
+    std::fs::write(dir.join("grid.toml"), text).unwrap();
+    let spec = causeway::store::library::LibrarySpec::parse(text, "grid.toml").unwrap();
+    (dir, spec)
+}
+
+/// `causeway library ARGS` run in `dir`, with no store taken from the environment.
+pub fn library_command(dir: &Path, args: &[&str]) -> Command {
+    let mut cmd = causeway();
+    cmd.current_dir(dir)
+        .arg("library")
+        .args(args)
+        .env_remove("CAUSEWAY_STORE");
+    cmd
+}

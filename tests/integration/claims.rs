@@ -17,12 +17,7 @@ use std::path::Path;
 use std::process::{Command, Stdio};
 use std::time::{Duration, SystemTime};
 
-const SPEC: &str = "s = { log = [0.6, 1.6, 4] }\nq = [1e-3, 1e-2]\npixels = 120\nrays = 60\n\
-                    [window]\ncenter = [0.0, 0.0]\nwidth = 1.6\n";
-
-/// Heavier maps (about 0.3 s each on one core), so that kills land mid-build.
-const SLOW_SPEC: &str = "s = { log = [0.6, 1.6, 4] }\nq = [1e-3, 1e-2]\npixels = 300\nrays = 300\n\
-                         [window]\ncenter = [0.0, 0.0]\nwidth = 1.6\n";
+use common::{GRID_SPEC as SPEC, SLOW_GRID_SPEC as SLOW_SPEC};
 
 /// Short periods for the library-level tests: refreshed every 100 ms, stale after 1.5 s (room
 /// for a refresher thread held up on a loaded machine).
@@ -30,21 +25,6 @@ const QUICK: ClaimPolicy = ClaimPolicy {
     refresh: Duration::from_millis(100),
     stale_after: Duration::from_millis(1500),
 };
-
-fn setup(name: &str, text: &str) -> (common::Scratch, LibrarySpec) {
-    let dir = common::Scratch::new(name);
-    std::fs::write(dir.join("grid.toml"), text).unwrap();
-    (dir, LibrarySpec::parse(text, "grid.toml").unwrap())
-}
-
-fn library(dir: &Path, args: &[&str]) -> Command {
-    let mut cmd = common::causeway();
-    cmd.current_dir(dir)
-        .arg("library")
-        .args(args)
-        .env_remove("CAUSEWAY_STORE");
-    cmd
-}
 
 /// The map files named by the `built <file>` lines of batch logs, with how often each.
 pub fn built_counts<'a>(logs: impl IntoIterator<Item = &'a str>) -> HashMap<String, usize> {
@@ -118,7 +98,7 @@ fn plant_claim(store_dir: &Path, map: &str, host: &str, pid: u32, age: Duration)
 
 #[test]
 fn four_builder_threads_build_each_map_once() {
-    let (dir, spec) = setup("claims-threads", SPEC);
+    let (dir, spec) = common::grid_folder("claims-threads", SPEC);
     let store = Store::create(&dir.join("maps")).unwrap();
     let points = spec.points().unwrap();
     let options = BuildOptions {
@@ -159,14 +139,19 @@ fn four_builder_processes_build_each_map_once() {
     // Four plain builds and four workers (two rounds on fresh stores): the reports of the
     // eight processes name every map once per round.
     for (round, worker) in [(0, false), (1, true)] {
-        let (dir, spec) = setup(&format!("claims-processes-{round}"), SPEC);
+        let (dir, spec) = common::grid_folder(&format!("claims-processes-{round}"), SPEC);
         let args: &[&str] = if worker {
             &["build", "grid.toml", "--threads", "1", "--worker"]
         } else {
             &["build", "grid.toml", "--threads", "1"]
         };
         let children: Vec<_> = (0..4)
-            .map(|_| library(&dir, args).stderr(Stdio::piped()).spawn().unwrap())
+            .map(|_| {
+                common::library_command(&dir, args)
+                    .stderr(Stdio::piped())
+                    .spawn()
+                    .unwrap()
+            })
             .collect();
         let logs: Vec<String> = children
             .into_iter()
@@ -199,7 +184,7 @@ fn four_builder_processes_build_each_map_once() {
 
 #[test]
 fn stale_claims_are_taken_over_and_live_ones_never() {
-    let (dir, spec) = setup("claims-stale", SPEC);
+    let (dir, spec) = common::grid_folder("claims-stale", SPEC);
     let store = Store::create(&dir.join("maps")).unwrap();
     let names: Vec<String> = spec
         .points()
@@ -268,9 +253,9 @@ fn stale_claims_are_taken_over_and_live_ones_never() {
 
 #[test]
 fn status_verify_and_prune_know_claims() {
-    let (dir, spec) = setup("claims-status", SPEC);
+    let (dir, spec) = common::grid_folder("claims-status", SPEC);
     let maps = dir.join("maps");
-    let out = library(&dir, &["build", "grid.toml", "--shard", "1/2"])
+    let out = common::library_command(&dir, &["build", "grid.toml", "--shard", "1/2"])
         .output()
         .unwrap();
     assert!(out.status.success());
@@ -292,7 +277,9 @@ fn status_verify_and_prune_know_claims() {
     );
     let aside = format!(".{}.999.0.tmp", stale);
     std::fs::write(maps.join(&aside), b"a claim set aside").unwrap();
-    let out = library(&dir, &["status", "grid.toml"]).output().unwrap();
+    let out = common::library_command(&dir, &["status", "grid.toml"])
+        .output()
+        .unwrap();
     assert!(out.status.success());
     let table = String::from_utf8_lossy(&out.stdout);
     let rows: Vec<Vec<&str>> = table
@@ -329,7 +316,7 @@ fn status_verify_and_prune_know_claims() {
         "{summary}"
     );
     // verify names both claims and passes (claims are no damage).
-    let out = library(&dir, &["verify"]).output().unwrap();
+    let out = common::library_command(&dir, &["verify"]).output().unwrap();
     let said = String::from_utf8_lossy(&out.stdout);
     assert!(out.status.success(), "{said}");
     assert!(
@@ -341,7 +328,7 @@ fn status_verify_and_prune_know_claims() {
         "{said}"
     );
     // prune removes the stale claim and the set-aside one, never the live claim.
-    let out = library(&dir, &["prune", "--min-age", "0"])
+    let out = common::library_command(&dir, &["prune", "--min-age", "0"])
         .output()
         .unwrap();
     assert!(out.status.success());
@@ -358,7 +345,7 @@ fn killed_workers_resume_to_the_same_store_as_a_clean_build() {
         .ok()
         .and_then(|s| s.parse().ok())
         .unwrap_or(0x00c1_a1e5);
-    let (dir, spec) = setup("claims-kill", SLOW_SPEC);
+    let (dir, spec) = common::grid_folder("claims-kill", SLOW_SPEC);
     let maps = dir.join("maps");
     let mut state = seed;
     let mut next = || {
@@ -372,7 +359,7 @@ fn killed_workers_resume_to_the_same_store_as_a_clean_build() {
     for round in 0..5 {
         let mut workers: Vec<_> = (0..3)
             .map(|_| {
-                library(&dir, &["build", "grid.toml", "--threads", "1", "--worker"])
+                common::library_command(&dir, &["build", "grid.toml", "--threads", "1", "--worker"])
                     .stdout(Stdio::null())
                     .stderr(Stdio::null())
                     .spawn()
@@ -419,13 +406,15 @@ fn killed_workers_resume_to_the_same_store_as_a_clean_build() {
             Duration::from_secs(120),
         );
     }
-    let out = library(&dir, &["build", "grid.toml"]).output().unwrap();
+    let out = common::library_command(&dir, &["build", "grid.toml"])
+        .output()
+        .unwrap();
     assert!(
         out.status.success(),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
-    let out = library(&dir, &["prune", "--min-age", "0"])
+    let out = common::library_command(&dir, &["prune", "--min-age", "0"])
         .output()
         .unwrap();
     assert!(out.status.success());

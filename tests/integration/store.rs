@@ -10,31 +10,10 @@ use std::path::Path;
 use std::process::{Command, Stdio};
 use std::time::Duration;
 
-const SPEC: &str = "s = { log = [0.6, 1.6, 4] }\nq = [1e-3, 1e-2]\npixels = 120\nrays = 60\n\
-                    [window]\ncenter = [0.0, 0.0]\nwidth = 1.6\n";
-
-/// Heavier maps (about 0.3 s each on one core), so that kills land mid-build.
-const SLOW_SPEC: &str = "s = { log = [0.6, 1.6, 4] }\nq = [1e-3, 1e-2]\npixels = 300\nrays = 300\n\
-                         [window]\ncenter = [0.0, 0.0]\nwidth = 1.6\n";
+use common::{GRID_SPEC as SPEC, SLOW_GRID_SPEC as SLOW_SPEC};
 
 fn setup(name: &str) -> (common::Scratch, LibrarySpec) {
-    setup_with(name, SPEC)
-}
-
-/// A scratch folder (removed when dropped) holding `grid.toml` with `text`, and the spec.
-fn setup_with(name: &str, text: &str) -> (common::Scratch, LibrarySpec) {
-    let dir = common::Scratch::new(name);
-    std::fs::write(dir.join("grid.toml"), text).unwrap();
-    (dir, LibrarySpec::parse(text, "grid.toml").unwrap())
-}
-
-fn library(dir: &Path, args: &[&str]) -> Command {
-    let mut cmd = common::causeway();
-    cmd.current_dir(dir)
-        .arg("library")
-        .args(args)
-        .env_remove("CAUSEWAY_STORE");
-    cmd
+    common::grid_folder(name, SPEC)
 }
 
 fn run_ok(mut cmd: Command) -> String {
@@ -50,7 +29,7 @@ fn run_ok(mut cmd: Command) -> String {
 /// Runs `library build grid.toml` in `dir` and asserts its summary says `built` (for example
 /// "8 maps built, 0 already present").
 fn build_says(dir: &Path, built: &str) {
-    let summary = run_ok(library(dir, &["build", "grid.toml"]));
+    let summary = run_ok(common::library_command(dir, &["build", "grid.toml"]));
     assert!(summary.contains(built), "{summary}");
 }
 
@@ -86,7 +65,7 @@ fn killed_builds_resume_to_a_complete_verified_grid() {
         .ok()
         .and_then(|s| s.parse().ok())
         .unwrap_or(0x5eed_2026);
-    let (dir, spec) = setup_with("store-kill", SLOW_SPEC);
+    let (dir, spec) = common::grid_folder("store-kill", SLOW_SPEC);
     let mut state = seed;
     let mut next = || {
         // 64-bit LCG (Knuth's MMIX constants, from memory): enough for kill times.
@@ -98,7 +77,7 @@ fn killed_builds_resume_to_a_complete_verified_grid() {
     let mut interrupted = 0;
     for round in 0..6 {
         let delay = Duration::from_millis(30 + next() % 500);
-        let mut child = library(&dir, &["build", "grid.toml", "--threads", "1"])
+        let mut child = common::library_command(&dir, &["build", "grid.toml", "--threads", "1"])
             .stdout(Stdio::null())
             .stderr(Stdio::null())
             .spawn()
@@ -127,10 +106,10 @@ fn killed_builds_resume_to_a_complete_verified_grid() {
         interrupted >= 2,
         "seed {seed}: only {interrupted} kills interrupted a build"
     );
-    run_ok(library(&dir, &["build", "grid.toml"]));
+    run_ok(common::library_command(&dir, &["build", "grid.toml"]));
     assert_complete(&dir, &spec, &format!("seed {seed}"));
     // Leftover temporaries from the kills are removed by prune, and the grid stays whole.
-    run_ok(library(&dir, &["prune", "--min-age", "0"]));
+    run_ok(common::library_command(&dir, &["prune", "--min-age", "0"]));
     let left: Vec<String> = common::listing(&dir.join("maps"))
         .into_iter()
         .filter(|n| n.ends_with(".tmp"))
@@ -143,7 +122,7 @@ fn killed_builds_resume_to_a_complete_verified_grid() {
 fn spawn_builders(dir: &Path, count: usize) -> Vec<std::process::Child> {
     (0..count)
         .map(|_| {
-            library(dir, &["build", "grid.toml", "--threads", "1"])
+            common::library_command(dir, &["build", "grid.toml", "--threads", "1"])
                 .stderr(Stdio::null())
                 .spawn()
                 .unwrap()
@@ -164,14 +143,14 @@ fn two_builders_on_one_store_keep_it_consistent() {
 #[test]
 fn a_flipped_byte_is_named_by_verify_and_replaced_by_a_rebuild() {
     let (dir, spec) = setup("store-flip");
-    run_ok(library(&dir, &["build", "grid.toml"]));
+    run_ok(common::library_command(&dir, &["build", "grid.toml"]));
     let victim = spec.points().unwrap()[3].key.file_name();
     let path = dir.join("maps").join(&victim);
     let mut bytes = std::fs::read(&path).unwrap();
     let at = bytes.len() - 4000; // inside the data
     bytes[at] ^= 0x10;
     std::fs::write(&path, bytes).unwrap();
-    let out = library(&dir, &["verify"]).output().unwrap();
+    let out = common::library_command(&dir, &["verify"]).output().unwrap();
     assert!(!out.status.success());
     let report = String::from_utf8_lossy(&out.stdout);
     assert!(report.contains(&victim), "{report}");
@@ -201,7 +180,7 @@ fn shards_partition_the_grid() {
 fn sharded_builds_fill_one_store() {
     let (dir, spec) = setup("store-sharded");
     for k in 1..=3 {
-        run_ok(library(
+        run_ok(common::library_command(
             &dir,
             &["build", "grid.toml", "--shard", &format!("{k}/3")],
         ));
@@ -220,7 +199,9 @@ fn bad_specs_are_named_with_their_line() {
     .unwrap();
     std::fs::write(dir.join("b.toml"), "s = [1.0]\nq = [1e-3]\npixels = 10\nrays = 5\n[window]\ncentre = [0.0, 0.0]\nwidth = 1.0\n").unwrap();
     for (file, culprit) in [("a.toml", "q"), ("b.toml", "b.toml:6")] {
-        let out = library(&dir, &["build", file]).output().unwrap();
+        let out = common::library_command(&dir, &["build", file])
+            .output()
+            .unwrap();
         assert_eq!(out.status.code(), Some(2));
         let err = String::from_utf8_lossy(&out.stderr);
         assert!(err.contains(file) && err.contains(culprit), "{err}");
@@ -267,7 +248,7 @@ fn caustic_window_rules_frame_their_caustics() {
 
 /// Runs `causeway library ARGS` in `dir`; returns (exit status, stdout, stderr).
 fn library_in(dir: &Path, args: &[&str]) -> (i32, String, String) {
-    let out = library(dir, args).output().unwrap();
+    let out = common::library_command(dir, args).output().unwrap();
     (
         out.status.code().unwrap_or(-1),
         String::from_utf8_lossy(&out.stdout).into_owned(),
@@ -324,7 +305,7 @@ fn reading_commands_refuse_a_missing_or_unmarked_folder_and_change_nothing() {
 fn builds_mark_their_store_and_adopt_an_unmarked_folder_with_our_index() {
     let (dir, spec) = setup("store-marker");
     let maps = dir.join("maps");
-    run_ok(library(&dir, &["build", "grid.toml"]));
+    run_ok(common::library_command(&dir, &["build", "grid.toml"]));
     let marker = maps.join(causeway::store::MARKER);
     assert!(marker.exists());
     // A store from before the marker: refused by readers, adopted by the next build.
@@ -357,7 +338,7 @@ fn builds_mark_their_store_and_adopt_an_unmarked_folder_with_our_index() {
 fn prune_touches_only_the_stores_own_files_inside_it() {
     let (dir, _) = setup("store-prune-foreign");
     let maps = dir.join("maps");
-    run_ok(library(&dir, &["build", "grid.toml"]));
+    run_ok(common::library_command(&dir, &["build", "grid.toml"]));
     let foreign = ["zoom.fits", "notes.txt", ".notes.txt.1.2.tmp", "ABC.fits"];
     for name in foreign {
         std::fs::write(maps.join(name), b"not the store's").unwrap();
@@ -397,7 +378,7 @@ fn prune_adopts_unindexed_maps_honours_min_age_and_dry_run() {
     let (dir, spec) = setup("store-prune-adopt");
     let maps = dir.join("maps");
     let shown = Path::new("maps"); // as the commands, run in `dir`, name the store
-    run_ok(library(&dir, &["build", "grid.toml"]));
+    run_ok(common::library_command(&dir, &["build", "grid.toml"]));
     let points = spec.points().unwrap();
     // A kill between a map's rename and its index entry leaves a complete, unlisted map.
     let unlisted = points[2].key.file_name();
@@ -462,12 +443,12 @@ fn prune_adopts_unindexed_maps_honours_min_age_and_dry_run() {
 fn exact_lookups_match_to_a_relative_tolerance_and_say_when_nothing_matched() {
     let text = "s = [1.0]\nq = { log = [1e-4, 1e-2, 3] }\npixels = 8\nrays = 5\n\
                 [window]\ncenter = [0.0, 0.0]\nwidth = 1.0\n";
-    let (dir, spec) = setup_with("store-lookup", text);
+    let (dir, spec) = common::grid_folder("store-lookup", text);
     assert_ne!(
         spec.q[1], 1e-3,
         "the grid value must differ from the typed one"
     );
-    run_ok(library(&dir, &["build", "grid.toml"]));
+    run_ok(common::library_command(&dir, &["build", "grid.toml"]));
     let (code, out, err) = library_in(&dir, &["list", "--s", "1.0", "--q", "1e-3"]);
     assert_eq!(code, 0, "{err}");
     assert_eq!(out.lines().count(), 2, "{out}");
@@ -489,7 +470,7 @@ fn exact_lookups_match_to_a_relative_tolerance_and_say_when_nothing_matched() {
 
 #[test]
 fn prune_beside_running_builders_removes_nothing_of_theirs() {
-    let (dir, spec) = setup_with("store-prune-beside", SLOW_SPEC);
+    let (dir, spec) = common::grid_folder("store-prune-beside", SLOW_SPEC);
     let marker = dir.join("maps").join(causeway::store::MARKER);
     let mut builders = spawn_builders(&dir, 2);
     let mut prunes = 0;
