@@ -60,3 +60,9 @@ fn a_wide_planet_crossing_its_caustic_off_the_peak() {
 fn a_resonant_caustic_over_the_peak() {
     recovers("resonant-1");
 }
+
+#[test]
+#[ignore = "slow: run by scripts/test"]
+fn a_stellar_binary_whose_refinement_needs_the_hops() {
+    recovers("stellar-2");
+}
