@@ -48,6 +48,17 @@ pub const BRIDGE_FRACTIONS: [f64; 3] = [0.25, 0.5, 0.75];
 /// The least gain in chi^2 for which a round is kept.
 pub const HOP_GAIN: f64 = 1.0;
 
+/// How [`hop`] draws its starts and when it stops.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HopPlan {
+    /// Random starts per round.
+    pub hops: usize,
+    /// Seed of the draws (round k uses `seed + k`).
+    pub seed: u64,
+    /// No round starts, and the running one ends at once, after this.
+    pub deadline: Option<Instant>,
+}
+
 /// What [`hop`] did.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Hopped {
@@ -60,17 +71,19 @@ pub struct Hopped {
 }
 
 /// Hops from `start` (a refined minimum of the exact chi^2 at tolerance `tol` over `data`) with
-/// `hops` starts per round (see the module documentation), and from points on the way to each
+/// `plan.hops` starts per round (see the module documentation), and from points on the way to each
 /// of `neighbours` (other minima) that is [`nearby`], until a round does not gain or
-/// `deadline` passes. The uncertainties of the result are NaN (measure them at the end).
+/// `plan.deadline` passes, calling `round_done` after each round. The uncertainties of the result
+/// are NaN (measure them at the end).
 ///
 /// ```no_run
-/// # use causeway::fit::{hop::hop, photometry::DataSet, refine::refine_until, model::*};
+/// # use causeway::fit::{hop::*, photometry::DataSet, refine::refine_until, model::*};
 /// # let data: Vec<DataSet> = vec![];
 /// # let start = BinaryModel { s: 1.0, q: 1e-3, rho: 1e-3,
 /// #     trajectory: Trajectory::straight(0.0, 0.1, 20.0, 0.5).unwrap() };
 /// let first = refine_until(&data, &start, 1e-4, 600, true, None).unwrap();
-/// let hopped = hop(&data, &first, &[], 1e-4, 8, 1, None).unwrap();
+/// let plan = HopPlan { hops: 8, seed: 1, deadline: None };
+/// let hopped = hop(&data, &first, &[], 1e-4, &plan, &|| {}).unwrap();
 /// assert!(hopped.refined.chi2 <= first.chi2);
 /// ```
 pub fn hop(
@@ -78,10 +91,14 @@ pub fn hop(
     start: &Refined,
     neighbours: &[BinaryModel],
     tol: f64,
-    hops: usize,
-    seed: u64,
-    deadline: Option<Instant>,
+    plan: &HopPlan,
+    round_done: &dyn Fn(),
 ) -> Result<Hopped> {
+    let HopPlan {
+        hops,
+        seed,
+        deadline,
+    } = *plan;
     let evaluations = AtomicU64::new(0);
     let late = || deadline.is_some_and(|d| Instant::now() >= d);
     let residuals_to = |tol: f64| counted_residuals(data, tol, &evaluations, deadline);
@@ -113,6 +130,7 @@ pub fn hop(
         }));
         rounds += 1;
         let residuals = residuals_to(coarse);
+        let _report = Finally(round_done);
         let ends: Vec<(f64, Vec<f64>)> = draws
             .par_iter()
             .filter_map(|x| {
@@ -177,6 +195,15 @@ pub fn nearby(a: &BinaryModel, b: &BinaryModel) -> bool {
         && a != b
 }
 
+/// Calls its function when dropped: a round reports its end however it ends.
+struct Finally<'a>(&'a dyn Fn());
+
+impl Drop for Finally<'_> {
+    fn drop(&mut self) {
+        (self.0)()
+    }
+}
+
 /// The seed of the hops' draws (any fixed value: results must not depend on the run).
 pub const HOP_SEED: u64 = 0x686f_7073;
 
@@ -193,7 +220,7 @@ pub fn hop_best(
         return Ok(None);
     }
     let deadline = options.budget.map(|b| Instant::now() + b);
-    progress.start("hop", 0);
+    progress.start("hop", HOP_ROUNDS as u64);
     let before = minima[0].refined.chi2;
     let others: Vec<BinaryModel> = minima[1..].iter().map(|m| m.refined.model).collect();
     let hopped = hop(
@@ -201,9 +228,12 @@ pub fn hop_best(
         &minima[0].refined,
         &others,
         options.tol,
-        options.hops,
-        HOP_SEED,
-        deadline,
+        &HopPlan {
+            hops: options.hops,
+            seed: HOP_SEED,
+            deadline,
+        },
+        &|| progress.advance(1),
     )?;
     progress.finish(&format!(
         "hop: {} rounds of {} restarts, best chi2 {before:.1} -> {:.1}",

@@ -5,7 +5,7 @@
 
 use crate::common;
 
-use causeway::fit::hop::hop;
+use causeway::fit::hop::{hop, HopPlan};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::noise::clean;
 use causeway::fit::photometry::DataSet;
@@ -64,7 +64,19 @@ fn a_bridge_between_two_minima_finds_the_deeper_one_between_them() {
         start.chi2,
         truth.chi2
     );
-    let hopped = hop(&data, &start, &[other], 1e-4, 8, 1, None).unwrap();
+    let hopped = hop(
+        &data,
+        &start,
+        &[other],
+        1e-4,
+        &HopPlan {
+            hops: 8,
+            seed: 1,
+            deadline: None,
+        },
+        &|| {},
+    )
+    .unwrap();
     assert!(hopped.kept >= 1);
     assert!(
         hopped.refined.chi2 < truth.chi2 + MARGIN,
@@ -90,7 +102,19 @@ fn random_hops_leave_a_stellar_binarys_false_minimum() {
         start.chi2,
         truth.chi2
     );
-    let hopped = hop(&data, &start, &[], 1e-4, 8, 0x686f_7073, None).unwrap();
+    let hopped = hop(
+        &data,
+        &start,
+        &[],
+        1e-4,
+        &HopPlan {
+            hops: 8,
+            seed: 0x686f_7073,
+            deadline: None,
+        },
+        &|| {},
+    )
+    .unwrap();
     assert!(
         hopped.refined.chi2 < truth.chi2 + MARGIN,
         "hopped to {} (truth's minimum {})",
@@ -117,7 +141,23 @@ fn hops_are_the_same_whatever_the_thread_count() {
     );
     let runs: Vec<_> = [1, 2]
         .iter()
-        .map(|&t| common::with_threads(t, || hop(&data, &start, &[], 1e-4, 4, 3, None).unwrap()))
+        .map(|&t| {
+            common::with_threads(t, || {
+                hop(
+                    &data,
+                    &start,
+                    &[],
+                    1e-4,
+                    &HopPlan {
+                        hops: 4,
+                        seed: 3,
+                        deadline: None,
+                    },
+                    &|| {},
+                )
+                .unwrap()
+            })
+        })
         .collect();
     // (The uncertainties are NaN, which compare unequal: the rest bit for bit.)
     let (a, b) = (&runs[0], &runs[1]);
