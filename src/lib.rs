@@ -27,6 +27,7 @@ pub mod fsutil;
 pub mod galaxy;
 pub mod lens;
 pub mod map;
+pub mod parallax;
 pub mod plot;
 pub mod progress;
 pub mod solve;

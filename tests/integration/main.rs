@@ -25,6 +25,7 @@ mod fit_single;
 mod fits;
 mod galaxy;
 mod hop;
+mod parallax;
 mod polygon;
 mod recovery;
 mod search;
