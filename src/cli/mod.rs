@@ -79,6 +79,7 @@ pub mod demo;
 pub mod images;
 pub mod library;
 pub mod map;
+pub mod motion;
 pub mod nature;
 pub mod physical;
 pub mod progress;

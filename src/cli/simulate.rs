@@ -2,6 +2,7 @@
 //! file, or as one file per site of an observing plan.
 
 use super::curve::{SourceArgs, TrajectoryArgs};
+use super::motion::MotionArgs;
 use super::{LensArgs, ThreadArgs};
 use crate::error::{Error, Result};
 use crate::fit::model::{BinaryModel, Trajectory};
@@ -9,6 +10,7 @@ use crate::fit::photometry::DEFAULT_ZERO_POINT;
 use crate::fit::simulate::plan::{truth_csv, ObservingPlan, EXAMPLE_PLAN};
 use crate::fit::simulate::{Noise, Simulation};
 use crate::fsutil::{check_outputs, write_atomic, Output};
+use crate::parallax::Observer;
 use crate::source::SourceProfile;
 use clap::Args;
 use std::path::{Path, PathBuf};
@@ -28,10 +30,16 @@ use std::path::{Path, PathBuf};
         errors growing as the source fades, a true error scale, outliers and a time offset; \
         plan times and --t0 are days in the plan's system. --truth writes every point's model \
         value and its follow-up and outlier flags.\n\n\
+        Parallax and orbital motion: --ra/--dec place the event on the sky; --pi-e-n/--pi-e-e \
+        give pi_E (geocentric, about --t0-par; times below 2400000 are JD - 2450000, above full \
+        JD); --ds-dt (per year) and --dalpha-dt (radians per year) move the lens about --t0-kep; \
+        --ephemeris sees the data from an observatory's positions (CSV t,x,y,z in au, \
+        heliocentric, equatorial) instead of the Earth.\n\n\
         A is exact (contour integration near caustics). The noise comes from --seed: the same \
         inputs give the same files, whatever the thread count.\n\nExamples:\n  \
         causeway simulate --s 1.1 --q 2e-3 --t0 0 --u0 0.05 --te 30 --alpha 40 --rho 0.002 --ld 0.6 --time-range -30,30,2000 --out event.csv\n  \
         causeway simulate --s 0.8 --q 1e-2 --t0 100 --u0 -0.1 --te 25 --alpha 200 --times times.csv --fs 3 --fb 1 --flux --sigma-flux 0.05 --seed 7 --out site-b.csv\n  \
+        causeway simulate --s 1.2 --q 4e-3 --t0 8300 --u0 0.1 --te 60 --alpha 30 --rho 0.002 --ra 17:55:00 --dec -29:30:00 --pi-e-n 0.3 --pi-e-e -0.1 --dalpha-dt 0.5 --time-range 8200,8400,800 --out event.csv\n  \
         causeway simulate --example-plan > plan.toml\n  \
         causeway simulate --s 1.3 --q 3e-3 --t0 9009.6 --u0 0.12 --te 25 --alpha 30 --rho 0.002 --plan plan.toml --out-dir data --truth data/truth.csv"
 )]
@@ -42,6 +50,8 @@ pub struct SimulateArgs {
     pub trajectory: TrajectoryArgs,
     #[command(flatten)]
     pub source: SourceArgs,
+    #[command(flatten)]
+    pub motion: MotionArgs,
     /// Source flux (flux 1 is magnitude --zero-point).
     #[arg(long, value_name = "FS", default_value_t = 1.0)]
     pub fs: f64,
@@ -138,9 +148,13 @@ fn run_single(
         s,
         q,
         rho: profile.rho,
-        trajectory: Trajectory::straight(line.t0, line.u0, line.te, line.alpha)?,
+        trajectory: args
+            .motion
+            .apply(Trajectory::straight(line.t0, line.u0, line.te, line.alpha)?)?,
     };
     model.lens()?;
+    let ephemeris = args.motion.ephemeris()?;
+    let observer = ephemeris.as_ref().map_or(Observer::Earth, Observer::At);
     let noise = match args.sigma_flux {
         Some(sigma) => Noise::Flux { sigma },
         None => Noise::Magnitude {
@@ -158,7 +172,7 @@ fn run_single(
         tol: args.tol,
     };
     args.threads.install()?;
-    let points = simulation.synthesize(&times)?;
+    let points = simulation.synthesize_seen(&times, &observer)?;
     write_atomic(out, points.to_csv().as_bytes())?;
     let peak = points
         .magnifications
@@ -194,9 +208,16 @@ fn run_plan(
         s,
         q,
         rho: profile.rho,
-        trajectory: Trajectory::straight(t0, u0, te, alpha.to_radians())?,
+        trajectory: args
+            .motion
+            .apply(Trajectory::straight(t0, u0, te, alpha.to_radians())?)?,
     };
     model.lens()?;
+    if args.motion.ephemeris.is_some() {
+        return Err(Error::input(
+            "--ephemeris: a plan's sites are on the Earth; simulate a satellite's set with --out",
+        ));
+    }
     let plan = ObservingPlan::read(path)?;
     let dir = args
         .out_dir

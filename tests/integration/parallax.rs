@@ -4,7 +4,14 @@
 
 use crate::common;
 
-use causeway::parallax::{earth_position, Geometry, Observer, SkyPosition, SHORT_JD_ORIGIN};
+use causeway::fit::model::{BinaryModel, LensOrbit, Parallax, Trajectory};
+use causeway::fit::photometry::DataSet;
+use causeway::fit::simulate::{Noise, Simulation};
+use causeway::parallax::{
+    earth_position, Ephemeris, Geometry, Observer, SkyPosition, SHORT_JD_ORIGIN,
+};
+use causeway::source::LimbDarkening;
+use common::{run_cli, Scratch};
 
 const OFFSET_COLUMNS: [&str; 12] = [
     "ra_deg", "dec_deg", "t0_par", "t", "pi_EN", "pi_EE", "ds_N", "ds_E", "sun_N", "sun_E", "dtau",
@@ -65,4 +72,280 @@ fn projected_offsets_match_astropy_at_the_bulge_and_the_poles() {
     let a = short.offsets(&[8250.0], &Observer::Earth).unwrap();
     let b = full.offsets(&[2_458_250.0], &Observer::Earth).unwrap();
     assert!((a[0].0 - b[0].0).abs() < 1e-12 && (a[0].1 - b[0].1).abs() < 1e-12);
+}
+
+fn straight(t0: f64, u0: f64, te: f64, alpha: f64) -> Trajectory {
+    Trajectory::straight(t0, u0, te, alpha).unwrap()
+}
+
+#[test]
+fn parallax_shifts_of_tau_and_beta_match_the_reference() {
+    let t = common::reference("parallax_offsets.csv", &OFFSET_COLUMNS);
+    let mut worst: f64 = 0.0;
+    for r in &t.rows {
+        let g = geometry(r);
+        // alpha = 0 and u0 = 0: the lens frame's (x, y) is (tau, beta) itself.
+        let te = 50.0;
+        let tr = straight(r[2], 0.0, te, 0.0)
+            .with_parallax(Some(Parallax {
+                pi_en: r[4],
+                pi_ee: r[5],
+                geometry: g,
+            }))
+            .unwrap();
+        let (x, y) = tr.positions_seen(&[r[3]], &Observer::Earth).unwrap()[0];
+        let allowed = 3e-4 + 7.5e-6 * (r[3] - r[2]).abs(); // as for the offsets, per unit pi_E
+        let pi = r[4].hypot(r[5]);
+        let dtau = x - (r[3] - r[2]) / te;
+        worst = worst
+            .max((dtau - r[10]).abs() / (pi * allowed))
+            .max((y - r[11]).abs() / (pi * allowed));
+    }
+    assert!(
+        worst < 1.0,
+        "(tau, beta) shifts off by {worst} of the allowed"
+    );
+}
+
+/// A planetary binary and a source crossing near its caustic, seen over 60 days.
+fn planetary(trajectory: Trajectory) -> BinaryModel {
+    BinaryModel {
+        s: 1.1,
+        q: 5e-3,
+        rho: 2e-3,
+        trajectory,
+    }
+}
+
+#[test]
+fn orbital_motion_is_the_static_lens_of_each_time() {
+    let t0k = 8300.0;
+    let orbit = LensOrbit {
+        ds_dt: 0.4,
+        dalpha_dt: -0.9,
+        t0_kep: t0k,
+    };
+    let base = straight(8300.0, 0.05, 30.0, 0.6);
+    let moving = planetary(base.with_orbit(Some(orbit)).unwrap());
+    assert_eq!(moving.kind(), "orbit");
+    let times: Vec<f64> = (0..41).map(|k| 8290.0 + 0.5 * k as f64).collect();
+    let a = moving
+        .magnifications(&times, LimbDarkening::Uniform, 1e-4)
+        .unwrap();
+    let mut changed = 0;
+    for (&t, &got) in times.iter().zip(&a) {
+        // The same time through a static model whose s and alpha are this time's.
+        let years = (t - t0k) / 365.25;
+        let l = base.line();
+        let frozen = BinaryModel {
+            s: 1.1 + 0.4 * years,
+            trajectory: straight(l.t0, l.u0, l.te, l.alpha - 0.9 * years),
+            ..planetary(base)
+        };
+        let want = frozen
+            .magnifications(&[t], LimbDarkening::Uniform, 1e-4)
+            .unwrap()[0];
+        assert!(
+            (got - want).abs() <= 1e-12 * want,
+            "t = {t}: {got} against {want}"
+        );
+        let still = planetary(base)
+            .magnifications(&[t], LimbDarkening::Uniform, 1e-4)
+            .unwrap()[0];
+        if (still - got).abs() > 1e-3 * got {
+            changed += 1;
+        }
+    }
+    assert!(changed > 5, "orbital motion changed only {changed} points");
+}
+
+#[test]
+fn the_ecliptic_pair_gives_nearly_the_same_curve_on_the_ecliptic() {
+    // RA 18 h, Dec -23.44: on the ecliptic, where the Sun's offset lies along east alone.
+    let ecliptic = SkyPosition::new(270.0, -23.4393).unwrap();
+    let off = SkyPosition::new(270.0, 66.5607).unwrap(); // the north ecliptic pole
+    let times: Vec<f64> = (0..121).map(|k| 8240.0 + k as f64).collect();
+    let gap = |sky: SkyPosition| {
+        let g = Geometry::new(sky, 8300.0, SHORT_JD_ORIGIN).unwrap();
+        let p = Parallax {
+            pi_en: 0.4,
+            pi_ee: 0.15,
+            geometry: g,
+        };
+        let tr = straight(8300.0, 0.08, 60.0, 0.4)
+            .with_parallax(Some(p))
+            .unwrap();
+        let m = planetary(tr);
+        let twin = planetary(tr.mirrored());
+        assert_eq!(twin.trajectory.parallax().unwrap().pi_en, -0.4);
+        let still = planetary(straight(8300.0, 0.08, 60.0, 0.4));
+        let law = LimbDarkening::Uniform;
+        let a = m.magnifications(&times, law, 1e-4).unwrap();
+        let b = twin.magnifications(&times, law, 1e-4).unwrap();
+        let c = still.magnifications(&times, law, 1e-4).unwrap();
+        let rms = |x: &[f64], y: &[f64]| {
+            (x.iter()
+                .zip(y)
+                .map(|(p, q)| (p / q - 1.0).powi(2))
+                .sum::<f64>()
+                / x.len() as f64)
+                .sqrt()
+        };
+        (rms(&a, &b), rms(&a, &c))
+    };
+    let (pair, effect) = gap(ecliptic);
+    assert!(effect > 0.01, "parallax changes the curve by {effect}");
+    assert!(
+        pair < 0.02 * effect,
+        "pair {pair} against the effect {effect}"
+    );
+    // Off the ecliptic the pair is told apart.
+    let (pair, effect) = gap(off);
+    assert!(
+        pair > 0.1 * effect,
+        "pair {pair} against the effect {effect}"
+    );
+}
+
+/// A long event toward the bulge with parallax and orbital motion, on the command line.
+const MOVING: &str = "--s 1.2 --q 4e-3 --t0 8300 --u0 0.1 --te 60 --alpha 30 --rho 0.002 \
+     --ra 17:55:00 --dec -29:30:00 --pi-e-n 0.3 --pi-e-e -0.1 --dalpha-dt 0.5 --ds-dt 0.1 \
+     --time-range 8200,8400,300 --sigma-mag 0.001 --seed 3";
+
+fn moving_model() -> BinaryModel {
+    let sky = SkyPosition::parse("17:55:00", "-29:30:00").unwrap();
+    let g = Geometry::new(sky, 8300.0, SHORT_JD_ORIGIN).unwrap();
+    let tr = straight(8300.0, 0.1, 60.0, 30f64.to_radians())
+        .with_parallax(Some(Parallax {
+            pi_en: 0.3,
+            pi_ee: -0.1,
+            geometry: g,
+        }))
+        .unwrap()
+        .with_orbit(Some(LensOrbit {
+            ds_dt: 0.1,
+            dalpha_dt: 0.5,
+            t0_kep: 8300.0,
+        }))
+        .unwrap();
+    BinaryModel {
+        s: 1.2,
+        q: 4e-3,
+        rho: 2e-3,
+        trajectory: tr,
+    }
+}
+
+#[test]
+fn simulate_writes_the_library_model_with_parallax_and_orbital_motion() {
+    let dir = Scratch::new("parallax-simulate");
+    let mut args: Vec<&str> = MOVING.split_whitespace().collect();
+    args.extend(["--out", "event.csv"]);
+    let (code, _, err) = run_cli(&dir, "simulate", &args);
+    assert_eq!(code, 0, "{err}");
+    let file = DataSet::read(&dir.join("event.csv"), 22.0).unwrap();
+    let sim = Simulation {
+        seed: 3,
+        noise: Noise::Magnitude { sigma: 0.001 },
+        ..Simulation::new(moving_model(), LimbDarkening::Uniform)
+    };
+    let lib = sim.run(&file.times).unwrap();
+    assert_eq!(file.flux, lib.flux);
+    assert_eq!(moving_model().kind(), "parallax+orbit");
+    // Without the options the curve is another one.
+    let still = Simulation {
+        model: BinaryModel {
+            trajectory: straight(8300.0, 0.1, 60.0, 30f64.to_radians()),
+            ..moving_model()
+        },
+        ..sim
+    };
+    assert_ne!(still.run(&file.times).unwrap().flux, lib.flux);
+}
+
+#[test]
+fn a_satellite_one_au_away_sees_another_curve() {
+    // A heliocentric ephemeris: the Earth's position plus 1 au along the celestial north
+    // (nearly across the bulge's line of sight: Dec -29.5).
+    let dir = Scratch::new("parallax-satellite");
+    let mut text = String::from("t,x,y,z\n");
+    for k in 0..=220 {
+        let t = 8190.0 + k as f64;
+        let r = earth_position(t + SHORT_JD_ORIGIN);
+        text.push_str(&format!("{t},{},{},{}\n", r[0], r[1], r[2] + 1.0));
+    }
+    std::fs::write(dir.join("sat.csv"), &text).unwrap();
+    let mut args: Vec<&str> = MOVING.split_whitespace().collect();
+    args.extend(["--ephemeris", "sat.csv", "--out", "sat-event.csv"]);
+    let (code, _, err) = run_cli(&dir, "simulate", &args);
+    assert_eq!(code, 0, "{err}");
+    let sat = DataSet::read(&dir.join("sat-event.csv"), 22.0).unwrap();
+    let eph = Ephemeris::parse(&text, "sat.csv").unwrap();
+    let m = moving_model();
+    let seen = m
+        .magnifications_seen(
+            &sat.times,
+            &Observer::At(&eph),
+            LimbDarkening::Uniform,
+            1e-4,
+        )
+        .unwrap();
+    let ground = m
+        .magnifications(&sat.times, LimbDarkening::Uniform, 1e-4)
+        .unwrap();
+    // The file follows the satellite's curve (noise 0.001 mag), not the ground's.
+    let mags: Vec<f64> = seen.iter().map(|a| 22.0 - 2.5 * a.log10()).collect();
+    let file_mags: Vec<f64> = sat.flux.iter().map(|f| 22.0 - 2.5 * f.log10()).collect();
+    let worst = mags
+        .iter()
+        .zip(&file_mags)
+        .map(|(a, b)| (a - b).abs())
+        .fold(0.0, f64::max);
+    assert!(worst < 0.006, "{worst} mag from the satellite's curve");
+    // 1 au at pi_E = 0.32 moves the source by about 0.3 Einstein radii: a peak of another
+    // height (at u0 = 0.1, A is about 1/u).
+    let peak = |a: &[f64]| a.iter().copied().fold(0.0, f64::max);
+    assert!((peak(&seen) / peak(&ground) - 1.0).abs() > 0.2);
+    // The ephemeris must cover the data.
+    let late = MOVING.replace("8200,8400,300", "8300,8500,10");
+    let mut args: Vec<&str> = late.split_whitespace().collect();
+    args.extend(["--ephemeris", "sat.csv", "--out", "late.csv"]);
+    let (code, _, err) = run_cli(&dir, "simulate", &args);
+    assert_eq!(code, 2, "{err}");
+    assert!(!dir.join("late.csv").exists());
+    assert!(err.contains("sat.csv: no position"), "{err}");
+}
+
+#[test]
+fn parallax_options_need_coordinates() {
+    let dir = Scratch::new("parallax-options");
+    let args = [
+        "--s",
+        "1.2",
+        "--q",
+        "4e-3",
+        "--t0",
+        "8300",
+        "--u0",
+        "0.1",
+        "--te",
+        "60",
+        "--alpha",
+        "30",
+        "--time-range",
+        "8200,8400,30",
+        "--pi-e-n",
+        "0.3",
+        "--out",
+        "e.csv",
+    ];
+    let (code, _, err) = run_cli(&dir, "simulate", &args);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("--ra"), "{err}");
+    let mut bad = args.to_vec();
+    bad.extend(["--ra", "25:00:00", "--dec", "-29"]);
+    let (code, _, err) = run_cli(&dir, "simulate", &bad);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("--ra: hours"), "{err}");
+    assert!(!dir.join("e.csv").exists());
 }

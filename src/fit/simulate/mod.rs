@@ -21,6 +21,7 @@ mod schedule;
 use super::model::BinaryModel;
 use super::photometry::{flux_to_mag, DataSet, Measured, DEFAULT_ZERO_POINT};
 use crate::error::{Error, Result};
+use crate::parallax::Observer;
 use crate::source::LimbDarkening;
 use crate::table::fmt_f64;
 use rand::{Rng, SeedableRng};
@@ -208,9 +209,17 @@ impl Simulation {
     /// The simulated points at `times` (any order; at least 3, finite and distinct), sorted by
     /// time.
     pub fn synthesize(&self, times: &[f64]) -> Result<Synthetic> {
+        self.synthesize_seen(times, &Observer::Earth)
+    }
+
+    /// [`Simulation::synthesize`] for an `observer` of its own (a satellite's ephemeris): with
+    /// parallax, its curve is seen from its own position.
+    pub fn synthesize_seen(&self, times: &[f64], observer: &Observer) -> Result<Synthetic> {
         self.check()?;
         let times = sorted_times(times)?;
-        let magnifications = self.model.magnifications(&times, self.law, self.tol)?;
+        let magnifications = self
+            .model
+            .magnifications_seen(&times, observer, self.law, self.tol)?;
         let (measured, sigma) = match self.noise {
             Noise::Magnitude { sigma } => (Measured::Magnitude, sigma),
             Noise::Flux { sigma } => (Measured::Flux, sigma),
