@@ -2,8 +2,9 @@
 //! `simulate` (the model's values) and `search` (the coordinates that turn the parallax stage
 //! on).
 
-use crate::error::{Error, Result};
+use crate::error::{shown, Error, Result};
 use crate::fit::model::{LensOrbit, Parallax, Trajectory};
+use crate::fit::motion::MotionOptions;
 use crate::parallax::{jd_origin, Ephemeris, Geometry, SkyPosition};
 use clap::Args;
 use std::path::PathBuf;
@@ -97,5 +98,60 @@ impl MotionArgs {
     /// The observatory's ephemeris, if one was given.
     pub fn ephemeris(&self) -> Result<Option<Ephemeris>> {
         self.ephemeris.as_deref().map(Ephemeris::read).transpose()
+    }
+}
+
+/// The parallax stage of `search`: on when the coordinates are given.
+#[derive(Debug, Clone, Args)]
+pub struct FitMotionArgs {
+    #[command(flatten)]
+    pub coordinates: CoordinateArgs,
+    /// Reference time of the parallax fit, t0,par (days; default: the single lens's t0 rounded).
+    #[arg(long, value_name = "T", requires = "ra")]
+    pub t0_par: Option<f64>,
+    /// Fit parallax alone, without lens orbital motion.
+    #[arg(long, requires = "ra")]
+    pub no_orbit: bool,
+    /// Static minima refined again with parallax (the best first).
+    #[arg(long, value_name = "N", default_value_t = 2, requires = "ra")]
+    pub parallax_minima: usize,
+    /// Data set K (from 1, in input order) is seen from the observatory of FILE (CSV t,x,y,z:
+    /// heliocentric equatorial J2000 positions in au); repeat for several.
+    #[arg(long, value_name = "K=FILE.csv", requires = "ra")]
+    pub ephemeris: Vec<String>,
+}
+
+impl FitMotionArgs {
+    /// The stage's options for `sets` data sets at magnification tolerance `tol`, or `None`
+    /// without coordinates; ephemeris files are read here, before any fitting.
+    pub fn options(&self, sets: usize, tol: f64) -> Result<Option<MotionOptions>> {
+        let Some(sky) = self.coordinates.position()? else {
+            return Ok(None);
+        };
+        if self.parallax_minima == 0 {
+            return Err(Error::input("--parallax-minima: must be at least 1"));
+        }
+        let mut ephemerides = vec![None; sets];
+        for given in &self.ephemeris {
+            let (k, file) = given
+                .split_once('=')
+                .and_then(|(k, f)| Some((k.trim().parse::<usize>().ok()?, f)))
+                .filter(|(k, _)| (1..=sets).contains(k))
+                .ok_or_else(|| {
+                    Error::input(format!(
+                        "--ephemeris: '{}' is not K=FILE with K a data set from 1 to {sets}",
+                        shown(given)
+                    ))
+                })?;
+            ephemerides[k - 1] = Some(Ephemeris::read(file.as_ref())?);
+        }
+        Ok(Some(MotionOptions {
+            t0_par: self.t0_par,
+            orbit: !self.no_orbit,
+            ephemerides,
+            minima: self.parallax_minima,
+            tol,
+            ..MotionOptions::new(sky)
+        }))
     }
 }

@@ -1,12 +1,14 @@
 //! `causeway search`: fit photometry with binary-lens models from a map library.
 
 use super::library::StoreArgs;
+use super::motion::FitMotionArgs;
 use super::physical::PhysicalArgs;
 use super::progress::Reporter;
 use super::ThreadArgs;
 use crate::error::{Error, Result};
 use crate::fit::event::{fit_event, FitOptions, FitResult, DEFAULT_CLIP_SIGMA};
 use crate::fit::minima::RefineOptions;
+use crate::fit::motion::{fit_motion, MotionMinimum};
 use crate::fit::noise::Clipped;
 use crate::fit::photometry::{DataSet, DEFAULT_ZERO_POINT};
 use crate::fit::plots::{chi2_map_png, model_png};
@@ -39,7 +41,11 @@ use std::time::Duration;
     causeway search site-a.csv site-b.csv --library planets.toml --ld 0.55,0.62 --out minima.csv --chi2-map chi2.png --plot best.png\n  \
     causeway search event.csv --library /shared/maps --rho 0.001,0.002 --refine 6 --exclude 8205.1,8206.3\n  \
     causeway search event.csv --library planets.toml --baseline 8210.5,0.12,31 --budget 120\n  \
-    causeway search event.csv --library planets.toml --theta-star 0.6 --dl 4 --ds 8"
+    causeway search event.csv --library planets.toml --theta-star 0.6 --dl 4 --ds 8\n  \
+    causeway search ground.csv space.csv --library planets.toml --ra 17:55:00 --dec -29:30:00 --ephemeris 2=space-orbit.csv\n\n\
+    With --ra/--dec each of the best static minima is refined again with parallax (both signs \
+    of u0: the ecliptic pair) and then with lens orbital motion; each is a row of the table \
+    (model parallax or parallax+orbit) with its pi_E, rates and delta_chi2_static."
 )]
 pub struct SearchArgs {
     /// Data-set files (CSV), one per observatory or band.
@@ -156,6 +162,8 @@ pub struct SearchArgs {
     pub plot: Option<PathBuf>,
     #[command(flatten)]
     pub physical: PhysicalArgs,
+    #[command(flatten)]
+    pub motion: FitMotionArgs,
     #[command(flatten)]
     pub threads: ThreadArgs,
 }
@@ -331,7 +339,20 @@ impl Outputs {
         physical: Option<PhysicalInput>,
         tol: f64,
     ) -> Result<()> {
+        self.write_with(data, fit, &[], physical, tol)
+    }
+
+    /// [`Outputs::write`] with the parallax stage's models as rows of the table.
+    pub fn write_with(
+        &self,
+        data: &[DataSet],
+        fit: &FitResult,
+        motion: &[MotionMinimum],
+        physical: Option<PhysicalInput>,
+        tol: f64,
+    ) -> Result<()> {
         let report = Report {
+            motion,
             data,
             single: &fit.single,
             minima: &fit.minima,
@@ -443,10 +464,15 @@ pub fn run(args: SearchArgs) -> Result<()> {
         .then(|| args.physical.input())
         .transpose()?;
     let data = args.data_sets()?;
+    let motion = args.motion.options(data.len(), options.refine.tol)?;
     let reporter = Reporter::new();
     let maps = library_maps(&args.library, &args.store, &reporter)?;
     let fit = fit_event(&data, MapSource::Files(&maps), &options, &reporter)?;
+    let rows = match &motion {
+        Some(m) => fit_motion(&data, &fit, m, &reporter)?,
+        None => Vec::new(),
+    };
     drop(reporter);
     args.outputs()
-        .write(&data, &fit, physical, options.refine.tol)
+        .write_with(&data, &fit, &rows, physical, options.refine.tol)
 }

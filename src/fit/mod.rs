@@ -4,6 +4,7 @@
 //! - `photometry`: data-set files (magnitudes or fluxes), per-set limb darkening and error scale;
 //! - `fluxes`: source and blend fluxes by linear least squares, chi^2;
 //! - `model`: the event model (binary lens, source, trajectory) and its exact magnifications;
+//! - `motion`: the parallax and lens orbital-motion stage after the static fit;
 //! - `optimize`: local minimisation and curvature uncertainties;
 //! - `single`: the single-lens point-source fit that seeds the search;
 //! - `simulate`: synthetic photometry of a model;
@@ -23,6 +24,7 @@ pub mod fluxes;
 pub mod hop;
 pub mod minima;
 pub mod model;
+pub mod motion;
 pub mod noise;
 pub mod optimize;
 pub mod photometry;

@@ -288,6 +288,29 @@ pub fn covariance(
     )
 }
 
+/// Covariance `(J^T J)^-1` of the parameters at a least-squares minimum of `residuals`
+/// (normalised residuals, so that chi^2 is their sum of squares), with the Jacobian from
+/// forward differences of steps `h`: the Gauss-Newton approximation, `x.len()` evaluations
+/// instead of the Hessian's `2 n^2`. `None` where `J^T J` is singular.
+///
+/// ```
+/// use causeway::fit::optimize::gauss_newton_covariance;
+/// // Residuals (y_i - a - b t_i) / 0.5 of a line through t = -1, 1: J^T J = diag(8, 8), so
+/// // each variance is 1/8.
+/// let r = |p: &[f64]| Some(vec![(1.0 - p[0] + p[1]) / 0.5, (3.0 - p[0] - p[1]) / 0.5]);
+/// let c = gauss_newton_covariance(&r, &[2.0, 1.0], &[1e-6, 1e-6]).unwrap();
+/// assert!((c[0][0] - 0.125).abs() < 1e-6 && (c[1][1] - 0.125).abs() < 1e-6);
+/// ```
+pub fn gauss_newton_covariance(
+    residuals: &(dyn Fn(&[f64]) -> Option<Vec<f64>> + Sync),
+    x: &[f64],
+    h: &[f64],
+) -> Option<Vec<Vec<f64>>> {
+    let r0 = residuals(x)?;
+    let jac = jacobian(residuals, x, &r0, h)?;
+    invert_positive_definite(&normal_matrix(&jac))
+}
+
 /// Inverse of a symmetric positive-definite matrix by Cholesky factorisation; `None` if it is
 /// not positive definite or not finite.
 fn invert_positive_definite(a: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {

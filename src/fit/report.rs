@@ -10,8 +10,19 @@
 //! `fs_K,fb_K,error_scale_K,clipped_K` for each data set K (numbered from 1 in input order; the
 //! scale applied in the fit and the points clipped), then the physical scales when any were
 //! asked for.
+//!
+//! With the parallax stage ([`super::motion`]) its models follow the static ones as rows of
+//! their own (ranks go on counting; `model` is `parallax` or `parallax+orbit`; `dof` counts
+//! their 9 or 11 parameters; `search_chi2` is their static minimum's), and every row gets the
+//! columns `static_rank,delta_chi2_static,pi_EN,pi_EN_err,pi_EE,pi_EE_err,t0_par,ds_dt,
+//! ds_dt_err,dalpha_dt,dalpha_dt_err,t0_kep` (empty on static rows; `delta_chi2_static` is the
+//! static minimum's chi^2 less this one's, on the fitted data; rates per year, dalpha/dt in
+//! radians).
 
+use super::fluxes::FluxFit;
 use super::minima::Minimum;
+use super::model::BinaryModel;
+use super::motion::MotionMinimum;
 use super::photometry::DataSet;
 use super::scales::{scales, PhysicalInput, Scales};
 use super::single::SingleLensFit;
@@ -34,7 +45,13 @@ pub struct Report<'a> {
     pub clipped: Vec<usize>,
     /// Physical input, if any was given.
     pub physical: Option<PhysicalInput>,
+    /// The parallax stage's models (empty without it).
+    pub motion: &'a [MotionMinimum],
 }
+
+/// The columns of the parallax stage's rows.
+const MOTION_COLUMNS: &str = ",static_rank,delta_chi2_static,pi_EN,pi_EN_err,pi_EE,pi_EE_err,\
+                              t0_par,ds_dt,ds_dt_err,dalpha_dt,dalpha_dt_err,t0_kep";
 
 impl Report<'_> {
     /// chi^2 of minimum `i` over the data as given.
@@ -49,12 +66,16 @@ impl Report<'_> {
 
     /// Degrees of freedom of a binary model: points less 7 parameters and 2 fluxes per set.
     pub fn dof(&self) -> usize {
-        let n: usize = self.data.iter().map(DataSet::len).sum();
-        n.saturating_sub(7 + 2 * self.data.len())
+        self.dof_of(7)
     }
 
-    fn scales_of(&self, m: &Minimum) -> Result<Option<Scales>> {
-        let model = &m.refined.model;
+    /// Degrees of freedom of a model of `parameters` parameters and 2 fluxes per set.
+    fn dof_of(&self, parameters: usize) -> usize {
+        let n: usize = self.data.iter().map(DataSet::len).sum();
+        n.saturating_sub(parameters + 2 * self.data.len())
+    }
+
+    fn scales_of(&self, model: &BinaryModel) -> Result<Option<Scales>> {
         self.physical
             .as_ref()
             .map(|p| scales(p, model.rho, model.trajectory.line().te, model.s, model.q))
@@ -75,60 +96,115 @@ impl Report<'_> {
                 let _ = write!(out, ",{name}");
             }
         }
+        if !self.motion.is_empty() {
+            out.push_str(&MOTION_COLUMNS.replace(' ', ""));
+        }
         out.push('\n');
-        let single = self.single_chi2();
         for (i, m) in self.minima.iter().enumerate() {
             let r = &m.refined;
-            let l = r.model.trajectory.line();
-            let sg = r.sigma;
-            let values = [
-                r.model.s,
-                sg[0],
-                r.model.q,
-                sg[1],
-                l.alpha.to_degrees(),
-                sg[2].to_degrees(),
-                l.u0,
-                sg[3],
-                l.t0,
-                sg[4],
-                l.te,
-                sg[5],
-                r.model.rho,
-                sg[6],
-            ];
-            let _ = write!(out, "{}", i + 1);
-            for v in values {
-                let _ = write!(out, ",{}", fmt_f64(v));
-            }
-            let chi2 = self.chi2(i);
-            let _ = write!(
-                out,
-                ",{},{},{},{},{}",
-                fmt_f64(chi2),
-                self.dof(),
-                fmt_f64(single - chi2),
-                fmt_f64(m.search_chi2),
-                m.partner.map_or(String::new(), |p| p.to_string())
-            );
-            let _ = write!(out, ",{},{}", fmt_f64(r.chi2), r.model.kind());
-            for ((f, k), c) in r.fluxes.iter().zip(self.error_scales).zip(&self.clipped) {
-                let _ = write!(
-                    out,
-                    ",{},{},{},{c}",
-                    fmt_f64(f.fs),
-                    fmt_f64(f.fb),
-                    fmt_f64(*k)
-                );
-            }
-            if let Some(sc) = self.scales_of(m)? {
-                for v in sc.values() {
-                    let _ = write!(out, ",{}", v.map_or(String::new(), fmt_f64));
-                }
+            let row = Row {
+                model: &r.model,
+                sigma: &r.sigma,
+                chi2: self.chi2(i),
+                dof: self.dof(),
+                search_chi2: m.search_chi2,
+                partner: m.partner,
+                chi2_fit: r.chi2,
+                fluxes: &r.fluxes,
+            };
+            self.row(&mut out, i + 1, &row)?;
+            if !self.motion.is_empty() {
+                out.push_str(&",".repeat(MOTION_COLUMNS.matches(',').count()));
             }
             out.push('\n');
         }
+        for (j, m) in self.motion.iter().enumerate() {
+            let row = Row {
+                model: &m.model,
+                sigma: &m.sigma,
+                chi2: m.chi2_as_given,
+                dof: self.dof_of(m.sigma.len()),
+                search_chi2: self.minima[m.from].search_chi2,
+                partner: None,
+                chi2_fit: m.chi2,
+                fluxes: &m.fluxes,
+            };
+            self.row(&mut out, self.minima.len() + j + 1, &row)?;
+            let tr = &m.model.trajectory;
+            let opt = |v: Option<f64>| v.map_or(String::new(), fmt_f64);
+            let sig = |k: usize| opt(m.sigma.get(k).copied());
+            let p = tr.parallax();
+            let o = tr.orbit();
+            let _ = write!(
+                out,
+                ",{},{},{},{},{},{},{},{},{},{},{},{}",
+                m.from + 1,
+                fmt_f64(m.delta_chi2),
+                opt(p.map(|p| p.pi_en)),
+                sig(7),
+                opt(p.map(|p| p.pi_ee)),
+                sig(8),
+                opt(p.map(|p| p.geometry.t0_par)),
+                opt(o.map(|o| o.ds_dt)),
+                if o.is_some() { sig(9) } else { String::new() },
+                opt(o.map(|o| o.dalpha_dt)),
+                if o.is_some() { sig(10) } else { String::new() },
+                opt(o.map(|o| o.t0_kep)),
+            );
+            out.push('\n');
+        }
         Ok(out)
+    }
+
+    /// The columns every row has, without the line end.
+    fn row(&self, out: &mut String, rank: usize, row: &Row) -> Result<()> {
+        let l = row.model.trajectory.line();
+        let sg = row.sigma;
+        let values = [
+            row.model.s,
+            sg[0],
+            row.model.q,
+            sg[1],
+            l.alpha.to_degrees(),
+            sg[2].to_degrees(),
+            l.u0,
+            sg[3],
+            l.t0,
+            sg[4],
+            l.te,
+            sg[5],
+            row.model.rho,
+            sg[6],
+        ];
+        let _ = write!(out, "{rank}");
+        for v in values {
+            let _ = write!(out, ",{}", fmt_f64(v));
+        }
+        let _ = write!(
+            out,
+            ",{},{},{},{},{}",
+            fmt_f64(row.chi2),
+            row.dof,
+            fmt_f64(self.single_chi2() - row.chi2),
+            fmt_f64(row.search_chi2),
+            row.partner.map_or(String::new(), |p| p.to_string())
+        );
+        let _ = write!(out, ",{},{}", fmt_f64(row.chi2_fit), row.model.kind());
+        for ((f, k), c) in row.fluxes.iter().zip(self.error_scales).zip(&self.clipped) {
+            let _ = write!(
+                out,
+                ",{},{},{},{c}",
+                fmt_f64(f.fs),
+                fmt_f64(f.fb),
+                fmt_f64(*k)
+            );
+        }
+        if let Some(sc) = self.scales_of(row.model)? {
+            for v in sc.values() {
+                let _ = write!(out, ",{}", v.map_or(String::new(), fmt_f64));
+            }
+        }
+        Ok(())
     }
 
     /// One line per minimum for the terminal.
@@ -170,6 +246,49 @@ impl Report<'_> {
                     .map_or(String::new(), |p| format!(" (close/wide partner of #{p})"))
             );
         }
+        for (j, m) in self.motion.iter().enumerate() {
+            let l = m.model.trajectory.line();
+            let (pn, pe) = m
+                .model
+                .trajectory
+                .parallax()
+                .map_or((f64::NAN, f64::NAN), |p| (p.pi_en, p.pi_ee));
+            let _ = writeln!(
+                out,
+                "#{} ({} from #{}): u0 = {:.5}, alpha = {:.2} deg, pi_E = ({:.3} +- {:.3}, \
+                 {:.3} +- {:.3}){}: chi2 = {:.1}, {:.1} below the static model",
+                self.minima.len() + j + 1,
+                m.model.kind(),
+                m.from + 1,
+                l.u0,
+                l.alpha.to_degrees(),
+                pn,
+                m.sigma[7],
+                pe,
+                m.sigma[8],
+                m.model
+                    .trajectory
+                    .orbit()
+                    .map_or(String::new(), |o| format!(
+                        ", ds/dt = {:.3}/yr, dalpha/dt = {:.3} rad/yr",
+                        o.ds_dt, o.dalpha_dt
+                    )),
+                m.chi2_as_given,
+                m.delta_chi2
+            );
+        }
         out
     }
+}
+
+/// What one row of the table shows.
+struct Row<'a> {
+    model: &'a BinaryModel,
+    sigma: &'a [f64],
+    chi2: f64,
+    dof: usize,
+    search_chi2: f64,
+    partner: Option<usize>,
+    chi2_fit: f64,
+    fluxes: &'a [FluxFit],
 }

@@ -3,6 +3,7 @@
 //! geocentric offsets written out independently in numpy).
 
 use crate::common;
+mod recovery;
 
 use causeway::fit::model::{BinaryModel, LensOrbit, Parallax, Trajectory};
 use causeway::fit::photometry::DataSet;
@@ -348,4 +349,100 @@ fn parallax_options_need_coordinates() {
     assert_eq!(code, 2, "{err}");
     assert!(err.contains("--ra: hours"), "{err}");
     assert!(!dir.join("e.csv").exists());
+}
+
+#[test]
+#[ignore = "slow: a library of 4 maps, the static fit and the parallax stage (about half a minute)"]
+fn search_with_coordinates_adds_the_parallax_rows() {
+    let dir = Scratch::new("parallax-search");
+    let sim = [
+        "--s",
+        "1.3",
+        "--q",
+        "3e-3",
+        "--rho",
+        "0.01",
+        "--t0",
+        "8300",
+        "--u0",
+        "0.15",
+        "--te",
+        "25",
+        "--alpha",
+        "343.56",
+        "--time-range",
+        "8250,8350,200",
+        "--ra",
+        "18:00:00",
+        "--dec",
+        "-29:00:00",
+        "--pi-e-n",
+        "0.5",
+        "--pi-e-e",
+        "0.2",
+        "--out",
+        "event.csv",
+    ];
+    let (code, _, err) = run_cli(&dir, "simulate", &sim);
+    assert_eq!(code, 0, "{err}");
+    std::fs::write(
+        dir.join("lib.toml"),
+        "s = [1.25, 1.35]\nq = [2e-3, 4e-3]\npixels = 200\nrays = 1\n\
+         engine = \"polygon\"\n[window]\nrule = \"planetary\"\n",
+    )
+    .unwrap();
+    let search = [
+        "event.csv",
+        "--rho",
+        "0.01",
+        "--refine",
+        "1",
+        "--max-iters",
+        "40",
+        "--library",
+        "lib.toml",
+        "--store",
+        "maps",
+        "--ra",
+        "270",
+        "--dec",
+        "-29",
+        "--no-orbit",
+        "--parallax-minima",
+        "1",
+    ];
+    let (code, csv, err) = run_cli(&dir, "search", &search);
+    assert_eq!(code, 0, "{err}");
+    let mut lines = csv.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    let col =
+        |row: &[&str], name: &str| row[header.iter().position(|h| *h == name).unwrap()].to_string();
+    let models: Vec<String> = rows.iter().map(|r| col(r, "model")).collect();
+    assert_eq!(
+        models.iter().filter(|m| *m == "parallax").count(),
+        2,
+        "{csv}"
+    );
+    assert_eq!(models[0], "static");
+    let first = rows
+        .iter()
+        .position(|r| col(r, "model") == "parallax")
+        .unwrap();
+    let p = &rows[first];
+    assert_eq!(col(p, "static_rank"), "1");
+    let pn: f64 = col(p, "pi_EN").parse().unwrap();
+    let pe: f64 = col(p, "pi_EE").parse().unwrap();
+    let (sn, se): (f64, f64) = (
+        col(p, "pi_EN_err").parse().unwrap(),
+        col(p, "pi_EE_err").parse().unwrap(),
+    );
+    assert!(
+        (pn - 0.5).abs() < 3.0 * sn && (pe - 0.2).abs() < 3.0 * se,
+        "{csv}"
+    );
+    let gain: f64 = col(p, "delta_chi2_static").parse().unwrap();
+    assert!(gain > 25.0, "{csv}");
+    assert_eq!(col(&rows[0], "pi_EN"), "");
+    assert!(err.contains("parallax:"), "{err}");
 }
