@@ -26,6 +26,7 @@ use super::model::{BinaryModel, LensOrbit, Parallax, Trajectory};
 use super::optimize::{gauss_newton_covariance, least_squares};
 use super::photometry::DataSet;
 use super::refine::COARSE_TOL;
+use super::scales::ParallaxMeasure;
 use crate::error::{Error, Result};
 use crate::parallax::{jd_origin, Ephemeris, Geometry, Observer, SkyPosition};
 use crate::progress::Progress;
@@ -90,6 +91,9 @@ pub struct MotionMinimum {
     pub model: BinaryModel,
     /// Uncertainties of [`PARAMETERS`] (9 or 11 values; NaN where unknown).
     pub sigma: Vec<f64>,
+    /// Covariance of the minimiser's parameters `(ln s, ln q, alpha, u0, t0, ln tE, ln rho,
+    /// pi_E,N, pi_E,E[, ds/dt, dalpha/dt])` (NaN rows and columns where unknown), if measured.
+    pub covariance: Option<Vec<Vec<f64>>>,
     /// chi^2 on the data the static fit ended with.
     pub chi2: f64,
     /// chi^2 on the data as given.
@@ -98,6 +102,55 @@ pub struct MotionMinimum {
     pub fluxes: Vec<FluxFit>,
     /// The static minimum's chi^2 less this one's (on the same data).
     pub delta_chi2: f64,
+}
+
+impl MotionMinimum {
+    /// What the parallax and the source size say of the lens (see [`ParallaxMeasure`]), with
+    /// `theta_*` in microarcseconds, and the covariance of `(theta_E, tE, pi_E,N, pi_E,E, s, q[,
+    /// ds/dt, dalpha/dt])` mapped from the minimiser's to first order (theta_*'s own
+    /// uncertainty left out). `None` without parallax or for a point source.
+    pub fn lens_measure(
+        &self,
+        theta_star_uas: f64,
+        ds_kpc: Option<f64>,
+    ) -> Option<(ParallaxMeasure, Option<Vec<Vec<f64>>>)> {
+        let m = &self.model;
+        let p = m.trajectory.parallax()?;
+        if !(m.rho > 0.0) {
+            return None;
+        }
+        let te = m.trajectory.line().te;
+        let theta_e = theta_star_uas * 1e-3 / m.rho;
+        let orbit = m.trajectory.orbit();
+        let measure = ParallaxMeasure {
+            theta_e_mas: theta_e,
+            te_days: te,
+            pi_e: (p.pi_en, p.pi_ee),
+            s: m.s,
+            q: m.q,
+            ds_kpc,
+            earth_velocity: p.geometry.earth_velocity(),
+            rates: orbit.map(|o| (o.ds_dt, o.dalpha_dt)),
+        };
+        // Each natural parameter: its index in the minimiser's vector and d(natural)/d(that).
+        let mut map = vec![
+            (6, -theta_e),
+            (5, te),
+            (7, 1.0),
+            (8, 1.0),
+            (0, m.s),
+            (1, m.q),
+        ];
+        if orbit.is_some() {
+            map.extend([(9, 1.0), (10, 1.0)]);
+        }
+        let cov = self.covariance.as_ref().map(|c| {
+            map.iter()
+                .map(|&(i, a)| map.iter().map(|&(j, b)| a * c[i][j] * b).collect())
+                .collect()
+        });
+        Some((measure, cov))
+    }
 }
 
 /// Runs the stage on the result of [`super::event::fit_event`] (`given`: the data as given to
@@ -202,8 +255,8 @@ pub fn refine_with_motion(
         let second = [partner, with(fixed.trajectory.mirrored())?]
             .iter()
             .map(|start| {
-                let (m, sigma) = fitter.refine(start)?;
-                Ok((fitter.chi2(&m)?.0, (m, sigma)))
+                let found = fitter.refine(start)?;
+                Ok((fitter.chi2(&found.0)?.0, found))
             })
             .collect::<Result<Vec<_>>>()?
             .into_iter()
@@ -226,7 +279,7 @@ pub fn refine_with_motion(
                 progress.advance(1);
             }
         }
-        for (model, sigma) in found {
+        for (model, sigma, covariance) in found {
             let (chi2, fluxes) = fitter.chi2(&model)?;
             let as_given = Fitter {
                 data: given,
@@ -238,6 +291,7 @@ pub fn refine_with_motion(
                 from,
                 model,
                 sigma,
+                covariance,
                 chi2,
                 chi2_as_given: as_given,
                 fluxes,
@@ -255,6 +309,9 @@ pub fn refine_with_motion(
     ));
     Ok(out)
 }
+
+/// A refined model, its uncertainties and the minimiser's covariance.
+type Fitted = (BinaryModel, Vec<f64>, Option<Vec<Vec<f64>>>);
 
 /// The data, their observers and the options: chi^2 and refinements.
 #[derive(Clone, Copy)]
@@ -295,7 +352,7 @@ impl Fitter<'_> {
 
     /// Levenberg-Marquardt from `start` (at the coarse tolerance, then at the one asked for,
     /// each pass repeated while it gains more than 0.1), and the uncertainties.
-    fn refine(&self, start: &BinaryModel) -> Result<(BinaryModel, Vec<f64>)> {
+    fn refine(&self, start: &BinaryModel) -> Result<Fitted> {
         let residuals_at = |tol: f64| {
             move |p: &[f64]| {
                 let m = from_vector(start, p).ok()?;
@@ -337,11 +394,11 @@ impl Fitter<'_> {
         let l = model.trajectory.line();
         let mut scale = vec![model.s, model.q, 1.0, 1.0, 1.0, l.te, model.rho, 1.0, 1.0];
         scale.extend(vec![1.0; x.len() - scale.len()]);
-        let sigma = match cov {
+        let sigma = match &cov {
             Some(c) => (0..x.len()).map(|i| scale[i] * c[i][i].sqrt()).collect(),
             None => vec![f64::NAN; x.len()],
         };
-        Ok((model, sigma))
+        Ok((model, sigma, cov))
     }
 }
 

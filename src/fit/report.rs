@@ -17,14 +17,17 @@
 //! columns `static_rank,delta_chi2_static,pi_EN,pi_EN_err,pi_EE,pi_EE_err,t0_par,ds_dt,
 //! ds_dt_err,dalpha_dt,dalpha_dt_err,t0_kep` (empty on static rows; `delta_chi2_static` is the
 //! static minimum's chi^2 less this one's, on the fitted data; rates per year, dalpha/dt in
-//! radians).
+//! radians). With `--theta-star` as well, the parallax rows also get what parallax and the
+//! source size say of the lens ([`super::scales::ParallaxMeasure`]; `lens_dl_kpc`, the
+//! separation and the energy ratio need `--ds`): each of [`LENS_NAMES`] and its `_err`, and
+//! `orbit_flag`, `unbound` where the projected kinetic to potential energy ratio is 1 or more.
 
 use super::fluxes::FluxFit;
 use super::minima::Minimum;
 use super::model::BinaryModel;
 use super::motion::MotionMinimum;
 use super::photometry::DataSet;
-use super::scales::{scales, PhysicalInput, Scales};
+use super::scales::{scales, LensValues, PhysicalInput, Scales, LENS_NAMES};
 use super::single::SingleLensFit;
 use crate::error::Result;
 use crate::table::fmt_f64;
@@ -99,6 +102,16 @@ impl Report<'_> {
         if !self.motion.is_empty() {
             out.push_str(&MOTION_COLUMNS.replace(' ', ""));
         }
+        let theta_star = self
+            .physical
+            .and_then(|p| p.theta_star_uas)
+            .filter(|_| !self.motion.is_empty());
+        if theta_star.is_some() {
+            for name in LENS_NAMES {
+                let _ = write!(out, ",{name},{name}_err");
+            }
+            out.push_str(",orbit_flag");
+        }
         out.push('\n');
         for (i, m) in self.minima.iter().enumerate() {
             let r = &m.refined;
@@ -115,6 +128,9 @@ impl Report<'_> {
             self.row(&mut out, i + 1, &row)?;
             if !self.motion.is_empty() {
                 out.push_str(&",".repeat(MOTION_COLUMNS.matches(',').count()));
+            }
+            if theta_star.is_some() {
+                out.push_str(&",".repeat(2 * LENS_NAMES.len() + 1));
             }
             out.push('\n');
         }
@@ -151,9 +167,26 @@ impl Report<'_> {
                 if o.is_some() { sig(10) } else { String::new() },
                 opt(o.map(|o| o.t0_kep)),
             );
+            if let Some(theta_star) = theta_star {
+                let (v, e) = self.lens_of(m, theta_star);
+                for k in 0..LENS_NAMES.len() {
+                    let _ = write!(out, ",{},{}", finite(v[k]), finite(e[k]));
+                }
+                let _ = write!(out, ",{}", if v[10] >= 1.0 { "unbound" } else { "" });
+            }
             out.push('\n');
         }
         Ok(out)
+    }
+
+    /// What the parallax row `m` says of the lens, and the uncertainties (NaN where unknown).
+    fn lens_of(&self, m: &MotionMinimum, theta_star: f64) -> (LensValues, LensValues) {
+        let ds = self.physical.and_then(|p| p.ds_kpc);
+        match m.lens_measure(theta_star, ds) {
+            Some((measure, Some(cov))) => measure.lens_with_errors(&cov),
+            Some((measure, None)) => (measure.lens(), [f64::NAN; 11]),
+            None => ([f64::NAN; 11], [f64::NAN; 11]),
+        }
     }
 
     /// The columns every row has, without the line end.
@@ -278,6 +311,15 @@ impl Report<'_> {
             );
         }
         out
+    }
+}
+
+/// A number, or empty when it is not finite.
+fn finite(v: f64) -> String {
+    if v.is_finite() {
+        fmt_f64(v)
+    } else {
+        String::new()
     }
 }
 

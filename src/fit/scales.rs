@@ -219,3 +219,172 @@ pub fn scales(input: &PhysicalInput, rho: f64, te: f64, s: f64, q: f64) -> Resul
         separation_au: theta_e.zip(input.dl_kpc).map(|(th, dl)| s * th * dl),
     })
 }
+
+/// What parallax and the finite source measure together: the lens without a Galactic model
+/// (Gould 2000, ApJ 542, 785; Gould 2004, ApJ 606, 319).
+///
+/// With `theta_E` and `pi_E = |pi_E|`: the total mass `M = theta_E / (kappa pi_E)`, the relative
+/// parallax `pi_rel = theta_E pi_E`, with the source distance `D_L = au / (pi_rel + pi_S)` and
+/// the projected separation `s theta_E D_L`; the geocentric proper motion
+/// `mu_geo = theta_E / tE` along `pi_E`, the heliocentric one
+/// `mu_hel = mu_geo + v_E pi_rel / au` (`v_E`: the Earth's velocity at `t0,par` projected on the
+/// sky) and `tE,hel = theta_E / |mu_hel|`; with orbital motion and `D_L`, the ratio of
+/// projected kinetic to potential energy `r^3 gamma^2 / (2 G M)` (`G M_sun` the IAU nominal
+/// value, about `4 pi^2 au^3/yr^2`), `r = s theta_E D_L`, `gamma^2 = (ds/dt / s)^2 +
+/// (dalpha/dt)^2` (Dong et al. 2009, ApJ 695, 970); a bound orbit needs it below 1.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ParallaxMeasure {
+    /// Einstein angle (mas).
+    pub theta_e_mas: f64,
+    /// Geocentric Einstein timescale (days).
+    pub te_days: f64,
+    /// `(pi_E,N, pi_E,E)`.
+    pub pi_e: (f64, f64),
+    /// Separation (Einstein radii).
+    pub s: f64,
+    /// Mass ratio.
+    pub q: f64,
+    /// Source distance (kpc), if known.
+    pub ds_kpc: Option<f64>,
+    /// The Earth's velocity at `t0,par` projected on the sky, (north, east), au per year.
+    pub earth_velocity: (f64, f64),
+    /// `(ds/dt per year, dalpha/dt radians per year)`, with orbital motion.
+    pub rates: Option<(f64, f64)>,
+}
+
+/// What [`ParallaxMeasure::lens`] gives, in the order of [`LENS_NAMES`] (NaN where unknown).
+pub type LensValues = [f64; 11];
+
+/// Names of [`LensValues`].
+pub const LENS_NAMES: [&str; 11] = [
+    "lens_mass_msun",
+    "lens_host_msun",
+    "lens_companion_mjup",
+    "lens_pi_rel_mas",
+    "lens_dl_kpc",
+    "lens_separation_au",
+    "mu_hel_n_mas_per_yr",
+    "mu_hel_e_mas_per_yr",
+    "tE_hel_days",
+    "mu_geo_mas_per_yr",
+    "energy_ratio",
+];
+
+impl ParallaxMeasure {
+    /// The lens: the values of [`LENS_NAMES`].
+    ///
+    /// ```
+    /// use causeway::fit::scales::{kappa, ParallaxMeasure};
+    /// let m = ParallaxMeasure { theta_e_mas: 0.5, te_days: 40.0, pi_e: (0.3, 0.4), s: 1.1,
+    ///     q: 1e-3, ds_kpc: Some(8.0), earth_velocity: (0.0, 0.0), rates: None };
+    /// let v = m.lens();
+    /// assert!((v[0] - 0.5 / (kappa() * 0.5)).abs() < 1e-12); // M = theta_E / (kappa pi_E)
+    /// assert!((v[4] - 1.0 / (0.25 + 0.125)).abs() < 1e-12); // D_L = au / (pi_rel + pi_S)
+    /// ```
+    pub fn lens(&self) -> LensValues {
+        let pi = self.pi_e.0.hypot(self.pi_e.1);
+        let th = self.theta_e_mas;
+        let mass = th / (kappa() * pi);
+        let pi_rel = th * pi;
+        let dl = self.ds_kpc.map_or(f64::NAN, |ds| 1.0 / (pi_rel + 1.0 / ds));
+        let separation = self.s * th * dl;
+        let mu_geo = th / self.te_days * DAYS_PER_YEAR;
+        let (un, ue) = (self.pi_e.0 / pi, self.pi_e.1 / pi);
+        let mu_n = mu_geo * un + self.earth_velocity.0 * pi_rel;
+        let mu_e = mu_geo * ue + self.earth_velocity.1 * pi_rel;
+        let te_hel = th / mu_n.hypot(mu_e) * DAYS_PER_YEAR;
+        let energy = self.rates.map_or(f64::NAN, |(ds, da)| {
+            let gamma2 = (ds / self.s).powi(2) + da * da;
+            // G M_sun in au^3 per Julian year^2 (about 4 pi^2).
+            let gm = GM_SUN * (DAYS_PER_YEAR * 86_400.0).powi(2) / AU.powi(3);
+            separation.powi(3) * gamma2 / (2.0 * gm * mass)
+        });
+        let companion = self.q * mass / (1.0 + self.q);
+        [
+            mass,
+            mass / (1.0 + self.q),
+            companion * GM_SUN / GM_JUPITER,
+            pi_rel,
+            dl,
+            separation,
+            mu_n,
+            mu_e,
+            te_hel,
+            mu_geo,
+            energy,
+        ]
+    }
+
+    /// [`ParallaxMeasure::lens`] with first-order uncertainties from the covariance `cov` of
+    /// `(theta_E, tE, pi_E,N, pi_E,E, s, q[, ds/dt, dalpha/dt])` (central differences of
+    /// steps a thousandth of each standard deviation).
+    pub fn lens_with_errors(&self, cov: &[Vec<f64>]) -> (LensValues, LensValues) {
+        let x = self.vector();
+        let n = cov.len().min(x.len());
+        let value = self.lens();
+        let mut grads = vec![[0.0; 11]; n];
+        for (i, g) in grads.iter_mut().enumerate() {
+            let h = 1e-3 * cov[i][i].sqrt();
+            if !(h.is_finite() && h > 0.0) {
+                // Exactly known: no contribution; unknown: every value unknown.
+                *g = [if h == 0.0 { 0.0 } else { f64::NAN }; 11];
+                continue;
+            }
+            let at = |d: f64| {
+                let mut p = x.clone();
+                p[i] += d;
+                self.with_vector(&p).lens()
+            };
+            let (up, down) = (at(h), at(-h));
+            for k in 0..11 {
+                g[k] = (up[k] - down[k]) / (2.0 * h);
+            }
+        }
+        let mut sigma = [0.0; 11];
+        for (k, sk) in sigma.iter_mut().enumerate() {
+            let mut v = 0.0;
+            for i in 0..n {
+                for j in 0..n {
+                    let (gi, gj) = (grads[i][k], grads[j][k]);
+                    // A parameter that does not move this value adds nothing, known or not.
+                    if gi != 0.0 && gj != 0.0 {
+                        v += gi * cov[i][j] * gj;
+                    }
+                }
+            }
+            *sk = if value[k].is_finite() {
+                v.sqrt()
+            } else {
+                f64::NAN
+            };
+        }
+        (value, sigma)
+    }
+
+    fn vector(&self) -> Vec<f64> {
+        let mut v = vec![
+            self.theta_e_mas,
+            self.te_days,
+            self.pi_e.0,
+            self.pi_e.1,
+            self.s,
+            self.q,
+        ];
+        if let Some((a, b)) = self.rates {
+            v.extend([a, b]);
+        }
+        v
+    }
+
+    fn with_vector(&self, p: &[f64]) -> ParallaxMeasure {
+        ParallaxMeasure {
+            theta_e_mas: p[0],
+            te_days: p[1],
+            pi_e: (p[2], p[3]),
+            s: p[4],
+            q: p[5],
+            rates: self.rates.map(|_| (p[6], p[7])),
+            ..*self
+        }
+    }
+}

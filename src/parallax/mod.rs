@@ -225,6 +225,13 @@ impl Geometry {
         self.sky.basis().project(r.map(|v| -v))
     }
 
+    /// The Earth's heliocentric velocity at `t0,par` projected on the sky (au per Julian year;
+    /// north, east).
+    pub fn earth_velocity(&self) -> (f64, f64) {
+        let v = earth_velocity(self.t0_par + self.jd_origin).map(|v| v * 365.25);
+        self.sky.basis().project(v)
+    }
+
     /// `Delta s` of the module documentation at each time, for `observer` (au; north, east).
     pub fn offsets(&self, times: &[f64], observer: &Observer) -> Result<Vec<(f64, f64)>> {
         let basis = self.sky.basis();

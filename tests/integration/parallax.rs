@@ -446,3 +446,92 @@ fn search_with_coordinates_adds_the_parallax_rows() {
     assert_eq!(col(&rows[0], "pi_EN"), "");
     assert!(err.contains("parallax:"), "{err}");
 }
+
+#[test]
+fn the_lens_from_theta_e_and_pi_e_matches_astropy() {
+    use causeway::fit::scales::{ParallaxMeasure, LENS_NAMES};
+    let inputs = [
+        "ra_deg",
+        "dec_deg",
+        "t0_par",
+        "theta_E_mas",
+        "tE_days",
+        "pi_EN",
+        "pi_EE",
+        "s",
+        "q",
+        "ds_kpc",
+        "ds_dt",
+        "dalpha_dt",
+    ];
+    let columns: Vec<&str> = inputs.iter().chain(LENS_NAMES.iter()).copied().collect();
+    let t = common::reference("parallax_lens.csv", &columns);
+    let mut unbound = 0;
+    for r in &t.rows {
+        let g = geometry(r);
+        let m = ParallaxMeasure {
+            theta_e_mas: r[3],
+            te_days: r[4],
+            pi_e: (r[5], r[6]),
+            s: r[7],
+            q: r[8],
+            ds_kpc: Some(r[9]),
+            earth_velocity: g.earth_velocity(),
+            rates: Some((r[10], r[11])),
+        };
+        let v = m.lens();
+        for (k, name) in LENS_NAMES.iter().enumerate() {
+            let want = r[12 + k];
+            // The heliocentric motion uses our Earth's velocity (the barycentre's orbit, without
+            // the Moon's 12.6 m/s of 30 km/s); everything else is exact arithmetic.
+            let tol = if name.starts_with("mu_hel") || *name == "tE_hel_days" {
+                2e-3 * r[21].max(want.abs())
+            } else {
+                1e-12 * want.abs()
+            };
+            assert!(
+                (v[k] - want).abs() <= tol,
+                "{name}: {} against astropy {want}",
+                v[k]
+            );
+        }
+        if v[10] >= 1.0 {
+            unbound += 1;
+        }
+    }
+    assert_eq!(unbound, 1, "one invented orbit is not bound");
+}
+
+#[test]
+fn lens_uncertainties_follow_the_covariance() {
+    use causeway::fit::scales::ParallaxMeasure;
+    let m = ParallaxMeasure {
+        theta_e_mas: 0.5,
+        te_days: 40.0,
+        pi_e: (0.3, -0.4),
+        s: 1.1,
+        q: 1e-3,
+        ds_kpc: Some(8.0),
+        earth_velocity: (1.0, 5.0),
+        rates: None,
+    };
+    // theta_E known to 2% alone: M = theta_E / (kappa pi_E) to 2%, pi_rel to 2%.
+    let mut cov = vec![vec![0.0; 6]; 6];
+    cov[0][0] = (0.02 * 0.5f64).powi(2);
+    let (v, e) = m.lens_with_errors(&cov);
+    assert!((e[0] / v[0] - 0.02).abs() < 1e-6, "{}", e[0] / v[0]);
+    assert!((e[3] / v[3] - 0.02).abs() < 1e-6);
+    // pi_E,N and pi_E,E fully anticorrelated along |pi_E|: sigma(|pi_E|) = 0.01 gives M to 2%
+    // (|pi_E| = 0.5, its gradient (0.6, -0.8)).
+    let mut cov = vec![vec![0.0; 6]; 6];
+    let g = [0.6, -0.8];
+    for i in 0..2 {
+        for j in 0..2 {
+            cov[2 + i][2 + j] = 1e-4 * g[i] * g[j];
+        }
+    }
+    let (v, e) = m.lens_with_errors(&cov);
+    assert!((e[0] / v[0] - 0.02).abs() < 1e-5, "{}", e[0] / v[0]);
+    // Without orbital motion the energy ratio is unknown.
+    assert!(v[10].is_nan() && e[10].is_nan());
+}

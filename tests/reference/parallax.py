@@ -16,6 +16,16 @@ Two tables:
   The velocity at t0,par is a central difference of astropy's positions over 0.01 d. Times are
   written as the data write them: JD - 2450000 below 2,400,000 and full JD above.
   Columns: ra_deg, dec_deg, t0_par, t, pi_EN, pi_EE, ds_N, ds_E, sun_N, sun_E, dtau, dbeta.
+- parallax_lens.csv: the lens from theta_E and pi_E with astropy.constants and astropy.units
+  (Gould 2000, ApJ 542, 785; kappa = 4 G / (c^2 au)): M = theta_E / (kappa pi_E), the host and
+  the companion (M_jup), pi_rel = theta_E pi_E, D_L = au / (pi_rel + au / D_S), the projected
+  separation s theta_E D_L, the heliocentric proper motion mu_geo + v_E pi_rel / au (v_E: the
+  Earth's velocity at t0,par from the built-in ephemeris, projected on north and east as above;
+  mu_geo = theta_E / tE along pi_E), tE,hel = theta_E / |mu_hel|, and the projected kinetic to
+  potential energy ratio v^2 r / (2 G M) with r = s theta_E D_L and v = r gamma,
+  gamma^2 = (ds/dt / s)^2 + (dalpha/dt)^2 (Dong et al. 2009, ApJ 695, 970).
+  Columns: ra_deg, dec_deg, t0_par, theta_E_mas, tE_days, pi_EN, pi_EE, s, q, ds_kpc, ds_dt,
+  dalpha_dt, then the values in the order of causeway's LENS_NAMES.
 
 `python3 parallax.py --check` compares with the committed tables.
 """
@@ -23,8 +33,9 @@ from pathlib import Path
 import warnings
 
 import numpy as np
+import astropy.constants as const
 import astropy.units as u
-from astropy.coordinates import SkyCoord, get_body_barycentric
+from astropy.coordinates import SkyCoord, get_body_barycentric, get_body_barycentric_posvel
 from astropy.time import Time
 
 from refcheck import emit
@@ -104,6 +115,61 @@ def main():
     header = ["ra_deg", "dec_deg", "t0_par", "t", "pi_EN", "pi_EE", "ds_N", "ds_E", "sun_N",
               "sun_E", "dtau", "dbeta"]
     emit(HERE / "parallax_offsets.csv", header, out, rel=1e-9, abs_=1e-12)
+    lens_table()
+
+
+# (RA, Dec, t0,par, theta_E mas, tE d, pi_EN, pi_EE, s, q, D_S kpc, ds/dt /yr, dalpha/dt rad/yr):
+# invented events.
+LENSES = [
+    (268.5, -29.2, 8300.0, 0.5, 40.0, 0.3, -0.4, 1.1, 1e-3, 8.0, 0.2, 0.5),
+    (270.0, 66.560708, 2459100.0, 1.2, 80.0, -0.12, 0.05, 0.85, 4e-3, 7.5, -0.1, 1.5),
+    (45.0, 10.0, 8700.0, 0.25, 25.0, 0.05, 0.6, 1.6, 2e-4, 8.5, 0.4, -0.3),
+]
+ANGLES = u.dimensionless_angles()
+
+
+def earth_velocity(jd_value):
+    t = Time(jd_value, format="jd", scale="tt")
+    _, ve = get_body_barycentric_posvel("earth", t, ephemeris="builtin")
+    _, vs = get_body_barycentric_posvel("sun", t, ephemeris="builtin")
+    return (ve - vs).xyz.to(u.au / u.yr).value
+
+
+def lens_table():
+    kappa = (4 * const.G / (const.c**2 * const.au)).to(u.mas / u.M_sun, ANGLES)
+    rows = []
+    for ra, dec, t0p, th, te, pn, pe, s, q, ds, dsdt, dadt in LENSES:
+        _, north, east = basis(ra, dec)
+        v = earth_velocity(jd(t0p))
+        vn, ve = float(v @ north), float(v @ east)
+        theta = th * u.mas
+        pi = np.hypot(pn, pe)
+        mass = (theta / (kappa * pi)).to(u.M_sun)
+        companion = (q * mass / (1 + q)).to(u.M_jup)
+        pi_rel = theta * pi
+        dl = (const.au / (pi_rel + (const.au / (ds * u.kpc)).to(u.mas, ANGLES))).to(u.kpc, ANGLES)
+        sep = (s * theta * dl).to(u.au, ANGLES)
+        mu_geo = (theta / (te * u.day)).to(u.mas / u.yr)
+        mu_n = mu_geo * pn / pi + (vn * u.au / u.yr * pi_rel / const.au).to(u.mas / u.yr)
+        mu_e = mu_geo * pe / pi + (ve * u.au / u.yr * pi_rel / const.au).to(u.mas / u.yr)
+        te_hel = (theta / np.hypot(mu_n, mu_e)).to(u.day)
+        gamma = np.hypot(dsdt / s, dadt) / u.yr
+        r = sep.to(u.m)
+        speed = (r * gamma).to(u.m / u.s)
+        energy = (speed**2 * r / (2 * const.G * mass)).to(u.dimensionless_unscaled)
+        rows.append((
+            ra, dec, t0p, th, te, pn, pe, s, q, ds, dsdt, dadt,
+            float(mass.value), float((mass / (1 + q)).value), float(companion.value),
+            float(pi_rel.to(u.mas).value), float(dl.value), float(sep.value),
+            float(mu_n.value), float(mu_e.value), float(te_hel.value), float(mu_geo.value),
+            float(energy.value),
+        ))
+    header = ["ra_deg", "dec_deg", "t0_par", "theta_E_mas", "tE_days", "pi_EN", "pi_EE", "s", "q",
+              "ds_kpc", "ds_dt", "dalpha_dt", "lens_mass_msun", "lens_host_msun",
+              "lens_companion_mjup", "lens_pi_rel_mas", "lens_dl_kpc", "lens_separation_au",
+              "mu_hel_n_mas_per_yr", "mu_hel_e_mas_per_yr", "tE_hel_days", "mu_geo_mas_per_yr",
+              "energy_ratio"]
+    emit(HERE / "parallax_lens.csv", header, rows, rel=1e-9, abs_=1e-12)
 
 
 if __name__ == "__main__":
