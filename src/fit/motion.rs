@@ -377,6 +377,8 @@ impl Fitter<'_> {
                 }
             }
         }
+        // alpha in [0, 2 pi), as the static table has it.
+        x[2] = x[2].rem_euclid(std::f64::consts::TAU);
         let model = from_vector(start, &x)?;
         // Where no point resolves the source, rho is unconstrained and J^T J singular: the
         // others are then measured at fixed rho, whose uncertainty is left unknown.
