@@ -321,7 +321,7 @@ impl BinaryModel {
             .zip(&centres)
             .map(|(&t, &c)| {
                 let s = self.trajectory.separation(self.s, t);
-                if !(s > 0.0) {
+                if s.is_nan() || s <= 0.0 {
                     return Err(Error::input(format!(
                         "--ds-dt: the separation reaches {s} at t = {t}; it must stay > 0"
                     )));

@@ -116,7 +116,7 @@ impl MotionMinimum {
     ) -> Option<(ParallaxMeasure, Option<Vec<Vec<f64>>>)> {
         let m = &self.model;
         let p = m.trajectory.parallax()?;
-        if !(m.rho > 0.0) {
+        if m.rho.is_nan() || m.rho <= 0.0 {
             return None;
         }
         let te = m.trajectory.line().te;
@@ -372,7 +372,7 @@ impl Fitter<'_> {
                 if m.value < best {
                     (x, best) = (m.x, m.value);
                 }
-                if !(gain > 0.1) || tol == self.options.tol {
+                if gain.is_nan() || gain <= 0.1 || tol == self.options.tol {
                     break;
                 }
             }
