@@ -289,7 +289,8 @@ impl BinaryModel {
     /// [`BinaryModel::magnifications`] seen by `observer` (the Earth, or an observatory with
     /// its ephemeris): with parallax, each time's source position from the observer's place;
     /// with orbital motion, each time's lens (a separation that changes needs a lens, and its
-    /// caustics, per time: about a millisecond each).
+    /// caustics, per time: `cargo bench --bench parallax` measured such a curve at 93 times the
+    /// cost of the static one, parallax alone at 1.03 times).
     pub fn magnifications_seen(
         &self,
         times: &[f64],
