@@ -15,8 +15,8 @@ pub struct PhysicalArgs {
     /// Lens distance (kpc), with --ds: gives the masses and the projected separation.
     #[arg(long, value_name = "KPC", allow_hyphen_values = true, requires = "ds")]
     pub dl: Option<f64>,
-    /// Source distance (kpc), with --dl.
-    #[arg(long, value_name = "KPC", allow_hyphen_values = true, requires = "dl")]
+    /// Source distance (kpc): with --dl; alone, the lens distance of the parallax rows.
+    #[arg(long, value_name = "KPC", allow_hyphen_values = true)]
     pub ds: Option<f64>,
     /// Relative parallax 1/D_L - 1/D_S (mas), instead of --dl and --ds: gives the masses.
     #[arg(long, value_name = "MAS", allow_hyphen_values = true, conflicts_with_all = ["dl", "ds"])]

@@ -56,7 +56,8 @@ pub struct PhysicalInput {
 
 impl PhysicalInput {
     /// Checks the values (positive and finite, `D_L < D_S`, distances and parallax not both,
-    /// both distances or neither); errors name the option.
+    /// `D_L` only with `D_S`; `D_S` alone serves the parallax models' `D_L`); errors name the
+    /// option.
     ///
     /// ```
     /// use causeway::fit::scales::PhysicalInput;
@@ -85,7 +86,6 @@ impl PhysicalInput {
                 "--pi-rel: give either the distances (--dl, --ds) or the relative parallax",
             )),
             (Some(_), None, None) => Err(Error::input("--dl: needs --ds as well")),
-            (None, Some(_), None) => Err(Error::input("--ds: needs --dl as well")),
             (Some(dl), Some(ds), None) if dl >= ds => Err(Error::input(format!(
                 "--dl: the lens ({dl} kpc) must be nearer than the source (--ds {ds} kpc)"
             ))),

@@ -133,13 +133,6 @@ fn bad_input_names_the_option() {
         ),
         (
             PhysicalInput {
-                dl_kpc: None,
-                ..base
-            },
-            "--ds",
-        ),
-        (
-            PhysicalInput {
                 pi_rel_mas: Some(0.1),
                 ..base
             },
@@ -162,6 +155,17 @@ fn bad_input_names_the_option() {
             "--pi-rel",
         ),
     ];
+    // The source distance alone is valid (the parallax models' D_L): no masses without D_L.
+    let alone = PhysicalInput {
+        dl_kpc: None,
+        ..base
+    };
+    assert_eq!(
+        scales(&alone, 1e-3, 20.0, 1.0, 1e-3)
+            .unwrap()
+            .total_mass_msun,
+        None
+    );
     for (input, culprit) in cases {
         let e = scales(&input, 1e-3, 20.0, 1.0, 1e-3).unwrap_err();
         assert_eq!(e.exit_code(), 2, "{input:?}");

@@ -410,14 +410,20 @@ fn search_with_coordinates_adds_the_parallax_rows() {
         "--no-orbit",
         "--parallax-minima",
         "1",
+        "--theta-star",
+        "0.6",
+        "--ds",
+        "8",
     ];
     let (code, csv, err) = run_cli(&dir, "search", &search);
     assert_eq!(code, 0, "{err}");
     let mut lines = csv.lines();
     let header: Vec<&str> = lines.next().unwrap().split(',').collect();
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
-    let col =
-        |row: &[&str], name: &str| row[header.iter().position(|h| *h == name).unwrap()].to_string();
+    let col = |row: &[&str], name: &str| {
+        let k = header.iter().position(|h| *h == name);
+        row[k.unwrap_or_else(|| panic!("no column {name} in {csv}"))].to_string()
+    };
     let models: Vec<String> = rows.iter().map(|r| col(r, "model")).collect();
     assert_eq!(
         models.iter().filter(|m| *m == "parallax").count(),
@@ -448,6 +454,15 @@ fn search_with_coordinates_adds_the_parallax_rows() {
     assert!((0.0..360.0).contains(&alpha), "{csv}");
     assert_eq!(col(&rows[0], "pi_EN"), "");
     assert!(err.contains("parallax:"), "{err}");
+    // The lens from theta_E = theta_* / rho and pi_E (Gould 2000), D_L from --ds alone.
+    let num = |name: &str| -> f64 { col(p, name).parse().unwrap() };
+    let mass = num("theta_E_mas") / (causeway::fit::scales::kappa() * pn.hypot(pe));
+    assert!((num("lens_mass_msun") / mass - 1.0).abs() < 1e-9, "{csv}");
+    let dl = 1.0 / (num("theta_E_mas") * pn.hypot(pe) + 1.0 / 8.0);
+    assert!((num("lens_dl_kpc") / dl - 1.0).abs() < 1e-9, "{csv}");
+    assert!(num("lens_mass_msun_err") > 0.0, "{csv}");
+    assert_eq!(col(&rows[0], "lens_mass_msun"), "");
+    assert_eq!(col(&rows[0], "mass_total_msun"), ""); // no --dl: no static masses
 }
 
 #[test]
