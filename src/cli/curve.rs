@@ -135,6 +135,13 @@ impl SourceArgs {
             (None, Some((c, d))) => LimbDarkening::SquareRoot { c, d },
             _ => LimbDarkening::Uniform,
         };
+        if self.rho > MAX_RHO {
+            return Err(Error::input(format!(
+                "--rho {:e}: a source wider than {MAX_RHO} Einstein radii is not a lensing \
+                 source (give rho in Einstein radii)",
+                self.rho
+            )));
+        }
         SourceProfile::new(self.rho, law)
     }
 }
@@ -169,7 +176,73 @@ impl TrajectoryArgs {
                 ))
             }
         };
+        far_source(&line, &times, (u0, te))?;
         Ok((line, times))
+    }
+}
+
+/// The largest source radius taken, in Einstein radii.
+pub const MAX_RHO: f64 = 1e3;
+
+/// How far from the lens a source may pass, in Einstein radii ([`crate::map::MAX_REACH`]).
+const MAX_DISTANCE: f64 = crate::map::MAX_REACH;
+
+/// Refuses a straight line that puts the source absurdly far from the lens, naming the option
+/// to blame: `--u0` when the closest approach is already too far, else `--te` (with the times).
+fn far_source(line: &StraightLine, times: &[f64], (u0, te): (f64, f64)) -> Result<()> {
+    if u0.abs() > MAX_DISTANCE {
+        return Err(Error::input(format!(
+            "--u0 {u0:e}: the source never comes within {MAX_DISTANCE:e} Einstein radii of \
+             the lens (give u0 in Einstein radii)"
+        )));
+    }
+    for &t in times {
+        let (x, y) = line.position(t);
+        let d = x.hypot(y);
+        if !(d <= MAX_DISTANCE) {
+            return Err(Error::input(format!(
+                "--te {te:e}: puts the source {d:.3e} Einstein radii from the lens at t = \
+                 {t} (at most {MAX_DISTANCE:e}; check --te, --t0 and the times)"
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Decimal places of a number as typed (`"2.72"` has 2, `"1e-3"` has 3, `"10"` has 0).
+fn decimals(typed: &str) -> i32 {
+    let lower = typed.to_ascii_lowercase();
+    let (mantissa, exponent) = match lower.split_once('e') {
+        Some((m, e)) => (m, e.parse::<i32>().unwrap_or(0)),
+        None => (lower.as_str(), 0),
+    };
+    let places = mantissa.split_once('.').map_or(0, |(_, f)| f.len() as i32);
+    (places - exponent).max(0)
+}
+
+/// Rounds each time to the precision of the typed start and end and of the step (at most 12
+/// decimals), so that `2.72,10.72,801` gives 2.76 rather than 2.7600000000000002.
+fn round_times(times: &mut [f64], start: &str, end: &str) {
+    let step = match times {
+        [a, b, ..] => *b - *a,
+        _ => return,
+    };
+    let step_typed = format!("{:.12e}", step);
+    let step_places = {
+        let (m, e) = step_typed.split_once('e').unwrap_or((&step_typed, "0"));
+        let m = m.trim_end_matches('0').trim_end_matches('.');
+        decimals(&format!("{m}e{e}"))
+    };
+    let places = decimals(start).max(decimals(end)).max(step_places);
+    if places > 12 {
+        return;
+    }
+    let scale = 10f64.powi(places);
+    for t in times.iter_mut() {
+        let r = (*t * scale).round() / scale;
+        if r.is_finite() {
+            *t = r;
+        }
     }
 }
 
@@ -185,8 +258,10 @@ fn parse_range(s: &str) -> Result<Vec<f64>> {
     let [a, b, n] = parts.as_slice() else {
         return Err(bad());
     };
-    let (a, b): (f64, f64) = (a.parse().map_err(|_| bad())?, b.parse().map_err(|_| bad())?);
-    time_range(a, b, n.parse().map_err(|_| bad())?)
+    let (x, y): (f64, f64) = (a.parse().map_err(|_| bad())?, b.parse().map_err(|_| bad())?);
+    let mut times = time_range(x, y, n.parse().map_err(|_| bad())?)?;
+    round_times(&mut times, a, b);
+    Ok(times)
 }
 
 /// Runs `causeway curve`.

@@ -61,7 +61,7 @@ pub enum Action {
         /// Library spec (TOML): s and q values, window, pixels, rays.
         spec: PathBuf,
         /// Build only shard K of N (for cluster job arrays), e.g. 3/16.
-        #[arg(long, value_name = "K/N", conflicts_with = "worker")]
+        #[arg(long, value_name = "K/N", conflicts_with = "worker", allow_hyphen_values = true)]
         shard: Option<Shard>,
         /// Take the next unclaimed map of the whole spec until none is left, and end without
         /// waiting for maps other builders hold (the tasks of a job array balance themselves).
@@ -82,10 +82,10 @@ pub enum Action {
         /// Library spec (TOML).
         spec: PathBuf,
         /// Number of array tasks.
-        #[arg(long, value_name = "N", visible_alias = "shards")]
+        #[arg(long, value_name = "N", visible_alias = "shards", allow_hyphen_values = true)]
         tasks: usize,
         /// Threads (CPUs) per task.
-        #[arg(long, default_value_t = 1, value_name = "T")]
+        #[arg(long, default_value_t = 1, value_name = "T", allow_hyphen_values = true)]
         threads_per_task: usize,
         /// Existing folder for the tasks' logs (default: the current folder).
         #[arg(long, value_name = "DIR")]
@@ -108,13 +108,13 @@ pub enum Action {
     /// List the maps in the store (CSV), optionally those at or nearest to (s, q).
     List {
         /// Separation to look up (with --q); matched to a relative 1e-9.
-        #[arg(long, requires = "q")]
+        #[arg(long, requires = "q", allow_hyphen_values = true)]
         s: Option<f64>,
         /// Mass ratio to look up (with --s); matched to a relative 1e-9.
-        #[arg(long, requires = "s")]
+        #[arg(long, requires = "s", allow_hyphen_values = true)]
         q: Option<f64>,
         /// With --s/--q: how many nearest grid points in (log s, log q); 0 = exact match only.
-        #[arg(long, default_value_t = 0)]
+        #[arg(long, default_value_t = 0, allow_hyphen_values = true)]
         nearest: usize,
         #[command(flatten)]
         store: StoreArgs,
@@ -132,7 +132,7 @@ pub enum Action {
     Prune {
         /// Only remove files at least this old (seconds): younger ones may belong to a build
         /// still running.
-        #[arg(long, default_value_t = 3600, value_name = "SECONDS")]
+        #[arg(long, default_value_t = 3600, value_name = "SECONDS", allow_hyphen_values = true)]
         min_age: u64,
         /// List what would be removed or adopted, and change nothing.
         #[arg(long)]

@@ -34,6 +34,14 @@ pub struct Window {
     pub pixels: usize,
 }
 
+/// How far from the origin a window may reach, in Einstein radii: past it the lenses are a
+/// point and the map is flat to far below any noise.
+pub const MAX_REACH: f64 = 1e6;
+
+/// The smallest pixel side relative to the window's reach: below it neighbouring pixels'
+/// coordinates differ by only a few units of the last place of an `f64`.
+pub const MIN_PIXEL: f64 = 1e-12;
+
 impl Window {
     /// Checks and builds a window.
     pub fn new(center: (f64, f64), width: f64, pixels: usize) -> Result<Self> {
@@ -50,6 +58,21 @@ impl Window {
         }
         if pixels == 0 {
             return Err(Error::input("--pixels: must be at least 1"));
+        }
+        let reach = center.0.abs().max(center.1.abs());
+        if reach > MAX_REACH || width > MAX_REACH {
+            return Err(Error::input(format!(
+                "--center {:e},{:e} --width {width:e}: the window must lie within {MAX_REACH:e} \
+                 Einstein radii of the origin",
+                center.0, center.1
+            )));
+        }
+        if width / (pixels as f64) < MIN_PIXEL * reach.max(width).max(1.0) {
+            return Err(Error::input(format!(
+                "--width {width:e}: pixels of {:e} Einstein radii are below the resolution of \
+                 the coordinates (at least {MIN_PIXEL:e} of the window's reach)",
+                width / pixels as f64
+            )));
         }
         Ok(Window {
             center,
