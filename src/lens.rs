@@ -18,6 +18,12 @@ pub struct PointLens {
     pub mass: f64,
 }
 
+/// The separations a binary may have, in Einstein radii of the total mass.
+pub const S_RANGE: (f64, f64) = (1e-2, 1e2);
+
+/// The mass ratios a binary may have.
+pub const Q_RANGE: (f64, f64) = (1e-10, 1e10);
+
 /// A set of point lenses with masses summing to 1.
 ///
 /// ```
@@ -57,11 +63,26 @@ impl LensSystem {
         if lenses.is_empty() {
             return Err(Error::input("the lens list is empty"));
         }
+        // Checked before the pairwise checks below, whose cost grows as the square of the count.
+        if lenses.len() > crate::map::fits::MAX_LENSES {
+            return Err(Error::input(format!(
+                "{} lenses: at most {} point lenses are taken",
+                lenses.len(),
+                crate::map::fits::MAX_LENSES
+            )));
+        }
         for (i, &(x, y, m)) in lenses.iter().enumerate() {
             if !(x.is_finite() && y.is_finite() && m.is_finite()) {
                 return Err(Error::input(format!(
                     "{}: non-finite value in ({x}, {y}, mass {m})",
                     name(i)
+                )));
+            }
+            if x.abs().max(y.abs()) > crate::map::MAX_REACH {
+                return Err(Error::input(format!(
+                    "{}: position ({x:e}, {y:e}) is more than {:e} Einstein radii from the origin",
+                    name(i),
+                    crate::map::MAX_REACH
                 )));
             }
             if m <= 0.0 {
@@ -86,12 +107,14 @@ impl LensSystem {
                 }
             }
         }
-        let total: f64 = lenses.iter().map(|l| l.2).sum();
+        // Scaled by the largest mass first, so that masses near f64::MAX do not overflow the sum.
+        let largest = lenses.iter().map(|l| l.2).fold(0.0, f64::max);
+        let total: f64 = lenses.iter().map(|l| l.2 / largest).sum();
         let lenses = lenses
             .iter()
             .map(|&(x, y, m)| PointLens {
                 position: Complex64::new(x, y),
-                mass: m / total,
+                mass: m / largest / total,
             })
             .collect();
         Ok(LensSystem {
@@ -134,6 +157,19 @@ impl LensSystem {
         if !q.is_finite() || q <= 0.0 {
             return Err(Error::input(format!(
                 "--q: mass ratio must be finite and > 0, got {q}"
+            )));
+        }
+        if !(S_RANGE.0..=S_RANGE.1).contains(&s) || !(Q_RANGE.0..=Q_RANGE.1).contains(&q) {
+            let (name, value) = if (S_RANGE.0..=S_RANGE.1).contains(&s) {
+                ("--q", q)
+            } else {
+                ("--s", s)
+            };
+            return Err(Error::input(format!(
+                "{name} {value:e}: binaries are taken for s from {:e} to {:e} and q from {:e} to \
+                 {:e} (past them the caustics are too small to trace and the lens is two point \
+                 lenses)",
+                S_RANGE.0, S_RANGE.1, Q_RANGE.0, Q_RANGE.1
             )));
         }
         let m1 = 1.0 / (1.0 + q);

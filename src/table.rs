@@ -33,6 +33,8 @@ impl Table {
     ///     .to_string().contains("p.csv:2"));
     /// ```
     pub fn parse(text: &str, origin: &str, required: &[&str], optional: &[&str]) -> Result<Table> {
+        // A byte-order mark (as some spreadsheets write) is not part of the first column's name.
+        let text = text.strip_prefix('\u{feff}').unwrap_or(text);
         let mut lines = text
             .lines()
             .enumerate()

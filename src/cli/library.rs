@@ -69,6 +69,10 @@ pub enum Action {
         /// them, and rebuilds a damaged one).
         #[arg(long)]
         worker: bool,
+        /// Only parse and validate the spec, and print how many maps it holds and the memory
+        /// a build needs; build nothing and leave the store alone.
+        #[arg(long)]
+        check: bool,
         #[command(flatten)]
         store: StoreArgs,
         #[command(flatten)]
@@ -149,6 +153,7 @@ pub fn run(args: LibraryArgs) -> Result<()> {
             spec,
             shard,
             worker,
+            check,
             store,
             threads,
         } => {
@@ -158,6 +163,9 @@ pub fn run(args: LibraryArgs) -> Result<()> {
                 Some(sh) => lib.shard(sh)?,
                 None => lib.points()?,
             };
+            if check {
+                return check_spec(&spec, &lib, points.len());
+            }
             build(&store.create()?, &points, worker)
         }
         Action::Script {
@@ -415,6 +423,19 @@ fn prune(store: &Store, min_age: std::time::Duration, dry_run: bool) -> Result<(
         } else {
             ""
         }
+    );
+    Ok(())
+}
+
+/// `library build --check`: the spec is valid; says how many maps it holds and what a build
+/// of its largest map needs, and builds nothing.
+fn check_spec(path: &std::path::Path, lib: &LibrarySpec, maps: usize) -> Result<()> {
+    let memory = task_memory(lib, rayon::current_num_threads())?;
+    eprintln!(
+        "{}: valid; {maps} maps, a build needs about {} at {} threads; nothing built",
+        path.display(),
+        crate::engine::gib(memory),
+        rayon::current_num_threads()
     );
     Ok(())
 }

@@ -52,11 +52,47 @@ use std::path::Path;
 
 /// The values of one grid axis.
 #[derive(Debug, Clone, PartialEq, Deserialize)]
-#[serde(untagged)]
+#[serde(try_from = "AxisSpec")]
 enum Axis {
     List(Vec<f64>),
     Linear { linear: (f64, f64, usize) },
     Log { log: (f64, f64, usize) },
+}
+
+/// An axis as typed: a list, or a table holding exactly one of `linear` and `log`.
+#[derive(Deserialize)]
+#[serde(untagged)]
+enum AxisSpec {
+    List(Vec<f64>),
+    Table(AxisTable),
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct AxisTable {
+    linear: Option<(f64, f64, usize)>,
+    log: Option<(f64, f64, usize)>,
+}
+
+impl TryFrom<AxisSpec> for Axis {
+    type Error = String;
+
+    fn try_from(spec: AxisSpec) -> std::result::Result<Axis, String> {
+        match spec {
+            AxisSpec::List(v) => Ok(Axis::List(v)),
+            AxisSpec::Table(AxisTable {
+                linear: Some(linear),
+                log: None,
+            }) => Ok(Axis::Linear { linear }),
+            AxisSpec::Table(AxisTable {
+                linear: None,
+                log: Some(log),
+            }) => Ok(Axis::Log { log }),
+            AxisSpec::Table(_) => {
+                Err("give one of { linear = [first, last, count] } or { log = [...] }".into())
+            }
+        }
+    }
 }
 
 impl Axis {
@@ -113,7 +149,7 @@ fn spaced(a: f64, b: f64, n: usize, to: fn(f64) -> f64, from: fn(f64) -> f64) ->
 #[serde(deny_unknown_fields)]
 struct WindowSpec {
     rule: Option<String>,
-    center: Option<(f64, f64)>,
+    center: Option<Vec<f64>>,
     width: Option<f64>,
     margin: Option<f64>,
 }
@@ -149,7 +185,17 @@ impl WindowSpec {
                 "window.margin must be > 0, got {margin}"
             )));
         }
-        match (self.rule.as_deref(), self.center, self.width) {
+        let center = match self.center.as_deref() {
+            None => None,
+            Some(&[x, y]) => Some((x, y)),
+            Some(other) => {
+                return Err(Error::input(format!(
+                    "window.center: expected [x, y], got {} values",
+                    other.len()
+                )))
+            }
+        };
+        match (self.rule.as_deref(), center, self.width) {
             (None | Some("fixed"), Some(center), Some(width)) => {
                 Ok(WindowRule::Fixed(Window::new(center, width, pixels)?))
             }
