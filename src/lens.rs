@@ -66,7 +66,9 @@ impl LensSystem {
         // Checked before the pairwise checks below, whose cost grows as the square of the count.
         if lenses.len() > crate::map::fits::MAX_LENSES {
             return Err(Error::input(format!(
-                "{} lenses: at most {} point lenses are taken",
+                "{}: lens {} of {}; at most {} point lenses are taken",
+                name(crate::map::fits::MAX_LENSES),
+                crate::map::fits::MAX_LENSES + 1,
                 lenses.len(),
                 crate::map::fits::MAX_LENSES
             )));

@@ -4,7 +4,7 @@ use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::contour::{self, DEFAULT_TOLERANCE};
 use crate::error::Result;
 use crate::source::{LimbDarkening, SourceProfile};
-use crate::table::{fmt_f64, Table};
+use crate::table::fmt_f64;
 use clap::Args;
 use num_complex::Complex64;
 use std::io::Write;
@@ -54,11 +54,12 @@ pub fn run(args: ContourArgs) -> Result<()> {
         (None, Some((c, d))) => LimbDarkening::SquareRoot { c, d },
         (None, None) => LimbDarkening::Uniform,
     };
+    super::curve::check_rho(args.rho)?;
     let source = SourceProfile::new(args.rho, law)?;
     let lens = args.lens.lens_system()?;
     // Checks the tolerance and the lens before reading anything else.
     contour::ContourSolver::new(&lens, args.tol)?;
-    let table = Table::read(&args.points, &["x", "y"], &[])?;
+    let table = super::read_points(&args.points)?;
     args.threads.install()?;
     let centers: Vec<Complex64> = table
         .rows

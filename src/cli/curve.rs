@@ -61,10 +61,20 @@ pub struct CurveArgs {
     #[arg(long, value_name = "FILE.png")]
     pub png: Option<PathBuf>,
     /// With a lens: map pixels per source radius.
-    #[arg(long, default_value_t = 10.0, value_name = "P")]
+    #[arg(
+        long,
+        default_value_t = 10.0,
+        value_name = "P",
+        allow_hyphen_values = true
+    )]
     pub pixels_per_rho: f64,
     /// With a lens: rays per unlensed pixel area of the map built.
-    #[arg(long, default_value_t = 400.0, value_name = "R")]
+    #[arg(
+        long,
+        default_value_t = 400.0,
+        value_name = "R",
+        allow_hyphen_values = true
+    )]
     pub rays: f64,
     /// Largest working memory allowed, e.g. 4G (default: half the RAM).
     #[arg(long, value_name = "SIZE", value_parser = parse_size)]
@@ -83,16 +93,16 @@ pub struct TrajectoryArgs {
     #[arg(long, value_name = "FILE", conflicts_with_all = ["t0", "u0", "te", "alpha", "times", "time_range"])]
     pub path: Option<PathBuf>,
     /// Time of closest approach to the origin (days).
-    #[arg(long, value_name = "T0")]
+    #[arg(long, value_name = "T0", allow_hyphen_values = true)]
     pub t0: Option<f64>,
     /// Signed impact parameter (Einstein radii).
-    #[arg(long, value_name = "U0")]
+    #[arg(long, value_name = "U0", allow_hyphen_values = true)]
     pub u0: Option<f64>,
     /// Einstein timescale (days).
-    #[arg(long, value_name = "TE")]
+    #[arg(long, value_name = "TE", allow_hyphen_values = true)]
     pub te: Option<f64>,
     /// Direction of motion, degrees from the x axis.
-    #[arg(long, value_name = "DEG")]
+    #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub alpha: Option<f64>,
     /// Times: CSV with header t.
     #[arg(long, value_name = "FILE", conflicts_with = "time_range")]
@@ -106,13 +116,23 @@ pub struct TrajectoryArgs {
 #[derive(Debug, Clone, Args)]
 pub struct SourceArgs {
     /// Source radius (Einstein radii); 0 for a point source.
-    #[arg(long, default_value_t = 0.0, value_name = "R")]
+    #[arg(
+        long,
+        default_value_t = 0.0,
+        value_name = "R",
+        allow_hyphen_values = true
+    )]
     pub rho: f64,
     /// Linear limb-darkening coefficient u in [0, 1].
-    #[arg(long, value_name = "U", conflicts_with = "ld_sqrt")]
+    #[arg(
+        long,
+        value_name = "U",
+        conflicts_with = "ld_sqrt",
+        allow_hyphen_values = true
+    )]
     pub ld: Option<f64>,
     /// Square-root limb-darkening coefficients c,d in [0, 1].
-    #[arg(long, value_name = "C,D", value_parser = parse_pair)]
+    #[arg(long, value_name = "C,D", value_parser = parse_pair, allow_hyphen_values = true)]
     pub ld_sqrt: Option<(f64, f64)>,
 }
 
@@ -135,13 +155,7 @@ impl SourceArgs {
             (None, Some((c, d))) => LimbDarkening::SquareRoot { c, d },
             _ => LimbDarkening::Uniform,
         };
-        if self.rho > MAX_RHO {
-            return Err(Error::input(format!(
-                "--rho {:e}: a source wider than {MAX_RHO} Einstein radii is not a lensing \
-                 source (give rho in Einstein radii)",
-                self.rho
-            )));
-        }
+        check_rho(self.rho)?;
         SourceProfile::new(self.rho, law)
     }
 }
@@ -151,7 +165,10 @@ impl TrajectoryArgs {
     /// `--times` / `--time-range` times.
     pub fn path(&self) -> Result<SourcePath> {
         if let Some(p) = &self.path {
-            return SourcePath::read(p);
+            let path = SourcePath::read(p)?;
+            // Also refuses, naming the line, a position beyond any window.
+            super::read_points(p)?;
+            return Ok(path);
         }
         let (line, times) = self.straight()?;
         Ok(line.path(&times))
@@ -168,7 +185,13 @@ impl TrajectoryArgs {
         };
         let line = StraightLine::new(t0, u0, te, alpha.to_radians())?;
         let times = match (&self.times, &self.time_range) {
-            (Some(f), None) => read_times(f)?,
+            (Some(f), None) => {
+                let times = read_times(f)?;
+                if times.is_empty() {
+                    return Err(Error::input(format!("{}: no times listed", f.display())));
+                }
+                times
+            }
             (None, Some(r)) => parse_range(r)?,
             _ => {
                 return Err(Error::input(
@@ -183,6 +206,17 @@ impl TrajectoryArgs {
 
 /// The largest source radius taken, in Einstein radii.
 pub const MAX_RHO: f64 = 1e3;
+
+/// Refuses a source radius past [`MAX_RHO`] (the profile checks the rest).
+pub fn check_rho(rho: f64) -> Result<()> {
+    if rho > MAX_RHO {
+        return Err(Error::input(format!(
+            "--rho {rho:e}: a source wider than {MAX_RHO} Einstein radii is not a lensing \
+             source (give rho in Einstein radii)"
+        )));
+    }
+    Ok(())
+}
 
 /// How far from the lens a source may pass, in Einstein radii ([`crate::map::MAX_REACH`]).
 const MAX_DISTANCE: f64 = crate::map::MAX_REACH;
@@ -268,6 +302,14 @@ fn parse_range(s: &str) -> Result<Vec<f64>> {
 pub fn run(args: CurveArgs) -> Result<()> {
     let png = args.png.as_deref().map(|p| Output::png("--png", p));
     check_outputs(png.as_slice())?;
+    // Checked whether or not a map is built, so that a slip is never silently ignored.
+    RayShooting::try_new(args.rays)?;
+    if !(args.pixels_per_rho > 0.0 && args.pixels_per_rho <= 1e4) {
+        return Err(Error::input(format!(
+            "--pixels-per-rho: must be > 0 and at most 1e4, got {}",
+            args.pixels_per_rho
+        )));
+    }
     args.threads.install()?;
     let profile = args.source.profile()?;
     let path = args.trajectory.path()?;

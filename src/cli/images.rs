@@ -3,7 +3,7 @@
 use super::{LensArgs, ThreadArgs};
 use crate::error::{Error, Result};
 use crate::solve::{self, ImageSolver};
-use crate::table::{fmt_f64, Table};
+use crate::table::fmt_f64;
 use clap::Args;
 use num_complex::Complex64;
 use std::io::Write;
@@ -42,7 +42,7 @@ pub fn run(args: ImagesArgs) -> Result<()> {
     let lens = args.lens.lens_system()?;
     // Refuses more than four lenses before reading anything else.
     ImageSolver::new(&lens)?;
-    let table = Table::read(&args.points, &["x", "y"], &[])?;
+    let table = super::read_points(&args.points)?;
     args.threads.install()?;
     let sources: Vec<Complex64> = table
         .rows

@@ -61,7 +61,12 @@ pub enum Action {
         /// Library spec (TOML): s and q values, window, pixels, rays.
         spec: PathBuf,
         /// Build only shard K of N (for cluster job arrays), e.g. 3/16.
-        #[arg(long, value_name = "K/N", conflicts_with = "worker", allow_hyphen_values = true)]
+        #[arg(
+            long,
+            value_name = "K/N",
+            conflicts_with = "worker",
+            allow_hyphen_values = true
+        )]
         shard: Option<Shard>,
         /// Take the next unclaimed map of the whole spec until none is left, and end without
         /// waiting for maps other builders hold (the tasks of a job array balance themselves).
@@ -86,10 +91,20 @@ pub enum Action {
         /// Library spec (TOML).
         spec: PathBuf,
         /// Number of array tasks.
-        #[arg(long, value_name = "N", visible_alias = "shards", allow_hyphen_values = true)]
+        #[arg(
+            long,
+            value_name = "N",
+            visible_alias = "shards",
+            allow_hyphen_values = true
+        )]
         tasks: usize,
         /// Threads (CPUs) per task.
-        #[arg(long, default_value_t = 1, value_name = "T", allow_hyphen_values = true)]
+        #[arg(
+            long,
+            default_value_t = 1,
+            value_name = "T",
+            allow_hyphen_values = true
+        )]
         threads_per_task: usize,
         /// Existing folder for the tasks' logs (default: the current folder).
         #[arg(long, value_name = "DIR")]
@@ -136,7 +151,12 @@ pub enum Action {
     Prune {
         /// Only remove files at least this old (seconds): younger ones may belong to a build
         /// still running.
-        #[arg(long, default_value_t = 3600, value_name = "SECONDS", allow_hyphen_values = true)]
+        #[arg(
+            long,
+            default_value_t = 3600,
+            value_name = "SECONDS",
+            allow_hyphen_values = true
+        )]
         min_age: u64,
         /// List what would be removed or adopted, and change nothing.
         #[arg(long)]
@@ -330,13 +350,8 @@ fn holder_fields(info: &ClaimInfo) -> String {
 fn list(store: &Store, point: Option<(f64, f64)>, nearest: usize) -> Result<()> {
     let entries = match point {
         Some((s, q)) => {
-            for (name, v) in [("--s", s), ("--q", q)] {
-                if !(v.is_finite() && v > 0.0) {
-                    return Err(Error::input(format!(
-                        "{name}: must be a finite number > 0, got {v}"
-                    )));
-                }
-            }
+            // The ranges of a binary: no store holds a map outside them.
+            crate::lens::LensSystem::binary(s, q)?;
             let found = if nearest > 0 {
                 store.nearest(s, q, nearest)?
             } else {

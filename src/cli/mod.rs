@@ -174,3 +174,25 @@ pub fn parse_pair(s: &str) -> std::result::Result<(f64, f64), String> {
     };
     Ok((parse(a)?, parse(b)?))
 }
+
+/// Reads a CSV of source positions (header x,y), refusing a file without rows and positions
+/// beyond [`crate::map::MAX_REACH`] (file and line named).
+pub fn read_points(path: &std::path::Path) -> Result<crate::table::Table> {
+    let table = crate::table::Table::read(path, &["x", "y"], &[])?;
+    if table.rows.is_empty() {
+        return Err(Error::input(format!(
+            "{}: no source positions listed",
+            path.display()
+        )));
+    }
+    let far = |r: &Vec<f64>| r[0].abs().max(r[1].abs()) > crate::map::MAX_REACH;
+    if let Some(k) = table.rows.iter().position(far) {
+        return Err(Error::input(format!(
+            "{}:{}: the source is more than {:e} Einstein radii from the origin",
+            path.display(),
+            table.lines[k],
+            crate::map::MAX_REACH
+        )));
+    }
+    Ok(table)
+}

@@ -29,6 +29,9 @@ pub const POLYGON_K: f64 = 1.1;
 /// Exponent of the polygon rule in the cell side.
 pub const POLYGON_POWER: f64 = 1.5;
 
+/// The most polygon cells per pixel [`choose`] asks for.
+const MAX_CELLS: f64 = 256.0;
+
 /// Engine name and density aimed at a median pixel error `target` (relative).
 ///
 /// ```
@@ -52,8 +55,16 @@ pub fn choose(lens: &LensSystem, window: &Window, target: f64) -> Result<(&'stat
         .fold(f64::INFINITY, f64::min);
     let scale = (window.width / 4.0).clamp(m_min.sqrt(), 1.0);
     let h = scale * (target / POLYGON_K).powf(1.0 / POLYGON_POWER);
-    let cells = (window.pixel_size() / h).powi(2).clamp(1.0 / 16.0, 256.0);
-    Ok(("polygon", cells))
+    let cells = (window.pixel_size() / h).powi(2);
+    if cells > MAX_CELLS {
+        let finest = window.pixel_size() / MAX_CELLS.sqrt() / scale;
+        return Err(Error::input(format!(
+            "--accuracy {target:e}: out of reach at this pixel size (the finest is about {:.1e} \
+             with {MAX_CELLS} cells per pixel; ask for less, or use more --pixels)",
+            POLYGON_K * finest.powf(POLYGON_POWER)
+        )));
+    }
+    Ok(("polygon", cells.max(1.0 / 16.0)))
 }
 
 /// Rays per pixel that ray shooting needs for a median pixel error `target`, by the study's

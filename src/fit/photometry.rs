@@ -74,6 +74,13 @@ pub struct DataSet {
     pub error_scale: f64,
 }
 
+/// The magnitudes a data row may hold (common practice: brighter than -10 or fainter than 40
+/// is no photometry of a lensed star).
+pub const MAG_RANGE: (f64, f64) = (-10.0, 40.0);
+
+/// The largest magnitude error a data row may hold.
+pub const MAX_MAG_ERR: f64 = 10.0;
+
 impl DataSet {
     /// Parses CSV text; `origin` names the source in messages.
     pub fn parse(text: &str, origin: &str, zero_point: f64) -> Result<DataSet> {
@@ -109,6 +116,22 @@ impl DataSet {
                     fmt_f64(e)
                 )));
             }
+            if measured == Measured::Magnitude {
+                if !(MAG_RANGE.0..=MAG_RANGE.1).contains(&v) {
+                    return Err(Error::input(format!(
+                        "{origin}:{line}: mag {} is not a magnitude from {} to {}",
+                        fmt_f64(v),
+                        MAG_RANGE.0,
+                        MAG_RANGE.1
+                    )));
+                }
+                if e > MAX_MAG_ERR {
+                    return Err(Error::input(format!(
+                        "{origin}:{line}: mag_err {} is more than {MAX_MAG_ERR} magnitudes",
+                        fmt_f64(e)
+                    )));
+                }
+            }
             let (f, fe) = match measured {
                 Measured::Magnitude => {
                     let f = mag_to_flux(v, zero_point);
@@ -116,6 +139,14 @@ impl DataSet {
                 }
                 Measured::Flux => (v, e),
             };
+            // Squared in the fit: an error past ~1e150 overflows it, and the point weighs nothing.
+            if !(f.is_finite() && (fe * fe).is_finite() && fe * fe > 0.0) {
+                return Err(Error::input(format!(
+                    "{origin}:{line}: {error} {} gives no usable weight (its square is not a \
+                     finite number > 0)",
+                    fmt_f64(e)
+                )));
+            }
             rows.push((t, f, fe, line));
         }
         if rows.len() < 3 {

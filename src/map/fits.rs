@@ -357,6 +357,16 @@ fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
     if pixels.len() != n * n {
         return Err(format!("{} pixels read, {} expected", pixels.len(), n * n));
     }
+    // A magnification is finite and not negative; a checksum proves only that the bytes are
+    // the ones written, not that the writer was sound.
+    if let Some(k) = pixels.iter().position(|v| !(v.is_finite() && *v >= 0.0)) {
+        return Err(format!(
+            "pixel ({}, {}) holds {}, not a magnification (finite and >= 0)",
+            k % n + 1,
+            k / n + 1,
+            pixels[k]
+        ));
+    }
     let data = Array2::from_shape_vec((n, n), pixels).map_err(|e| e.to_string())?;
     Ok(MagnificationMap {
         window,

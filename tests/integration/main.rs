@@ -10,6 +10,7 @@
 mod common;
 
 mod bad_input;
+mod campaign;
 mod caustics;
 mod claims;
 mod cli_map;
@@ -18,6 +19,7 @@ mod cli_solve;
 mod compare;
 mod contour;
 mod curve;
+mod edge_values;
 mod engine;
 mod fit_event;
 mod fit_scales;
