@@ -233,7 +233,7 @@ fn far_source(line: &StraightLine, times: &[f64], (u0, te): (f64, f64)) -> Resul
     for &t in times {
         let (x, y) = line.position(t);
         let d = x.hypot(y);
-        if !(d <= MAX_DISTANCE) {
+        if d.is_nan() || d > MAX_DISTANCE {
             return Err(Error::input(format!(
                 "--te {te:e}: puts the source {d:.3e} Einstein radii from the lens at t = \
                  {t} (at most {MAX_DISTANCE:e}; check --te, --t0 and the times)"
