@@ -69,8 +69,8 @@ impl Window {
         }
         if width / (pixels as f64) < MIN_PIXEL * reach.max(width).max(1.0) {
             return Err(Error::input(format!(
-                "--width {width:e}: pixels of {:e} Einstein radii are below the resolution of \
-                 the coordinates (at least {MIN_PIXEL:e} of the window's reach)",
+                "--width {width:e} --pixels {pixels}: pixels of {:e} Einstein radii are below \
+                 the resolution of the coordinates (at least {MIN_PIXEL:e} of the window's reach)",
                 width / pixels as f64
             )));
         }
