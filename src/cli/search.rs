@@ -81,7 +81,7 @@ pub struct SearchArgs {
     pub baseline: Vec<f64>,
     /// Clip isolated points beyond this many robust standard deviations at the best model
     /// (0: keep every point).
-    #[arg(long, value_name = "SIGMA", default_value_t = DEFAULT_CLIP_SIGMA)]
+    #[arg(long, value_name = "SIGMA", default_value_t = DEFAULT_CLIP_SIGMA, allow_hyphen_values = true)]
     pub clip: f64,
     /// Keep the error bars as given (by default each set's are scaled to chi2/dof = 1 at the
     /// best model and the minima refined again).
@@ -91,14 +91,14 @@ pub struct SearchArgs {
     #[arg(long, value_name = "RHO[,RHO...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().rhos)]
     pub rho: Vec<f64>,
     /// Half-range of u0 around the baseline's value, relative to it.
-    #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_span)]
+    #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_span, allow_hyphen_values = true)]
     pub u0_span: f64,
     /// Least half-range of u0 (Einstein radii).
-    #[arg(long, value_name = "U", default_value_t = GridRule::default().u0_floor)]
+    #[arg(long, value_name = "U", default_value_t = GridRule::default().u0_floor, allow_hyphen_values = true)]
     pub u0_floor: f64,
     /// Widen u0 to where the single lens's valley (its best fit at fixed u0) rises by this
     /// fraction of its misfit (chi2 - dof; what it leaves unexplained).
-    #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_misfit)]
+    #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_misfit, allow_hyphen_values = true)]
     pub u0_misfit: f64,
     /// Factors on the baseline's tE (default 1, or 0.5 to 2 when the baseline is not trusted).
     #[arg(long, value_name = "F[,F...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().te_factors)]
@@ -112,41 +112,46 @@ pub struct SearchArgs {
     #[arg(long)]
     pub fixed_timing: bool,
     /// Most trajectories tried on one map (the lines are spaced more widely beyond it).
-    #[arg(long, value_name = "N", default_value_t = GridRule::default().max_trajectories)]
+    #[arg(long, value_name = "N", default_value_t = GridRule::default().max_trajectories, allow_hyphen_values = true)]
     pub max_trajectories: usize,
     /// The search's model error, a fraction of each point's flux above its set's tenth
     /// percentile added to its error bar in quadrature (0 = none; the refinement never uses it).
-    #[arg(long, value_name = "FRACTION", default_value_t = GridRule::default().model_floor)]
+    #[arg(long, value_name = "FRACTION", default_value_t = GridRule::default().model_floor, allow_hyphen_values = true)]
     pub model_floor: f64,
     /// Distinct trajectories kept per map.
-    #[arg(long, value_name = "N", default_value_t = GridRule::default().keep)]
+    #[arg(long, value_name = "N", default_value_t = GridRule::default().keep, allow_hyphen_values = true)]
     pub keep: usize,
     /// Halvings of the library's (s, q) step in the zoom around the best grid points (finer
     /// maps built in memory and searched before the refinement; 0: no zoom).
-    #[arg(long, value_name = "N", default_value_t = ZoomOptions::default().levels)]
+    #[arg(long, value_name = "N", default_value_t = ZoomOptions::default().levels, allow_hyphen_values = true)]
     pub zoom: usize,
     /// Grid points zoomed (the best local minima of the search).
-    #[arg(long, value_name = "N", default_value_t = ZoomOptions::default().centres)]
+    #[arg(long, value_name = "N", default_value_t = ZoomOptions::default().centres, allow_hyphen_values = true)]
     pub zoom_points: usize,
     /// Local minima of the (s, q) grid to refine.
-    #[arg(long, value_name = "N", default_value_t = RefineOptions::default().candidates)]
+    #[arg(long, value_name = "N", default_value_t = RefineOptions::default().candidates, allow_hyphen_values = true)]
     pub refine: usize,
     /// Refine only the grid minima whose search chi2 is at most FACTOR times the best's
     /// (inf: all of them).
-    #[arg(long, value_name = "FACTOR", default_value_t = RefineOptions::default().within)]
+    #[arg(long, value_name = "FACTOR", default_value_t = RefineOptions::default().within, allow_hyphen_values = true)]
     pub refine_within: f64,
     /// Restarts per round from random perturbations of the best minimum once it converged, kept
     /// when one ends lower (up to 3 rounds; 0: none).
-    #[arg(long, value_name = "N", default_value_t = RefineOptions::default().hops)]
+    #[arg(long, value_name = "N", default_value_t = RefineOptions::default().hops, allow_hyphen_values = true)]
     pub hops: usize,
     /// Relative tolerance of the exact magnifications in the refinement.
-    #[arg(long, value_name = "T", default_value_t = RefineOptions::default().tol)]
+    #[arg(long, value_name = "T", default_value_t = RefineOptions::default().tol, allow_hyphen_values = true)]
     pub tol: f64,
     /// Iteration limit of each minimisation in the refinement.
-    #[arg(long, value_name = "N", default_value_t = RefineOptions::default().max_iters)]
+    #[arg(long, value_name = "N", default_value_t = RefineOptions::default().max_iters, allow_hyphen_values = true)]
     pub max_iters: u64,
     /// Wall time allowed to each pass of refinements, seconds (0: no limit).
-    #[arg(long, value_name = "SECONDS", default_value_t = 600.0)]
+    #[arg(
+        long,
+        value_name = "SECONDS",
+        default_value_t = 600.0,
+        allow_hyphen_values = true
+    )]
     pub budget: f64,
     /// Write the table of minima here instead of stdout.
     #[arg(long, value_name = "FILE.csv")]

@@ -293,6 +293,8 @@ fn bad_values(kind: &str) -> Vec<&'static str> {
         "signed" => &["nan", "inf", "-inf", "1e400", "1e300", "-1e300"],
         // finite and > 0, of moderate size
         "positive" => &["nan", "inf", "-1", "0", "1e400", "1e300", "-1e-300"],
+        // a relative half-range: from 0 to 10
+        "span" => &["nan", "inf", "-1", "1e400", "1e300", "-1e-300"],
         // trial source radii: > 0
         "radii" => &["nan", "inf", "-1", "0", "-1e-300"],
         // a source radius: >= 0 and at most 1e3 Einstein radii
@@ -354,6 +356,8 @@ const OPTIONS: &[(&str, &str, &str)] = &[
     ("build", "--shard", "shard"),
     ("script", "--tasks", "count"),
     ("search", "--rho", "radii"),
+    ("search", "--u0-span", "span"),
+    ("search", "--keep", "count"),
 ];
 
 #[test]

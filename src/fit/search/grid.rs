@@ -73,8 +73,11 @@ impl GridRule {
                 self.rhos
             ));
         }
-        if !(self.u0_span.is_finite() && self.u0_span >= 0.0) {
-            return bad(format!("--u0-span: must be >= 0, got {}", self.u0_span));
+        if !(self.u0_span >= 0.0 && self.u0_span <= 10.0) {
+            return bad(format!(
+                "--u0-span: must be from 0 to 10, got {}",
+                self.u0_span
+            ));
         }
         if !(self.u0_misfit.is_finite() && self.u0_misfit >= 0.0) {
             return bad(format!("--u0-misfit: must be >= 0, got {}", self.u0_misfit));
