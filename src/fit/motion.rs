@@ -25,7 +25,7 @@ use super::fluxes::{fit_fluxes, FluxFit};
 use super::model::{BinaryModel, LensOrbit, Parallax, Trajectory};
 use super::optimize::{gauss_newton_covariance, least_squares};
 use super::photometry::DataSet;
-use super::refine::COARSE_TOL;
+use super::refine::{self, COARSE_TOL};
 use super::scales::ParallaxMeasure;
 use crate::error::{Error, Result};
 use crate::parallax::{jd_origin, Ephemeris, Geometry, Observer, SkyPosition};
@@ -406,16 +406,7 @@ impl Fitter<'_> {
 
 /// `(ln s, ln q, alpha, u0, t0, ln tE, ln rho, pi_E,N, pi_E,E[, ds/dt, dalpha/dt])`.
 fn to_vector(m: &BinaryModel) -> Vec<f64> {
-    let l = m.trajectory.line();
-    let mut v = vec![
-        m.s.ln(),
-        m.q.ln(),
-        l.alpha,
-        l.u0,
-        l.t0,
-        l.te.ln(),
-        m.rho.ln(),
-    ];
+    let mut v = refine::to_vector(m);
     if let Some(p) = m.trajectory.parallax() {
         v.extend([p.pi_en, p.pi_ee]);
     }
@@ -438,30 +429,20 @@ fn from_vector(like: &BinaryModel, p: &[f64]) -> Result<BinaryModel> {
         dalpha_dt: p[10],
         ..*o
     });
+    let fixed = refine::from_vector(&p[..7])?;
     Ok(BinaryModel {
-        s: p[0].exp(),
-        q: p[1].exp(),
-        rho: p[6].exp(),
-        trajectory: Trajectory::straight(p[4], p[3], p[5].exp(), p[2])?
+        trajectory: fixed
+            .trajectory
             .with_parallax(parallax)?
             .with_orbit(orbit)?,
+        ..fixed
     })
 }
 
 /// Typical steps of the vector's parameters (the Jacobian's are a fiftieth).
 fn steps(m: &BinaryModel) -> Vec<f64> {
-    let l = m.trajectory.line();
-    let mut h = vec![
-        0.02,
-        0.1,
-        0.01,
-        0.02 * l.u0.abs().max(0.01),
-        0.005 * l.te,
-        0.02,
-        0.1,
-        0.05,
-        0.05,
-    ];
+    let mut h = refine::steps(m).to_vec();
+    h.extend([0.05, 0.05]);
     if m.trajectory.orbit().is_some() {
         h.extend([0.05, 0.1]);
     }

@@ -190,3 +190,16 @@ pub fn library_command(dir: &Path, args: &[&str]) -> Command {
         .env_remove("CAUSEWAY_STORE");
     cmd
 }
+
+/// A light curve of 40 points: a point lens (u0 0.1, tE 20 d) in noise-free magnitudes
+/// (Paczynski 1986), 0.01 mag error bars.
+pub fn point_lens_csv() -> String {
+    let mut text = String::from("t,mag,mag_err\n");
+    for k in 0..40 {
+        let t = -40.0 + 2.0 * k as f64;
+        let u = (0.1f64.powi(2) + (t / 20.0).powi(2)).sqrt();
+        let a = (u * u + 2.0) / (u * (u * u + 4.0).sqrt());
+        text += &format!("{t},{},0.01\n", 19.0 - 2.5 * a.log10());
+    }
+    text
+}

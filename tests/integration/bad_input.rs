@@ -34,24 +34,12 @@ fn spec(lines: &[(&str, &str)]) -> String {
     text
 }
 
-/// A light curve of 40 points (a point lens seen through noise-free magnitudes).
-fn event_csv() -> String {
-    let mut text = String::from("t,mag,mag_err\n");
-    for k in 0..40 {
-        let t = -40.0 + 2.0 * k as f64;
-        let u = (0.1f64.powi(2) + (t / 20.0).powi(2)).sqrt();
-        let a = (u * u + 2.0) / (u * (u * u + 4.0).sqrt());
-        text += &format!("{t},{},0.01\n", 19.0 - 2.5 * a.log10());
-    }
-    text
-}
-
 /// The files every case may refer to; `folder.png`, `folder.csv`, `folder.fits` and `folder`
 /// are folders, `missing/` does not exist.
 fn fixtures(dir: &Path) {
     let long = "9".repeat(1 << 20);
     let files: Vec<(&str, Vec<u8>)> = vec![
-        ("event.csv", event_csv().into_bytes()),
+        ("event.csv", crate::common::point_lens_csv().into_bytes()),
         ("lib.toml", spec(&[]).into_bytes()),
         ("pixels.toml", spec(&[("pixels", "100000")]).into_bytes()),
         (

@@ -180,18 +180,6 @@ impl Campaign {
     }
 }
 
-/// A light curve of 40 points (a point lens seen through noise-free magnitudes).
-fn event_csv() -> String {
-    let mut text = String::from("t,mag,mag_err\n");
-    for k in 0..40 {
-        let t = -40.0 + 2.0 * k as f64;
-        let u = (0.1f64.powi(2) + (t / 20.0).powi(2)).sqrt();
-        let a = (u * u + 2.0) / (u * (u * u + 4.0).sqrt());
-        text += &format!("{t},{},0.01\n", 19.0 - 2.5 * a.log10());
-    }
-    text
-}
-
 /// A small valid library spec.
 const SPEC: &str = "s = { log = [0.8, 1.25, 2] }\nq = [1e-3]\npixels = 24\nrays = 4\n\
                     engine = \"rays\"\n[window]\ncenter = [0.0, 0.0]\nwidth = 1.0\n";
@@ -206,7 +194,7 @@ fn valid_files() -> Vec<(String, Vec<u8>)> {
             "path.csv",
             "t,x,y\n0,0.1,0.1\n1,0.2,0.1\n2,0.3,0.1\n".to_string(),
         ),
-        ("event.csv", event_csv()),
+        ("event.csv", crate::common::point_lens_csv()),
         ("lib.toml", SPEC.to_string()),
     ]
     .into_iter()
@@ -432,7 +420,7 @@ fn bad_lenses() -> Vec<(String, usize)> {
 
 /// Bad light curves beyond the general CSV ones (row 5 of a valid 40-row curve replaced).
 fn bad_events() -> Vec<(String, usize)> {
-    let valid = event_csv();
+    let valid = crate::common::point_lens_csv();
     let lines: Vec<&str> = valid.lines().collect();
     let mut out: Vec<(String, usize)> = [
         "-32,1000,0.01",
