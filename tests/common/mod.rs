@@ -203,3 +203,23 @@ pub fn point_lens_csv() -> String {
     }
     text
 }
+
+/// The seed of a test's random timings: `$CAUSEWAY_TEST_SEED` when set, else `default`.
+pub fn test_seed(default: u64) -> u64 {
+    std::env::var("CAUSEWAY_TEST_SEED")
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(default)
+}
+
+/// A 64-bit linear congruential generator from `seed` (Knuth's MMIX constants, from memory),
+/// its upper 31 bits per call: enough for kill times.
+pub fn lcg(seed: u64) -> impl FnMut() -> u64 {
+    let mut state = seed;
+    move || {
+        state = state
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        state >> 33
+    }
+}

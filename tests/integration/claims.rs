@@ -341,20 +341,10 @@ fn status_verify_and_prune_know_claims() {
 
 #[test]
 fn killed_workers_resume_to_the_same_store_as_a_clean_build() {
-    let seed: u64 = std::env::var("CAUSEWAY_TEST_SEED")
-        .ok()
-        .and_then(|s| s.parse().ok())
-        .unwrap_or(0x00c1_a1e5);
+    let seed = common::test_seed(0x00c1_a1e5);
     let (dir, spec) = common::grid_folder("claims-kill", SLOW_SPEC);
     let maps = dir.join("maps");
-    let mut state = seed;
-    let mut next = || {
-        // 64-bit LCG (Knuth's MMIX constants, from memory): enough for kill times.
-        state = state
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
-        state >> 33
-    };
+    let mut next = common::lcg(seed);
     let mut claims_left = 0;
     for round in 0..5 {
         let mut workers: Vec<_> = (0..3)

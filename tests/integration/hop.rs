@@ -5,7 +5,7 @@
 
 use crate::common;
 
-use causeway::fit::hop::{hop, HopPlan};
+use causeway::fit::hop::{hop, HopPlan, Hopped};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::noise::clean;
 use causeway::fit::photometry::DataSet;
@@ -46,6 +46,38 @@ fn event_near(name: &str, at: &BinaryModel) -> (Vec<DataSet>, Refined) {
 /// 3,300 points.
 const MARGIN: f64 = 25.0;
 
+/// Hops (8 per round, `seed`) from the minimum next to `stopped` on the benchmark event `name`
+/// (cleaned there), with `neighbours`; asserts that the start is more than [`MARGIN`] above the
+/// minimum next to the truth and the hops end within it.
+fn hops_below_truth(
+    name: &str,
+    stopped: &BinaryModel,
+    neighbours: &[BinaryModel],
+    seed: u64,
+) -> Hopped {
+    let (data, truth) = event_near(name, stopped);
+    let start = lm(&data, stopped);
+    assert!(
+        start.chi2 > truth.chi2 + MARGIN,
+        "{} vs {}",
+        start.chi2,
+        truth.chi2
+    );
+    let plan = HopPlan {
+        hops: 8,
+        seed,
+        deadline: None,
+    };
+    let hopped = hop(&data, &start, neighbours, 1e-4, &plan, &|| {}).unwrap();
+    assert!(
+        hopped.refined.chi2 < truth.chi2 + MARGIN,
+        "hopped to {} (truth's minimum {})",
+        hopped.refined.chi2,
+        truth.chi2
+    );
+    hopped
+}
+
 #[test]
 #[ignore = "slow (one to two minutes on two cores): run by scripts/test"]
 fn a_bridge_between_two_minima_finds_the_deeper_one_between_them() {
@@ -56,34 +88,8 @@ fn a_bridge_between_two_minima_finds_the_deeper_one_between_them() {
     let other = model([
         1.57055, 8.4474e-4, 3.4043, 0.24024, 9004.009, 36.564, 1.925e-3,
     ]);
-    let (data, truth) = event_near("wide-2", &stopped);
-    let start = lm(&data, &stopped);
-    assert!(
-        start.chi2 > truth.chi2 + MARGIN,
-        "{} vs {}",
-        start.chi2,
-        truth.chi2
-    );
-    let hopped = hop(
-        &data,
-        &start,
-        &[other],
-        1e-4,
-        &HopPlan {
-            hops: 8,
-            seed: 1,
-            deadline: None,
-        },
-        &|| {},
-    )
-    .unwrap();
+    let hopped = hops_below_truth("wide-2", &stopped, &[other], 1);
     assert!(hopped.kept >= 1);
-    assert!(
-        hopped.refined.chi2 < truth.chi2 + MARGIN,
-        "hopped to {} (truth's minimum {})",
-        hopped.refined.chi2,
-        truth.chi2
-    );
     assert!((hopped.refined.model.s / 1.6 - 1.0).abs() < 0.01);
 }
 
@@ -94,33 +100,7 @@ fn random_hops_leave_a_stellar_binarys_false_minimum() {
     let stopped = model([
         1.19464, 1.9751e-1, 2.2629, 0.14911, 9003.1724, 59.751, 1.021e-3,
     ]);
-    let (data, truth) = event_near("stellar-2", &stopped);
-    let start = lm(&data, &stopped);
-    assert!(
-        start.chi2 > truth.chi2 + MARGIN,
-        "{} vs {}",
-        start.chi2,
-        truth.chi2
-    );
-    let hopped = hop(
-        &data,
-        &start,
-        &[],
-        1e-4,
-        &HopPlan {
-            hops: 8,
-            seed: 0x686f_7073,
-            deadline: None,
-        },
-        &|| {},
-    )
-    .unwrap();
-    assert!(
-        hopped.refined.chi2 < truth.chi2 + MARGIN,
-        "hopped to {} (truth's minimum {})",
-        hopped.refined.chi2,
-        truth.chi2
-    );
+    hops_below_truth("stellar-2", &stopped, &[], 0x686f_7073);
 }
 
 #[test]

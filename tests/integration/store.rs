@@ -61,19 +61,9 @@ fn second_build_builds_nothing() {
 
 #[test]
 fn killed_builds_resume_to_a_complete_verified_grid() {
-    let seed: u64 = std::env::var("CAUSEWAY_TEST_SEED")
-        .ok()
-        .and_then(|s| s.parse().ok())
-        .unwrap_or(0x5eed_2026);
+    let seed = common::test_seed(0x5eed_2026);
     let (dir, spec) = common::grid_folder("store-kill", SLOW_SPEC);
-    let mut state = seed;
-    let mut next = || {
-        // 64-bit LCG (Knuth's MMIX constants, from memory): enough for kill times.
-        state = state
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
-        state >> 33
-    };
+    let mut next = common::lcg(seed);
     let mut interrupted = 0;
     for round in 0..6 {
         let delay = Duration::from_millis(30 + next() % 500);
