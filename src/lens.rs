@@ -202,18 +202,36 @@ impl LensSystem {
     /// assert!(err.to_string().starts_with("bad.csv:3"));
     /// ```
     pub fn parse_csv(text: &str, origin: &str) -> Result<Self> {
+        Self::parse_csv_with_total(text, origin).map(|(lens, _)| lens)
+    }
+
+    /// [`LensSystem::parse_csv`], also returning the sum of the masses as listed (before they
+    /// were normalised), so that a caller can say when they did not sum to 1.
+    ///
+    /// ```
+    /// use causeway::lens::LensSystem;
+    /// let (lens, total) = LensSystem::parse_csv_with_total("x,y,mass\n0,0,3\n1,0,1\n", "t.csv").unwrap();
+    /// assert_eq!((lens.lenses()[0].mass, total), (0.75, 4.0));
+    /// ```
+    pub fn parse_csv_with_total(text: &str, origin: &str) -> Result<(Self, f64)> {
         let table = Table::parse(text, origin, &["x", "y", "mass"], &[])?;
         let rows: Vec<(f64, f64, f64)> = table.rows.iter().map(|r| (r[0], r[1], r[2])).collect();
         if rows.is_empty() {
             return Err(Error::input(format!("{origin}: no lenses listed")));
         }
-        Self::validated(&rows, |i| format!("{origin}:{}", table.lines[i]))
+        let lens = Self::validated(&rows, |i| format!("{origin}:{}", table.lines[i]))?;
+        Ok((lens, rows.iter().map(|r| r.2).sum()))
     }
 
     /// Reads a lens CSV file (see [`LensSystem::parse_csv`]).
     pub fn read_csv(path: &Path) -> Result<Self> {
+        Self::read_csv_with_total(path).map(|(lens, _)| lens)
+    }
+
+    /// Reads a lens CSV file (see [`LensSystem::parse_csv_with_total`]).
+    pub fn read_csv_with_total(path: &Path) -> Result<(Self, f64)> {
         let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
-        Self::parse_csv(&text, &path.display().to_string())
+        Self::parse_csv_with_total(&text, &path.display().to_string())
     }
 
     /// The lenses, masses normalised.

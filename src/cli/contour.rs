@@ -27,7 +27,7 @@ pub struct ContourArgs {
     #[arg(long, value_name = "FILE")]
     pub points: PathBuf,
     /// Source radius in Einstein radii (0: point source).
-    #[arg(long, value_name = "R", allow_hyphen_values = true)]
+    #[arg(long, value_name = "RHO", allow_hyphen_values = true)]
     pub rho: f64,
     /// Linear limb-darkening coefficient u in [0, 1].
     #[arg(

@@ -46,15 +46,16 @@ pub struct CurveArgs {
     #[arg(long, default_value_t = Sampler::DEFAULT_TOL, value_name = "T")]
     pub tol: f64,
     /// How map reads under the source are made.
-    #[arg(long, value_enum, default_value_t = EvaluationArg::Auto)]
+    #[arg(long, value_enum, default_value_t = EvaluationArg::Auto, value_name = "HOW")]
     pub evaluation: EvaluationArg,
-    /// Source flux: adds the columns flux = fs A + fb and magnitude.
+    /// Source flux (flux 1 is magnitude --zero-point): adds the columns flux = fs A + fb and
+    /// magnitude.
     #[arg(long, value_name = "FS")]
     pub fs: Option<f64>,
-    /// Blend flux (with --fs).
+    /// Blend flux (with --fs; same units).
     #[arg(long, value_name = "FB", requires = "fs", default_value_t = 0.0)]
     pub fb: f64,
-    /// Magnitude of unit flux.
+    /// Magnitude of unit flux (mag).
     #[arg(long, value_name = "ZP", default_value_t = DEFAULT_ZERO_POINT)]
     pub zero_point: f64,
     /// Also plot the curve (magnification against time, or against distance along the path).
@@ -95,13 +96,15 @@ pub struct TrajectoryArgs {
     /// Time of closest approach to the origin (days).
     #[arg(long, value_name = "T0", allow_hyphen_values = true)]
     pub t0: Option<f64>,
-    /// Signed impact parameter (Einstein radii).
+    /// Signed impact parameter (Einstein radii): at t0 the source is at (-u0 sin alpha,
+    /// u0 cos alpha), to the left of its motion for u0 > 0.
     #[arg(long, value_name = "U0", allow_hyphen_values = true)]
     pub u0: Option<f64>,
     /// Einstein timescale (days).
     #[arg(long, value_name = "TE", allow_hyphen_values = true)]
     pub te: Option<f64>,
-    /// Direction of motion, degrees from the x axis.
+    /// Direction of motion, degrees counter-clockwise from the x axis (the binary axis, host at
+    /// negative x, companion at positive x).
     #[arg(long, value_name = "DEG", allow_hyphen_values = true)]
     pub alpha: Option<f64>,
     /// Times: CSV with header t.
@@ -119,7 +122,7 @@ pub struct SourceArgs {
     #[arg(
         long,
         default_value_t = 0.0,
-        value_name = "R",
+        value_name = "RHO",
         allow_hyphen_values = true
     )]
     pub rho: f64,

@@ -34,10 +34,10 @@ use std::path::{Path, PathBuf};
 #[command(after_help = "Example:\n  causeway demo --out demo-output")]
 pub struct DemoArgs {
     /// Directory for the demo's files (created if missing).
-    #[arg(long, default_value = "demo-output")]
+    #[arg(long, default_value = "demo-output", value_name = "DIR")]
     pub out: PathBuf,
     /// Pixels per side of the demo map.
-    #[arg(long, default_value_t = 1000)]
+    #[arg(long, default_value_t = 1000, value_name = "N")]
     pub pixels: usize,
     /// Only the maps part (skip the simulated event's search).
     #[arg(long)]

@@ -14,10 +14,16 @@ use std::path::PathBuf;
     name = "causeway",
     version,
     about = "Magnification maps and finite-source light curves for gravitational microlensing",
-    long_about = "Builds magnification maps of point-mass lenses by inverse ray shooting, keeps \
-                  them, and draws finite-source light curves from them.\n\nLengths are in \
-                  Einstein radii of the total lens mass; a binary is given by --s and --q, any \
-                  other lens by --lenses FILE (CSV with header x,y,mass).",
+    long_about = "Builds magnification maps of point-mass lenses (by inverse ray shooting or by \
+                  inverse polygon mapping), keeps them, draws finite-source light curves from \
+                  them, fits photometry with them and says what the lens is.\n\nLengths are in \
+                  Einstein radii of the total lens mass, times in days; a binary is given by --s \
+                  and --q, any other lens by --lenses FILE (CSV with header x,y,mass). A \
+                  straight trajectory (t0, u0, tE, alpha) puts the source at time t at \
+                  (tau cos alpha - u0 sin alpha, tau sin alpha + u0 cos alpha) with \
+                  tau = (t - t0)/tE: at t0 it is at (-u0 sin alpha, u0 cos alpha), to the left of \
+                  its motion when u0 > 0.",
+    disable_help_subcommand = true,
     after_help = "Examples:\n  causeway demo\n  causeway map --s 1.1 --q 1e-3 --center 0.2,0 --width 0.5 --pixels 1000 --out planet.fits --png planet.png"
 )]
 pub struct Cli {
@@ -29,7 +35,7 @@ pub struct Cli {
 /// The commands.
 #[derive(Debug, Subcommand)]
 pub enum Command {
-    /// Build one magnification map by inverse ray shooting.
+    /// Build one magnification map by inverse ray shooting or inverse polygon mapping.
     Map(map::MapArgs),
     /// Run the built-in demo: an invented planetary event, its map and picture.
     Demo(demo::DemoArgs),
@@ -52,6 +58,34 @@ pub enum Command {
     /// Who the lens is: mass, distance and class posteriors from a Galactic model, with the
     /// lens-light test.
     Nature(Box<nature::NatureArgs>),
+    /// Print the help of causeway or of the given command (for example `causeway help library
+    /// build`).
+    Help(HelpArgs),
+}
+
+/// Options of `causeway help`.
+#[derive(Debug, Args)]
+#[command(after_help = "Examples:\n  causeway help\n  causeway help search\n  causeway help library build")]
+pub struct HelpArgs {
+    /// The command (and subcommand) whose help to print; none for the overview.
+    #[arg(value_name = "COMMAND")]
+    pub command: Vec<String>,
+}
+
+/// Prints the long help of the named (sub)command, or of causeway.
+fn print_help(args: HelpArgs) -> Result<()> {
+    use clap::CommandFactory;
+    let mut command = Cli::command();
+    command.build();
+    for name in &args.command {
+        command = command
+            .find_subcommand(name)
+            .cloned()
+            .ok_or_else(|| Error::input(format!("help: no command '{}'", shown(name))))?;
+    }
+    command
+        .print_long_help()
+        .map_err(|e| Error::io(std::path::Path::new("<stdout>"), e))
 }
 
 /// Runs a parsed command line.
@@ -68,6 +102,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Simulate(args) => simulate::run(*args),
         Command::Search(args) => search::run(*args),
         Command::Nature(args) => nature::run(*args),
+        Command::Help(args) => print_help(args),
     }
 }
 
@@ -109,7 +144,17 @@ impl LensArgs {
     /// The lens system these options describe.
     pub fn lens_system(&self) -> Result<LensSystem> {
         match (&self.lenses, self.s, self.q) {
-            (Some(path), None, None) => LensSystem::read_csv(path),
+            (Some(path), None, None) => {
+                let (lens, total) = LensSystem::read_csv_with_total(path)?;
+                if (total - 1.0).abs() > 1e-9 {
+                    eprintln!(
+                        "causeway: note: {}: the masses sum to {}; normalised to sum 1",
+                        path.display(),
+                        crate::table::fmt_f64(total)
+                    );
+                }
+                Ok(lens)
+            }
             (None, Some(s), Some(q)) => LensSystem::binary(s, q),
             _ => Err(Error::input(
                 "give the lens as --s S --q Q (a binary) or --lenses FILE (CSV x,y,mass)",
@@ -157,6 +202,40 @@ impl ThreadArgs {
                 .map_err(|e| Error::input(format!("--threads: {e}")))?;
         }
         Ok(())
+    }
+}
+
+/// A list of numbers typed with commas (`0.001,0.002`), and shown the same way in `--help`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NumberList(pub Vec<f64>);
+
+impl NumberList {
+    /// Parses `A[,B...]`: finite numbers separated by commas.
+    ///
+    /// ```
+    /// use causeway::cli::NumberList;
+    /// assert_eq!(NumberList::parse("1e-3, 2").unwrap().0, vec![1e-3, 2.0]);
+    /// assert_eq!(NumberList(vec![0.5, 2.0]).to_string(), "0.5,2");
+    /// assert!(NumberList::parse("1,,2").is_err());
+    /// ```
+    pub fn parse(s: &str) -> std::result::Result<Self, String> {
+        s.split(',')
+            .map(|t| {
+                t.trim()
+                    .parse::<f64>()
+                    .ok()
+                    .filter(|v| v.is_finite())
+                    .ok_or_else(|| format!("'{}' is not a finite number", shown(t)))
+            })
+            .collect::<std::result::Result<Vec<f64>, String>>()
+            .map(NumberList)
+    }
+}
+
+impl std::fmt::Display for NumberList {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let texts: Vec<String> = self.0.iter().map(|v| v.to_string()).collect();
+        f.write_str(&texts.join(","))
     }
 }
 

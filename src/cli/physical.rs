@@ -10,7 +10,7 @@ use clap::Args;
 pub struct PhysicalArgs {
     /// Angular radius of the source (microarcseconds): gives theta_E = theta_* / rho and the
     /// proper motion.
-    #[arg(long, value_name = "MICROARCSEC", allow_hyphen_values = true)]
+    #[arg(long, value_name = "UAS", allow_hyphen_values = true)]
     pub theta_star: Option<f64>,
     /// Lens distance (kpc), with --ds: gives the masses and the projected separation.
     #[arg(long, value_name = "KPC", allow_hyphen_values = true, requires = "ds")]

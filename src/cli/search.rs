@@ -4,7 +4,7 @@ use super::library::StoreArgs;
 use super::motion::FitMotionArgs;
 use super::physical::PhysicalArgs;
 use super::progress::Reporter;
-use super::ThreadArgs;
+use super::{NumberList, ThreadArgs};
 use crate::error::{Error, Result};
 use crate::fit::event::{fit_event, FitOptions, FitResult, DEFAULT_CLIP_SIGMA};
 use crate::fit::minima::RefineOptions;
@@ -31,7 +31,7 @@ use std::time::Duration;
 #[command(
     after_help = "Fits every data set (CSV t,mag,mag_err or t,flux,flux_err; times in days, any \
     epoch such as JD - 2450000) with a single lens first (bounded, the anomaly found and left \
-    out), then searches each map of the library over trajectories timed from that baseline and \
+    out), then searches each map of the library over trajectories timed (t0 and tE taken) from that baseline and \
     from the anomaly (the grid rule is in the documentation of causeway::fit::search), refines \
     the best (s, q) local minima with exact magnifications, clips isolated outliers and rescales \
     each set's error bars, refines again, and prints the distinct minima as CSV (ranked by the \
@@ -64,7 +64,7 @@ pub struct SearchArgs {
         allow_hyphen_values = true
     )]
     pub ld: Vec<f64>,
-    /// Magnitude of unit flux in the data files.
+    /// Magnitude of unit flux in the data files (mag).
     #[arg(long, value_name = "ZP", default_value_t = DEFAULT_ZERO_POINT, allow_hyphen_values = true)]
     pub zero_point: f64,
     /// Hide the times START to END (days) from the single-lens baseline; repeatable.
@@ -88,8 +88,8 @@ pub struct SearchArgs {
     #[arg(long)]
     pub fixed_errors: bool,
     /// Trial source radii (Einstein radii).
-    #[arg(long, value_name = "RHO[,RHO...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().rhos)]
-    pub rho: Vec<f64>,
+    #[arg(long, value_name = "RHO[,RHO...]", value_parser = NumberList::parse, allow_hyphen_values = true, default_value_t = NumberList(GridRule::default().rhos))]
+    pub rho: NumberList,
     /// Half-range of u0 around the baseline's value, relative to it.
     #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_span, allow_hyphen_values = true)]
     pub u0_span: f64,
@@ -101,12 +101,12 @@ pub struct SearchArgs {
     #[arg(long, value_name = "F", default_value_t = GridRule::default().u0_misfit, allow_hyphen_values = true)]
     pub u0_misfit: f64,
     /// Factors on the baseline's tE (default 1, or 0.5 to 2 when the baseline is not trusted).
-    #[arg(long, value_name = "F[,F...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().te_factors)]
-    pub te_factors: Vec<f64>,
+    #[arg(long, value_name = "F[,F...]", value_parser = NumberList::parse, allow_hyphen_values = true, default_value_t = NumberList(GridRule::default().te_factors))]
+    pub te_factors: NumberList,
     /// Shifts of t0 from the baseline's value, in units of tE (default 0, or -0.2 to 0.2 when
     /// the baseline is not trusted).
-    #[arg(long, value_name = "K[,K...]", value_delimiter = ',', allow_hyphen_values = true, default_values_t = GridRule::default().t0_shifts)]
-    pub t0_shifts: Vec<f64>,
+    #[arg(long, value_name = "K[,K...]", value_parser = NumberList::parse, allow_hyphen_values = true, default_value_t = NumberList(GridRule::default().t0_shifts))]
+    pub t0_shifts: NumberList,
     /// Keep the timings as given: no anchoring on the anomaly, no widening when the baseline
     /// is not trusted.
     #[arg(long)]
@@ -205,12 +205,12 @@ impl SearchArgs {
     /// The options of the whole fit.
     pub fn options(&self) -> Result<FitOptions> {
         let rule = GridRule {
-            rhos: self.rho.clone(),
+            rhos: self.rho.0.clone(),
             u0_span: self.u0_span,
             u0_floor: self.u0_floor,
             u0_misfit: self.u0_misfit,
-            te_factors: self.te_factors.clone(),
-            t0_shifts: self.t0_shifts.clone(),
+            te_factors: self.te_factors.0.clone(),
+            t0_shifts: self.t0_shifts.0.clone(),
             keep: self.keep,
             max_trajectories: self.max_trajectories,
             model_floor: self.model_floor,

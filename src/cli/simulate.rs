@@ -65,7 +65,7 @@ pub struct SimulateArgs {
     #[arg(long, requires = "sigma_flux")]
     pub flux: bool,
     /// Error of every point in flux (with --flux; units of --fs).
-    #[arg(long, value_name = "X", requires = "flux")]
+    #[arg(long, value_name = "FLUX", requires = "flux")]
     pub sigma_flux: Option<f64>,
     /// Seed of the noise (and of a plan's nights).
     #[arg(long, value_name = "N", default_value_t = Simulation::DEFAULT_SEED)]
@@ -144,6 +144,17 @@ fn run_single(
     profile: SourceProfile,
 ) -> Result<()> {
     let (line, times) = args.trajectory.straight()?;
+    if times.len() < 3 {
+        let origin = args
+            .trajectory
+            .times
+            .as_ref()
+            .map_or("--time-range".to_string(), |f| f.display().to_string());
+        return Err(Error::input(format!(
+            "{origin}: a data set needs at least 3 times, got {}",
+            times.len()
+        )));
+    }
     let model = BinaryModel {
         s,
         q,

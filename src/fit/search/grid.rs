@@ -63,13 +63,17 @@ impl Default for GridRule {
     }
 }
 
+/// The largest trial source radius of the search, in Einstein radii.
+pub const MAX_TRIAL_RHO: f64 = 1.0;
+
 impl GridRule {
     /// Checks the rule's values.
     pub fn validate(&self) -> Result<()> {
         let bad = |m: String| Err(Error::input(m));
-        if self.rhos.is_empty() || self.rhos.iter().any(|&r| !(r.is_finite() && r > 0.0)) {
+        if self.rhos.is_empty() || self.rhos.iter().any(|&r| !(r > 0.0 && r <= MAX_TRIAL_RHO)) {
             return bad(format!(
-                "--rho: trial radii must be finite and > 0, got {:?}",
+                "--rho: trial radii must be > 0 and at most {MAX_TRIAL_RHO} Einstein radius (a \
+                 source that large is not read from a map of a planetary caustic), got {:?}",
                 self.rhos
             ));
         }
