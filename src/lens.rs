@@ -153,19 +153,19 @@ impl LensSystem {
     pub fn binary(s: f64, q: f64) -> Result<Self> {
         if !s.is_finite() || s <= 0.0 {
             return Err(Error::input(format!(
-                "--s: separation must be finite and > 0, got {s}"
+                "s: separation must be finite and > 0, got {s}"
             )));
         }
         if !q.is_finite() || q <= 0.0 {
             return Err(Error::input(format!(
-                "--q: mass ratio must be finite and > 0, got {q}"
+                "q: mass ratio must be finite and > 0, got {q}"
             )));
         }
         if !(S_RANGE.0..=S_RANGE.1).contains(&s) || !(Q_RANGE.0..=Q_RANGE.1).contains(&q) {
             let (name, value) = if (S_RANGE.0..=S_RANGE.1).contains(&s) {
-                ("--q", q)
+                ("q", q)
             } else {
-                ("--s", s)
+                ("s", s)
             };
             return Err(Error::input(format!(
                 "{name} {value:e}: binaries are taken for s from {:e} to {:e} and q from {:e} to \

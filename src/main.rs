@@ -27,7 +27,7 @@ fn main() {
     if let Err(err) = causeway::cli::run(cli) {
         eprintln!(
             "causeway: error: {}",
-            causeway::error::one_line(&err.to_string())
+            causeway::cli::with_option_names(&causeway::error::one_line(&err.to_string()))
         );
         std::process::exit(err.exit_code());
     }

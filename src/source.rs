@@ -64,7 +64,7 @@ impl SourceProfile {
     pub fn new(rho: f64, law: LimbDarkening) -> Result<Self> {
         if !rho.is_finite() || rho < 0.0 {
             return Err(Error::input(format!(
-                "--rho: must be finite and >= 0, got {rho}"
+                "rho: must be finite and >= 0, got {rho}"
             )));
         }
         let unit = |v: f64| v.is_finite() && (0.0..=1.0).contains(&v);
@@ -72,13 +72,13 @@ impl SourceProfile {
             LimbDarkening::Uniform => {}
             LimbDarkening::Linear { u } => {
                 if !unit(u) {
-                    return Err(Error::input(format!("--ld: u must be in [0, 1], got {u}")));
+                    return Err(Error::input(format!("ld: u must be in [0, 1], got {u}")));
                 }
             }
             LimbDarkening::SquareRoot { c, d } => {
                 if !unit(c) || !unit(d) {
                     return Err(Error::input(format!(
-                        "--ld-sqrt: c and d must be in [0, 1], got {c},{d}"
+                        "ld_sqrt: c and d must be in [0, 1], got {c},{d}"
                     )));
                 }
             }

@@ -65,7 +65,9 @@ pub enum Command {
 
 /// Options of `causeway help`.
 #[derive(Debug, Args)]
-#[command(after_help = "Examples:\n  causeway help\n  causeway help search\n  causeway help library build")]
+#[command(
+    after_help = "Examples:\n  causeway help\n  causeway help search\n  causeway help library build"
+)]
 pub struct HelpArgs {
     /// The command (and subcommand) whose help to print; none for the overview.
     #[arg(value_name = "COMMAND")]
@@ -88,8 +90,28 @@ fn print_help(args: HelpArgs) -> Result<()> {
         .map_err(|e| Error::io(std::path::Path::new("<stdout>"), e))
 }
 
+/// Notes for the user, printed to stderr when the command succeeds (a failing command prints its
+/// one-line error alone).
+static NOTES: std::sync::Mutex<Vec<String>> = std::sync::Mutex::new(Vec::new());
+
+/// Keeps a note for the end of a successful run.
+fn note(text: String) {
+    NOTES.lock().unwrap_or_else(|e| e.into_inner()).push(text);
+}
+
 /// Runs a parsed command line.
 pub fn run(cli: Cli) -> Result<()> {
+    let result = dispatch(cli);
+    if result.is_ok() {
+        for text in NOTES.lock().unwrap_or_else(|e| e.into_inner()).drain(..) {
+            eprintln!("causeway: note: {text}");
+        }
+    }
+    result
+}
+
+/// Runs one command.
+fn dispatch(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Map(args) => map::run(args),
         Command::Demo(args) => demo::run(args),
@@ -121,6 +143,67 @@ pub mod progress;
 pub mod search;
 pub mod simulate;
 
+/// Library parameters whose errors name them first, and the options that set them. The
+/// library speaks of its parameters (`u0_span: must be ...`); the command line names the option
+/// (`--u0-span: must be ...`).
+const OPTION_OF_PARAMETER: &[(&str, &str)] = &[
+    ("baseline", "--baseline"),
+    ("clip", "--clip"),
+    ("dalpha_dt", "--dalpha-dt"),
+    ("dec", "--dec"),
+    ("dl", "--dl"),
+    ("ds", "--ds"),
+    ("ds_dt", "--ds-dt"),
+    ("exclude", "--exclude"),
+    ("keep", "--keep"),
+    ("ld", "--ld"),
+    ("ld_sqrt", "--ld-sqrt"),
+    ("max_trajectories", "--max-trajectories"),
+    ("model_floor", "--model-floor"),
+    ("pi_ee", "--pi-e-e"),
+    ("pi_en", "--pi-e-n"),
+    ("pi_rel", "--pi-rel"),
+    ("q", "--q"),
+    ("ra", "--ra"),
+    ("refine", "--refine"),
+    ("refine_within", "--refine-within"),
+    ("rho", "--rho"),
+    ("s", "--s"),
+    ("t0_kep", "--t0-kep"),
+    ("t0_par", "--t0-par"),
+    ("t0_shifts", "--t0-shifts"),
+    ("te_factors", "--te-factors"),
+    ("theta_star", "--theta-star"),
+    ("tol", "--tol"),
+    ("u0_floor", "--u0-floor"),
+    ("u0_misfit", "--u0-misfit"),
+    ("u0_span", "--u0-span"),
+];
+
+/// A library error message as the command line shows it: a leading parameter name (followed by
+/// `:` or by a value) becomes the option that sets it.
+///
+/// ```
+/// use causeway::cli::with_option_names;
+/// assert_eq!(with_option_names("u0_span: must be from 0 to 10"), "--u0-span: must be from 0 to 10");
+/// assert_eq!(with_option_names("q 2e10: binaries are taken"), "--q 2e10: binaries are taken");
+/// assert_eq!(with_option_names("data.csv:3: bad row"), "data.csv:3: bad row");
+/// ```
+pub fn with_option_names(message: &str) -> String {
+    let end = message
+        .find(|c: char| !(c.is_ascii_lowercase() || c.is_ascii_digit() || c == '_'))
+        .unwrap_or(message.len());
+    let (head, rest) = message.split_at(end);
+    let names_a_value = rest.starts_with(':')
+        || rest
+            .strip_prefix(' ')
+            .is_some_and(|r| r.starts_with(|c: char| c.is_ascii_digit() || "+-.".contains(c)));
+    match OPTION_OF_PARAMETER.iter().find(|(p, _)| *p == head) {
+        Some((_, option)) if names_a_value => format!("{option}{rest}"),
+        _ => message.to_string(),
+    }
+}
+
 /// The lens: a binary from (s, q) or any set of point masses from a CSV file.
 #[derive(Debug, Clone, Args)]
 pub struct LensArgs {
@@ -147,11 +230,11 @@ impl LensArgs {
             (Some(path), None, None) => {
                 let (lens, total) = LensSystem::read_csv_with_total(path)?;
                 if (total - 1.0).abs() > 1e-9 {
-                    eprintln!(
-                        "causeway: note: {}: the masses sum to {}; normalised to sum 1",
+                    note(format!(
+                        "{}: the masses sum to {}; normalised to sum 1",
                         path.display(),
                         crate::table::fmt_f64(total)
-                    );
+                    ));
                 }
                 Ok(lens)
             }

@@ -24,14 +24,14 @@ pub struct PhysicalArgs {
 }
 
 impl PhysicalArgs {
-    /// The checked input; errors name the option.
+    /// The checked input; errors name the parameter (shown as its option by `main`).
     ///
     /// ```
     /// use causeway::cli::physical::PhysicalArgs;
     /// let args = PhysicalArgs { theta_star: Some(0.6), pi_rel: Some(0.1), ..Default::default() };
     /// assert_eq!(args.input().unwrap().pi_rel(), Some(0.1));
     /// let bad = PhysicalArgs { dl: Some(-1.0), ds: Some(8.0), ..Default::default() };
-    /// assert!(bad.input().unwrap_err().to_string().starts_with("--dl"));
+    /// assert!(bad.input().unwrap_err().to_string().starts_with("dl"));
     /// ```
     pub fn input(&self) -> Result<PhysicalInput> {
         let input = PhysicalInput {

@@ -141,7 +141,7 @@ impl ContourSolver {
     pub fn new(lens: &LensSystem, tol: f64) -> Result<Self> {
         if !(tol.is_finite() && tol > 0.0 && tol <= 0.1) {
             return Err(Error::input(format!(
-                "--tol: must be a relative tolerance in (0, 0.1], got {tol}"
+                "tol: must be a relative tolerance in (0, 0.1], got {tol}"
             )));
         }
         Ok(ContourSolver {

@@ -391,7 +391,7 @@ fn validate(data: &[DataSet], maps: &MapSource, options: &FitOptions) -> Result<
     options.rule.validate()?;
     if let Some(c) = options.clip_sigma {
         if !(c.is_finite() && c >= 2.0) {
-            return Err(Error::input(format!("--clip: must be >= 2 sigma, got {c}")));
+            return Err(Error::input(format!("clip: must be >= 2 sigma, got {c}")));
         }
     }
     options.refine.validate()?;

@@ -65,11 +65,11 @@ impl RefineOptions {
     /// Checks the candidate count (at least 1) and [`RefineOptions::within`] (at least 1).
     pub fn validate(&self) -> Result<()> {
         if self.candidates == 0 {
-            return Err(Error::input("--refine: must be at least 1"));
+            return Err(Error::input("refine: must be at least 1"));
         }
         if self.within.is_nan() || self.within < 1.0 {
             return Err(Error::input(format!(
-                "--refine-within: must be >= 1, got {}",
+                "refine_within: must be >= 1, got {}",
                 self.within
             )));
         }

@@ -79,7 +79,7 @@ impl Trajectory {
     /// The same trajectory with parallax (or without, for `None`); `pi_E` must be finite.
     pub fn with_parallax(self, parallax: Option<Parallax>) -> Result<Self> {
         if let Some(p) = parallax {
-            for (name, v) in [("--pi-e-n", p.pi_en), ("--pi-e-e", p.pi_ee)] {
+            for (name, v) in [("pi_en", p.pi_en), ("pi_ee", p.pi_ee)] {
                 if !v.is_finite() {
                     return Err(Error::input(format!("{name}: must be finite, got {v}")));
                 }
@@ -92,9 +92,9 @@ impl Trajectory {
     pub fn with_orbit(self, orbit: Option<LensOrbit>) -> Result<Self> {
         if let Some(o) = orbit {
             for (name, v) in [
-                ("--ds-dt", o.ds_dt),
-                ("--dalpha-dt", o.dalpha_dt),
-                ("--t0-kep", o.t0_kep),
+                ("ds_dt", o.ds_dt),
+                ("dalpha_dt", o.dalpha_dt),
+                ("t0_kep", o.t0_kep),
             ] {
                 if !v.is_finite() {
                     return Err(Error::input(format!("{name}: must be finite, got {v}")));
@@ -324,7 +324,7 @@ impl BinaryModel {
                 let s = self.trajectory.separation(self.s, t);
                 if s.is_nan() || s <= 0.0 {
                     return Err(Error::input(format!(
-                        "--ds-dt: the separation reaches {s} at t = {t}; it must stay > 0"
+                        "ds_dt: the separation reaches {s} at t = {t}; it must stay > 0"
                     )));
                 }
                 let lens = LensSystem::binary(s, self.q)?;

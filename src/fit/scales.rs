@@ -57,21 +57,21 @@ pub struct PhysicalInput {
 impl PhysicalInput {
     /// Checks the values (positive and finite, `D_L < D_S`, distances and parallax not both,
     /// `D_L` only with `D_S`; `D_S` alone serves the parallax models' `D_L`); errors name the
-    /// option.
+    /// parameter.
     ///
     /// ```
     /// use causeway::fit::scales::PhysicalInput;
     /// let ok = PhysicalInput { dl_kpc: Some(4.0), ds_kpc: Some(8.0), ..Default::default() };
     /// assert!(ok.check().is_ok());
     /// let bad = PhysicalInput { dl_kpc: Some(9.0), ds_kpc: Some(8.0), ..Default::default() };
-    /// assert!(bad.check().unwrap_err().to_string().contains("--dl"));
+    /// assert!(bad.check().unwrap_err().to_string().starts_with("dl:"));
     /// ```
     pub fn check(&self) -> Result<()> {
         for (name, v) in [
-            ("--theta-star", self.theta_star_uas),
-            ("--dl", self.dl_kpc),
-            ("--ds", self.ds_kpc),
-            ("--pi-rel", self.pi_rel_mas),
+            ("theta_star", self.theta_star_uas),
+            ("dl", self.dl_kpc),
+            ("ds", self.ds_kpc),
+            ("pi_rel", self.pi_rel_mas),
         ] {
             if let Some(v) = v {
                 if !(v.is_finite() && v > 0.0) {
@@ -83,11 +83,11 @@ impl PhysicalInput {
         }
         match (self.dl_kpc, self.ds_kpc, self.pi_rel_mas) {
             (Some(_), _, Some(_)) | (_, Some(_), Some(_)) => Err(Error::input(
-                "--pi-rel: give either the distances (--dl, --ds) or the relative parallax",
+                "pi_rel: give either the distances (dl, ds) or the relative parallax",
             )),
-            (Some(_), None, None) => Err(Error::input("--dl: needs --ds as well")),
+            (Some(_), None, None) => Err(Error::input("dl: needs ds as well")),
             (Some(dl), Some(ds), None) if dl >= ds => Err(Error::input(format!(
-                "--dl: the lens ({dl} kpc) must be nearer than the source (--ds {ds} kpc)"
+                "dl: the lens ({dl} kpc) must be nearer than the source (ds = {ds} kpc)"
             ))),
             _ => Ok(()),
         }

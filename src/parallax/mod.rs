@@ -193,14 +193,14 @@ impl Geometry {
     pub fn new(sky: SkyPosition, t0_par: f64, jd_origin: f64) -> Result<Geometry> {
         if !t0_par.is_finite() {
             return Err(Error::input(format!(
-                "--t0-par: must be finite, got {t0_par}"
+                "t0_par: must be finite, got {t0_par}"
             )));
         }
         let jd = t0_par + jd_origin;
         // Standish's table 1 holds for 1800-2050.
         if !(2_378_497.0..=2_469_808.0).contains(&jd) {
             return Err(Error::input(format!(
-                "--t0-par: JD {jd} is outside 1800-2050, where the Earth's orbit is known here"
+                "t0_par: JD {jd} is outside 1800-2050, where the Earth's orbit is known here"
             )));
         }
         Ok(Geometry {

@@ -36,11 +36,11 @@ impl SkyPosition {
     /// A position from degrees (checked: finite, |Dec| <= 90; RA wrapped to [0, 360)).
     pub fn new(ra_deg: f64, dec_deg: f64) -> Result<Self> {
         if !ra_deg.is_finite() {
-            return Err(Error::input(format!("--ra: must be finite, got {ra_deg}")));
+            return Err(Error::input(format!("ra: must be finite, got {ra_deg}")));
         }
         if !(dec_deg.is_finite() && dec_deg.abs() <= 90.0) {
             return Err(Error::input(format!(
-                "--dec: must be within [-90, 90] degrees, got {dec_deg}"
+                "dec: must be within [-90, 90] degrees, got {dec_deg}"
             )));
         }
         Ok(SkyPosition {
@@ -52,19 +52,19 @@ impl SkyPosition {
     /// Parses RA and Dec: each either sexagesimal (`hh:mm:ss.s` for RA, `[+-]dd:mm:ss.s` for
     /// Dec; spaces may stand for the colons) or decimal degrees.
     pub fn parse(ra: &str, dec: &str) -> Result<Self> {
-        let ra_deg = match sexagesimal(ra, "--ra")? {
+        let ra_deg = match sexagesimal(ra, "ra")? {
             Some(h) if (0.0..24.0).contains(&h) => 15.0 * h,
             Some(h) => {
                 return Err(Error::input(format!(
-                    "--ra: hours must be in [0, 24), got {h} from '{}'",
+                    "ra: hours must be in [0, 24), got {h} from '{}'",
                     shown(ra)
                 )))
             }
-            None => decimal(ra, "--ra")?,
+            None => decimal(ra, "ra")?,
         };
-        let dec_deg = match sexagesimal(dec, "--dec")? {
+        let dec_deg = match sexagesimal(dec, "dec")? {
             Some(d) => d,
-            None => decimal(dec, "--dec")?,
+            None => decimal(dec, "dec")?,
         };
         Self::new(ra_deg, dec_deg)
     }
@@ -181,15 +181,15 @@ mod tests {
         assert!(SkyPosition::parse("12:61:00", "0")
             .unwrap_err()
             .to_string()
-            .starts_with("--ra"));
+            .starts_with("ra"));
         assert!(SkyPosition::parse("10", "91")
             .unwrap_err()
             .to_string()
-            .starts_with("--dec"));
+            .starts_with("dec"));
         assert!(SkyPosition::parse("10", "abc")
             .unwrap_err()
             .to_string()
-            .starts_with("--dec"));
+            .starts_with("dec"));
         let south = SkyPosition::parse("0", "-00:30:00").unwrap();
         assert_eq!(south.dec_deg, -0.5);
     }

@@ -113,11 +113,7 @@ fn library_build_check_validates_and_builds_nothing() {
 
 #[test]
 fn binaries_outside_the_traced_range_are_refused_with_the_range() {
-    for (s, q, culprit) in [
-        (1000.0, 1e-3, "--s"),
-        (1e-3, 1e-3, "--s"),
-        (1.0, 1e-12, "--q"),
-    ] {
+    for (s, q, culprit) in [(1000.0, 1e-3, "s "), (1e-3, 1e-3, "s "), (1.0, 1e-12, "q ")] {
         let err = LensSystem::binary(s, q).unwrap_err().to_string();
         assert!(err.starts_with(culprit) && err.contains("1e2"), "{err}");
     }

@@ -95,7 +95,7 @@ fn unknown_scales_stay_unknown() {
 }
 
 #[test]
-fn bad_input_names_the_option() {
+fn bad_input_names_the_parameter() {
     let base = PhysicalInput {
         theta_star_uas: Some(0.6),
         dl_kpc: Some(4.0),
@@ -108,42 +108,42 @@ fn bad_input_names_the_option() {
                 dl_kpc: Some(-4.0),
                 ..base
             },
-            "--dl",
+            "dl",
         ),
         (
             PhysicalInput {
                 ds_kpc: Some(0.0),
                 ..base
             },
-            "--ds",
+            "ds",
         ),
         (
             PhysicalInput {
                 dl_kpc: Some(8.0),
                 ..base
             },
-            "--dl",
+            "dl",
         ),
         (
             PhysicalInput {
                 ds_kpc: None,
                 ..base
             },
-            "--dl",
+            "dl",
         ),
         (
             PhysicalInput {
                 pi_rel_mas: Some(0.1),
                 ..base
             },
-            "--pi-rel",
+            "pi_rel",
         ),
         (
             PhysicalInput {
                 theta_star_uas: Some(f64::NAN),
                 ..base
             },
-            "--theta-star",
+            "theta_star",
         ),
         (
             PhysicalInput {
@@ -152,7 +152,7 @@ fn bad_input_names_the_option() {
                 pi_rel_mas: Some(-0.1),
                 ..base
             },
-            "--pi-rel",
+            "pi_rel",
         ),
     ];
     // The source distance alone is valid (the parallax models' D_L): no masses without D_L.

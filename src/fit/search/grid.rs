@@ -72,39 +72,39 @@ impl GridRule {
         let bad = |m: String| Err(Error::input(m));
         if self.rhos.is_empty() || self.rhos.iter().any(|&r| !(r > 0.0 && r <= MAX_TRIAL_RHO)) {
             return bad(format!(
-                "--rho: trial radii must be > 0 and at most {MAX_TRIAL_RHO} Einstein radius (a \
+                "rho: trial radii must be > 0 and at most {MAX_TRIAL_RHO} Einstein radius (a \
                  source that large is not read from a map of a planetary caustic), got {:?}",
                 self.rhos
             ));
         }
         if !(self.u0_span >= 0.0 && self.u0_span <= 10.0) {
             return bad(format!(
-                "--u0-span: must be from 0 to 10, got {}",
+                "u0_span: must be from 0 to 10, got {}",
                 self.u0_span
             ));
         }
         if !(self.u0_misfit.is_finite() && self.u0_misfit >= 0.0) {
-            return bad(format!("--u0-misfit: must be >= 0, got {}", self.u0_misfit));
+            return bad(format!("u0_misfit: must be >= 0, got {}", self.u0_misfit));
         }
         if !(self.u0_floor.is_finite() && self.u0_floor >= 0.0) {
-            return bad(format!("--u0-floor: must be >= 0, got {}", self.u0_floor));
+            return bad(format!("u0_floor: must be >= 0, got {}", self.u0_floor));
         }
         if self.te_factors.is_empty()
             || self.te_factors.iter().any(|&f| !(f.is_finite() && f > 0.0))
         {
             return bad(format!(
-                "--te-factors: must be finite and > 0, got {:?}",
+                "te_factors: must be finite and > 0, got {:?}",
                 self.te_factors
             ));
         }
         if self.t0_shifts.is_empty() || self.t0_shifts.iter().any(|f| !f.is_finite()) {
             return bad(format!(
-                "--t0-shifts: must be finite, got {:?}",
+                "t0_shifts: must be finite, got {:?}",
                 self.t0_shifts
             ));
         }
         if self.keep == 0 {
-            return bad("--keep: must be at least 1".into());
+            return bad("keep: must be at least 1".into());
         }
         if !(self.coarse_divisions.is_finite() && self.coarse_divisions >= 1.0) {
             return bad(format!(
@@ -114,12 +114,12 @@ impl GridRule {
         }
         if !(self.model_floor.is_finite() && (0.0..1.0).contains(&self.model_floor)) {
             return bad(format!(
-                "--model-floor: must be in [0, 1), got {}",
+                "model_floor: must be in [0, 1), got {}",
                 self.model_floor
             ));
         }
         if self.max_trajectories == 0 {
-            return bad("--max-trajectories: must be at least 1".into());
+            return bad("max_trajectories: must be at least 1".into());
         }
         Ok(())
     }

@@ -235,23 +235,23 @@ impl BaselineOptions {
     /// ```
     /// use causeway::fit::single::BaselineOptions;
     /// let bad = BaselineOptions { exclude: vec![(5.0, 3.0)], ..Default::default() };
-    /// assert!(bad.check().unwrap_err().to_string().starts_with("--exclude"));
+    /// assert!(bad.check().unwrap_err().to_string().starts_with("exclude"));
     /// let bad = BaselineOptions { given: Some((0.0, -0.1, 20.0)), ..Default::default() };
-    /// assert!(bad.check().unwrap_err().to_string().starts_with("--baseline"));
+    /// assert!(bad.check().unwrap_err().to_string().starts_with("baseline"));
     /// assert!(BaselineOptions::default().check().is_ok());
     /// ```
     pub fn check(&self) -> Result<()> {
         for &(lo, hi) in &self.exclude {
             if !(lo.is_finite() && hi.is_finite() && lo < hi) {
                 return Err(Error::input(format!(
-                    "--exclude: expected START,END with finite START < END, got {lo},{hi}"
+                    "exclude: expected START,END with finite START < END, got {lo},{hi}"
                 )));
             }
         }
         if let Some((t0, u0, te)) = self.given {
             if !(t0.is_finite() && u0.is_finite() && te.is_finite() && u0 > 0.0 && te > 0.0) {
                 return Err(Error::input(format!(
-                    "--baseline: expected T0,U0,TE with finite values and U0, TE > 0, got \
+                    "baseline: expected T0,U0,TE with finite values and U0, TE > 0, got \
                      {t0},{u0},{te}"
                 )));
             }
@@ -259,7 +259,7 @@ impl BaselineOptions {
         let f = self.max_negative_blend;
         if f.is_nan() || f < 0.0 {
             return Err(Error::input(format!(
-                "--max-negative-blend: must be >= 0, got {f}"
+                "max_negative_blend: must be >= 0, got {f}"
             )));
         }
         Ok(())
@@ -390,7 +390,7 @@ pub fn fit_baseline(data: &[DataSet], options: &BaselineOptions) -> Result<Basel
     let all = Problem::new(data, frame, &options.exclude, blend);
     if all.sets.is_empty() {
         return Err(Error::input(format!(
-            "--exclude: leaves no data set with at least {MIN_POINTS} points"
+            "exclude: leaves no data set with at least {MIN_POINTS} points"
         )));
     }
     let mut notes = Vec::new();
@@ -405,12 +405,12 @@ pub fn fit_baseline(data: &[DataSet], options: &BaselineOptions) -> Result<Basel
         .sum::<usize>();
     if n_hidden > 0 {
         notes.push(format!(
-            "--exclude hides {n_hidden} points from the baseline"
+            "the excluded times hide {n_hidden} points from the baseline"
         ));
     }
     for &k in &all.dropped {
         notes.push(format!(
-            "{}: fewer than {MIN_POINTS} points outside --exclude; left out of the fits (its \
+            "{}: fewer than {MIN_POINTS} points outside the excluded times; left out of the fits (its \
              fluxes are solved on all its points)",
             data[k].name
         ));
@@ -532,7 +532,7 @@ fn frame(data: &[DataSet], hidden: &[(f64, f64)]) -> Result<Frame> {
             d.len()
         )));
     }
-    Frame::of(data, hidden).ok_or_else(|| Error::input("--exclude: hides every point"))
+    Frame::of(data, hidden).ok_or_else(|| Error::input("exclude: hides every point"))
 }
 
 /// The fit `local` of `problem` (made from `data`) as a [`SingleLensFit`] in absolute time; the
