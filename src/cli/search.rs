@@ -8,7 +8,6 @@ use super::{NumberList, ThreadArgs};
 use crate::error::{Error, Result};
 use crate::fit::event::{fit_event, FitOptions, FitResult, DEFAULT_CLIP_SIGMA};
 use crate::fit::minima::RefineOptions;
-use crate::fit::motion::{fit_motion, MotionMinimum};
 use crate::fit::noise::Clipped;
 use crate::fit::photometry::{DataSet, DEFAULT_ZERO_POINT};
 use crate::fit::plots::{chi2_map_png, model_png};
@@ -202,8 +201,8 @@ impl SearchArgs {
             .collect()
     }
 
-    /// The options of the whole fit.
-    pub fn options(&self) -> Result<FitOptions> {
+    /// The options of the whole fit of `sets` data sets.
+    pub fn options(&self, sets: usize) -> Result<FitOptions> {
         let rule = GridRule {
             rhos: self.rho.0.clone(),
             u0_span: self.u0_span,
@@ -270,6 +269,7 @@ impl SearchArgs {
             },
             clip_sigma: (self.clip > 0.0).then_some(self.clip),
             rescale_errors: !self.fixed_errors,
+            motion: self.motion.options(sets, self.tol)?,
         })
     }
 
@@ -335,8 +335,8 @@ impl Outputs {
         check_outputs(&outputs)
     }
 
-    /// Writes the results of a fit of `data` (as given): everything is computed before the
-    /// first file is written.
+    /// Writes the results of a fit of `data` (as given), the parallax stage's models as rows
+    /// of the table: everything is computed before the first file is written.
     pub fn write(
         &self,
         data: &[DataSet],
@@ -344,20 +344,8 @@ impl Outputs {
         physical: Option<PhysicalInput>,
         tol: f64,
     ) -> Result<()> {
-        self.write_with(data, fit, &[], physical, tol)
-    }
-
-    /// [`Outputs::write`] with the parallax stage's models as rows of the table.
-    pub fn write_with(
-        &self,
-        data: &[DataSet],
-        fit: &FitResult,
-        motion: &[MotionMinimum],
-        physical: Option<PhysicalInput>,
-        tol: f64,
-    ) -> Result<()> {
         let report = Report {
-            motion,
+            motion: &fit.motion,
             data,
             single: &fit.single,
             minima: &fit.minima,
@@ -462,22 +450,17 @@ fn library_maps(
 pub fn run(args: SearchArgs) -> Result<()> {
     args.threads.install()?;
     args.check()?;
-    let options = args.options()?;
     let physical = args
         .physical
         .any()
         .then(|| args.physical.input())
         .transpose()?;
     let data = args.data_sets()?;
-    let motion = args.motion.options(data.len(), options.refine.tol)?;
+    let options = args.options(data.len())?;
     let reporter = Reporter::new();
     let maps = library_maps(&args.library, &args.store, &reporter)?;
     let fit = fit_event(&data, MapSource::Files(&maps), &options, &reporter)?;
-    let rows = match &motion {
-        Some(m) => fit_motion(&data, &fit, m, &reporter)?,
-        None => Vec::new(),
-    };
     drop(reporter);
     args.outputs()
-        .write_with(&data, &fit, &rows, physical, options.refine.tol)
+        .write(&data, &fit, physical, options.refine.tol)
 }

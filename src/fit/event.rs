@@ -33,6 +33,10 @@
 //!    (Levenberg-Marquardt from seeded perturbations of the best, kept when one ends lower:
 //!    [`super::hop`], [`RefineOptions::hops`]) and **uncertainties**: the curvature of chi^2
 //!    at each minimum, measured once, on the data of the last refinement.
+//! 9. **Parallax and orbital motion** ([`FitOptions::motion`], when the event's coordinates are
+//!    known): the best static minima refined again with microlens parallax, both members of the
+//!    ecliptic pair, then with lens orbital motion ([`super::motion`]); rows in
+//!    [`FitResult::motion`].
 //!
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
@@ -42,6 +46,7 @@ use super::minima::{
     best_start, grid_starts, promising, refine_models, with_uncertainties, Minimum, RefineOptions,
 };
 use super::model::{BinaryModel, Trajectory};
+use super::motion::{fit_motion, MotionMinimum, MotionOptions};
 use super::noise::{clean, Clipped};
 use super::photometry::DataSet;
 use super::refine::{exact_chi2, refine_until};
@@ -78,6 +83,9 @@ pub struct FitOptions {
     pub clip_sigma: Option<f64>,
     /// Scale each data set's error bars to chi^2/dof = 1 at the best model and refine again.
     pub rescale_errors: bool,
+    /// Refine the best minima again with parallax and lens orbital motion (the stage of
+    /// [`super::motion`]; `None`: static models only).
+    pub motion: Option<MotionOptions>,
 }
 
 impl Default for FitOptions {
@@ -91,6 +99,7 @@ impl Default for FitOptions {
             refine: RefineOptions::default(),
             clip_sigma: Some(DEFAULT_CLIP_SIGMA),
             rescale_errors: true,
+            motion: None,
         }
     }
 }
@@ -129,6 +138,9 @@ pub struct FitResult {
     pub notes: Vec<String>,
     /// Wall time of the search and of the refinements, seconds.
     pub seconds: (f64, f64),
+    /// The minima with parallax (and orbital motion) of [`FitOptions::motion`], in the order of
+    /// [`super::motion::fit_motion`]; empty without it.
+    pub motion: Vec<MotionMinimum>,
 }
 
 /// Fits `data` with the binary-lens maps of `maps`: the whole job of the module documentation.
@@ -312,7 +324,7 @@ pub fn fit_event(
     seed.anomaly = seed.anomaly.map(|t| t + epoch);
     let mut single = single;
     single.t0 += epoch;
-    Ok(FitResult {
+    let mut result = FitResult {
         single,
         seed,
         rule,
@@ -330,7 +342,12 @@ pub fn fit_event(
         data: fitted.iter().map(|d| shifted(d, epoch)).collect(),
         notes,
         seconds: (search_seconds + zoom_seconds, refine_seconds),
-    })
+        motion: Vec::new(),
+    };
+    if let Some(motion) = &options.motion {
+        result.motion = fit_motion(data, &result, motion, progress)?;
+    }
+    Ok(result)
 }
 
 /// Levenberg-Marquardt passes after the refinement, on the best minimum alone, at most ...
@@ -395,6 +412,9 @@ fn validate(data: &[DataSet], maps: &MapSource, options: &FitOptions) -> Result<
         }
     }
     options.refine.validate()?;
+    if let Some(motion) = &options.motion {
+        motion.validate(data.len())?;
+    }
     Ok(())
 }
 

@@ -82,6 +82,39 @@ impl MotionOptions {
     }
 }
 
+impl MotionOptions {
+    /// Checks the options for a fit of `sets` data sets.
+    ///
+    /// ```
+    /// use causeway::fit::motion::MotionOptions;
+    /// use causeway::parallax::SkyPosition;
+    /// let options = MotionOptions::new(SkyPosition::new(268.0, -29.0).unwrap());
+    /// assert!(options.validate(2).is_ok());
+    /// assert!(MotionOptions { minima: 0, ..options }.validate(2).is_err());
+    /// ```
+    pub fn validate(&self, sets: usize) -> Result<()> {
+        if !self.ephemerides.is_empty() && self.ephemerides.len() != sets {
+            return Err(Error::input(format!(
+                "ephemerides: {} for {sets} data sets",
+                self.ephemerides.len()
+            )));
+        }
+        if self.minima == 0 {
+            return Err(Error::input("parallax_minima: must be at least 1"));
+        }
+        if !(self.tol > 0.0 && self.tol <= 0.1) {
+            return Err(Error::input(format!(
+                "tol: must be a relative tolerance in (0, 0.1], got {}",
+                self.tol
+            )));
+        }
+        if let Some(t) = self.t0_par.filter(|t| !t.is_finite()) {
+            return Err(Error::input(format!("t0_par: must be finite, got {t}")));
+        }
+        Ok(())
+    }
+}
+
 /// A minimum of a model with parallax (and orbital motion).
 #[derive(Debug, Clone, PartialEq)]
 pub struct MotionMinimum {
@@ -205,13 +238,7 @@ pub fn refine_with_motion(
     options: &MotionOptions,
     progress: &dyn Progress,
 ) -> Result<Vec<MotionMinimum>> {
-    if !options.ephemerides.is_empty() && options.ephemerides.len() != data.len() {
-        return Err(Error::input(format!(
-            "parallax: {} ephemerides for {} data sets",
-            options.ephemerides.len(),
-            data.len()
-        )));
-    }
+    options.validate(data.len())?;
     let observers: Vec<Observer> = (0..data.len())
         .map(|k| match options.ephemerides.get(k) {
             Some(Some(e)) => Observer::At(e),

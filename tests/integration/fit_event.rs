@@ -157,3 +157,32 @@ fn error_scales_are_not_inflated_by_a_wrong_model() {
     assert!((scales[0] / 2.0 - 1.0).abs() < 0.25, "scale {}", scales[0]);
     assert!(scales[0] <= 1.25 * scatter + 1e-12);
 }
+
+#[test]
+fn parallax_options_are_checked_before_any_work() {
+    // One data set but ephemerides for three: refused at once (no baseline, no search), the
+    // message naming the parameter.
+    let sky = causeway::parallax::SkyPosition::new(268.0, -29.0).unwrap();
+    let options = FitOptions {
+        motion: Some(causeway::fit::motion::MotionOptions {
+            ephemerides: vec![None; 3],
+            ..causeway::fit::motion::MotionOptions::new(sky)
+        }),
+        ..FitOptions::default()
+    };
+    let tiny = PolygonMapping::new(1.0)
+        .build(
+            &truth(0.0).lens().unwrap(),
+            &causeway::map::Window::new((0.0, 0.0), 1.0, 4).unwrap(),
+        )
+        .unwrap();
+    let err = fit_event(
+        &data(0.0, 1.0, &[]),
+        MapSource::Loaded(std::slice::from_ref(&tiny)),
+        &options,
+        &Silent,
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(err.starts_with("ephemerides: 3 for 1 data sets"), "{err}");
+}
