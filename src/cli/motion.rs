@@ -53,8 +53,9 @@ pub struct MotionArgs {
     /// Reference time of the orbital motion, t0,kep (days; default: --t0).
     #[arg(long, value_name = "T")]
     pub t0_kep: Option<f64>,
-    /// The data are seen from an observatory with this ephemeris (CSV t,x,y,z: heliocentric
-    /// equatorial J2000 positions in au) instead of the Earth.
+    /// The data are seen from an observatory with this ephemeris instead of the Earth: CSV
+    /// t,x,y,z (heliocentric equatorial J2000 positions, au) or t,north,east (offsets from the
+    /// Earth's centre projected on the sky, au).
     #[arg(long, value_name = "FILE.csv", requires = "ra")]
     pub ephemeris: Option<PathBuf>,
 }
@@ -116,7 +117,8 @@ pub struct FitMotionArgs {
     #[arg(long, value_name = "N", default_value_t = 2, requires = "ra")]
     pub parallax_minima: usize,
     /// Data set K (from 1, in input order) is seen from the observatory of FILE (CSV t,x,y,z:
-    /// heliocentric equatorial J2000 positions in au); repeat for several.
+    /// heliocentric equatorial J2000 positions in au, or t,north,east: offsets from the Earth's
+    /// centre projected on the sky, au); repeat for several.
     #[arg(long, value_name = "K=FILE.csv", requires = "ra")]
     pub ephemeris: Vec<String>,
 }

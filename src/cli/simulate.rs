@@ -34,7 +34,9 @@ use std::path::{Path, PathBuf};
         give pi_E (geocentric, about --t0-par; times below 2400000 are JD - 2450000, above full \
         JD); --ds-dt (per year) and --dalpha-dt (radians per year) move the lens about --t0-kep; \
         --ephemeris sees the data from an observatory's positions (CSV t,x,y,z in au, \
-        heliocentric, equatorial) instead of the Earth.\n\n\
+        heliocentric, equatorial; or t,north,east, its offsets from the Earth projected on the \
+        sky, au) instead of the Earth; in a plan, a site in space names its own (ephemeris = \
+        \"FILE.csv\").\n\n\
         A is exact (contour integration near caustics). The noise comes from --seed: the same \
         inputs give the same files, whatever the thread count.\n\nExamples:\n  \
         causeway simulate --s 1.1 --q 2e-3 --t0 0 --u0 0.05 --te 30 --alpha 40 --rho 0.002 --ld 0.6 --time-range -30,30,2000 --out event.csv\n  \
@@ -226,7 +228,7 @@ fn run_plan(
     model.lens()?;
     if args.motion.ephemeris.is_some() {
         return Err(Error::input(
-            "--ephemeris: a plan's sites are on the Earth; simulate a satellite's set with --out",
+            "--ephemeris: a plan gives each site in space its own (the site's ephemeris key)",
         ));
     }
     let plan = ObservingPlan::read(path)?;

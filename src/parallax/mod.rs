@@ -80,13 +80,16 @@ pub fn jd_origin(t: f64) -> f64 {
     }
 }
 
-/// Where an observatory was: a table of heliocentric equatorial positions (au) against time.
+/// Where an observatory was, against time: heliocentric equatorial positions (au), or its offset
+/// from the Earth's centre projected on the sky (au; north, east).
 ///
 /// ```
 /// use causeway::parallax::Ephemeris;
 /// let e = Ephemeris::parse("t,x,y,z\n8000,1,0,0\n8002,0,1,0\n", "sat.csv").unwrap();
 /// assert_eq!(e.position(2_458_001.0).unwrap(), [0.5, 0.5, 0.0]);
 /// assert!(e.position(2_458_003.0).is_err()); // outside the table
+/// let p = Ephemeris::parse("t,north,east\n8000,0.1,0\n8002,0.3,0\n", "sat.csv").unwrap();
+/// assert!(p.projected && p.position(2_458_001.0).unwrap() == [0.2, 0.0, 0.0]);
 /// ```
 #[derive(Debug, Clone, PartialEq)]
 pub struct Ephemeris {
@@ -94,15 +97,31 @@ pub struct Ephemeris {
     pub name: String,
     /// Julian dates, increasing.
     pub jd: Vec<f64>,
-    /// Heliocentric equatorial positions (au).
+    /// Heliocentric equatorial positions (au); with [`Ephemeris::projected`], the offsets from
+    /// the Earth's centre projected on the sky `(north, east, 0)` (au).
     pub position: Vec<[f64; 3]>,
+    /// The rows are projected offsets from the Earth (header `t,north,east`), not positions.
+    pub projected: bool,
 }
 
 impl Ephemeris {
     /// Parses CSV with header `t,x,y,z` (time on the data's scale, see the module
-    /// documentation; positions in au, heliocentric, equatorial J2000); rows in increasing time.
+    /// documentation; positions in au, heliocentric, equatorial J2000) or `t,north,east` (the
+    /// observatory's offset from the Earth's centre projected on the sky towards the event, au,
+    /// in the (north, east) basis of [`SkyPosition::basis`]); rows in increasing time.
     pub fn parse(text: &str, origin: &str) -> Result<Ephemeris> {
-        let table = Table::parse(text, origin, &["t", "x", "y", "z"], &[])?;
+        let header = text
+            .trim_start_matches('\u{feff}')
+            .lines()
+            .next()
+            .unwrap_or("");
+        let projected = header.split(',').any(|c| c.trim() == "north");
+        let columns: &[&str] = if projected {
+            &["t", "north", "east"]
+        } else {
+            &["t", "x", "y", "z"]
+        };
+        let table = Table::parse(text, origin, columns, &[])?;
         if table.rows.len() < 2 {
             return Err(Error::input(format!("{origin}: needs at least two rows")));
         }
@@ -119,7 +138,12 @@ impl Ephemeris {
         Ok(Ephemeris {
             name: origin.to_string(),
             jd,
-            position: table.rows.iter().map(|r| [r[1], r[2], r[3]]).collect(),
+            position: table
+                .rows
+                .iter()
+                .map(|r| [r[1], r[2], if projected { 0.0 } else { r[3] }])
+                .collect(),
+            projected,
         })
     }
 
@@ -158,11 +182,18 @@ pub enum Observer<'a> {
 }
 
 impl Observer<'_> {
-    /// Heliocentric equatorial position (au) at Julian date `jd`.
-    pub fn position(&self, jd: f64) -> Result<[f64; 3]> {
+    /// The Sun's position seen from the observer at Julian date `jd`, projected on the sky of
+    /// `basis` (au; north, east).
+    pub fn sun(&self, jd: f64, basis: &SkyBasis) -> Result<(f64, f64)> {
+        let from_earth = || basis.project(earth_position(jd).map(|v| -v));
         match self {
-            Observer::Earth => Ok(earth_position(jd)),
-            Observer::At(e) => e.position(jd),
+            Observer::Earth => Ok(from_earth()),
+            Observer::At(e) if e.projected => {
+                let (n, east) = from_earth();
+                let d = e.position(jd)?;
+                Ok((n - d[0], east - d[1]))
+            }
+            Observer::At(e) => Ok(basis.project(e.position(jd)?.map(|v| -v))),
         }
     }
 }
@@ -241,8 +272,7 @@ impl Geometry {
         times
             .iter()
             .map(|&t| {
-                let r = observer.position(t + self.jd_origin)?;
-                let (sn, se) = basis.project(r.map(|v| -v));
+                let (sn, se) = observer.sun(t + self.jd_origin, &basis)?;
                 let dt = t - self.t0_par;
                 Ok((sn - s0n - dt * vn, se - s0e - dt * ve))
             })

@@ -265,6 +265,98 @@ fn simulate_writes_the_library_model_with_parallax_and_orbital_motion() {
 }
 
 #[test]
+fn a_projected_offset_ephemeris_gives_the_heliocentric_ones_curve() {
+    // The satellite of the test below (the Earth plus 1 au along the celestial pole) written
+    // as its offset from the Earth projected on the sky: (north . z, east . z), constant. The
+    // curves agree to the linear interpolation of the daily heliocentric rows (4e-5 au).
+    let sky = SkyPosition::parse("17:55:00", "-29:30:00").unwrap();
+    let basis = sky.basis();
+    let (mut heliocentric, mut projected) =
+        (String::from("t,x,y,z\n"), String::from("t,north,east\n"));
+    for k in 0..=220 {
+        let t = 8190.0 + k as f64;
+        let r = earth_position(t + SHORT_JD_ORIGIN);
+        heliocentric.push_str(&format!("{t},{},{},{}\n", r[0], r[1], r[2] + 1.0));
+        projected.push_str(&format!("{t},{},{}\n", basis.north[2], basis.east[2]));
+    }
+    let a = Ephemeris::parse(&heliocentric, "sat.csv").unwrap();
+    let b = Ephemeris::parse(&projected, "sat-projected.csv").unwrap();
+    assert!(!a.projected && b.projected);
+    let times: Vec<f64> = (0..200).map(|k| 8200.0 + k as f64).collect();
+    let m = moving_model();
+    let seen = |e: &Ephemeris| {
+        m.magnifications_seen(&times, &Observer::At(e), LimbDarkening::Uniform, 1e-6)
+            .unwrap()
+    };
+    let (ma, mb) = (seen(&a), seen(&b));
+    let worst = ma
+        .iter()
+        .zip(&mb)
+        .map(|(x, y)| (x / y - 1.0).abs())
+        .fold(0.0, f64::max);
+    assert!(worst < 1e-3, "{worst}");
+    // And the offsets from the Earth's own curve are real (the test below: > 20% at the peak).
+    let ground = m
+        .magnifications(&times, LimbDarkening::Uniform, 1e-6)
+        .unwrap();
+    assert!(mb
+        .iter()
+        .zip(&ground)
+        .any(|(x, y)| (x / y - 1.0).abs() > 0.1));
+}
+
+#[test]
+fn a_plan_site_in_space_is_seen_from_its_ephemeris() {
+    // A plan of a ground site and a satellite (24-hour nights, 1 au north of the Earth, as
+    // projected offsets): the satellite's file follows the curve seen from its positions, the
+    // ground's the Earth's (noise 0.001 mag).
+    let dir = Scratch::new("parallax-plan-satellite");
+    let basis = SkyPosition::parse("17:55:00", "-29:30:00").unwrap().basis();
+    let mut eph = String::from("t,north,east\n");
+    for k in 0..=220 {
+        eph.push_str(&format!(
+            "{},{},{}\n",
+            8190 + k,
+            basis.north[2],
+            basis.east[2]
+        ));
+    }
+    std::fs::write(dir.join("sat.csv"), &eph).unwrap();
+    let site = |name: &str, hours: f64, extra: &str| {
+        format!(
+            "[[site]]\nname = \"{name}\"\nseason = [8250.0, 8350.0]\nnight_hours = {hours}\n\
+             night_middle = 0.5\ninterval_minutes = 240.0\n\
+             errors = {{ floor = 0.001, photon = 0.0, reference_mag = 19.0 }}\n{extra}\n"
+        )
+    };
+    let plan = site("ground", 8.0, "") + &site("space", 24.0, "ephemeris = \"sat.csv\"");
+    std::fs::write(dir.join("plan.toml"), plan).unwrap();
+    std::fs::create_dir(dir.join("data")).unwrap();
+    let model: String = MOVING.split("--time-range").next().unwrap().to_string();
+    let mut args: Vec<&str> = model.split_whitespace().collect();
+    args.extend(["--plan", "plan.toml", "--out-dir", "data", "--seed", "4"]);
+    let (code, _, err) = run_cli(&dir, "simulate", &args);
+    assert_eq!(code, 0, "{err}");
+    let m = moving_model();
+    let ephemeris = Ephemeris::parse(&eph, "sat.csv").unwrap();
+    for (file, observer) in [
+        ("data/ground.csv", Observer::Earth),
+        ("data/space.csv", Observer::At(&ephemeris)),
+    ] {
+        let set = DataSet::read(&dir.join(file), 22.0).unwrap();
+        let a = m
+            .magnifications_seen(&set.times, &observer, LimbDarkening::Uniform, 1e-5)
+            .unwrap();
+        let worst = a
+            .iter()
+            .zip(&set.flux)
+            .map(|(a, f)| (2.5 * (a / f).log10()).abs())
+            .fold(0.0, f64::max);
+        assert!(worst < 0.006, "{file}: {worst} mag from its curve");
+    }
+}
+
+#[test]
 fn a_satellite_one_au_away_sees_another_curve() {
     // A heliocentric ephemeris: the Earth's position plus 1 au along the celestial north
     // (nearly across the bulge's line of sight: Dec -29.5).

@@ -7,6 +7,7 @@ use super::{perturb, Synthetic};
 use crate::error::{Error, Result};
 use crate::fit::model::BinaryModel;
 use crate::fit::photometry::{flux_to_mag, DataSet, Measured};
+use crate::parallax::Observer;
 use crate::source::LimbDarkening;
 use crate::table::fmt_f64;
 use rand::SeedableRng;
@@ -112,11 +113,28 @@ impl ObservingPlan {
                 ))));
             }
         }
-        let all: Vec<f64> = schedules.iter().flat_map(|s| s.times.clone()).collect();
-        let mut magnifications = model.magnifications(&all, law, tol)?.into_iter();
+        // The sites on the Earth in one call (its parallelism spans them); each in space alone,
+        // seen from its own positions.
+        let in_space = |i: usize| self.ephemerides.get(i).and_then(Option::as_ref);
+        for (i, site) in self.sites.iter().enumerate() {
+            if site.ephemeris.is_some() && in_space(i).is_none() {
+                return Err(self.named(Error::input(format!(
+                    "site '{}': its ephemeris is not loaded (read the plan from its file)",
+                    site.name
+                ))));
+            }
+        }
+        let on_earth: Vec<f64> = (0..self.sites.len())
+            .filter(|&i| in_space(i).is_none())
+            .flat_map(|i| schedules[i].times.clone())
+            .collect();
+        let mut earth = model.magnifications(&on_earth, law, tol)?.into_iter();
         let mut out = Vec::with_capacity(self.sites.len());
         for (i, (site, s)) in self.sites.iter().zip(schedules).enumerate() {
-            let a: Vec<f64> = magnifications.by_ref().take(s.times.len()).collect();
+            let a: Vec<f64> = match in_space(i) {
+                Some(e) => model.magnifications_seen(&s.times, &Observer::At(e), law, tol)?,
+                None => earth.by_ref().take(s.times.len()).collect(),
+            };
             let mut rng = stream(seed, 2 + 2 * i as u64);
             let offset = site.time_offset.unwrap_or(self.time_offset);
             out.push(Observed {

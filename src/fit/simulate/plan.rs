@@ -52,6 +52,7 @@ change when sites are added after it.
 pub use super::observe::{truth_csv, Observed};
 use crate::error::{shown, tidy, Error, Result};
 use crate::fit::photometry::{flux_to_mag, Measured, DEFAULT_ZERO_POINT};
+use crate::parallax::Ephemeris;
 use serde::{Deserialize, Deserializer};
 use std::collections::HashSet;
 use std::path::Path;
@@ -85,6 +86,10 @@ pub struct ObservingPlan {
     /// Where the plan comes from (its file), starting every message about it; may be empty.
     #[serde(skip)]
     pub origin: String,
+    /// The ephemeris of each site that names one, in site order (`None` on the Earth); empty
+    /// until loaded.
+    #[serde(skip)]
+    pub ephemerides: Vec<Option<Ephemeris>>,
 }
 
 /// One site: its output, fluxes, nights, cadences, errors and outliers (see the module
@@ -143,6 +148,12 @@ pub struct Site {
     /// This site's own time offset (days), if any.
     #[serde(default)]
     pub time_offset: Option<f64>,
+    /// The site is an observatory in space: its ephemeris file (CSV `t,x,y,z` or
+    /// `t,north,east`, see [`crate::parallax::Ephemeris`]; times on the model's scale), relative
+    /// to the plan's folder. Loaded by [`ObservingPlan::read`] or
+    /// [`ObservingPlan::load_ephemerides`]; it matters only to a model with parallax.
+    #[serde(default)]
+    pub ephemeris: Option<String>,
 }
 
 /// Reported magnitude errors: a floor plus photon noise,
@@ -199,10 +210,27 @@ impl ObservingPlan {
         Ok(plan)
     }
 
-    /// Reads a plan file (see [`ObservingPlan::parse`]).
+    /// Reads a plan file (see [`ObservingPlan::parse`]) and the ephemerides its sites name.
     pub fn read(path: &Path) -> Result<ObservingPlan> {
         let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
-        Self::parse(&text, &path.display().to_string())
+        let mut plan = Self::parse(&text, &path.display().to_string())?;
+        plan.load_ephemerides(path.parent().unwrap_or(Path::new("")))?;
+        Ok(plan)
+    }
+
+    /// Reads the ephemeris of every site that names one, relative to `folder`.
+    pub fn load_ephemerides(&mut self, folder: &Path) -> Result<()> {
+        self.ephemerides = self
+            .sites
+            .iter()
+            .map(|site| {
+                site.ephemeris
+                    .as_ref()
+                    .map(|file| Ephemeris::read(&folder.join(file)))
+                    .transpose()
+            })
+            .collect::<Result<_>>()?;
+        Ok(())
     }
 
     /// Checks every value; the message names the plan's origin, the site and the key.
@@ -299,6 +327,7 @@ impl ObservingPlan {
             error_scale: v[7],
             outliers: v[8],
             time_offset: None,
+            ephemeris: None,
         };
         let mut sites = vec![
             site(
@@ -328,6 +357,7 @@ impl ObservingPlan {
             origin: "survey_with_followup".into(),
             time_offset: 0.0,
             sites,
+            ephemerides: Vec::new(),
         }
     }
 }
