@@ -9,7 +9,8 @@ use crate::galaxy::figure::{marginals_png, mass_distance_png};
 use crate::galaxy::input::{pi_e_angle, pi_e_size, theta_e, FitRow};
 use crate::galaxy::report::{samples_csv, summary};
 use crate::galaxy::{
-    infer, Band, EventData, Imaging, LensLight, LensOptions, Measured, Sightline, SourceDistance,
+    infer, infer_samples, Band, EventData, FitSamples, Imaging, LensLight, LensOptions, Measured,
+    Sightline, SourceDistance,
 };
 use clap::Args;
 use std::path::PathBuf;
@@ -20,7 +21,9 @@ use std::path::PathBuf;
     allow_negative_numbers = true,
     after_help = "The measurements come from the fit's table of minima (--minima: tE, tE_err, \
         rho, rho_err, s, q, and pi_EN, pi_EE with errors when present) or from explicit \
-        values; explicit values win. The parallax's size and direction (the direction of the \
+        values; explicit values win; or from the fit's posterior samples (--posterior: an \
+        MCMC's rows with tE and, when sampled, rho, pi_EN, pi_EE, s, q; each lens sample takes \
+        one row, so their correlations are kept). The parallax's size and direction (the direction of the \
         geocentric relative proper motion) enter; --earth-velocity turns geocentric into \
         heliocentric. theta_E is theta_* / rho (--theta-star) or --theta-e.\n\n\
         Units: days (tE), microarcseconds (theta_*), mas (theta_E), kpc (distances), degrees \
@@ -32,12 +35,17 @@ use std::path::PathBuf;
         causeway nature --minima minima.csv --theta-star 0.6,0.05 --galactic 1.2,-2.8 \
             --band K --extinction 0.25 --fainter-than 21.5 --out lens.csv --png lens.png\n  \
         causeway nature --te 32,1.5 --theta-e 0.45,0.05 --pi-en 0.1,0.02 --pi-ee 0.07,0.02 \
-            --earth-velocity 5.2,-21 --q 3e-3 --s 1.1 --equatorial 270.1,-29.5 --ds 8.2,0.5 --band I --extinction 1.4 --excess 20.3,0.2"
+            --earth-velocity 5.2,-21 --q 3e-3 --s 1.1 --equatorial 270.1,-29.5 --ds 8.2,0.5 --band I --extinction 1.4 --excess 20.3,0.2\n  \
+        causeway nature --posterior chain.csv --theta-star 0.6,0.05 --galactic 1.2,-2.8 --out lens.csv"
 )]
 pub struct NatureArgs {
     /// The fit's table of minima (CSV written by `causeway search`).
     #[arg(long, value_name = "FILE.csv")]
     pub minima: Option<PathBuf>,
+    /// The fit's posterior samples (CSV with a header: tE, and rho, pi_EN and pi_EE, s, q when
+    /// sampled; other columns ignored), instead of --minima and value,error options.
+    #[arg(long, value_name = "FILE.csv", conflicts_with_all = ["minima", "te", "rho", "pi_e", "pi_en", "pi_ee"])]
+    pub posterior: Option<PathBuf>,
     /// Rank of the minimum read from --minima.
     #[arg(long, value_name = "N", default_value_t = 1, requires = "minima")]
     pub rank: usize,
@@ -121,9 +129,28 @@ fn measured(what: &str, v: Option<(f64, f64)>) -> Result<Option<Measured>> {
     v.map(|(x, e)| Measured::new(what, x, e)).transpose()
 }
 
+fn positive(what: &str, v: Option<f64>) -> Result<Option<f64>> {
+    match v {
+        Some(v) if !(v.is_finite() && v > 0.0) => Err(Error::input(format!(
+            "{what}: must be finite and > 0, got {v}"
+        ))),
+        _ => Ok(v),
+    }
+}
+
 impl NatureArgs {
-    /// The event's measurements: the table's row, then the explicit values over it.
+    /// The event's measurements: the table's row, then the explicit values over it. With
+    /// --posterior, the values the samples lack (--theta-e, --s, --q, --earth-velocity).
     pub fn event_data(&self) -> Result<EventData> {
+        if self.posterior.is_some() {
+            return Ok(EventData {
+                theta_e: measured("--theta-e", self.theta_e)?,
+                earth_velocity: self.earth_velocity.map(|(n, e)| [n, e]),
+                s: positive("--s", self.s)?,
+                q: positive("--q", self.q)?,
+                ..EventData::default()
+            });
+        }
         let row = self
             .minima
             .as_deref()
@@ -165,16 +192,8 @@ impl NatureArgs {
             data.pi_e_angle = Some(pi_e_angle(v));
         }
         data.earth_velocity = self.earth_velocity.map(|(n, e)| [n, e]);
-        for (what, v, slot) in [("--s", self.s, &mut data.s), ("--q", self.q, &mut data.q)] {
-            if let Some(v) = v {
-                if !(v.is_finite() && v > 0.0) {
-                    return Err(Error::input(format!(
-                        "{what}: must be finite and > 0, got {v}"
-                    )));
-                }
-                *slot = Some(v);
-            }
-        }
+        data.s = positive("--s", self.s)?.or(data.s);
+        data.q = positive("--q", self.q)?.or(data.q);
         Ok(data)
     }
 
@@ -248,9 +267,25 @@ pub fn run(args: NatureArgs) -> Result<()> {
     check_outputs(&outputs)?;
     let data = args.event_data()?;
     let options = args.options()?;
+    let samples = args
+        .posterior
+        .as_deref()
+        .map(FitSamples::read)
+        .transpose()?;
+    let theta_star = measured("--theta-star", args.theta_star)?;
+    if let (Some(s), Some(_)) = (&samples, theta_star) {
+        if s.rho.is_none() {
+            return Err(Error::input(
+                "--theta-star: the --posterior samples have no rho column (give --theta-e)",
+            ));
+        }
+    }
     args.threads.install()?;
     let reporter = Reporter::new();
-    let post = infer(&data, &options, &reporter)?;
+    let post = match &samples {
+        Some(s) => infer_samples(s, theta_star, &data, &options, &reporter)?,
+        None => infer(&data, &options, &reporter)?,
+    };
     drop(reporter);
     eprint!("{}", summary(&post));
     if let Some(p) = &args.out {

@@ -10,6 +10,8 @@
 //! - [`light`]: main-sequence mass-luminosity relations (Mann et al. 2019 in K; Pecaut & Mamajek
 //!   2013 in V, I, K), extinction to the lens, the imaging likelihood;
 //! - [`posterior`]: the seeded, multithreaded Monte Carlo (Dominik 2006) and its summaries;
+//! - [`samples`]: the fit's posterior samples (an MCMC's rows) as the input instead of value
+//!   +- error;
 //! - [`report`]: the summary text and the CSV of samples; [`figure`]: the posterior pictures.
 //!
 //! ```
@@ -37,12 +39,15 @@ pub mod mass;
 pub mod model;
 pub mod posterior;
 pub mod report;
+pub mod samples;
 pub mod sightline;
 
 pub use light::{Band, Imaging, LensLight};
 pub use mass::{LensClass, MassFunction};
 pub use model::{GalacticModel, MotionMoments, Population, Sightline};
 pub use posterior::{
-    infer, EventData, LensOptions, LensPosterior, LensSample, Measured, SourceDistance,
+    infer, infer_samples, EventData, LensOptions, LensPosterior, LensSample, Measured,
+    SourceDistance,
 };
+pub use samples::FitSamples;
 pub use sightline::LineOfSight;

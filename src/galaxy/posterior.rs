@@ -29,6 +29,7 @@
 use super::light::LensLight;
 use super::mass::{LensClass, MassFunction};
 use super::model::{GalacticModel, Population, Sightline};
+use super::samples::{FitSamples, SizeLikelihood};
 use super::sightline::LineOfSight;
 use crate::error::{Error, Result};
 use crate::fit::scales::{kappa, DAYS_PER_YEAR, GM_JUPITER, GM_SUN};
@@ -220,13 +221,51 @@ fn draw_mass(
     }
 }
 
+/// Where one measured value of a sample comes from.
+#[derive(Clone, Copy)]
+enum Value {
+    /// Drawn from a Gaussian measurement.
+    Gauss(Measured),
+    /// A posterior sample's value, as it is.
+    Sampled(f64),
+    /// `theta_E = theta_* / rho` from a sampled rho and the measured `theta_*` (microarcseconds).
+    Rho { rho: f64, theta_star: Measured },
+    /// `|pi_E|` of a sampled parallax vector.
+    Vector([f64; 2]),
+}
+
+impl Value {
+    /// The value and the Jacobian factor of its sample ([`super::samples`]).
+    fn get(self, rng: &mut impl Rng) -> (f64, f64) {
+        match self {
+            Value::Gauss(m) => (m.draw(rng), 1.0),
+            Value::Sampled(x) => (x, 1.0),
+            Value::Rho { rho, theta_star } => {
+                let theta = theta_star.draw(rng) / 1000.0 / rho;
+                (theta, theta / rho)
+            }
+            Value::Vector([n, e]) => {
+                let size = n.hypot(e);
+                (size, 1.0 / size)
+            }
+        }
+    }
+}
+
+/// The fit's posterior samples as the sampler draws them.
+struct Rows<'a> {
+    samples: &'a FitSamples,
+    theta_star: Option<Measured>,
+    size: Option<SizeLikelihood>,
+}
+
 struct Sampler<'a> {
     data: &'a EventData,
+    rows: Option<Rows<'a>>,
     options: &'a LensOptions,
     los: LineOfSight,
     mass_functions: [MassFunction; 2],
     kappa: f64,
-    one_plus_q: f64,
     /// Position angle of the Galactic north at the line of sight (radians).
     north_angle: f64,
 }
@@ -246,21 +285,49 @@ impl Sampler<'_> {
     fn sample(&self, rng: &mut impl Rng) -> Option<LensSample> {
         let model = &self.options.model;
         let los = &self.options.sightline;
+        let row = self
+            .rows
+            .as_ref()
+            .map(|r| r.samples.row(rng.random_range(0..r.samples.len())));
+        let data = self.data;
+        let te_value = match row {
+            Some(r) => Some(Value::Sampled(r.te)),
+            None => data.te.map(Value::Gauss),
+        };
+        let theta_value = match (row.and_then(|r| r.rho), self.rows.as_ref()) {
+            (
+                Some(rho),
+                Some(Rows {
+                    theta_star: Some(theta_star),
+                    ..
+                }),
+            ) => Some(Value::Rho {
+                rho,
+                theta_star: *theta_star,
+            }),
+            _ => data.theta_e.map(Value::Gauss),
+        };
+        let pi_value = match row.and_then(|r| r.pi_e) {
+            Some(v) => Some(Value::Vector(v)),
+            None => data.pi_e.map(Value::Gauss),
+        };
+        let q = row.and_then(|r| r.q).or(data.q);
+        let one_plus_q = 1.0 + q.unwrap_or(0.0);
         let (ds, w_source) = self.source(rng);
         let (src_pop, _) = self.los.population(rng.random(), ds);
         let (dl, mass, class, mut weight, pop);
-        match (self.data.theta_e, self.data.pi_e) {
+        match (theta_value, pi_value) {
             (Some(te), Some(pe)) => {
-                let (theta, pie) = (te.draw(rng), pe.draw(rng));
+                let ((theta, j_theta), (pie, j_pie)) = (te.get(rng), pe.get(rng));
                 let pi_rel = theta * pie;
                 dl = 1.0 / (pi_rel + 1.0 / ds);
                 mass = theta / (self.kappa * pie);
                 let (p, n_tot) = self.los.population(rng.random(), dl);
                 let mf = &self.mass_functions[p as usize];
-                let (_, c, f) = draw_mass(rng, mf, Some(mass / self.one_plus_q))?;
+                let (_, c, f) = draw_mass(rng, mf, Some(mass / one_plus_q))?;
                 pop = p;
                 class = c;
-                weight = w_source * dl.powi(4) * n_tot * f * 2.0 * mass;
+                weight = w_source * dl.powi(4) * n_tot * f * 2.0 * mass * j_theta * j_pie;
             }
             (theta_e, pi_e) => {
                 let (d, w) = self.los.draw_lens(rng.random(), ds);
@@ -270,19 +337,22 @@ impl Sampler<'_> {
                 dl = d;
                 pop = p;
                 if let Some(te) = theta_e {
-                    let theta = te.draw(rng);
+                    let (theta, j_theta) = te.get(rng);
                     mass = theta * theta / (self.kappa * pi_rel);
-                    let (_, c, f) = draw_mass(rng, mf, Some(mass / self.one_plus_q))?;
+                    let (_, c, f) = draw_mass(rng, mf, Some(mass / one_plus_q))?;
                     class = c;
-                    weight = w_source * w * f * 2.0 * mass / theta;
+                    weight = w_source * w * f * 2.0 * mass / theta * j_theta;
                 } else {
                     let (m, c, _) = draw_mass(rng, mf, None)?;
-                    mass = m * self.one_plus_q;
+                    mass = m * one_plus_q;
                     class = c;
                     weight = w_source * w;
                 }
-                if let Some(pe) = pi_e {
-                    weight *= pe.likelihood((pi_rel / (self.kappa * mass)).sqrt());
+                let size = (pi_rel / (self.kappa * mass)).sqrt();
+                match (pi_e, self.rows.as_ref().and_then(|r| r.size.as_ref())) {
+                    (Some(Value::Gauss(pe)), _) => weight *= pe.likelihood(size),
+                    (Some(_), Some(sampled)) => weight *= sampled.at(size),
+                    _ => {}
                 }
             }
         }
@@ -293,7 +363,7 @@ impl Sampler<'_> {
         let theta_e = (self.kappa * mass * pi_rel).sqrt();
         let lens_motion = model.motion_moments(pop, los, dl);
         let source_motion = model.motion_moments(src_pop, los, ds);
-        let (mu_rel, te) = match self.data.te {
+        let (mu_rel, te) = match te_value {
             None => {
                 let z = |rng: &mut _| -> [f64; 2] {
                     [StandardNormal.sample(rng), StandardNormal.sample(rng)]
@@ -311,14 +381,15 @@ impl Sampler<'_> {
                 // of the vector: N(tE) (theta_E / mu^2) p(phi) / mu; target: prior x N(tE) x
                 // L(phi) x theta_E mu (the rate), with L(phi) = p(phi) for pi_E's direction
                 // and p constant otherwise: the weight is prior x mu^4 either way.
-                let te = m.draw(rng);
+                let (te, _) = m.get(rng);
                 let mu = theta_e / te * DAYS_PER_YEAR;
-                let phi = match self.data.pi_e_angle {
-                    Some((angle, err)) => {
+                let phi = match (row.and_then(|r| r.pi_e), data.pi_e_angle) {
+                    (Some([n, e]), _) => e.atan2(n),
+                    (None, Some((angle, err))) => {
                         let z: f64 = StandardNormal.sample(rng);
                         angle + err * z
                     }
-                    None => std::f64::consts::TAU * rng.random::<f64>(),
+                    (None, None) => std::f64::consts::TAU * rng.random::<f64>(),
                 };
                 let v = self.data.earth_velocity.unwrap_or([0.0; 2]);
                 let shift = pi_rel / super::model::KMS_PER_MASYR_KPC;
@@ -331,7 +402,7 @@ impl Sampler<'_> {
                 (hel[0].hypot(hel[1]), te)
             }
         };
-        let host_mass = mass / self.one_plus_q;
+        let host_mass = mass / one_plus_q;
         let (host_mag, light_like) = match &self.options.light {
             Some(light) => {
                 let mag = light.apparent(host_mass, dl, ds, los.b_deg);
@@ -343,7 +414,8 @@ impl Sampler<'_> {
             None => (f64::NAN, [1.0, 1.0]),
         };
         let weight_light = weight * (class[0] * light_like[0] + (1.0 - class[0]) * light_like[1]);
-        let q = self.data.q.unwrap_or(f64::NAN);
+        let q = q.unwrap_or(f64::NAN);
+        let s = row.and_then(|r| r.s).or(data.s).unwrap_or(f64::NAN);
         Some(LensSample {
             weight,
             weight_light,
@@ -353,7 +425,7 @@ impl Sampler<'_> {
             mass,
             host_mass,
             planet_mjup: q * host_mass * GM_SUN / GM_JUPITER,
-            separation_au: self.data.s.unwrap_or(f64::NAN) * theta_e * dl,
+            separation_au: s * theta_e * dl,
             theta_e,
             mu_rel,
             pi_rel,
@@ -381,6 +453,57 @@ pub fn infer(
     options: &LensOptions,
     progress: &dyn Progress,
 ) -> Result<LensPosterior> {
+    run(data, None, options, progress)
+}
+
+/// Draws the weighted samples from the fit's posterior samples instead of value +- error
+/// ([`super::samples`]): each lens sample takes one row (`tE`, and `rho`, `pi_E`, `s`, `q`
+/// when sampled). `theta_star` (microarcseconds, with its error) turns a sampled `rho` into
+/// `theta_E`; what the samples lack comes from `data` (`theta_e` when there is no `rho`
+/// column or no `theta_star`, `pi_e` and `pi_e_angle`, `s`, `q`, `earth_velocity`); `data.te`
+/// is not used.
+///
+/// ```
+/// use causeway::galaxy::{infer_samples, EventData, FitSamples, LensOptions, Measured, Sightline};
+/// use causeway::progress::Silent;
+/// let te: Vec<f64> = (0..500).map(|k| 28.0 + 0.01 * k as f64).collect();
+/// let rho: Vec<f64> = (0..500).map(|k| 1.2e-3 - 1e-7 * k as f64).collect();
+/// let samples = FitSamples::new(te, Some(rho), None, None, None).unwrap();
+/// let theta_star = Measured::new("theta_*", 0.6, 0.03).ok();
+/// let options = LensOptions { samples: 8192, ..LensOptions::new(Sightline::new(1.0, -3.0).unwrap()) };
+/// let post = infer_samples(&samples, theta_star, &EventData::default(), &options, &Silent).unwrap();
+/// let theta = post.quantiles(|s| s.theta_e, false, &[0.5])[0];
+/// assert!((theta - 0.6 / 1.175).abs() < 0.05);
+/// ```
+pub fn infer_samples(
+    samples: &FitSamples,
+    theta_star: Option<Measured>,
+    data: &EventData,
+    options: &LensOptions,
+    progress: &dyn Progress,
+) -> Result<LensPosterior> {
+    if samples.len() < 2 {
+        return Err(Error::input("tE: need at least 2 posterior samples"));
+    }
+    if theta_star.is_some() && samples.rho.is_none() {
+        return Err(Error::input(
+            "theta_*: the posterior samples have no rho column to divide it by",
+        ));
+    }
+    let rows = Rows {
+        samples,
+        theta_star,
+        size: samples.pi_e_size_likelihood(),
+    };
+    run(data, Some(rows), options, progress)
+}
+
+fn run(
+    data: &EventData,
+    rows: Option<Rows>,
+    options: &LensOptions,
+    progress: &dyn Progress,
+) -> Result<LensPosterior> {
     if options.samples == 0 {
         return Err(Error::input("samples: need at least one"));
     }
@@ -401,11 +524,11 @@ pub fn infer(
     }
     let sampler = Sampler {
         data,
+        rows,
         options,
         los: LineOfSight::new(options.model, options.sightline, options.source_beta),
         mass_functions: Population::ALL.map(MassFunction::new),
         kappa: kappa(),
-        one_plus_q: 1.0 + data.q.unwrap_or(0.0),
         north_angle: options.sightline.galactic_north_angle(),
     };
     let blocks = options.samples.div_ceil(BLOCK);

@@ -3,6 +3,8 @@
 //! limits that follow from the formulas (Gould 2000), the mass-luminosity relations against
 //! their published forms, the lens-light test, and the command.
 
+mod samples;
+
 use crate::common::{self, run_cli, with_threads, Scratch};
 use causeway::fit::scales::kappa;
 use causeway::galaxy::light::{
