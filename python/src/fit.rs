@@ -3,12 +3,13 @@
 use crate::convert::{bad, ok, values, with_threads, Floats, Forward};
 use crate::light::{law, model};
 use crate::map::Map;
+use crate::parallax::{moving_model, observer, Motion};
 use crate::store::Store;
 use causeway::fit::event::{fit_event as fit_whole, FitOptions, DEFAULT_CLIP_SIGMA};
 use causeway::fit::fluxes::FluxFit;
+use causeway::fit::hop::HOPS;
 use causeway::fit::model::BinaryModel;
 use causeway::fit::photometry::{DataSet as Set, Measured, DEFAULT_ZERO_POINT};
-use causeway::fit::hop::HOPS;
 use causeway::fit::refine::PARAMETERS;
 use causeway::fit::search::{maps_of_store, GridRule, MapSource};
 use causeway::fit::simulate::plan::ObservingPlan;
@@ -155,11 +156,11 @@ impl DataSet {
     }
 }
 
-fn data_sets(data: Vec<PyRef<DataSet>>) -> Vec<Set> {
+pub fn data_sets(data: Vec<PyRef<DataSet>>) -> Vec<Set> {
     data.iter().map(|d| d.inner.clone()).collect()
 }
 
-fn fluxes<'py>(py: Python<'py>, f: &[FluxFit]) -> PyResult<Vec<Bound<'py, PyDict>>> {
+pub fn fluxes<'py>(py: Python<'py>, f: &[FluxFit]) -> PyResult<Vec<Bound<'py, PyDict>>> {
     f.iter()
         .map(|f| {
             let d = PyDict::new(py);
@@ -195,7 +196,7 @@ pub fn fit_single_lens<'py>(
 }
 
 /// A model's parameters in a dict (alpha in degrees).
-fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, PyDict>> {
+pub fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, PyDict>> {
     let line = m.trajectory.line();
     let d = PyDict::new(py);
     d.set_item("s", m.s)?;
@@ -343,16 +344,22 @@ pub fn fit_event<'py>(
 }
 
 /// simulate(s, q, t0, u0, te, alpha, rho, times, ld=None, fs=1.0, fb=0.0, sigma_mag=0.01,
-/// sigma_flux=None, seed=1, zero_point=22.0, tol=1e-5) -> dict
+/// sigma_flux=None, seed=1, zero_point=22.0, tol=1e-5, ra=None, dec=None, pi_e_n=None,
+/// pi_e_e=None, t0_par=None, ds_dt=None, dalpha_dt=None, t0_kep=None, ephemeris=None) -> dict
 ///
 /// Synthetic photometry of a binary-lens event (alpha in degrees) at `times` (days): exact
 /// magnifications, F = fs A + fb, Gaussian noise of one constant error in magnitudes (or in
 /// flux with sigma_flux), seeded. Returns float64 arrays "t" (sorted), "magnification",
 /// "model" (noise-free), "value", "error" (mag or flux, as "measured" says), bool arrays
 /// "followup" and "outlier" (all False here), and "data", the DataSet of the points (what the
-/// command line's file would read back as).
+/// command line's file would read back as). The keyword arguments from `ra` on add parallax
+/// and lens orbital motion as `trajectory` describes them (`ephemeris`: the data are seen from
+/// that observatory), as `causeway simulate --ra --dec --pi-e-n ...` does.
+///
+///     sim = causeway.simulate(1.2, 1e-3, 8300, 0.1, 60, 30, 1e-3, t, ra="18:00:00",
+///                             dec="-30:00:00", pi_e_n=0.2, pi_e_e=-0.1, seed=3)
 #[pyfunction]
-#[pyo3(signature = (s, q, t0, u0, te, alpha, rho, times, ld=None, fs=1.0, fb=0.0, sigma_mag=Simulation::DEFAULT_SIGMA_MAG, sigma_flux=None, seed=Simulation::DEFAULT_SEED, zero_point=DEFAULT_ZERO_POINT, tol=Simulation::DEFAULT_TOL))]
+#[pyo3(signature = (s, q, t0, u0, te, alpha, rho, times, ld=None, fs=1.0, fb=0.0, sigma_mag=Simulation::DEFAULT_SIGMA_MAG, sigma_flux=None, seed=Simulation::DEFAULT_SEED, zero_point=DEFAULT_ZERO_POINT, tol=Simulation::DEFAULT_TOL, ra=None, dec=None, pi_e_n=None, pi_e_e=None, t0_par=None, ds_dt=None, dalpha_dt=None, t0_kep=None, ephemeris=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn simulate<'py>(
     py: Python<'py>,
@@ -372,9 +379,30 @@ pub fn simulate<'py>(
     seed: u64,
     zero_point: f64,
     tol: f64,
+    ra: Option<Bound<'py, PyAny>>,
+    dec: Option<Bound<'py, PyAny>>,
+    pi_e_n: Option<f64>,
+    pi_e_e: Option<f64>,
+    t0_par: Option<f64>,
+    ds_dt: Option<f64>,
+    dalpha_dt: Option<f64>,
+    t0_kep: Option<f64>,
+    ephemeris: Option<Bound<'py, PyAny>>,
 ) -> PyResult<Bound<'py, PyDict>> {
+    let motion = Motion {
+        ra,
+        dec,
+        pi_e_n,
+        pi_e_e,
+        t0_par,
+        ds_dt,
+        dalpha_dt,
+        t0_kep,
+        ephemeris,
+    };
+    let e = motion.ephemeris()?;
     let sim = Simulation {
-        model: model(s, q, t0, u0, te, alpha, rho)?,
+        model: moving_model(s, q, t0, u0, te, alpha, rho, &motion)?,
         law: law(ld, None)?,
         fs,
         fb,
@@ -387,7 +415,7 @@ pub fn simulate<'py>(
         tol,
     };
     let (t, _) = values(&times);
-    let out = py.detach(|| sim.synthesize(&t));
+    let out = py.detach(|| sim.synthesize_seen(&t, &observer(&e)));
     let out = ok(out)?;
     let data = ok(out.data_set("simulated", zero_point, sim.law))?;
     synthetic(py, &out, data)

@@ -7,6 +7,8 @@ mod fit;
 mod lens;
 mod light;
 mod map;
+mod nature;
+mod parallax;
 mod store;
 mod timing;
 
@@ -23,6 +25,9 @@ fn causeway_module(m: &Bound<'_, PyModule>) -> PyResult<()> {
         causeway::fit::photometry::DEFAULT_ZERO_POINT,
     )?;
     m.add("EXAMPLE_PLAN", causeway::fit::simulate::plan::EXAMPLE_PLAN)?;
+    m.add("LENS_CLASSES", nature::class_names())?;
+    m.add("NATURE_WEIGHT_FLOOR", nature::WEIGHT_FLOOR)?;
+    m.add("LENS_NAMES", causeway::fit::scales::LENS_NAMES.to_vec())?;
     m.add_class::<lens::Lens>()?;
     m.add_class::<map::Map>()?;
     m.add_class::<store::Store>()?;
@@ -41,6 +46,14 @@ fn causeway_module(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(fit::fit_event, m)?)?;
     m.add_function(wrap_pyfunction!(fit::simulate, m)?)?;
     m.add_function(wrap_pyfunction!(fit::simulate_plan, m)?)?;
+    m.add_function(wrap_pyfunction!(nature::lens_nature, m)?)?;
+    m.add_function(wrap_pyfunction!(parallax::sky_position, m)?)?;
+    m.add_function(wrap_pyfunction!(parallax::sky_basis, m)?)?;
+    m.add_function(wrap_pyfunction!(parallax::earth_position, m)?)?;
+    m.add_function(wrap_pyfunction!(parallax::parallax_offsets, m)?)?;
+    m.add_function(wrap_pyfunction!(parallax::earth_velocity, m)?)?;
+    m.add_function(wrap_pyfunction!(parallax::lens_from_parallax, m)?)?;
+    m.add_function(wrap_pyfunction!(parallax::refine_with_motion, m)?)?;
     m.add_function(wrap_pyfunction!(timing::_time_magnification, m)?)?;
     m.add_function(wrap_pyfunction!(timing::_time_map_magnification, m)?)?;
     Ok(())

@@ -4,6 +4,7 @@
 use crate::convert::{bad, chunked, ok, pair, shaped, values, with_threads, Array, Floats};
 use crate::lens::{sources, Lens};
 use crate::map::Map;
+use crate::parallax::{moving_model, observer, Motion};
 use causeway::contour;
 use causeway::curve::{Evaluation, Method, PointMagnification, Sampler, StraightLine};
 use causeway::fit::model::{BinaryModel, Trajectory};
@@ -33,10 +34,23 @@ pub fn profile(rho: f64, ld: Option<f64>, ld_sqrt: Option<(f64, f64)>) -> PyResu
     ok(SourceProfile::new(rho, law(ld, ld_sqrt)?))
 }
 
-/// trajectory(t0, u0, te, alpha, times) -> (x, y): source positions (Einstein radii) on a
-/// straight line at `times` (days, any shape): tau = (t - t0)/te, position
-/// (tau cos(alpha) - u0 sin(alpha), tau sin(alpha) + u0 cos(alpha)), alpha in degrees.
+/// trajectory(t0, u0, te, alpha, times, ra=None, dec=None, pi_e_n=None, pi_e_e=None,
+/// t0_par=None, ds_dt=None, dalpha_dt=None, t0_kep=None, ephemeris=None) -> (x, y)
+///
+/// Source positions (Einstein radii) at `times` (days, any shape): on a straight line
+/// tau = (t - t0)/te, position (tau cos(alpha) - u0 sin(alpha), tau sin(alpha) + u0 cos(alpha)),
+/// alpha in degrees. With parallax (`pi_e_n`, `pi_e_e` and the event's `ra`, `dec`: degrees
+/// or sexagesimal strings; `t0_par` days, default t0 rounded to a day; times below 2,400,000
+/// are JD - 2450000) tau and u0 gain pi_E . Delta s and pi_E x Delta s (Gould 2004), seen from
+/// the Earth or an observatory (`ephemeris`: CSV path or (n, 4) array t, x, y, z in au). With
+/// orbital motion (`ds_dt` per year, `dalpha_dt` radians per year about `t0_kep`, default t0)
+/// the binary axis turns. The positions are in the lens frame at each time.
+///
+///     x, y = causeway.trajectory(8300, 0.1, 60, 30, t, ra="18:00:00", dec="-30:00:00",
+///                                pi_e_n=0.2, pi_e_e=-0.1)
 #[pyfunction]
+#[pyo3(signature = (t0, u0, te, alpha, times, ra=None, dec=None, pi_e_n=None, pi_e_e=None, t0_par=None, ds_dt=None, dalpha_dt=None, t0_kep=None, ephemeris=None))]
+#[allow(clippy::too_many_arguments)]
 pub fn trajectory<'py>(
     py: Python<'py>,
     t0: f64,
@@ -44,10 +58,36 @@ pub fn trajectory<'py>(
     te: f64,
     alpha: f64,
     times: Floats,
+    ra: Option<Bound<'py, PyAny>>,
+    dec: Option<Bound<'py, PyAny>>,
+    pi_e_n: Option<f64>,
+    pi_e_e: Option<f64>,
+    t0_par: Option<f64>,
+    ds_dt: Option<f64>,
+    dalpha_dt: Option<f64>,
+    t0_kep: Option<f64>,
+    ephemeris: Option<Bound<'py, PyAny>>,
 ) -> PyResult<(Array<'py, f64>, Array<'py, f64>)> {
+    let motion = Motion {
+        ra,
+        dec,
+        pi_e_n,
+        pi_e_e,
+        t0_par,
+        ds_dt,
+        dalpha_dt,
+        t0_kep,
+        ephemeris,
+    };
     let line = ok(StraightLine::new(t0, u0, te, alpha.to_radians()))?;
     let (t, shape) = values(&times);
-    let pts = line.path(&t).points;
+    let tr = motion.apply(ok(Trajectory::straight(t0, u0, te, alpha.to_radians()))?)?;
+    let pts = if tr.is_straight() {
+        line.path(&t).points
+    } else {
+        let e = motion.ephemeris()?;
+        ok(tr.positions_seen(&t, &observer(&e)))?
+    };
     Ok((
         shaped(py, pts.iter().map(|p| p.0).collect(), &shape)?,
         shaped(py, pts.iter().map(|p| p.1).collect(), &shape)?,
@@ -209,15 +249,20 @@ pub fn model(
 }
 
 /// model_magnification(s, q, t0, u0, te, alpha, rho, times, ld=None, ld_sqrt=None, tol=1e-4,
-/// threads=None) -> A
+/// threads=None, ra=None, dec=None, pi_e_n=None, pi_e_e=None, t0_par=None, ds_dt=None,
+/// dalpha_dt=None, t0_kep=None, ephemeris=None) -> A
 ///
 /// The exact magnification of a binary-lens model at `times` (days, any shape; A float64 of
 /// that shape): lens (s, q), straight trajectory (t0 days, u0 Einstein radii, te days, alpha
 /// degrees), source radius rho; point source plus small-source correction far from caustics,
 /// contour integration near them, to relative tolerance `tol`. The magnification the fit's
-/// refinement and `simulate` use.
+/// refinement and `simulate` use. The keyword arguments from `ra` on add parallax and lens
+/// orbital motion as `trajectory` describes them (all None: the straight line).
+///
+///     a = causeway.model_magnification(1.2, 1e-3, 8300, 0.1, 60, 30, 1e-3, t,
+///                                      ra=270.0, dec=-30.0, pi_e_n=0.2, pi_e_e=-0.1)
 #[pyfunction]
-#[pyo3(signature = (s, q, t0, u0, te, alpha, rho, times, ld=None, ld_sqrt=None, tol=1e-4, threads=None))]
+#[pyo3(signature = (s, q, t0, u0, te, alpha, rho, times, ld=None, ld_sqrt=None, tol=1e-4, threads=None, ra=None, dec=None, pi_e_n=None, pi_e_e=None, t0_par=None, ds_dt=None, dalpha_dt=None, t0_kep=None, ephemeris=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn model_magnification<'py>(
     py: Python<'py>,
@@ -233,10 +278,34 @@ pub fn model_magnification<'py>(
     ld_sqrt: Option<(f64, f64)>,
     tol: f64,
     threads: Option<usize>,
+    ra: Option<Bound<'py, PyAny>>,
+    dec: Option<Bound<'py, PyAny>>,
+    pi_e_n: Option<f64>,
+    pi_e_e: Option<f64>,
+    t0_par: Option<f64>,
+    ds_dt: Option<f64>,
+    dalpha_dt: Option<f64>,
+    t0_kep: Option<f64>,
+    ephemeris: Option<Bound<'py, PyAny>>,
 ) -> PyResult<Array<'py, f64>> {
-    let m = model(s, q, t0, u0, te, alpha, rho)?;
+    let motion = Motion {
+        ra,
+        dec,
+        pi_e_n,
+        pi_e_e,
+        t0_par,
+        ds_dt,
+        dalpha_dt,
+        t0_kep,
+        ephemeris,
+    };
+    let m = moving_model(s, q, t0, u0, te, alpha, rho, &motion)?;
+    let e = motion.ephemeris()?;
+    let seen = observer(&e);
     let law = law(ld, ld_sqrt)?;
     let (t, shape) = values(&times);
-    let a = chunked(py, t.len(), threads, |r| m.magnifications(&t[r], law, tol))?;
+    let a = chunked(py, t.len(), threads, |r| {
+        m.magnifications_seen(&t[r], &seen, law, tol)
+    })?;
     shaped(py, a, &shape)
 }
