@@ -15,10 +15,18 @@ MAP_METHODS: list[str]
 CONTOUR_METHODS: list[str]
 DEFAULT_ZERO_POINT: float
 EXAMPLE_PLAN: str
+LENS_CLASSES: list[str]
+LENS_NAMES: list[str]
+NATURE_WEIGHT_FLOOR: float
 
 ArrayLike = npt.ArrayLike
 Floats = npt.NDArray[np.float64]
 Path = Union[str, PathLike[str]]
+# RA or Dec: degrees, or a sexagesimal string ("17:55:00", "-29:30:00").
+Angle = Union[float, str]
+# An observatory's ephemeris: a CSV path, or an (n, 4) array t, x, y, z (au, heliocentric
+# equatorial J2000).
+Ephemeris = Union[Path, ArrayLike]
 
 class Lens:
     """Point lenses; masses normalised to sum 1."""
@@ -86,7 +94,20 @@ def build_map(
     max_memory: Optional[int] = None,
 ) -> Map: ...
 def trajectory(
-    t0: float, u0: float, te: float, alpha: float, times: ArrayLike
+    t0: float,
+    u0: float,
+    te: float,
+    alpha: float,
+    times: ArrayLike,
+    ra: Optional[Angle] = None,
+    dec: Optional[Angle] = None,
+    pi_e_n: Optional[float] = None,
+    pi_e_e: Optional[float] = None,
+    t0_par: Optional[float] = None,
+    ds_dt: Optional[float] = None,
+    dalpha_dt: Optional[float] = None,
+    t0_kep: Optional[float] = None,
+    ephemeris: Optional[Ephemeris] = None,
 ) -> tuple[Floats, Floats]: ...
 def map_magnification(
     map: Map,
@@ -122,6 +143,15 @@ def model_magnification(
     ld_sqrt: Optional[tuple[float, float]] = None,
     tol: float = 1e-4,
     threads: Optional[int] = None,
+    ra: Optional[Angle] = None,
+    dec: Optional[Angle] = None,
+    pi_e_n: Optional[float] = None,
+    pi_e_e: Optional[float] = None,
+    t0_par: Optional[float] = None,
+    ds_dt: Optional[float] = None,
+    dalpha_dt: Optional[float] = None,
+    t0_kep: Optional[float] = None,
+    ephemeris: Optional[Ephemeris] = None,
 ) -> Floats: ...
 
 class Store:
@@ -212,6 +242,15 @@ def simulate(
     seed: int = 1,
     zero_point: float = 22.0,
     tol: float = 1e-5,
+    ra: Optional[Angle] = None,
+    dec: Optional[Angle] = None,
+    pi_e_n: Optional[float] = None,
+    pi_e_e: Optional[float] = None,
+    t0_par: Optional[float] = None,
+    ds_dt: Optional[float] = None,
+    dalpha_dt: Optional[float] = None,
+    t0_kep: Optional[float] = None,
+    ephemeris: Optional[Ephemeris] = None,
 ) -> dict[str, Any]: ...
 def simulate_plan(
     plan: str,
@@ -226,6 +265,78 @@ def simulate_plan(
     seed: int = 1,
     tol: float = 1e-5,
 ) -> dict[str, dict[str, Any]]: ...
+
+# Parallax and lens orbital motion (times: JD - 2450000 below 2,400,000, else full JD).
+def sky_position(ra: Angle, dec: Angle) -> tuple[float, float]: ...
+def sky_basis(ra: Angle, dec: Angle) -> dict[str, Floats]: ...
+def earth_position(jd: ArrayLike) -> Floats: ...
+def earth_velocity(ra: Angle, dec: Angle, t0_par: float) -> tuple[float, float]: ...
+def parallax_offsets(
+    ra: Angle,
+    dec: Angle,
+    times: ArrayLike,
+    t0_par: float,
+    ephemeris: Optional[Ephemeris] = None,
+) -> Floats: ...
+def lens_from_parallax(
+    theta_e: float,
+    te: float,
+    pi_e_n: float,
+    pi_e_e: float,
+    s: float = 1.0,
+    q: float = 0.0,
+    ds: Optional[float] = None,
+    earth_velocity: tuple[float, float] = (0.0, 0.0),
+    ds_dt: Optional[float] = None,
+    dalpha_dt: Optional[float] = None,
+    covariance: Optional[ArrayLike] = None,
+) -> dict[str, float]: ...
+def refine_with_motion(
+    data: Sequence[DataSet],
+    minima: Sequence[dict[str, Any]],
+    ra: Angle,
+    dec: Angle,
+    t0_par: Optional[float] = None,
+    orbit: bool = True,
+    ephemerides: Optional[Sequence[Optional[Ephemeris]]] = None,
+    count: int = 2,
+    tol: float = 1e-4,
+    max_iters: int = 40,
+    theta_star: Optional[float] = None,
+    ds: Optional[float] = None,
+    progress: Optional[Callable[[str, str], None]] = None,
+    threads: Optional[int] = None,
+) -> list[dict[str, Any]]: ...
+
+# Who is the lens. Measurements are (value, error) pairs.
+def lens_nature(
+    l: Optional[float] = None,
+    b: Optional[float] = None,
+    ra: Optional[float] = None,
+    dec: Optional[float] = None,
+    te: Optional[tuple[float, float]] = None,
+    theta_e: Optional[tuple[float, float]] = None,
+    theta_star: Optional[tuple[float, float]] = None,
+    rho: Optional[tuple[float, float]] = None,
+    pi_e: Optional[tuple[float, float]] = None,
+    pi_en: Optional[tuple[float, float]] = None,
+    pi_ee: Optional[tuple[float, float]] = None,
+    earth_velocity: Optional[tuple[float, float]] = None,
+    s: Optional[float] = None,
+    q: Optional[float] = None,
+    posterior: Optional[Union[dict[str, ArrayLike], Path]] = None,
+    ds: Optional[tuple[float, float]] = None,
+    band: str = "K",
+    extinction: float = 0.0,
+    excess: Optional[tuple[float, float]] = None,
+    fainter_than: Optional[float] = None,
+    samples: int = 200000,
+    seed: int = 1,
+    source_beta: float = 1.0,
+    progress: Optional[Callable[[str, str], None]] = None,
+    threads: Optional[int] = None,
+) -> dict[str, Any]: ...
+
 def _time_magnification(
     lens: Lens, x: ArrayLike, y: ArrayLike, threads: Optional[int] = None
 ) -> float: ...
