@@ -170,9 +170,9 @@ fn event_rate_weight_and_mean_masses_match_scipy() {
     }
 }
 
-fn reference_mc() -> std::collections::HashMap<String, f64> {
-    let text =
-        std::fs::read_to_string(common::root().join("tests/reference/galaxy_mc.csv")).unwrap();
+/// A reference table of `quantity,value` rows (tests/reference/NAME) by quantity.
+fn quantities(name: &str) -> std::collections::HashMap<String, f64> {
+    let text = std::fs::read_to_string(common::root().join("tests/reference").join(name)).unwrap();
     text.lines()
         .skip(1)
         .map(|l| {
@@ -197,7 +197,7 @@ fn prior_and_te_posterior_match_a_direct_numpy_monte_carlo() {
     // Rust draws tE from its measurement instead (another sampler of the same posterior).
     // Tolerances: 1 to 3 per cent, the Monte Carlo noise of both sides (measured: 0.3%, 0.6%
     // and 0.1% at the medians of tE, mass and D_L).
-    let r = reference_mc();
+    let r = quantities("galaxy_mc.csv");
     let options = LensOptions {
         samples: 300_000,
         source: SourceDistance::Given { kpc: 8.0, err: 0.0 },

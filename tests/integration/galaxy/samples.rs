@@ -3,7 +3,7 @@
 //! (tests/reference/galaxy_samples.py), the Gould 2000 collapse, the Gaussian input it
 //! generalises, and `causeway nature --posterior`.
 
-use super::{close, field, m, quantiles};
+use super::{close, field, m, quantiles, quantities};
 use crate::common::{self, run_cli, Scratch};
 use causeway::fit::scales::kappa;
 use causeway::galaxy::report::Quantity;
@@ -17,19 +17,6 @@ use rand_distr::{Distribution, Normal};
 
 fn reference_samples() -> FitSamples {
     FitSamples::read(&common::root().join("tests/reference/galaxy_samples.csv")).unwrap()
-}
-
-fn reference_mc() -> std::collections::HashMap<String, f64> {
-    let text =
-        std::fs::read_to_string(common::root().join("tests/reference/galaxy_samples_mc.csv"))
-            .unwrap();
-    text.lines()
-        .skip(1)
-        .map(|l| {
-            let (k, v) = l.split_once(',').unwrap();
-            (k.to_string(), v.parse().unwrap())
-        })
-        .collect()
 }
 
 /// `n` Gaussian draws of (value, sd), seeded.
@@ -46,7 +33,7 @@ fn posterior_samples_match_a_direct_numpy_monte_carlo() {
     // known density at (tE, theta_* / theta_E), averaged over theta_* = 0.6 +- 0.03 uas. Rust
     // sees only the rows. Tolerances: the Monte Carlo noise of both sides (12,000 effective
     // numpy events, 4000 rows) and of the quantiles in the tails, 2 to 4 per cent.
-    let r = reference_mc();
+    let r = quantities("galaxy_samples_mc.csv");
     let options = LensOptions {
         samples: 400_000,
         source: SourceDistance::Given { kpc: 8.0, err: 0.0 },
