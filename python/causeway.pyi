@@ -224,6 +224,12 @@ def fit_event(
     hops: int = 8,
     progress: Optional[Callable[[str, str], Any]] = None,
     threads: Optional[int] = None,
+    ra: Optional[Angle] = None,
+    dec: Optional[Angle] = None,
+    t0_par: Optional[float] = None,
+    orbit: bool = True,
+    ephemerides: Optional[Sequence[Optional[Ephemeris]]] = None,
+    parallax_minima: int = 2,
 ) -> dict[str, Any]: ...
 def simulate(
     s: float,
@@ -299,7 +305,7 @@ def refine_with_motion(
     t0_par: Optional[float] = None,
     orbit: bool = True,
     ephemerides: Optional[Sequence[Optional[Ephemeris]]] = None,
-    count: int = 2,
+    parallax_minima: int = 2,
     tol: float = 1e-4,
     max_iters: int = 40,
     theta_star: Optional[float] = None,

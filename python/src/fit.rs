@@ -3,7 +3,7 @@
 use crate::convert::{bad, ok, values, with_threads, Floats, Forward};
 use crate::light::{law, model};
 use crate::map::Map;
-use crate::parallax::{moving_model, observer, Motion};
+use crate::parallax::{motion_dict, motion_options, moving_model, observer, Motion};
 use crate::store::Store;
 use causeway::fit::event::{fit_event as fit_whole, FitOptions, DEFAULT_CLIP_SIGMA};
 use causeway::fit::fluxes::FluxFit;
@@ -222,8 +222,15 @@ pub fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, 
 /// "partner" (index of its close/wide partner or None), "fluxes"), "single" (the baseline's
 /// t0, u0, te, chi2), "error_scales", "clipped" (dicts "set", "t", "residual"), "notes",
 /// "seconds" (search, refinement). `progress(event, text)` receives the stages.
+/// With the event's `ra` and `dec` (degrees or sexagesimal) the parallax stage runs after the
+/// static fit (`refine_with_motion` on the data the fit ended with: `t0_par` default the
+/// single lens's t0 rounded, `orbit`, `ephemerides` one per set or None, `parallax_minima`),
+/// its rows in "motion" (empty without coordinates).
+///
+///     fit = causeway.fit_event(sets, store, ra="17:55:00", dec="-29:30:00", orbit=False)
+///     fit["motion"][0]["pi_e_n"], fit["motion"][0]["delta_chi2_static"]
 #[pyfunction]
-#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, hops=HOPS, progress=None, threads=None))]
+#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, hops=HOPS, progress=None, threads=None, ra=None, dec=None, t0_par=None, orbit=true, ephemerides=None, parallax_minima=2))]
 #[allow(clippy::too_many_arguments)]
 pub fn fit_event<'py>(
     py: Python<'py>,
@@ -243,6 +250,12 @@ pub fn fit_event<'py>(
     hops: usize,
     progress: Option<Py<PyAny>>,
     threads: Option<usize>,
+    ra: Option<Bound<'py, PyAny>>,
+    dec: Option<Bound<'py, PyAny>>,
+    t0_par: Option<f64>,
+    orbit: bool,
+    ephemerides: Option<Vec<Option<Bound<'py, PyAny>>>>,
+    parallax_minima: usize,
 ) -> PyResult<Bound<'py, PyDict>> {
     if data.is_empty() {
         return Err(bad("data", "give at least one DataSet"));
@@ -267,6 +280,20 @@ pub fn fit_event<'py>(
         }),
         clip_sigma: (clip > 0.0).then_some(clip),
         rescale_errors,
+        motion: match (&ra, &dec) {
+            (Some(r), Some(d)) => Some(motion_options(
+                r,
+                d,
+                t0_par,
+                orbit,
+                ephemerides,
+                parallax_minima,
+                tol,
+            )?),
+            (None, None) => None,
+            (None, Some(_)) => return Err(bad("ra", "give ra with dec")),
+            (Some(_), None) => return Err(bad("dec", "give dec with ra")),
+        },
         ..FitOptions::default()
     };
     if let Some(r) = rhos {
@@ -340,6 +367,12 @@ pub fn fit_event<'py>(
     d.set_item("clipped", clipped)?;
     d.set_item("notes", result.notes)?;
     d.set_item("seconds", result.seconds)?;
+    let motion = result
+        .motion
+        .iter()
+        .map(|m| motion_dict(py, m, None, None))
+        .collect::<PyResult<Vec<_>>>()?;
+    d.set_item("motion", motion)?;
     Ok(d)
 }
 

@@ -26,15 +26,8 @@ fn coordinate(name: &str, v: &Bound<'_, PyAny>) -> PyResult<String> {
 /// The event's position from `ra`, `dec` (either given as numbers or strings).
 pub fn sky(ra: &Bound<'_, PyAny>, dec: &Bound<'_, PyAny>) -> PyResult<SkyPosition> {
     let (r, d) = (coordinate("ra", ra)?, coordinate("dec", dec)?);
-    SkyPosition::parse(&r, &d).map_err(|e| {
-        let m = e.to_string();
-        let name = if m.to_ascii_lowercase().starts_with("dec") || m.contains("--dec") {
-            "dec"
-        } else {
-            "ra"
-        };
-        bad(name, m)
-    })
+    // The library's messages start with the parameter's name, "ra" or "dec".
+    ok(SkyPosition::parse(&r, &d))
 }
 
 /// An ephemeris from a CSV path or an (n, 4) array of rows (t, x, y, z).
@@ -93,11 +86,15 @@ impl Motion<'_> {
             (n, e) => {
                 let sky = position.ok_or_else(|| bad("ra", "parallax needs ra and dec"))?;
                 let t0_par = self.t0_par.unwrap_or(t0.round());
-                let geometry = Geometry::new(sky, t0_par, jd_origin(t0_par));
+                for (name, v) in [("pi_e_n", n), ("pi_e_e", e)] {
+                    if let Some(v) = v.filter(|v| !v.is_finite()) {
+                        return Err(bad(name, format!("must be finite, got {v}")));
+                    }
+                }
                 Some(Parallax {
                     pi_en: n.unwrap_or(0.0),
                     pi_ee: e.unwrap_or(0.0),
-                    geometry: geometry.map_err(|e| bad("t0_par", e))?,
+                    geometry: ok(Geometry::new(sky, t0_par, jd_origin(t0_par)))?,
                 })
             }
         };
@@ -220,8 +217,7 @@ pub fn parallax_offsets<'py>(
     t0_par: f64,
     ephemeris: Option<Bound<'py, PyAny>>,
 ) -> PyResult<Array<'py, f64>> {
-    let g =
-        Geometry::new(sky(ra, dec)?, t0_par, jd_origin(t0_par)).map_err(|e| bad("t0_par", e))?;
+    let g = ok(Geometry::new(sky(ra, dec)?, t0_par, jd_origin(t0_par)))?;
     let e = ephemeris.as_ref().map(self::ephemeris).transpose()?;
     let (t, mut shape) = values(&times);
     let d = py.detach(|| g.offsets(&t, &observer(&e)));
@@ -242,8 +238,7 @@ pub fn earth_velocity(
     dec: &Bound<'_, PyAny>,
     t0_par: f64,
 ) -> PyResult<(f64, f64)> {
-    let g =
-        Geometry::new(sky(ra, dec)?, t0_par, jd_origin(t0_par)).map_err(|e| bad("t0_par", e))?;
+    let g = ok(Geometry::new(sky(ra, dec)?, t0_par, jd_origin(t0_par)))?;
     Ok(g.earth_velocity())
 }
 
@@ -371,7 +366,7 @@ fn static_model(d: &Bound<'_, PyAny>) -> PyResult<BinaryModel> {
 }
 
 /// One row of the motion stage as a dict.
-fn motion_dict<'py>(
+pub fn motion_dict<'py>(
     py: Python<'py>,
     m: &MotionMinimum,
     theta_star: Option<f64>,
@@ -413,12 +408,37 @@ fn motion_dict<'py>(
     Ok(d)
 }
 
+/// The motion stage's options from the arguments of `refine_with_motion` and `fit_event`.
+pub fn motion_options(
+    ra: &Bound<'_, PyAny>,
+    dec: &Bound<'_, PyAny>,
+    t0_par: Option<f64>,
+    orbit: bool,
+    ephemerides: Option<Vec<Option<Bound<'_, PyAny>>>>,
+    parallax_minima: usize,
+    tol: f64,
+) -> PyResult<MotionOptions> {
+    let ephemerides = ephemerides
+        .unwrap_or_default()
+        .iter()
+        .map(|e| e.as_ref().map(ephemeris).transpose())
+        .collect::<PyResult<Vec<_>>>()?;
+    Ok(MotionOptions {
+        t0_par,
+        orbit,
+        ephemerides,
+        minima: parallax_minima,
+        tol,
+        ..MotionOptions::new(sky(ra, dec)?)
+    })
+}
+
 /// refine_with_motion(data, minima, ra, dec, t0_par=None, orbit=True, ephemerides=None,
-/// count=2, tol=1e-4, max_iters=40, theta_star=None, ds=None, progress=None, threads=None)
+/// parallax_minima=2, tol=1e-4, max_iters=40, theta_star=None, ds=None, progress=None, threads=None)
 /// -> list of dict
 ///
 /// The fit's parallax stage on static minima (the "minima" of `fit_event`, best first, or any
-/// dicts with "s", "q", "alpha" degrees, "u0", "t0", "te", "rho"): the best `count` are each
+/// dicts with "s", "q", "alpha" degrees, "u0", "t0", "te", "rho"): the best `parallax_minima` are each
 /// refined with parallax from both members of the ecliptic pair (u0, alpha, pi_E,N) and
 /// (-u0, -alpha, -pi_E,N), then (with `orbit`) with linear orbital motion, by exact
 /// magnifications on `data` (a list of DataSet; `ephemerides` one per set, None for the Earth,
@@ -432,7 +452,7 @@ fn motion_dict<'py>(
 ///     rows = causeway.refine_with_motion(sets, fit["minima"], "17:55:00", "-29:30:00",
 ///                                        orbit=False, theta_star=0.6, ds=8.0)
 #[pyfunction]
-#[pyo3(signature = (data, minima, ra, dec, t0_par=None, orbit=true, ephemerides=None, count=2, tol=1e-4, max_iters=40, theta_star=None, ds=None, progress=None, threads=None))]
+#[pyo3(signature = (data, minima, ra, dec, t0_par=None, orbit=true, ephemerides=None, parallax_minima=2, tol=1e-4, max_iters=40, theta_star=None, ds=None, progress=None, threads=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn refine_with_motion<'py>(
     py: Python<'py>,
@@ -443,7 +463,7 @@ pub fn refine_with_motion<'py>(
     t0_par: Option<f64>,
     orbit: bool,
     ephemerides: Option<Vec<Option<Bound<'py, PyAny>>>>,
-    count: usize,
+    parallax_minima: usize,
     tol: f64,
     max_iters: u64,
     theta_star: Option<f64>,
@@ -457,12 +477,6 @@ pub fn refine_with_motion<'py>(
     if minima.is_empty() {
         return Err(bad("minima", "give at least one minimum"));
     }
-    if count == 0 {
-        return Err(bad("count", "must be at least 1"));
-    }
-    if !(tol.is_finite() && tol > 0.0 && tol <= 0.1) {
-        return Err(bad("tol", format!("must be in (0, 0.1], got {tol}")));
-    }
     for (name, v) in [("theta_star", theta_star), ("ds", ds)] {
         if v.is_some_and(|v| !(v.is_finite() && v > 0.0)) {
             return Err(bad(name, "must be finite and > 0"));
@@ -473,28 +487,11 @@ pub fn refine_with_motion<'py>(
         .iter()
         .map(static_model)
         .collect::<PyResult<Vec<_>>>()?;
-    let ephemerides = match ephemerides {
-        None => Vec::new(),
-        Some(list) if list.len() == sets.len() => list
-            .iter()
-            .map(|e| e.as_ref().map(ephemeris).transpose())
-            .collect::<PyResult<Vec<_>>>()?,
-        Some(list) => {
-            return Err(bad(
-                "ephemerides",
-                format!("{} given for {} data sets", list.len(), sets.len()),
-            ))
-        }
-    };
     let options = MotionOptions {
-        t0_par,
-        orbit,
-        ephemerides,
-        minima: count,
-        tol,
         max_iters,
-        ..MotionOptions::new(sky(ra, dec)?)
+        ..motion_options(ra, dec, t0_par, orbit, ephemerides, parallax_minima, tol)?
     };
+    ok(options.validate(sets.len()))?;
     let default_t0_par = statics[0].trajectory.line().t0.round();
     let forward = Forward(progress);
     let rows = py.detach(|| {

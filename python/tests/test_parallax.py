@@ -188,3 +188,36 @@ def test_bad_lens_and_stage_arguments_name_the_argument():
     with pytest.raises(ValueError, match=r"^minima\b"):
         d = causeway.DataSet([1.0, 2.0, 3.0], mag=[18, 18, 18], mag_err=[0.01] * 3)
         causeway.refine_with_motion([d], [{"s": 1.2}], 270.0, -30.0)
+
+
+def test_fit_event_runs_the_motion_stage_as_the_command_line_does(cli, tmp_path):
+    # An invented planetary event with pi_E = (0.3, -0.1) toward the bulge, fitted over a 2 x 2
+    # library with the event's coordinates: the parallax rows equal `causeway search --ra --dec`
+    # bit for bit (no time budget: deterministic), and the better one is near the truth.
+    times = np.r_[np.linspace(8260, 8340, 120), np.linspace(8311, 8314.5, 40)]
+    sky = dict(ra="17:55:00", dec="-29:30:00")
+    sim = causeway.simulate(1.3, 3e-3, 8300.0, 0.15, 25.0, 343.56, 0.003, times, seed=2,
+                            pi_e_n=0.3, pi_e_e=-0.1, **sky)
+    write_csv(tmp_path / "event.csv", "t,mag,mag_err", sim["t"], sim["value"], sim["error"])
+    store = causeway.Store.create(tmp_path / "maps")
+    causeway.build_library('s = [1.25, 1.35]\nq = [2e-3, 4e-3]\npixels = 300\nrays = 50\n'
+                           '[window]\nrule = "planetary"\n', store)
+    data = causeway.DataSet.read(tmp_path / "event.csv")
+    fit = causeway.fit_event([data], store, rhos=[0.002, 0.003, 0.005], refine=1, zoom_levels=0,
+                             clip=0, rescale_errors=False, budget=0, orbit=False,
+                             parallax_minima=1, **sky)
+    rows = fit["motion"]
+    assert [r["model"] for r in rows] == ["parallax", "parallax"]
+    assert rows[0]["u0"] > 0 > rows[1]["u0"] and rows[0]["t0_par"] == 8300.0
+    out = read_csv(cli("search", tmp_path / "event.csv", "--library", tmp_path / "maps", "--rho",
+                       "0.002,0.003,0.005", "--refine", 1, "--zoom", 0, "--clip", 0,
+                       "--fixed-errors", "--budget", 0, "--ra", "17:55:00", "--dec", "-29:30:00",
+                       "--no-orbit", "--parallax-minima", 1))
+    theirs = [k for k, m in enumerate(out["model"]) if m == "parallax"]
+    assert len(theirs) == 2
+    for row, k in zip(rows, theirs):
+        for ours, col in (("pi_e_n", "pi_EN"), ("pi_e_e", "pi_EE"), ("u0", "u0"), ("chi2", "chi2")):
+            assert row[ours] == out[col][k], (ours, row[ours], out[col][k])
+    best = min(rows, key=lambda r: r["chi2"])
+    assert best["delta_chi2_static"] > 0
+    assert abs(best["pi_e_n"] - 0.3) < 3 * best["sigma"]["pi_e_n"] + 0.05
