@@ -422,17 +422,10 @@ pub fn simulate<'py>(
     t0_kep: Option<f64>,
     ephemeris: Option<Bound<'py, PyAny>>,
 ) -> PyResult<Bound<'py, PyDict>> {
-    let motion = Motion {
-        ra,
-        dec,
-        pi_e_n,
-        pi_e_e,
-        t0_par,
-        ds_dt,
-        dalpha_dt,
-        t0_kep,
-        ephemeris,
-    };
+    let motion = Motion::new(
+        [ra, dec, ephemeris],
+        [pi_e_n, pi_e_e, t0_par, ds_dt, dalpha_dt, t0_kep],
+    );
     let e = motion.ephemeris()?;
     let sim = Simulation {
         model: moving_model(s, q, t0, u0, te, alpha, rho, &motion)?,

@@ -68,17 +68,10 @@ pub fn trajectory<'py>(
     t0_kep: Option<f64>,
     ephemeris: Option<Bound<'py, PyAny>>,
 ) -> PyResult<(Array<'py, f64>, Array<'py, f64>)> {
-    let motion = Motion {
-        ra,
-        dec,
-        pi_e_n,
-        pi_e_e,
-        t0_par,
-        ds_dt,
-        dalpha_dt,
-        t0_kep,
-        ephemeris,
-    };
+    let motion = Motion::new(
+        [ra, dec, ephemeris],
+        [pi_e_n, pi_e_e, t0_par, ds_dt, dalpha_dt, t0_kep],
+    );
     let line = ok(StraightLine::new(t0, u0, te, alpha.to_radians()))?;
     let (t, shape) = values(&times);
     let tr = motion.apply(ok(Trajectory::straight(t0, u0, te, alpha.to_radians()))?)?;
@@ -288,17 +281,10 @@ pub fn model_magnification<'py>(
     t0_kep: Option<f64>,
     ephemeris: Option<Bound<'py, PyAny>>,
 ) -> PyResult<Array<'py, f64>> {
-    let motion = Motion {
-        ra,
-        dec,
-        pi_e_n,
-        pi_e_e,
-        t0_par,
-        ds_dt,
-        dalpha_dt,
-        t0_kep,
-        ephemeris,
-    };
+    let motion = Motion::new(
+        [ra, dec, ephemeris],
+        [pi_e_n, pi_e_e, t0_par, ds_dt, dalpha_dt, t0_kep],
+    );
     let m = moving_model(s, q, t0, u0, te, alpha, rho, &motion)?;
     let e = motion.ephemeris()?;
     let seen = observer(&e);

@@ -57,7 +57,6 @@ pub fn ephemeris(e: &Bound<'_, PyAny>) -> PyResult<Ephemeris> {
 }
 
 /// The parallax and orbital-motion keyword arguments of a model (every one `None`: off).
-#[derive(Default)]
 pub struct Motion<'py> {
     pub ra: Option<Bound<'py, PyAny>>,
     pub dec: Option<Bound<'py, PyAny>>,
@@ -70,7 +69,26 @@ pub struct Motion<'py> {
     pub ephemeris: Option<Bound<'py, PyAny>>,
 }
 
-impl Motion<'_> {
+impl<'py> Motion<'py> {
+    /// From the keyword arguments: `[ra, dec, ephemeris]`, `[pi_e_n, pi_e_e, t0_par, ds_dt,
+    /// dalpha_dt, t0_kep]`.
+    pub fn new(
+        [ra, dec, ephemeris]: [Option<Bound<'py, PyAny>>; 3],
+        [pi_e_n, pi_e_e, t0_par, ds_dt, dalpha_dt, t0_kep]: [Option<f64>; 6],
+    ) -> Self {
+        Motion {
+            ra,
+            dec,
+            pi_e_n,
+            pi_e_e,
+            t0_par,
+            ds_dt,
+            dalpha_dt,
+            t0_kep,
+            ephemeris,
+        }
+    }
+
     /// `tr` with the parallax and orbital motion asked for: `t0_par` defaults to t0 rounded to
     /// a day, `t0_kep` to t0, as on the command line.
     pub fn apply(&self, tr: Trajectory) -> PyResult<Trajectory> {
