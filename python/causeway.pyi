@@ -320,6 +320,7 @@ def lens_nature(
     b: Optional[float] = None,
     ra: Optional[float] = None,
     dec: Optional[float] = None,
+    minimum: Optional[dict[str, Any]] = None,
     te: Optional[tuple[float, float]] = None,
     theta_e: Optional[tuple[float, float]] = None,
     theta_star: Optional[tuple[float, float]] = None,

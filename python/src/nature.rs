@@ -2,7 +2,7 @@
 //! fit's posterior samples, samples out as numpy arrays with the class probabilities.
 
 use crate::convert::{bad, ok, values, with_threads, Floats, Forward};
-use causeway::galaxy::input::{pi_e_angle, pi_e_size, theta_e as theta_e_of};
+use causeway::galaxy::input::{pi_e_angle, pi_e_size, theta_e as theta_e_of, FitRow};
 use causeway::galaxy::report::{summary, CSV_WEIGHT_FLOOR};
 use causeway::galaxy::{
     infer, infer_samples, Band, EventData, FitSamples, Imaging, LensClass, LensLight, LensOptions,
@@ -160,14 +160,17 @@ fn posterior_dict<'py>(py: Python<'py>, post: &LensPosterior) -> PyResult<Bound<
     Ok(d)
 }
 
-/// lens_nature(l=None, b=None, ra=None, dec=None, te=None, theta_e=None, theta_star=None,
+/// lens_nature(l=None, b=None, ra=None, dec=None, minimum=None, te=None, theta_e=None, theta_star=None,
 /// rho=None, pi_e=None, pi_en=None, pi_ee=None, earth_velocity=None, s=None, q=None,
 /// posterior=None, ds=None, band="K", extinction=0.0, excess=None, fainter_than=None,
 /// samples=200000, seed=1, source_beta=1.0, progress=None, threads=None) -> dict
 ///
 /// Who the lens is: weighted Monte Carlo samples of its mass, distance and class from the
 /// Galactic model and the event's measurements (Dominik 2006), as `causeway nature` draws them
-/// (the same seed gives the same samples). Measurements are (value, error) pairs: `te` (days),
+/// (the same seed gives the same samples). `minimum`: a minimum of the fit (a dict of
+/// `fit_event`'s "minima" or "motion", or of `refine_with_motion`) gives tE, rho (theta_E with
+/// `theta_star`), s, q and pi_E with their errors, as `causeway nature --minima` reads the
+/// table; explicit values win. Measurements are (value, error) pairs: `te` (days),
 /// `theta_e` (mas) or `theta_star` (microarcseconds) with `rho` (theta_E = theta_* / rho),
 /// `pi_e` (size only) or `pi_en` and `pi_ee` (size and direction), `earth_velocity` (north,
 /// east; km/s) to make them heliocentric; `s`, `q` of the companion. Or `posterior`: the fit's
@@ -191,7 +194,7 @@ fn posterior_dict<'py>(py: Python<'py>, post: &LensPosterior) -> PyResult<Bound<
 /// probabilities, "classes" and "classes_imaging" (dicts), "effective" (Kish's effective
 /// samples without and with imaging) and "summary" (the command's text).
 #[pyfunction]
-#[pyo3(signature = (l=None, b=None, ra=None, dec=None, te=None, theta_e=None, theta_star=None, rho=None, pi_e=None, pi_en=None, pi_ee=None, earth_velocity=None, s=None, q=None, posterior=None, ds=None, band="K", extinction=0.0, excess=None, fainter_than=None, samples=200_000, seed=1, source_beta=1.0, progress=None, threads=None))]
+#[pyo3(signature = (l=None, b=None, ra=None, dec=None, minimum=None, te=None, theta_e=None, theta_star=None, rho=None, pi_e=None, pi_en=None, pi_ee=None, earth_velocity=None, s=None, q=None, posterior=None, ds=None, band="K", extinction=0.0, excess=None, fainter_than=None, samples=200_000, seed=1, source_beta=1.0, progress=None, threads=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn lens_nature<'py>(
     py: Python<'py>,
@@ -199,6 +202,7 @@ pub fn lens_nature<'py>(
     b: Option<f64>,
     ra: Option<f64>,
     dec: Option<f64>,
+    minimum: Option<Bound<'py, PyAny>>,
     te: Option<(f64, f64)>,
     theta_e: Option<(f64, f64)>,
     theta_star: Option<(f64, f64)>,
@@ -258,7 +262,7 @@ pub fn lens_nature<'py>(
         ..LensOptions::new(sightline)
     };
     let theta_star = measured("theta_star", theta_star)?;
-    let mut data = EventData {
+    let data = EventData {
         theta_e: measured("theta_e", theta_e)?,
         earth_velocity: earth_velocity.map(|(n, e)| [n, e]),
         s: positive("s", s)?,
@@ -275,6 +279,7 @@ pub fn lens_nature<'py>(
     let post = match posterior {
         Some(p) => {
             for (name, given) in [
+                ("minimum", minimum.is_some()),
                 ("te", te.is_some()),
                 ("rho", rho.is_some()),
                 ("pi_e", pi_e.is_some()),
@@ -298,32 +303,103 @@ pub fn lens_nature<'py>(
             })?
         }
         None => {
-            data.te = Some(
-                measured("te", te)?
-                    .ok_or_else(|| bad("te", "give tE and its error (or posterior)"))?,
-            );
-            match (rho, theta_star) {
-                (Some((r, e)), Some(ts)) => {
-                    data.theta_e = Some(theta_e_of(ts, r, e, 1).map_err(|e| bad("rho", e))?)
-                }
-                (None, None) => {}
-                (Some(_), None) => return Err(bad("rho", "needs theta_star")),
-                (None, Some(_)) => return Err(bad("theta_star", "needs rho")),
-            }
-            match (pi_e, pi_en, pi_ee) {
-                (Some(p), None, None) => data.pi_e = measured("pi_e", Some(p))?,
-                (None, Some((n, ne)), Some((e, ee))) => {
-                    let v = [n, ne, e, ee];
-                    data.pi_e = Some(pi_e_size(v).map_err(|e| bad("pi_en", e))?);
-                    data.pi_e_angle = Some(pi_e_angle(v));
-                }
-                (None, None, None) => {}
-                _ => return Err(bad("pi_en", "give pi_e alone, or pi_en and pi_ee together")),
-            }
+            let data = measurements(data, minimum, theta_star, te, rho, pi_e, pi_en, pi_ee)?;
             py.detach(|| with_threads(threads, || infer(&data, &options, &forward)))?
         }
     };
     posterior_dict(py, &post)
+}
+
+/// A minimum of the fit (a dict of `fit_event`'s "minima" or "motion", or of
+/// `refine_with_motion`) as the lens estimate reads it.
+fn fit_row(m: &Bound<'_, PyAny>) -> PyResult<FitRow> {
+    let number = |d: &Bound<'_, PyAny>, k: &str| -> PyResult<Option<f64>> {
+        match d.get_item(k) {
+            Ok(v) if v.is_none() => Ok(None),
+            Ok(v) => v
+                .extract()
+                .map(Some)
+                .map_err(|_| bad("minimum", format!("\"{k}\" must be a number"))),
+            Err(_) => Ok(None),
+        }
+    };
+    let need = |d: &Bound<'_, PyAny>, k: &str| {
+        number(d, k)?.ok_or_else(|| bad("minimum", format!("needs \"{k}\"")))
+    };
+    let sigma = m
+        .get_item("sigma")
+        .map_err(|_| bad("minimum", "needs \"sigma\" (the errors)"))?;
+    let rho = match (number(m, "rho")?, number(&sigma, "rho")?) {
+        (Some(r), Some(e)) if r.is_finite() && e.is_finite() => Some((r, e)),
+        _ => None,
+    };
+    let pi_e = match (number(m, "pi_e_n")?, number(m, "pi_e_e")?) {
+        (Some(n), Some(e)) => Some([n, need(&sigma, "pi_e_n")?, e, need(&sigma, "pi_e_e")?]),
+        _ => None,
+    };
+    Ok(FitRow {
+        rank: 1,
+        te: (need(m, "te")?, need(&sigma, "te")?),
+        rho,
+        s: need(m, "s")?,
+        q: need(m, "q")?,
+        pi_e,
+    })
+}
+
+/// The measurements of value +- error arguments, over those of the fit's `minimum` when
+/// given (as `causeway nature --minima` takes explicit values over the table's).
+#[allow(clippy::too_many_arguments)]
+fn measurements(
+    given: EventData,
+    minimum: Option<Bound<'_, PyAny>>,
+    theta_star: Option<Measured>,
+    te: Option<(f64, f64)>,
+    rho: Option<(f64, f64)>,
+    pi_e: Option<(f64, f64)>,
+    pi_en: Option<(f64, f64)>,
+    pi_ee: Option<(f64, f64)>,
+) -> PyResult<EventData> {
+    let row = minimum.map(|m| fit_row(&m)).transpose()?;
+    let mut data = match &row {
+        Some(r) if rho.is_none() && given.theta_e.is_none() => r.event_data(theta_star),
+        Some(r) => r.event_data(None),
+        None => Ok(EventData::default()),
+    }
+    .map_err(|e| bad("minimum", e))?;
+    data.theta_e = given.theta_e.or(data.theta_e);
+    data.s = given.s.or(data.s);
+    data.q = given.q.or(data.q);
+    data.earth_velocity = given.earth_velocity;
+    data.te = measured("te", te)?.or(data.te);
+    if data.te.is_none() {
+        return Err(bad(
+            "te",
+            "give tE and its error (or minimum, or posterior)",
+        ));
+    }
+    match (rho, theta_star) {
+        (Some((r, e)), Some(ts)) => {
+            data.theta_e = Some(theta_e_of(ts, r, e, 1).map_err(|e| bad("rho", e))?)
+        }
+        (Some(_), None) => return Err(bad("rho", "needs theta_star")),
+        (None, Some(_)) if row.is_none() => return Err(bad("theta_star", "needs rho")),
+        _ => {}
+    }
+    match (pi_e, pi_en, pi_ee) {
+        (Some(p), None, None) => {
+            data.pi_e = measured("pi_e", Some(p))?;
+            data.pi_e_angle = None;
+        }
+        (None, Some((n, ne)), Some((e, ee))) => {
+            let v = [n, ne, e, ee];
+            data.pi_e = Some(pi_e_size(v).map_err(|e| bad("pi_en", e))?);
+            data.pi_e_angle = Some(pi_e_angle(v));
+        }
+        (None, None, None) => {}
+        _ => return Err(bad("pi_en", "give pi_e alone, or pi_en and pi_ee together")),
+    }
+    Ok(data)
 }
 
 /// The class names of `classes`, in the order of the columns of "class_p".

@@ -163,3 +163,25 @@ def test_bad_input_names_the_argument(kwargs, name):
 def test_a_missing_posterior_file_is_an_oserror(tmp_path):
     with pytest.raises(OSError):
         causeway.lens_nature(**FIELD, posterior=tmp_path / "none.csv")
+
+
+def test_a_minimum_of_the_fit_equals_the_command_lines_table(cli, tmp_path):
+    # A row of the fit (as fit_event's "motion" or refine_with_motion give it) and the same row
+    # in the table `causeway nature --minima` reads give the same samples.
+    minimum = {"s": 1.25, "q": 2e-3, "te": 28.0, "rho": 1.2e-3, "pi_e_n": 0.12, "pi_e_e": -0.05,
+               "sigma": {"s": 0.01, "q": 1e-4, "te": 0.8, "rho": 1e-4, "pi_e_n": 0.03,
+                         "pi_e_e": 0.02}}
+    (tmp_path / "minima.csv").write_text(
+        "rank,s,q,tE,tE_err,rho,rho_err,pi_EN,pi_EN_err,pi_EE,pi_EE_err,chi2\n"
+        "1,1.25,0.002,28,0.8,0.0012,0.0001,0.12,0.03,-0.05,0.02,600\n")
+    r = causeway.lens_nature(**FIELD, minimum=minimum, theta_star=(0.6, 0.05), extinction=0.25,
+                             fainter_than=21.5, samples=20_000)
+    cli("nature", "--minima", tmp_path / "minima.csv", "--theta-star", "0.6,0.05", "--galactic",
+        "1,-3", "--extinction", "0.25", "--fainter-than", "21.5", "--samples", "20000", "--out",
+        tmp_path / "lens.csv")
+    compare_with_csv(r, (tmp_path / "lens.csv").read_text())
+    # Explicit values win over the minimum's.
+    other = causeway.lens_nature(**FIELD, minimum=minimum, te=(40.0, 1.0), samples=4096)
+    assert np.median(other["te"]) > 35
+    with pytest.raises(ValueError, match=r"^minimum\b"):
+        causeway.lens_nature(**FIELD, minimum={"te": 30.0}, samples=4096)
