@@ -24,8 +24,9 @@ Floats = npt.NDArray[np.float64]
 Path = Union[str, PathLike[str]]
 # RA or Dec: degrees, or a sexagesimal string ("17:55:00", "-29:30:00").
 Angle = Union[float, str]
-# An observatory's ephemeris: a CSV path, or an (n, 4) array t, x, y, z (au, heliocentric
-# equatorial J2000).
+# An observatory's ephemeris: a CSV path, an (n, 4) array t, x, y, z (au, heliocentric
+# equatorial J2000) or an (n, 3) array t, north, east (au, offsets from the Earth's centre
+# projected on the sky).
 Ephemeris = Union[Path, ArrayLike]
 
 class Lens:

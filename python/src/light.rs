@@ -42,7 +42,8 @@ pub fn profile(rho: f64, ld: Option<f64>, ld_sqrt: Option<(f64, f64)>) -> PyResu
 /// alpha in degrees. With parallax (`pi_e_n`, `pi_e_e` and the event's `ra`, `dec`: degrees
 /// or sexagesimal strings; `t0_par` days, default t0 rounded to a day; times below 2,400,000
 /// are JD - 2450000) tau and u0 gain pi_E . Delta s and pi_E x Delta s (Gould 2004), seen from
-/// the Earth or an observatory (`ephemeris`: CSV path or (n, 4) array t, x, y, z in au). With
+/// the Earth or an observatory (`ephemeris`: a CSV path, an (n, 4) array t, x, y, z
+/// heliocentric equatorial or an (n, 3) array t, north, east offsets from the Earth; au). With
 /// orbital motion (`ds_dt` per year, `dalpha_dt` radians per year about `t0_kep`, default t0)
 /// the binary axis turns. The positions are in the lens frame at each time.
 ///

@@ -30,7 +30,9 @@ pub fn sky(ra: &Bound<'_, PyAny>, dec: &Bound<'_, PyAny>) -> PyResult<SkyPositio
     ok(SkyPosition::parse(&r, &d))
 }
 
-/// An ephemeris from a CSV path or an (n, 4) array of rows (t, x, y, z).
+/// An ephemeris from a CSV path, an (n, 4) array of rows (t, x, y, z: heliocentric equatorial
+/// positions) or an (n, 3) array (t, north, east: offsets from the Earth's centre projected on
+/// the sky), au.
 pub fn ephemeris(e: &Bound<'_, PyAny>) -> PyResult<Ephemeris> {
     if let Ok(path) = e.extract::<std::path::PathBuf>() {
         return ok(Ephemeris::read(&path));
@@ -38,20 +40,26 @@ pub fn ephemeris(e: &Bound<'_, PyAny>) -> PyResult<Ephemeris> {
     let a: Floats = e.extract().map_err(|_| {
         bad(
             "ephemeris",
-            "must be a CSV path or an (n, 4) array t, x, y, z",
+            "must be a CSV path, an (n, 4) array t, x, y, z or an (n, 3) array t, north, east",
         )
     })?;
     let (v, shape) = values(&a);
-    if shape.len() != 2 || shape[1] != 4 {
-        return Err(bad(
-            "ephemeris",
-            format!("must have shape (n, 4): t, x, y, z; got {shape:?}"),
-        ));
-    }
+    let header =
+        match shape[..] {
+            [_, 4] => "t,x,y,z",
+            [_, 3] => "t,north,east",
+            _ => return Err(bad(
+                "ephemeris",
+                format!(
+                    "must have shape (n, 4) (t, x, y, z) or (n, 3) (t, north, east), got {shape:?}"
+                ),
+            )),
+        };
     // Shortest round-trip text: parsing gives back the same doubles and the library's checks.
-    let mut text = String::from("t,x,y,z\n");
-    for r in v.chunks(4) {
-        writeln!(text, "{:?},{:?},{:?},{:?}", r[0], r[1], r[2], r[3]).unwrap();
+    let mut text = format!("{header}\n");
+    for r in v.chunks(shape[1]) {
+        let row: Vec<String> = r.iter().map(|x| format!("{x:?}")).collect();
+        writeln!(text, "{}", row.join(",")).unwrap();
     }
     ok(Ephemeris::parse(&text, "ephemeris"))
 }
@@ -221,7 +229,8 @@ pub fn earth_position<'py>(py: Python<'py>, jd: Floats) -> PyResult<Array<'py, f
 /// projected motion left after its position and velocity at t0_par are taken out (Gould 2004,
 /// the "Delta s" of the parallax module's documentation), (north, east) in au, at `times`
 /// (days, any shape; JD - 2450000 below 2,400,000), seen from the Earth or from an observatory
-/// (`ephemeris`: a CSV path or an (n, 4) array t, x, y, z in au, heliocentric equatorial).
+/// (`ephemeris`: a CSV path, an (n, 4) array t, x, y, z heliocentric equatorial or an (n, 3)
+/// array t, north, east projected offsets from the Earth; au).
 /// tau = (t - t0)/tE + pi_E . Delta s, beta = u0 + pi_E x Delta s.
 ///
 ///     d = causeway.parallax_offsets(270.0, -30.0, np.linspace(8250, 8350, 50), 8300.0)
@@ -460,7 +469,7 @@ pub fn motion_options(
 /// refined with parallax from both members of the ecliptic pair (u0, alpha, pi_E,N) and
 /// (-u0, -alpha, -pi_E,N), then (with `orbit`) with linear orbital motion, by exact
 /// magnifications on `data` (a list of DataSet; `ephemerides` one per set, None for the Earth,
-/// each a CSV path or an (n, 4) array t, x, y, z). `t0_par` defaults to the best minimum's t0
+/// each as `trajectory` takes it). `t0_par` defaults to the best minimum's t0
 /// rounded to a day. Rows: the model ("s", "q", "alpha", "u0", "t0", "te", "rho", "pi_e_n",
 /// "pi_e_e", "t0_par", "ds_dt", "dalpha_dt", "t0_kep" or None), "model" (its kind), "sigma",
 /// "chi2", "chi2_as_given", "delta_chi2_static" (static chi2 less this one's), "from" (index of

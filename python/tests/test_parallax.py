@@ -138,6 +138,12 @@ def test_a_satellite_sees_its_own_curve():
         uu = np.hypot(x, y)
         np.testing.assert_allclose(a, (uu ** 2 + 2) / (uu * np.sqrt(uu ** 2 + 4)), rtol=2e-4)
     assert np.max(np.abs(space / ground - 1)) > 0.05
+    # The same observatory as offsets from the Earth projected on the sky, (north, east) =
+    # (0, 1 au): the same curve up to the interpolation of the heliocentric table (4e-5 au).
+    offsets = np.column_stack([jd, np.zeros_like(jd), np.ones_like(jd)])
+    projected = causeway.model_magnification(1.0, 1e-6, 8300.0, 0.6, 40.0, 0.0, 0.0, times,
+                                             ephemeris=offsets, **kw)
+    np.testing.assert_allclose(projected, space, rtol=1e-4)
 
 
 def test_motion_stage_recovers_the_parallax_of_a_simulated_event():
