@@ -22,6 +22,7 @@ fn map(n: usize) -> MagnificationMap {
         version: env!("CARGO_PKG_VERSION").into(),
         build_time: "2026-01-01T00:00:00".into(),
         build_seconds: 0.0,
+        certificate: None,
     };
     MagnificationMap {
         window,

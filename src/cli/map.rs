@@ -7,6 +7,7 @@ use crate::engine::{self, Engine};
 use crate::error::{shown, Error, Result};
 use crate::fsutil::{check_outputs, Output};
 use crate::lens::LensSystem;
+use crate::map::certificate::{Certificate, ErrorSummary};
 use crate::map::fits::write_fits;
 use crate::map::render::{render_png, Overlay};
 use crate::map::{MagnificationMap, Window};
@@ -144,7 +145,28 @@ pub fn build_reported(
         p.build_seconds,
         p.rays_shot as f64 / p.build_seconds.max(1e-9)
     ));
+    if let Some(c) = &p.certificate {
+        eprintln!("{}", certificate_line(c));
+    }
     Ok(map)
+}
+
+/// The certificate in one line: the errors of both classes, the skipped pixels, its time.
+pub fn certificate_line(c: &Certificate) -> String {
+    let class = |s: &Option<ErrorSummary>, place: &str| match s {
+        Some(s) => format!(
+            "median {:.2e}, 99th percentile {:.2e} over {} pixels {place} caustics",
+            s.median, s.p99, s.count
+        ),
+        None => format!("no pixel {place} caustics"),
+    };
+    format!(
+        "certificate: relative pixel error {}; {}; {} crossed by a caustic left out ({:.2} s)",
+        class(&c.away, "away from"),
+        class(&c.near, "near"),
+        c.skipped,
+        c.seconds
+    )
 }
 
 /// Writes the FITS file and the optional PNG.

@@ -12,6 +12,7 @@
 
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
+use crate::map::certificate::Certificate;
 use crate::map::{utc_now, MagnificationMap, Provenance, Window};
 use ndarray::Array2;
 
@@ -69,7 +70,8 @@ pub trait Engine: Sync {
     /// Computes the pixel data.
     fn trace(&self, lens: &LensSystem, window: &Window, progress: &dyn Progress) -> Result<Traced>;
 
-    /// Builds a complete map with provenance, reporting progress.
+    /// Builds a complete map with provenance and its accuracy certificate
+    /// ([`Certificate::measure`]), reporting progress.
     fn build_with_progress(
         &self,
         lens: &LensSystem,
@@ -79,6 +81,8 @@ pub trait Engine: Sync {
         let build_time = utc_now();
         let started = std::time::Instant::now();
         let traced = self.trace(lens, window, progress)?;
+        let build_seconds = started.elapsed().as_secs_f64();
+        let certificate = Certificate::measure(lens, window, &traced.data);
         Ok(MagnificationMap {
             window: *window,
             data: traced.data,
@@ -90,7 +94,8 @@ pub trait Engine: Sync {
                 rays_landed: traced.rays_landed,
                 version: env!("CARGO_PKG_VERSION").to_string(),
                 build_time,
-                build_seconds: started.elapsed().as_secs_f64(),
+                build_seconds,
+                certificate,
             },
         })
     }

@@ -32,6 +32,7 @@
 //! that differ only in `DATE`, `BUILDSEC` and `CHECKSUM`.
 
 mod checksum;
+mod table;
 
 use super::{MagnificationMap, Provenance, Window};
 use crate::error::{Error, Result};
@@ -65,6 +66,7 @@ pub const MAX_LENSES: usize = 999;
 ///     version: "0.1.0".into(),
 ///     build_time: "2026-01-02T03:04:05".into(),
 ///     build_seconds: 0.25,
+///     certificate: None,
 /// };
 /// let window = Window::new((0.1, -0.2), 0.5, 4).unwrap();
 /// let data = ndarray::Array2::from_shape_fn((4, 4), |(iy, ix)| 1.0 + (ix + 4 * iy) as f32);
@@ -87,20 +89,30 @@ pub fn read_fits(path: &Path) -> Result<MagnificationMap> {
     decode(&bytes).map_err(|msg| Error::input(format!("{}: {msg}", path.display())))
 }
 
-/// The whole file: header, then data, each padded to whole blocks, then the checksums.
+/// The whole file: the primary HDU (header, then data, each padded to whole blocks, then the
+/// checksums) and, for a certified map, the table of its sample.
 fn encode(map: &MagnificationMap) -> Result<Vec<u8>> {
-    let mut h = map_header(map)?;
+    let mut data = Vec::with_capacity(4 * map.data.len());
+    for v in map.data.iter() {
+        data.extend_from_slice(&v.to_be_bytes());
+    }
+    let mut bytes = hdu_bytes(map_header(map)?, &data)?;
+    if let Some(c) = &map.provenance.certificate {
+        let (header, rows) = table::encode(c)?;
+        bytes.extend(hdu_bytes(header, &rows)?);
+    }
+    Ok(bytes)
+}
+
+/// One HDU: `h` with the checksum cards and END, then `data` padded to whole blocks.
+fn hdu_bytes(mut h: Header, data: &[u8]) -> Result<Vec<u8>> {
     let datasum_at = h.placeholder();
     let checksum_at = h.placeholder();
     let mut bytes = h.finish();
 
     let data_start = bytes.len();
-    let data_len = padded(4 * map.data.len());
-    bytes.reserve(data_len);
-    for v in map.data.iter() {
-        bytes.extend_from_slice(&v.to_be_bytes());
-    }
-    bytes.resize(data_start + data_len, 0);
+    bytes.extend_from_slice(data);
+    bytes.resize(data_start + padded(data.len()), 0);
 
     // The checksum convention: DATASUM first, then CHECKSUM over the whole HDU with
     // CHECKSUM = '0000000000000000', finally replaced by the encoded complement.
@@ -140,6 +152,9 @@ fn map_header(map: &MagnificationMap) -> Result<Header> {
     h.integer("NAXIS", 2, "two-dimensional image");
     h.integer("NAXIS1", n as i64, "pixels along x");
     h.integer("NAXIS2", n as i64, "pixels along y");
+    if p.certificate.is_some() {
+        h.logical("EXTEND", true, "the sample of the certificate follows");
+    }
     h.comment("Mean magnification per pixel; lengths in Einstein radii of the total mass.");
     h.integer("WCSAXES", 2, "two world coordinates: source-plane x and y");
     h.string("CTYPE1", "LINEAR", "source-plane x, Einstein radii")?;
@@ -180,6 +195,9 @@ fn map_header(map: &MagnificationMap) -> Result<Header> {
     h.string("CW_VERS", &p.version, "causeway version")?;
     h.string("DATE", &p.build_time, "build time, UTC")?;
     h.float("BUILDSEC", p.build_seconds, "build duration, seconds")?;
+    if let Some(c) = &p.certificate {
+        table::certificate_cards(&mut h, c)?;
+    }
     Ok(h)
 }
 
@@ -348,7 +366,7 @@ fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
         ));
     };
     verify_checksums(&header, &bytes[..data_end], data_start)?;
-    let provenance = read_provenance(&header)?;
+    let mut provenance = read_provenance(&header)?;
 
     let pixels: Vec<f32> = match fits.get_data(&hdu).pixels() {
         Pixels::F32(it) => it.collect(),
@@ -368,6 +386,9 @@ fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
         ));
     }
     let data = Array2::from_shape_vec((n, n), pixels).map_err(|e| e.to_string())?;
+    if header.0.get("ERRSEED").is_some() {
+        provenance.certificate = Some(table::decode(&header, &mut fits, bytes, data_end, n)?);
+    }
     Ok(MagnificationMap {
         window,
         data,
@@ -434,6 +455,7 @@ fn read_provenance(h: &Keywords) -> std::result::Result<Provenance, String> {
         version: h.string("CW_VERS")?,
         build_time: h.string("DATE")?,
         build_seconds: h.float("BUILDSEC")?,
+        certificate: None,
     })
 }
 
@@ -481,7 +503,7 @@ fn verify_checksums(
 }
 
 /// Typed access to header values, with errors naming the keyword.
-struct Keywords<'a>(&'a fitsrs::hdu::header::Header<fitsrs::hdu::header::extension::image::Image>);
+struct Keywords<'a>(&'a fitsrs::hdu::header::ValueMap);
 
 impl Keywords<'_> {
     fn value(&self, key: &str) -> std::result::Result<&Value, String> {

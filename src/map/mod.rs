@@ -4,6 +4,7 @@
 //! `ndarray::Array2<f32>` indexed `[[iy, ix]]`: the first index runs along y, the second along x,
 //! and `[[0, 0]]` is the lower-left pixel (smallest x and y), the order FITS uses.
 
+pub mod certificate;
 pub mod fits;
 pub mod reference;
 pub mod render;
@@ -140,6 +141,8 @@ pub struct Provenance {
     pub build_time: String,
     /// Wall-clock build duration in seconds.
     pub build_seconds: f64,
+    /// The measured accuracy ([`certificate`]); `None` for maps made without one.
+    pub certificate: Option<certificate::Certificate>,
 }
 
 /// A magnification map: window, pixel data and provenance.

@@ -77,6 +77,7 @@ impl Overlay {
 ///     version: "0".into(),
 ///     build_time: "2026-01-01T00:00:00".into(),
 ///     build_seconds: 0.0,
+///     certificate: None,
 /// };
 /// let map = MagnificationMap { window, data, provenance };
 /// let path = std::env::temp_dir().join(format!("causeway-doc-{}.png", std::process::id()));
@@ -291,6 +292,7 @@ mod tests {
                 version: "0".into(),
                 build_time: "2026-01-01T00:00:00".into(),
                 build_seconds: 0.0,
+                certificate: None,
             },
         }
     }

@@ -30,6 +30,7 @@ fn test_map(lens: LensSystem, pixels: usize) -> MagnificationMap {
         version: "0.1.0".into(),
         build_time: "2026-12-01T19:30:05".into(),
         build_seconds: 0.1 + 0.2,
+        certificate: None,
     };
     MagnificationMap {
         window,
