@@ -5,6 +5,7 @@
 //! Python: `CAUSEWAY_PYTHON`, else `<crate root>/.venv/bin/python`, with astropy installed.
 
 use crate::common::Scratch;
+use causeway::engine::{Engine, PolygonMapping};
 use causeway::lens::LensSystem;
 use causeway::map::{read_fits, write_fits, MagnificationMap, Provenance, Window};
 use std::collections::HashMap;
@@ -371,5 +372,68 @@ fn astropy_agrees_with_the_checksum_encoding_of_many_files() {
     let refs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
     for (k, sums) in astropy_sums(&refs).into_iter().enumerate() {
         assert_eq!(sums, ("1".into(), "1".into()), "map{k}.fits");
+    }
+}
+
+// ---- the accuracy certificate ---------------------------------------------------------------
+
+#[test]
+fn the_certificate_matches_an_independent_numpy_recomputation() {
+    // A polygon map zoomed on the central caustic of s = 0.9, q = 1e-3, written and read back;
+    // tests/python/certificate_check.py recomputes every sampled pixel's reference with numpy
+    // (companion-matrix roots of the binary-lens quintic, Witt & Mao 1995; other quadrature
+    // rules) and the median and 99th percentile with numpy's own median and percentile.
+    let dir = Scratch::new("certificate");
+    let path = dir.join("zoom.fits");
+    let lens = LensSystem::binary(0.9, 1e-3).unwrap();
+    let window = Window::new((-0.01, 0.0), 0.06, 120).unwrap();
+    let map = PolygonMapping::new(1.0).build(&lens, &window).unwrap();
+    write_fits(&map, &path).unwrap();
+    let back = read_fits(&path).unwrap();
+    assert_eq!(back.provenance.certificate, map.provenance.certificate);
+    let c = map.provenance.certificate.as_ref().unwrap();
+    assert!(c.near.is_some_and(|s| s.count >= 5), "{:?}", c.near);
+
+    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/certificate_check.py");
+    let out = Command::new(python())
+        .arg(script)
+        .arg(&path)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    let records: Vec<Vec<&str>> = text.lines().map(|l| l.split(',').collect()).collect();
+    let find = |kind: &str, class: &str| {
+        records
+            .iter()
+            .find(|r| r[0] == kind && r[1] == class)
+            .unwrap_or_else(|| panic!("no {kind},{class} in {text}"))
+            .clone()
+    };
+    // astropy: both HDUs verify, with their checksums.
+    for hdu in ["0", "1"] {
+        assert_eq!(find("checksum", hdu)[2..], ["1", "1"]);
+    }
+    for (class, largest_ref_gap) in [("away", 1e-6), ("near", 5e-5)] {
+        let gap: f64 = find("reference", class)[2].parse().unwrap();
+        assert!(
+            gap < largest_ref_gap,
+            "{class}: references differ by {gap:e}"
+        );
+        let stated = find("stated", class);
+        let numpy = find("numpy", class);
+        assert_eq!(stated[2], numpy[2], "{class}: counts");
+        for k in [3, 4] {
+            let (a, b): (f64, f64) = (stated[k].parse().unwrap(), numpy[k].parse().unwrap());
+            // The errors move by at most the references' gap.
+            assert!(
+                (a - b).abs() <= 2.0 * largest_ref_gap,
+                "{class}: {a:e} vs numpy {b:e}"
+            );
+        }
     }
 }
