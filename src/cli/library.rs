@@ -1,5 +1,6 @@
 //! `causeway library`: grid builds into the map store, and its upkeep.
 
+use super::map::certificate_line;
 use super::progress::Reporter;
 use super::ThreadArgs;
 use crate::error::{Error, Result};
@@ -377,6 +378,15 @@ fn list(store: &Store, point: Option<(f64, f64)>, nearest: usize) -> Result<()> 
 /// `library verify`: every problem on stdout; fails when there is any.
 fn verify(store: &Store) -> Result<()> {
     let report = store.verify()?;
+    for (path, c) in &report.certificates {
+        match c {
+            Some(c) => println!("{}: {}", path.display(), certificate_line(c)),
+            None => println!(
+                "{}: no accuracy certificate (built before certificates)",
+                path.display()
+            ),
+        }
+    }
     for p in &report.problems {
         println!("{}: {}", p.path.display(), p.reason);
     }

@@ -8,6 +8,7 @@ use super::claim::{ClaimInfo, ClaimPolicy};
 use super::layout::{is_claim_name, is_map_name, is_temporary_name};
 use super::{check_key, file_name, index, Entry, Store};
 use crate::error::{Error, Result};
+use crate::map::certificate::Certificate;
 use crate::map::fits::read_fits;
 use crate::map::MagnificationMap;
 use std::collections::HashSet;
@@ -37,6 +38,8 @@ pub struct Verification {
     /// Claims of builders on maps (live ones while builds run; stale ones a killed build
     /// left, which the next build takes over and prune removes).
     pub claims: Vec<ClaimInfo>,
+    /// The accuracy certificate of every complete indexed map (`None`: built without one).
+    pub certificates: Vec<(PathBuf, Option<Certificate>)>,
 }
 
 /// What [`Store::prune`] removed, adopted and unlisted (or, on a dry run, would have).
@@ -62,7 +65,8 @@ enum Found {
 
 impl Store {
     /// Checks every indexed map (present, checksums, header matching its key and its file
-    /// name) and every map file the index does not list.
+    /// name) and every map file the index does not list; collects the indexed maps'
+    /// accuracy certificates.
     ///
     /// ```
     /// # use causeway::engine::{Engine, RayShooting};
@@ -90,7 +94,9 @@ impl Store {
                     reason: "listed in the index but missing".into(),
                 }),
                 Found::Damaged(reason) => report.problems.push(Problem { path, reason }),
-                Found::Complete(_) => {}
+                Found::Complete(map) => {
+                    report.certificates.push((path, map.provenance.certificate))
+                }
             }
         }
         self.check_unlisted(&entries, &mut report)?;
