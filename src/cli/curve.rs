@@ -4,8 +4,8 @@ use super::library::StoreArgs;
 use super::map::{build_reported, default_memory_limit, parse_size};
 use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::curve::{
-    plan_window, plot_png, read_times, time_range, Evaluation, PointMagnification, Sampler,
-    SourcePath, StraightLine,
+    map_engine, plan_window, plot_png, read_times, time_range, Evaluation, PointMagnification,
+    Sampler, SourcePath, StraightLine,
 };
 use crate::engine::RayShooting;
 use crate::error::{Error, Result};
@@ -69,14 +69,10 @@ pub struct CurveArgs {
         allow_hyphen_values = true
     )]
     pub pixels_per_rho: f64,
-    /// With a lens: rays per unlensed pixel area of the map built.
-    #[arg(
-        long,
-        default_value_t = 400.0,
-        value_name = "R",
-        allow_hyphen_values = true
-    )]
-    pub rays: f64,
+    /// With a lens: rays per unlensed pixel area of the map built (ray shooting); without it
+    /// the engine and density aim at a median pixel error of --tol (src/engine/accuracy.rs).
+    #[arg(long, value_name = "R", allow_hyphen_values = true)]
+    pub rays: Option<f64>,
     /// Largest working memory allowed, e.g. 4G (default: half the RAM).
     #[arg(long, value_name = "SIZE", value_parser = parse_size)]
     pub max_memory: Option<u64>,
@@ -306,7 +302,9 @@ pub fn run(args: CurveArgs) -> Result<()> {
     let png = args.png.as_deref().map(|p| Output::png("--png", p));
     check_outputs(png.as_slice())?;
     // Checked whether or not a map is built, so that a slip is never silently ignored.
-    RayShooting::try_new(args.rays)?;
+    if let Some(rays) = args.rays {
+        RayShooting::try_new(rays)?;
+    }
     if !(args.pixels_per_rho > 0.0 && args.pixels_per_rho <= 1e4) {
         return Err(Error::input(format!(
             "--pixels-per-rho: must be > 0 and at most 1e4, got {}",
@@ -430,9 +428,9 @@ fn needed_map(
     let Some(window) = plan_window(point, profile, points, args.tol, args.pixels_per_rho)? else {
         return Ok(None);
     };
-    let engine = RayShooting::try_new(args.rays)?;
+    let engine = map_engine(lens, &window, args.rays, args.tol)?;
     let store = args.store.create()?;
-    let key = MapKey::new(lens.clone(), window, "rays", args.rays);
+    let key = MapKey::new(lens.clone(), window, engine.name(), engine.density());
     if let Some(map) = store.get(&key)? {
         eprintln!("using stored map {}", store.path_of(&key).display());
         return Ok(Some(map));
@@ -441,7 +439,7 @@ fn needed_map(
         "building a map: {0} x {0} pixels over {1} centred on ({2}, {3})",
         window.pixels, window.width, window.center.0, window.center.1
     );
-    let map = build_reported(&engine, lens, &window, limit)?;
+    let map = build_reported(engine.as_ref(), lens, &window, limit)?;
     let file = store.put(&map)?;
     eprintln!("stored {}", file.display());
     Ok(Some(map))

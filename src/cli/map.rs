@@ -3,6 +3,7 @@
 use super::progress::{EngineStage, Reporter};
 use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::caustics::caustic_curves;
+use crate::engine::accuracy::{engine_for, DEFAULT_ACCURACY};
 use crate::engine::{self, Engine};
 use crate::error::{shown, Error, Result};
 use crate::fsutil::{check_outputs, Output};
@@ -21,7 +22,8 @@ use std::path::{Path, PathBuf};
     allow_negative_numbers = true,
     after_help = "Examples:\n  \
         causeway map --s 1.25 --q 2e-3 --center 0.447,0 --width 0.05 --pixels 500 --out zoom.fits --png zoom.png\n  \
-        causeway map --lenses triple.csv --center 0,0 --width 3 --pixels 1000 --rays 400 --out triple.fits"
+        causeway map --s 0.9 --q 1e-4 --center 0,0 --width 0.01 --pixels 1000 --accuracy 1e-4 --out central.fits\n  \
+        causeway map --lenses triple.csv --center 0,0 --width 3 --pixels 1000 --engine rays --rays 400 --out triple.fits"
 )]
 pub struct MapArgs {
     #[command(flatten)]
@@ -41,20 +43,23 @@ pub struct MapArgs {
     /// Also draw a PNG picture.
     #[arg(long, value_name = "FILE.png")]
     pub png: Option<PathBuf>,
-    /// Rays per unlensed pixel area (image-plane cells per pixel area with --engine polygon).
+    /// Rays per unlensed pixel area (image-plane cells per pixel area with --engine polygon);
+    /// without it the density comes from --accuracy.
+    #[arg(long, value_name = "R", allow_hyphen_values = true)]
+    pub rays: Option<f64>,
+    /// Map engine: rays (inverse ray shooting) or polygon (inverse polygon mapping); default
+    /// polygon, or rays when --rays is given.
+    #[arg(long, value_name = "E")]
+    pub engine: Option<String>,
+    /// Median relative pixel error to aim for when --rays is not given: sets the engine's
+    /// density by the rule fitted to the engine study (src/engine/accuracy.rs). The map's
+    /// header then certifies the error actually measured. [default: 1e-3]
     #[arg(
         long,
-        default_value_t = 100.0,
-        value_name = "R",
+        value_name = "E",
+        conflicts_with = "rays",
         allow_hyphen_values = true
     )]
-    pub rays: f64,
-    /// Map engine: rays (inverse ray shooting) or polygon (inverse polygon mapping).
-    #[arg(long, default_value = "rays", value_name = "E")]
-    pub engine: String,
-    /// Choose engine and density for this median relative pixel error (e.g. 1e-3), by the rule
-    /// fitted to the engine study (src/engine/accuracy.rs).
-    #[arg(long, value_name = "E", conflicts_with_all = ["rays", "engine"])]
     pub accuracy: Option<f64>,
     /// Largest working memory allowed, e.g. 4G, 512M or a byte count (default: half the RAM).
     #[arg(long, value_name = "SIZE", value_parser = parse_size)]
@@ -107,14 +112,28 @@ pub fn run(args: MapArgs) -> Result<()> {
     args.threads.install()?;
     let lens = args.lens.lens_system()?;
     let window = Window::new(args.center, args.width, args.pixels)?;
-    let engine = match args.accuracy {
-        Some(target) => {
-            let (name, density) = engine::accuracy::choose(&lens, &window, target)?;
-            eprintln!("--accuracy {target}: engine {name}, density {density:.4}");
-            engine::by_name(name, density)?
-        }
-        None => engine::by_name(&args.engine, args.rays)?,
-    };
+    let target = args.accuracy.unwrap_or(DEFAULT_ACCURACY);
+    let (engine, reach) = engine_for(
+        args.engine.as_deref(),
+        args.rays,
+        &lens,
+        &window,
+        target,
+        args.accuracy.is_some(),
+    )?;
+    if args.rays.is_none() {
+        eprintln!(
+            "--accuracy {target:e}: engine {}, density {:.4}",
+            engine.name(),
+            engine.density()
+        );
+    }
+    if let Some(reach) = reach {
+        eprintln!(
+            "warning: --accuracy {target:e} is out of reach at this pixel size; the finest \
+             density aims at about {reach:.1e} (use more --pixels for less)"
+        );
+    }
     let limit = args.max_memory.unwrap_or_else(default_memory_limit);
     let map = build_reported(engine.as_ref(), &lens, &window, limit)?;
     write_outputs(&map, &args.out, args.png.as_deref())
@@ -128,8 +147,13 @@ pub fn build_reported(
     memory_limit: u64,
 ) -> Result<MagnificationMap> {
     engine::check_memory(engine, lens, window, memory_limit).map_err(|need| {
+        let instead = match engine::fitting_pixels(engine, lens, window, memory_limit) {
+            Some(p) => format!("--pixels {p} would fit, or raise --max-memory"),
+            None => "raise --max-memory".into(),
+        };
         Error::input(format!(
-            "--pixels {}: the build needs about {}, more than the allowed {} (--max-memory)",
+            "--pixels {}: the build needs about {}, more than the allowed {} (--max-memory); \
+             {instead}",
             window.pixels,
             engine::gib(need),
             engine::gib(memory_limit)

@@ -53,7 +53,7 @@ pub use continuation::{small_source, Expansion, PointMagnification};
 #[doc(hidden)]
 pub use convolve::Route;
 pub use convolve::{MapSpectrum, Preconvolved, DIRECT_MARGIN};
-pub use plan::{plan_window, POINT_SOURCE_PIXELS};
+pub use plan::{map_engine, plan_window, POINT_SOURCE_PIXELS};
 pub use plot::plot_png;
 pub use sample::{ld_nodes, point_read, DirectReader};
 pub use trajectory::{parse_times, read_times, time_range, SourcePath, StraightLine, MAX_TIMES};

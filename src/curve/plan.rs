@@ -2,7 +2,10 @@
 //! serve (near caustics), at a resolution set by the source size.
 
 use super::{small_source, PointMagnification, MIN_RHO_PIXELS};
+use crate::engine::accuracy::engine_for;
+use crate::engine::Engine;
 use crate::error::{Error, Result};
+use crate::lens::LensSystem;
 use crate::map::Window;
 use crate::source::SourceProfile;
 use rayon::prelude::*;
@@ -80,4 +83,25 @@ pub fn plan_window(
         pixels,
     )?;
     Ok(Some(window))
+}
+
+/// The engine of the map a curve builds for itself: ray shooting at `rays` per pixel when
+/// given, else the engine and density [`crate::engine::accuracy::engine_for`] picks for a
+/// median pixel error of `target` (the finest polygon density where that is out of reach).
+///
+/// ```
+/// use causeway::{curve::map_engine, lens::LensSystem, map::Window};
+/// let lens = LensSystem::binary(1.25, 2e-3).unwrap();
+/// let window = Window::new((0.45, 0.0), 0.05, 500).unwrap();
+/// assert_eq!(map_engine(&lens, &window, None, 1e-3).unwrap().name(), "polygon");
+/// assert_eq!(map_engine(&lens, &window, Some(400.0), 1e-3).unwrap().name(), "rays");
+/// ```
+pub fn map_engine(
+    lens: &LensSystem,
+    window: &Window,
+    rays: Option<f64>,
+    target: f64,
+) -> Result<Box<dyn Engine>> {
+    let (engine, _) = engine_for(None, rays, lens, window, target, false)?;
+    Ok(engine)
 }

@@ -30,7 +30,7 @@ pub const POLYGON_K: f64 = 1.1;
 pub const POLYGON_POWER: f64 = 1.5;
 
 /// The most polygon cells per pixel [`choose`] asks for.
-const MAX_CELLS: f64 = 256.0;
+pub const MAX_CELLS: f64 = 256.0;
 
 /// Engine name and density aimed at a median pixel error `target` (relative).
 ///
@@ -43,11 +43,79 @@ const MAX_CELLS: f64 = 256.0;
 /// assert!(cells > 0.25 && cells < 4.0);
 /// ```
 pub fn choose(lens: &LensSystem, window: &Window, target: f64) -> Result<(&'static str, f64)> {
-    if !(target.is_finite() && target > 0.0 && target < 1.0) {
+    check_target(target)?;
+    let (cells, finest) = polygon_cells(lens, window, target);
+    if cells > MAX_CELLS {
         return Err(Error::input(format!(
-            "--accuracy: must be between 0 and 1, got {target}"
+            "--accuracy {target:e}: out of reach at this pixel size (the finest is about \
+             {finest:.1e} with {MAX_CELLS} cells per pixel; ask for less, or use more --pixels)"
         )));
     }
+    Ok(("polygon", cells.max(1.0 / 16.0)))
+}
+
+/// Refuses a target outside (0, 1).
+fn check_target(target: f64) -> Result<()> {
+    if target.is_finite() && target > 0.0 && target < 1.0 {
+        return Ok(());
+    }
+    Err(Error::input(format!(
+        "--accuracy: must be between 0 and 1, got {target}"
+    )))
+}
+
+/// The default `--accuracy` of every command that builds maps: a median relative pixel
+/// error of 1e-3.
+pub const DEFAULT_ACCURACY: f64 = 1e-3;
+
+/// The engine for a build: `name` at `density` when the density is given (ray shooting when
+/// the name is not), else `name` (default polygon mapping) at the density the rule gives for
+/// `target`. Where polygon mapping cannot reach `target` at this
+/// pixel size the finest density ([`MAX_CELLS`] cells per pixel) is taken when `strict` is
+/// false, and the second value holds the error the rule expects there; with `strict` that is
+/// the error of [`choose`].
+///
+/// ```
+/// use causeway::{engine::accuracy::engine_for, lens::LensSystem, map::Window};
+/// let lens = LensSystem::binary(1.0, 1e-3).unwrap();
+/// let coarse = Window::new((0.0, 0.0), 4.0, 8).unwrap();
+/// let (engine, reach) = engine_for(None, None, &lens, &coarse, 1e-3, false).unwrap();
+/// assert_eq!((engine.name(), engine.density()), ("polygon", 256.0));
+/// assert!(reach.unwrap() > 1e-3);
+/// assert!(engine_for(None, None, &lens, &coarse, 1e-3, true).is_err());
+/// let (rays, _) = engine_for(Some("rays"), None, &lens, &coarse, 1e-3, true).unwrap();
+/// assert!(rays.density() > 1000.0);
+/// ```
+pub fn engine_for(
+    name: Option<&str>,
+    density: Option<f64>,
+    lens: &LensSystem,
+    window: &Window,
+    target: f64,
+    strict: bool,
+) -> Result<(Box<dyn super::Engine>, Option<f64>)> {
+    if let Some(density) = density {
+        return Ok((super::by_name(name.unwrap_or("rays"), density)?, None));
+    }
+    let name = name.unwrap_or("polygon");
+    check_target(target)?;
+    if name == "rays" {
+        return Ok((super::by_name(name, rays_for(target))?, None));
+    }
+    super::by_name(name, 1.0)?; // checks the name
+    let (cells, finest) = polygon_cells(lens, window, target);
+    if cells <= MAX_CELLS {
+        return Ok((super::by_name(name, cells.max(1.0 / 16.0))?, None));
+    }
+    if strict {
+        choose(lens, window, target)?;
+    }
+    Ok((super::by_name(name, MAX_CELLS)?, Some(finest)))
+}
+
+/// Polygon cells per pixel for `target` (unclamped), and the error the rule expects at
+/// [`MAX_CELLS`].
+fn polygon_cells(lens: &LensSystem, window: &Window, target: f64) -> (f64, f64) {
     let m_min = lens
         .lenses()
         .iter()
@@ -55,16 +123,11 @@ pub fn choose(lens: &LensSystem, window: &Window, target: f64) -> Result<(&'stat
         .fold(f64::INFINITY, f64::min);
     let scale = (window.width / 4.0).clamp(m_min.sqrt(), 1.0);
     let h = scale * (target / POLYGON_K).powf(1.0 / POLYGON_POWER);
-    let cells = (window.pixel_size() / h).powi(2);
-    if cells > MAX_CELLS {
-        let finest = window.pixel_size() / MAX_CELLS.sqrt() / scale;
-        return Err(Error::input(format!(
-            "--accuracy {target:e}: out of reach at this pixel size (the finest is about {:.1e} \
-             with {MAX_CELLS} cells per pixel; ask for less, or use more --pixels)",
-            POLYGON_K * finest.powf(POLYGON_POWER)
-        )));
-    }
-    Ok(("polygon", cells.max(1.0 / 16.0)))
+    let finest = window.pixel_size() / MAX_CELLS.sqrt() / scale;
+    (
+        (window.pixel_size() / h).powi(2),
+        POLYGON_K * finest.powf(POLYGON_POWER),
+    )
 }
 
 /// Rays per pixel that ray shooting needs for a median pixel error `target`, by the study's

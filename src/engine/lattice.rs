@@ -176,13 +176,13 @@ impl Lattice {
         Some(hits(sy) || (self.mirror && hits(-sy)))
     }
 
-    /// Collects the leaves of `block` that may reach the window.
-    fn refine(&self, block: Block, leaves: &mut Vec<Block>) {
+    /// Passes the leaves of `block` that may reach the window to `keep`.
+    fn refine(&self, block: Block, keep: &mut impl FnMut(Block)) {
         if self.may_reach(&block) == Some(false) {
             return;
         }
         if block.side <= LEAF {
-            leaves.push(block);
+            keep(block);
             return;
         }
         let half = block.side / 2;
@@ -192,12 +192,43 @@ impl Lattice {
                 j0: block.j0 + dj,
                 side: half,
             };
-            self.refine(child, leaves);
+            self.refine(child, keep);
         }
     }
 
     /// The leaves that may reach the window, in a fixed order.
     pub fn leaves(&self) -> Vec<Block> {
+        self.tops()
+            .par_iter()
+            .flat_map_iter(|&b| {
+                let mut leaves = Vec::new();
+                self.refine(b, &mut |leaf| leaves.push(leaf));
+                leaves
+            })
+            .collect()
+    }
+
+    /// How many leaves [`Lattice::leaves`] returns, without holding them: the bytes of the
+    /// leaf list an engine's memory estimate needs (a small window's pre-image holds a tiny
+    /// fraction of the shooting region's leaves).
+    pub fn leaf_count(&self) -> u64 {
+        self.tops()
+            .par_iter()
+            .map(|&b| {
+                let mut count = 0u64;
+                self.refine(b, &mut |_| count += 1);
+                count
+            })
+            .sum()
+    }
+
+    /// Peak bytes of the leaf list: the list, and the per-block lists it is gathered from.
+    pub fn leaf_bytes(&self) -> u64 {
+        2 * self.leaf_count() * std::mem::size_of::<Block>() as u64
+    }
+
+    /// The top-level blocks covering the shooting region.
+    fn tops(&self) -> Vec<Block> {
         let half_cells = (self.radius / self.spacing).ceil() as i64 + 1;
         // Top-level blocks: a power-of-two multiple of the leaf, at most ~64 across the region.
         let mut top = LEAF;
@@ -216,13 +247,7 @@ impl Lattice {
                 });
             }
         }
-        tops.par_iter()
-            .flat_map_iter(|&b| {
-                let mut leaves = Vec::new();
-                self.refine(b, &mut leaves);
-                leaves
-            })
-            .collect()
+        tops
     }
 }
 

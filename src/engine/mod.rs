@@ -158,9 +158,55 @@ pub fn check_memory(
     }
 }
 
-/// A byte count in GiB for messages, e.g. `74.5 GiB`.
+/// A byte count for messages: `74.5 GiB`, or `210 MiB` below one GiB.
+///
+/// ```
+/// assert_eq!(causeway::engine::gib(3 << 29), "1.5 GiB");
+/// assert_eq!(causeway::engine::gib(30 << 20), "30 MiB");
+/// ```
 pub fn gib(bytes: u64) -> String {
+    if bytes < 1 << 30 {
+        return format!("{:.0} MiB", bytes as f64 / (1u64 << 20) as f64);
+    }
     format!("{:.1} GiB", bytes as f64 / (1u64 << 30) as f64)
+}
+
+/// The most pixels per side (same centre and width) that `engine` can build within `limit`
+/// bytes, if any: what a refused build can suggest instead.
+///
+/// ```
+/// use causeway::{engine, lens::LensSystem, map::Window};
+/// let rays = engine::by_name("rays", 100.0).unwrap();
+/// let lens = LensSystem::binary(1.0, 1e-3).unwrap();
+/// let window = Window::new((0.0, 0.0), 2.0, 4000).unwrap();
+/// let fits = engine::fitting_pixels(rays.as_ref(), &lens, &window, 64 << 20).unwrap();
+/// assert!(fits < 4000);
+/// let smaller = Window::new((0.0, 0.0), 2.0, fits).unwrap();
+/// assert!(engine::check_memory(rays.as_ref(), &lens, &smaller, 64 << 20).is_ok());
+/// ```
+pub fn fitting_pixels(
+    engine: &dyn Engine,
+    lens: &LensSystem,
+    window: &Window,
+    limit: u64,
+) -> Option<usize> {
+    let fits = |pixels: usize| {
+        Window::new(window.center, window.width, pixels)
+            .is_ok_and(|w| check_memory(engine, lens, &w, limit).is_ok())
+    };
+    if !fits(1) {
+        return None;
+    }
+    let (mut lo, mut hi) = (1, window.pixels);
+    while hi - lo > 1 {
+        let mid = lo + (hi - lo) / 2;
+        if fits(mid) {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    Some(lo)
 }
 
 /// The default working-memory limit of a build: half the machine's memory (from

@@ -27,7 +27,7 @@
 //! row differences, so sums are exact integers and the map is bit-identical for any thread
 //! count. Counts: `rays_shot` is the lattice cells mapped, `rays_landed` the cells and split
 //! cells that added area inside the window. Peak memory: `8 n (n + 1)` bytes per thread plus
-//! `4 n^2` for the output, plus 16 bytes per surviving leaf.
+//! `4 n^2` for the output, plus 48 bytes per surviving leaf (the list and the lists it is gathered from).
 
 use super::coverage::{merge, Coverage, Point};
 use super::lattice::{for_each_leaf, leaf_cells, Block, Lattice, LEAF};
@@ -286,8 +286,7 @@ impl Engine for PolygonMapping {
         let npix = window.pixel_count() as u64;
         let threads = rayon::current_num_threads() as u64;
         let lattice = Lattice::new(lens, window, self.spacing(window));
-        let leaves = (lattice.region_cells() / (LEAF * LEAF) as f64).min(1e12) as u64;
-        npix * (8 * threads + 4) + 8 * window.pixels as u64 * threads + 16 * leaves
+        npix * (8 * threads + 4) + 8 * window.pixels as u64 * threads + lattice.leaf_bytes()
     }
 
     fn trace(&self, lens: &LensSystem, window: &Window, progress: &dyn Progress) -> Result<Traced> {

@@ -10,7 +10,7 @@
 //! Leaves of 64 x 64 rays are traced in rows of 64 (a structure-of-arrays loop; an AVX2 build of
 //! the same loop is chosen at run time where the CPU has it). Hits go to a private `u32`
 //! histogram per worker. Peak memory: `4 n^2` bytes per thread plus `12 n^2` for the merge and
-//! output, plus 16 bytes per surviving leaf.
+//! output, plus 48 bytes per surviving leaf (the list and the lists it is gathered from).
 
 use super::lattice::{for_each_leaf, has_avx2, leaf_cells, merge, Block, Lattice, Tally, LEAF};
 use super::{Engine, Progress, Traced};
@@ -132,8 +132,7 @@ impl Engine for RayShooting {
         let npix = window.pixel_count() as u64;
         let threads = rayon::current_num_threads() as u64;
         let lattice = Lattice::new(lens, window, self.spacing(window));
-        let leaves = (lattice.region_cells() / (LEAF * LEAF) as f64).min(1e12) as u64;
-        npix * (4 * threads + 12) + 16 * leaves
+        npix * (4 * threads + 12) + lattice.leaf_bytes()
     }
 
     fn trace(&self, lens: &LensSystem, window: &Window, progress: &dyn Progress) -> Result<Traced> {
