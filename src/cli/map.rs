@@ -121,6 +121,9 @@ pub fn run(args: MapArgs) -> Result<()> {
         target,
         args.accuracy.is_some(),
     )?;
+    let limit = args.max_memory.unwrap_or_else(default_memory_limit);
+    let map = build_reported(engine.as_ref(), &lens, &window, limit)?;
+    // Said after the build, so that a refused build says one line.
     if args.rays.is_none() {
         eprintln!(
             "--accuracy {target:e}: engine {}, density {:.4}",
@@ -134,8 +137,6 @@ pub fn run(args: MapArgs) -> Result<()> {
              density aims at about {reach:.1e} (use more --pixels for less)"
         );
     }
-    let limit = args.max_memory.unwrap_or_else(default_memory_limit);
-    let map = build_reported(engine.as_ref(), &lens, &window, limit)?;
     write_outputs(&map, &args.out, args.png.as_deref())
 }
 
