@@ -4,12 +4,15 @@
 //! in one run. Before timing, the bench
 //! measures both maps' median error on 2000 pixels away from caustics against the exact
 //! point-source pixel means (8 x 8 Gauss-Legendre through the image solver) and prints them.
+//! The engines' own work is timed (`Engine::trace`); the accuracy certificate every build adds
+//! (`map::certificate`) is timed apart on the polygon map.
 //!
 //! Run: `cargo bench --bench engines`
 
 use causeway::engine::accuracy::{choose, rays_for};
 use causeway::engine::by_name;
 use causeway::lens::LensSystem;
+use causeway::map::certificate::Certificate;
 use causeway::map::reference::{sample_pixels, smooth_pixel_mean};
 use causeway::map::{MagnificationMap, Window};
 use causeway::solve::ImageSolver;
@@ -64,10 +67,18 @@ fn bench(c: &mut Criterion) {
     let rays = rays.unwrap();
     let mut group = c.benchmark_group("binary_1000px_error_1e-3");
     group.sample_size(10);
+    // The engines' own work (`trace`); the certificate every build adds is timed apart, on
+    // the polygon map, as a fraction of that build.
     group.bench_function("polygon", |b| {
-        b.iter(|| polygon.build(&lens, &window).unwrap())
+        b.iter(|| polygon.trace(&lens, &window, &()).unwrap())
     });
-    group.bench_function("rays", |b| b.iter(|| rays.build(&lens, &window).unwrap()));
+    group.bench_function("rays", |b| {
+        b.iter(|| rays.trace(&lens, &window, &()).unwrap())
+    });
+    let data = polygon.trace(&lens, &window, &()).unwrap().data;
+    group.bench_function("certificate", |b| {
+        b.iter(|| Certificate::measure(&lens, &window, &data).unwrap())
+    });
     group.finish();
 }
 

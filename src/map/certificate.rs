@@ -20,8 +20,8 @@
 //!   included (rules alone can agree by chance with a cusp tip in a corner), the 8 x 8 value,
 //!   and the pixel counts as *away* from caustics;
 //! - otherwise the pixel counts as *near* a caustic, and the pixel is cut into 4 x 4 (then, if
-//!   needed, 8 x 8) sub-squares, each integrated by both rules; the 8 x 8 sum is taken when the
-//!   two sums agree to [`NEAR_TOLERANCE`]. This sub-pixel quadrature stands in for the contour
+//!   needed, 8 x 8) sub-squares, each integrated by the 3 x 3 and 6 x 6 rules; the 6 x 6 sum is
+//!   taken when the two sums agree to [`NEAR_TOLERANCE`]. This sub-pixel quadrature stands in for the contour
 //!   integral of the pixel's square: it converges wherever the magnification is smooth over
 //!   every sub-square, which holds beside a caustic but not on it.
 //! - A pixel a caustic crosses (neither sub-division converges) has no reference; it is counted
@@ -29,7 +29,7 @@
 //!   caustics, not on the caustic lines themselves, where a pixel mean has an inverse
 //!   square-root singularity inside it.
 //!
-//! Cost: about 170 point-source solves a pixel away from caustics and up to 6,400 near them,
+//! Cost: about 170 point-source solves a pixel away from caustics and up to 3,600 near them,
 //! spread over the threads; deterministic for any thread count (results are collected in
 //! sample order).
 
@@ -48,7 +48,7 @@ pub const SEED: u64 = 15;
 /// Pixels drawn uniformly over the window.
 pub const AWAY_SAMPLE: usize = 200;
 /// Pixels drawn beside the caustics.
-pub const NEAR_SAMPLE: usize = 100;
+pub const NEAR_SAMPLE: usize = 40;
 /// Relative agreement of the two sub-pixel rules that makes a near-caustic reference.
 pub const NEAR_TOLERANCE: f64 = 1e-5;
 
@@ -325,7 +325,7 @@ fn reference(
         }
     }
     for k in [4, 8] {
-        let (coarse, fine) = (split(solver, k, 4)?, split(solver, k, 8)?);
+        let (coarse, fine) = (split(solver, k, 3)?, split(solver, k, 6)?);
         let gap = (fine - coarse).abs() / fine;
         if gap <= NEAR_TOLERANCE {
             return Some((true, fine));

@@ -27,9 +27,10 @@
 //! | `DATE` | string | build time, UTC, `YYYY-MM-DDThh:mm:ss` (FITS `DATE` convention) |
 //! | `BUILDSEC` | float | wall-clock build duration, seconds |
 //! | `DATASUM`, `CHECKSUM` | standard | FITS checksum convention: data sum as a decimal string, and the encoded HDU checksum |
+//! | `EXTEND`, `ERR*` | | a certified map: the accuracy certificate's cards, and its sample as a table extension (`fits/table.rs`) |
 //!
 //! Writing is deterministic: two maps that differ only in build time and duration give files
-//! that differ only in `DATE`, `BUILDSEC` and `CHECKSUM`.
+//! that differ only in `DATE`, `BUILDSEC`, `ERRSEC` and the `CHECKSUM`s.
 
 mod checksum;
 mod table;
@@ -276,14 +277,22 @@ impl Header {
 }
 
 /// A value card `KEY     = value / comment`, the value field padded to byte 30 as in the fixed
-/// format (so astropy, re-rendering a card to verify CHECKSUM, lays it out the same way); the
-/// comment is cut to fit the 80 bytes.
+/// format (so astropy, re-rendering a card to verify CHECKSUM, lays it out the same way); a
+/// comment too long is cut at a word boundary to fit the 80 bytes.
 fn card_text(key: &str, value: &str, comment: &str) -> [u8; CARD] {
     debug_assert!(key.len() <= 8 && value.len() <= CARD - 10);
     let mut text = format!("{key:<8}= {value:<20}");
     if !comment.is_empty() && text.len() + 3 < CARD {
         text.push_str(" / ");
-        text.push_str(comment);
+        // A comment too long for the card is cut after its last whole word that fits.
+        let room = CARD - text.len();
+        let cut = match comment.len() <= room {
+            true => comment,
+            false => comment[..=room]
+                .rsplit_once(' ')
+                .map_or("", |(head, _)| head),
+        };
+        text.push_str(cut.trim_end());
     }
     let mut card = [b' '; CARD];
     let n = text.len().min(CARD);
@@ -579,6 +588,9 @@ mod tests {
         assert_eq!(&text[..10], "NAXIS1  = ");
         assert_eq!(&text[27..30], "256");
         assert_eq!(&text[30..33], " / ");
+        let long = card_text("ERRMED_A", &format!("{:>20}", 1), &"word ".repeat(20));
+        let text = std::str::from_utf8(&long).unwrap();
+        assert!(text.trim_end().ends_with("word"), "{text}");
         assert_eq!(quoted("rays").unwrap(), "'rays    '");
         assert_eq!(quoted("it's").unwrap(), "'it''s   '");
         assert!(quoted("tab\there").is_err());
