@@ -129,38 +129,41 @@ impl Certificate {
                 })
             })
             .collect();
-        let errors = |near: bool| -> Vec<f64> {
-            pixels
-                .iter()
-                .filter(|p| p.near == near)
-                .map(|p| relative_error(data[[p.iy, p.ix]], p.reference))
-                .collect()
-        };
+        let (away, near) = summaries(&pixels, data)?;
         Some(Certificate {
             seed: SEED,
-            away: ErrorSummary::of(errors(false)),
-            near: ErrorSummary::of(errors(true)),
+            away,
+            near,
             skipped: candidates.len() - pixels.len(),
             seconds: started.elapsed().as_secs_f64(),
             pixels,
         })
     }
 
-    /// The summaries recomputed from the pixels and `data` (for a certificate read from a file,
-    /// whose stated numbers this should reproduce).
-    pub fn recomputed(&self, data: &Array2<f32>) -> (Option<ErrorSummary>, Option<ErrorSummary>) {
-        let errors = |near: bool| -> Vec<f64> {
-            self.pixels
-                .iter()
-                .filter(|p| p.near == near)
-                .map(|p| relative_error(data[[p.iy, p.ix]], p.reference))
-                .collect()
-        };
-        (
-            ErrorSummary::of(errors(false)),
-            ErrorSummary::of(errors(true)),
-        )
+    /// Whether the stated summaries are those of the sampled pixels against `data` (a
+    /// certificate read from a file: its cards, its table and its image must agree).
+    pub fn reproduces(&self, data: &Array2<f32>) -> bool {
+        summaries(&self.pixels, data) == Some((self.away, self.near))
     }
+}
+
+/// The summaries away from and near caustics of `pixels` against `data`; `None` when a pixel
+/// lies outside the data.
+fn summaries(
+    pixels: &[CertifiedPixel],
+    data: &Array2<f32>,
+) -> Option<(Option<ErrorSummary>, Option<ErrorSummary>)> {
+    let errors = |near: bool| -> Option<Vec<f64>> {
+        pixels
+            .iter()
+            .filter(|p| p.near == near)
+            .map(|p| Some(relative_error(*data.get([p.iy, p.ix])?, p.reference)))
+            .collect()
+    };
+    Some((
+        ErrorSummary::of(errors(false)?),
+        ErrorSummary::of(errors(true)?),
+    ))
 }
 
 /// `|value - reference| / reference`, the value as stored.

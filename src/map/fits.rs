@@ -396,7 +396,11 @@ fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
     }
     let data = Array2::from_shape_vec((n, n), pixels).map_err(|e| e.to_string())?;
     if header.0.get("ERRSEED").is_some() {
-        provenance.certificate = Some(table::decode(&header, &mut fits, bytes, data_end, n)?);
+        let certificate = table::decode(&header, &mut fits, bytes, data_end, n)?;
+        if !certificate.reproduces(&data) {
+            return Err("ERRMED_*/ERR99_* disagree with the table ERRSAMPL and the image".into());
+        }
+        provenance.certificate = Some(certificate);
     }
     Ok(MagnificationMap {
         window,

@@ -213,7 +213,14 @@ fn python() -> PathBuf {
 
 /// Runs tests/python/fits_verify.py with `args`; returns its records split on commas.
 fn astropy_records(args: &[&Path]) -> Vec<Vec<String>> {
-    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/fits_verify.py");
+    python_records("fits_verify.py", args)
+}
+
+/// Runs the script `name` of tests/python with `args`; returns its records split on commas.
+fn python_records(name: &str, args: &[&Path]) -> Vec<Vec<String>> {
+    let script = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/python")
+        .join(name);
     let out = Command::new(python())
         .arg(script)
         .args(args)
@@ -394,24 +401,12 @@ fn the_certificate_matches_an_independent_numpy_recomputation() {
     let c = map.provenance.certificate.as_ref().unwrap();
     assert!(c.near.is_some_and(|s| s.count >= 5), "{:?}", c.near);
 
-    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/certificate_check.py");
-    let out = Command::new(python())
-        .arg(script)
-        .arg(&path)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let text = String::from_utf8(out.stdout).unwrap();
-    let records: Vec<Vec<&str>> = text.lines().map(|l| l.split(',').collect()).collect();
+    let records = python_records("certificate_check.py", &[&path]);
     let find = |kind: &str, class: &str| {
         records
             .iter()
             .find(|r| r[0] == kind && r[1] == class)
-            .unwrap_or_else(|| panic!("no {kind},{class} in {text}"))
+            .unwrap_or_else(|| panic!("no {kind},{class} in {records:?}"))
             .clone()
     };
     // astropy: both HDUs verify, with their checksums.
@@ -436,4 +431,20 @@ fn the_certificate_matches_an_independent_numpy_recomputation() {
             );
         }
     }
+}
+
+#[test]
+fn a_certificate_that_its_sample_does_not_reproduce_is_refused() {
+    // Internal consistency (no outside reference needed): the stated median must be the
+    // median of the sampled pixels' errors against the image; numpy's rule is checked above.
+    let dir = Scratch::new("certificate-forged");
+    let path = dir.join("forged.fits");
+    let lens = LensSystem::binary(1.0, 0.1).unwrap();
+    let window = Window::new((0.0, 0.0), 1.0, 40).unwrap();
+    let mut map = PolygonMapping::new(1.0).build(&lens, &window).unwrap();
+    let c = map.provenance.certificate.as_mut().unwrap();
+    c.away.as_mut().unwrap().median *= 0.5;
+    write_fits(&map, &path).unwrap();
+    let msg = read_fits(&path).unwrap_err().to_string();
+    assert!(msg.contains("ERRMED_*/ERR99_* disagree"), "{msg}");
 }
