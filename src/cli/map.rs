@@ -140,6 +140,31 @@ pub fn run(args: MapArgs) -> Result<()> {
     write_outputs(&map, &args.out, args.png.as_deref())
 }
 
+/// What a build did, in one line: rays (or image-plane cells) traced through the lens equation,
+/// those counted in the window, the time and the rate of tracing; with a lens symmetric about
+/// the x axis, only the upper half plane is traced and each ray counted at its mirror image too.
+pub fn closing_line(map: &MagnificationMap) -> String {
+    let p = &map.provenance;
+    let what = if p.engine == "polygon" {
+        "image-plane cells"
+    } else {
+        "rays"
+    };
+    let mirror = if p.lens.symmetric_about_x_axis() {
+        " (upper half plane only: the lens is symmetric about the x axis, so each is counted at \
+         its mirror image too)"
+    } else {
+        ""
+    };
+    format!(
+        "{what} traced {}{mirror}, counted in the window {}, {:.2} s, {:.3e} {what} traced/s",
+        p.rays_shot,
+        p.rays_landed,
+        p.build_seconds,
+        p.rays_shot as f64 / p.build_seconds.max(1e-9)
+    )
+}
+
 /// Builds a map with progress (a bar, or lines in a batch log) and a closing line on stderr.
 pub fn build_reported(
     engine: &dyn Engine,
@@ -162,15 +187,8 @@ pub fn build_reported(
     })?;
     let reporter = Reporter::new().without_start_lines();
     let map = engine.build_with_progress(lens, window, &EngineStage::new(&reporter, "tracing"))?;
-    let p = &map.provenance;
-    reporter.finish(&format!(
-        "rays shot {}, rays landed {}, {:.2} s, {:.3e} rays/s",
-        p.rays_shot,
-        p.rays_landed,
-        p.build_seconds,
-        p.rays_shot as f64 / p.build_seconds.max(1e-9)
-    ));
-    if let Some(c) = &p.certificate {
+    reporter.finish(&closing_line(&map));
+    if let Some(c) = &map.provenance.certificate {
         eprintln!("{}", certificate_line(c));
     }
     Ok(map)

@@ -78,11 +78,27 @@ pub trait Engine: Sync {
         window: &Window,
         progress: &dyn Progress,
     ) -> Result<MagnificationMap> {
+        self.build_certified(lens, window, progress, true)
+    }
+
+    /// Builds a complete map with provenance; with `certify`, its accuracy certificate too (a
+    /// map kept in memory for a search only can go without: it is never written or verified).
+    fn build_certified(
+        &self,
+        lens: &LensSystem,
+        window: &Window,
+        progress: &dyn Progress,
+        certify: bool,
+    ) -> Result<MagnificationMap> {
         let build_time = utc_now();
         let started = std::time::Instant::now();
         let traced = self.trace(lens, window, progress)?;
         let build_seconds = started.elapsed().as_secs_f64();
-        let certificate = Certificate::measure(lens, window, &traced.data);
+        let certificate = if certify {
+            Certificate::measure(lens, window, &traced.data)
+        } else {
+            None
+        };
         Ok(MagnificationMap {
             window: *window,
             data: traced.data,

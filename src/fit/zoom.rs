@@ -60,7 +60,7 @@ impl MapRecipe {
     }
 
     /// The maps of the binary (s, q): one per caustic window ([`WindowRule::Caustics`], margin
-    /// 1.5).
+    /// 1.5), kept in memory for the search, so without accuracy certificates.
     pub fn build(&self, s: f64, q: f64) -> Result<Vec<MagnificationMap>> {
         let lens = LensSystem::binary(s, q)?;
         let engine = engine::by_name(&self.engine, self.density)?;
@@ -70,7 +70,7 @@ impl MapRecipe {
         }
         .windows(&lens)?
         .iter()
-        .map(|w| engine.build(&lens, w))
+        .map(|w| engine.build_certified(&lens, w, &(), false))
         .collect()
     }
 }

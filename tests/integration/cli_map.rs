@@ -107,8 +107,12 @@ fn negative_numbers_and_equals_forms_work_as_typed() {
         ],
     );
     assert_eq!(code, 0, "{stderr}");
+    // The closing line: what was traced and counted, and (a binary lies on the x axis) why
+    // more can be counted than traced.
     assert!(
-        stderr.contains("rays shot"),
+        stderr.contains(" traced ")
+            && stderr.contains("counted in the window")
+            && stderr.contains("mirror image"),
         "closing line missing: {stderr}"
     );
     assert!(dir.join("a.fits").exists());
