@@ -25,6 +25,9 @@ pub enum Error {
     /// A computation failed in a way the input did not announce.
     #[error("{0}")]
     Numerical(String),
+    /// The caller asked a long computation to stop (its progress listener said so).
+    #[error("interrupted")]
+    Interrupted,
 }
 
 impl Error {
@@ -52,6 +55,7 @@ impl Error {
         match self {
             Error::Input(_) | Error::Io { .. } => 2,
             Error::Numerical(_) => 1,
+            Error::Interrupted => 130,
         }
     }
 }

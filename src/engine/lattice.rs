@@ -252,23 +252,24 @@ impl Lattice {
 }
 
 /// Runs `work` over all leaves on one worker per thread, each with a private accumulator made
-/// by `init`; returns the accumulators (merge them with an order-independent operation).
+/// by `init`; returns the accumulators (merge them with an order-independent operation), or
+/// [`crate::Error::Interrupted`] when `progress` asked to stop (checked every 16 leaves).
 pub(crate) fn for_each_leaf<A: Send>(
     leaves: &[Block],
     init: impl Fn() -> A + Sync,
     work: impl Fn(&Block, &mut A) + Sync,
     progress: &dyn super::Progress,
-) -> Vec<A> {
+) -> crate::error::Result<Vec<A>> {
     const CHUNK: usize = 16;
     let next = AtomicUsize::new(0);
     let workers = rayon::current_num_threads().max(1);
-    (0..workers)
+    let accumulated = (0..workers)
         .into_par_iter()
         .map(|_| {
             let mut acc = init();
             loop {
                 let start = next.fetch_add(CHUNK, Ordering::Relaxed);
-                if start >= leaves.len() {
+                if start >= leaves.len() || progress.cancelled() {
                     break;
                 }
                 let end = (start + CHUNK).min(leaves.len());
@@ -279,7 +280,11 @@ pub(crate) fn for_each_leaf<A: Send>(
             }
             acc
         })
-        .collect()
+        .collect::<Vec<A>>();
+    if progress.cancelled() {
+        return Err(crate::Error::Interrupted);
+    }
+    Ok(accumulated)
 }
 
 /// True when the CPU has AVX2 (x86_64 only).

@@ -43,6 +43,11 @@ pub trait Progress: Sync {
     fn start(&self, _total: u64) {}
     /// Reports `done` more units finished.
     fn advance(&self, _done: u64) {}
+    /// True when the caller wants the build to stop: the engine then returns
+    /// [`Error::Interrupted`](crate::Error::Interrupted) at its next chunk of work.
+    fn cancelled(&self) -> bool {
+        false
+    }
 }
 
 impl Progress for () {}

@@ -317,7 +317,7 @@ impl PolygonMapping {
             || Coverage::new(window.pixels),
             |leaf, acc| mapper.leaf(leaf, acc),
             progress,
-        );
+        )?;
         let scale = 1.0 / (FULL as f64 * self.cells_per_pixel);
         let (data, deposits) = merge(buffers, window.pixels, scale, fold)?;
         Ok(Traced {

@@ -146,7 +146,7 @@ impl Engine for RayShooting {
             || Tally::<u32>::new(npix),
             |leaf, t| t.count += trace_leaf(&lattice, leaf, &mut t.hist, avx2),
             progress,
-        );
+        )?;
         let (data, landed) = merge(tallies, window.pixels, 1.0 / self.rays_per_pixel)?;
         Ok(Traced {
             data,

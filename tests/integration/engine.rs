@@ -215,3 +215,37 @@ fn small_windows_cost_their_pre_image_not_the_field() {
     let (traced, region) = ray_budget(&RayShooting::new(100.0), &lens, &window);
     assert!(traced * 200 < region, "traced {traced} of {region}");
 }
+
+/// A listener that asks the build to stop once some work was reported.
+struct StopAfterFirst(std::sync::atomic::AtomicBool);
+
+impl causeway::engine::Progress for StopAfterFirst {
+    fn advance(&self, _done: u64) {
+        self.0.store(true, std::sync::atomic::Ordering::Relaxed);
+    }
+    fn cancelled(&self) -> bool {
+        self.0.load(std::sync::atomic::Ordering::Relaxed)
+    }
+}
+
+#[test]
+fn a_build_stops_when_its_listener_asks() {
+    // Both engines return Error::Interrupted (exit status 130, the shell's for SIGINT: common
+    // practice) instead of a map when the listener cancels part-way.
+    let lens = LensSystem::binary(1.0, 1e-3).unwrap();
+    let window = Window::new((0.0, 0.0), 1.0, 64).unwrap();
+    let engines: [Box<dyn Engine>; 2] = [
+        Box::new(RayShooting::new(100.0)),
+        Box::new(causeway::engine::PolygonMapping::new(1.0)),
+    ];
+    for engine in engines {
+        let stop = StopAfterFirst(std::sync::atomic::AtomicBool::new(false));
+        let err = engine
+            .build_with_progress(&lens, &window, &stop)
+            .unwrap_err();
+        assert!(matches!(err, causeway::Error::Interrupted), "{err}");
+        assert_eq!(err.exit_code(), 130);
+        // Not cancelled: the same build completes.
+        assert!(engine.build_with_progress(&lens, &window, &()).is_ok());
+    }
+}
