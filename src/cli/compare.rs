@@ -72,7 +72,9 @@ impl Pair {
     /// use causeway::contour::{Estimate, Method};
     /// use causeway::curve::{self, Sample};
     /// let pair = Pair {
-    ///     map: Sample { x: 0.1, y: 0.0, magnification: 10.1, method: curve::Method::Direct },
+    ///     map: Sample {
+    ///         x: 0.1, y: 0.0, magnification: 10.1, error: 0.2, method: curve::Method::Direct,
+    ///     },
     ///     contour: Estimate { magnification: 10.0, error: 1e-5, method: Method::Contour },
     /// };
     /// assert!((pair.relative_error() - 0.01).abs() < 1e-12);
@@ -218,19 +220,20 @@ fn contour_reported(
 }
 
 /// The output table: `t` when there are times, then
-/// `x,y,map,contour,contour_error,relative_error,method`.
+/// `x,y,map,error,contour,contour_error,relative_error,method`.
 ///
 /// ```
 /// use causeway::cli::compare::{format_csv, Pair};
 /// use causeway::contour::{Estimate, Method};
 /// use causeway::curve::{self, Sample};
 /// let pair = Pair {
-///     map: Sample { x: 0.5, y: 0.0, magnification: 2.5, method: curve::Method::Direct },
+///     map: Sample { x: 0.5, y: 0.0, magnification: 2.5, error: 0.5, method: curve::Method::Direct },
 ///     contour: Estimate { magnification: 2.0, error: 0.001, method: Method::Contour },
 /// };
 /// assert_eq!(
 ///     format_csv(Some(&[3.0]), &[pair]),
-///     "t,x,y,map,contour,contour_error,relative_error,method\n3,0.5,0,2.5,2,0.001,0.25,direct\n"
+///     "t,x,y,map,error,contour,contour_error,relative_error,method\n\
+///      3,0.5,0,2.5,0.5,2,0.001,0.25,direct\n"
 /// );
 /// ```
 pub fn format_csv(times: Option<&[f64]>, pairs: &[Pair]) -> String {
@@ -238,17 +241,18 @@ pub fn format_csv(times: Option<&[f64]>, pairs: &[Pair]) -> String {
     if times.is_some() {
         out.push_str("t,");
     }
-    out.push_str("x,y,map,contour,contour_error,relative_error,method\n");
+    out.push_str("x,y,map,error,contour,contour_error,relative_error,method\n");
     for (k, p) in pairs.iter().enumerate() {
         if let Some(t) = times {
             let _ = write!(out, "{},", fmt_f64(t[k]));
         }
         let _ = writeln!(
             out,
-            "{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{}",
             fmt_f64(p.map.x),
             fmt_f64(p.map.y),
             fmt_f64(p.map.magnification),
+            fmt_f64(p.map.error),
             fmt_f64(p.contour.magnification),
             fmt_f64(p.contour.error),
             fmt_f64(p.relative_error()),

@@ -1,10 +1,12 @@
 //! `causeway curve`: the light curve of a finite source along a path or a straight trajectory.
 
 use super::library::StoreArgs;
+use super::progress::Reporter;
 use super::map::{build_reported, default_memory_limit, parse_size};
 use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::curve::{
-    map_engine, plan_window, plot_png, read_times, time_range, Evaluation, PointMagnification,
+    map_engine, plan_window, plot_png, read_times, time_range, Evaluation, Method,
+    PointMagnification,
     Sampler, SourcePath, StraightLine,
 };
 use crate::engine::RayShooting;
@@ -27,10 +29,13 @@ use std::path::PathBuf;
     after_help = "Examples:\n  \
         causeway curve --map planet.fits --t0 0 --u0 0.05 --te 30 --alpha 40 --time-range -20,20,2001 --rho 0.002 --ld 0.6\n  \
         causeway curve --s 1.25 --q 2e-3 --path path.csv --rho 0.003 --png curve.png\n\n\
-        The CSV on stdout has t (when times exist), x, y, magnification and method: direct or \
-        convolved (map read under the source), bilinear (point source on the map), expansion \
-        (off the map: point source plus hexadecapole correction) or point (off the map, rho = 0); \
-        with --fs also flux = fs A + fb and magnitude = zp - 2.5 log10(flux), zp 22 by default."
+        The CSV on stdout has t (when times exist), x, y, magnification, error (estimated \
+        absolute error of the magnification) and method: direct or convolved (map read under \
+        the source), bilinear (point source on the map), expansion (off the map: point source \
+        plus hexadecapole correction), point (off the map, rho = 0) or contour (recomputed by \
+        contour integration because the estimate of the others exceeded --tol times the \
+        magnification); with --fs also flux = fs A + fb and magnitude = zp - 2.5 log10(flux), \
+        zp 22 by default."
 )]
 pub struct CurveArgs {
     /// Magnification map (FITS) to read.
@@ -42,7 +47,9 @@ pub struct CurveArgs {
     pub trajectory: TrajectoryArgs,
     #[command(flatten)]
     pub source: SourceArgs,
-    /// Relative tolerance of the off-map continuation.
+    /// Relative tolerance of every value, map reads and the off-map continuation alike: a
+    /// value whose error estimate exceeds T times the magnification is recomputed by contour
+    /// integration (method contour).
     #[arg(long, default_value_t = Sampler::DEFAULT_TOL, value_name = "T")]
     pub tol: f64,
     /// How map reads under the source are made.
@@ -366,7 +373,8 @@ pub fn run(args: CurveArgs) -> Result<()> {
 }
 
 /// Samples `points` with `sampler` on `map` (when there is one), the off-map continuation
-/// using `lens`; prints the sampler's warnings on stderr.
+/// using `lens` and contour integration recomputing every value not within the sampler's
+/// tolerance; shows progress and prints the sampler's warnings on stderr.
 pub(super) fn sample_reported(
     sampler: Sampler,
     map: Option<&MagnificationMap>,
@@ -378,11 +386,24 @@ pub(super) fn sample_reported(
         Some(s) => s,
         None => lens,
     };
-    let mut sampler = sampler.lens(point);
+    let reporter = Reporter::new().without_start_lines();
+    let mut sampler = sampler.lens(point).fallback(lens).progress(&reporter);
     if let Some(m) = map {
         sampler = sampler.map(m);
     }
     let curve = sampler.sample(points)?;
+    let recomputed = curve
+        .samples
+        .iter()
+        .filter(|s| s.method == Method::Contour)
+        .count();
+    if recomputed > 0 {
+        eprintln!(
+            "{recomputed} of {} values recomputed by contour integration (their map or \
+             expansion error estimate exceeded the tolerance)",
+            points.len()
+        );
+    }
     for w in &curve.warnings {
         eprintln!("{w}");
     }
@@ -456,7 +477,7 @@ pub fn format_csv(
     if times.is_some() {
         out.push_str("t,");
     }
-    out.push_str("x,y,magnification,method");
+    out.push_str("x,y,magnification,error,method");
     if flux.is_some() {
         out.push_str(",flux,magnitude");
     }
@@ -467,10 +488,11 @@ pub fn format_csv(
         }
         let _ = write!(
             out,
-            "{},{},{},{}",
+            "{},{},{},{},{}",
             fmt_f64(s.x),
             fmt_f64(s.y),
             fmt_f64(s.magnification),
+            fmt_f64(s.error),
             s.method.name()
         );
         if let Some((fs, fb, zero_point)) = flux {

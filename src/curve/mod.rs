@@ -44,23 +44,30 @@
 
 mod continuation;
 mod convolve;
+mod estimate;
 mod plan;
 mod plot;
 mod sample;
 mod trajectory;
 
-pub use continuation::{small_source, Expansion, PointMagnification};
+pub use continuation::{small_source, Expansion, PointMagnification, SAFETY};
 #[doc(hidden)]
 pub use convolve::Route;
 pub use convolve::{MapSpectrum, Preconvolved, DIRECT_MARGIN};
+pub use estimate::Coarse;
 pub use plan::{map_engine, plan_window, POINT_SOURCE_PIXELS};
 pub use plot::plot_png;
 pub use sample::{ld_nodes, point_read, DirectReader};
 pub use trajectory::{parse_times, read_times, time_range, SourcePath, StraightLine, MAX_TIMES};
 
+use crate::contour::ContourSolver;
 use crate::error::{Error, Result};
+use crate::lens::LensSystem;
 use crate::map::MagnificationMap;
+use crate::progress::{Progress, Silent};
 use crate::source::SourceProfile;
+use estimate::CoarseReaders;
+use num_complex::Complex64;
 use rayon::prelude::*;
 
 /// Least source radius, in pixels, that a map resolves honestly.
@@ -90,6 +97,9 @@ pub enum Method {
     Expansion,
     /// Off the map: exact point-source magnification (`rho = 0`).
     Point,
+    /// Contour integration: the value the other methods could not give to the tolerance
+    /// (only with [`Sampler::fallback`]).
+    Contour,
 }
 
 impl Method {
@@ -105,6 +115,7 @@ impl Method {
             Method::Bilinear => "bilinear",
             Method::Expansion => "expansion",
             Method::Point => "point",
+            Method::Contour => "contour",
         }
     }
 }
@@ -118,6 +129,9 @@ pub struct Sample {
     pub y: f64,
     /// Magnification.
     pub magnification: f64,
+    /// Estimated absolute error of the magnification (see [`Sampler::sample`]); infinite when
+    /// there is no estimate.
+    pub error: f64,
     /// What computed it.
     pub method: Method,
 }
@@ -201,20 +215,33 @@ pub fn resolution_warning(map: &MagnificationMap, profile: &SourceProfile) -> Op
 }
 
 /// Computes light curves: a map (optional), a lens for the off-map continuation (optional),
-/// a source profile and a tolerance for the continuation.
+/// a source profile, one relative tolerance, and optionally contour integration for the values
+/// the others cannot give to it.
 #[derive(Clone, Copy)]
 pub struct Sampler<'a> {
     profile: SourceProfile,
     map: Option<&'a MagnificationMap>,
     lens: Option<&'a dyn PointMagnification>,
+    fallback: Option<&'a LensSystem>,
     tol: f64,
     evaluation: Evaluation,
     memory_limit: u64,
+    progress: &'a dyn Progress,
+}
+
+/// Points per unit of progress (and per parallel work item).
+const CHUNK: usize = 64;
+
+/// The fine and coarse readers of one map, made once per curve.
+struct Readers<'a> {
+    direct: Option<DirectReader<'a>>,
+    convolved: Option<Preconvolved>,
+    coarse: Option<CoarseReaders<'a>>,
 }
 
 impl<'a> Sampler<'a> {
-    /// Default relative tolerance of the off-map continuation.
-    pub const DEFAULT_TOL: f64 = 1e-4;
+    /// Default relative tolerance of every value (map reads and the off-map continuation).
+    pub const DEFAULT_TOL: f64 = 1e-3;
 
     /// A sampler for the source `profile`, with no map and no lens yet.
     pub fn new(profile: SourceProfile) -> Self {
@@ -222,9 +249,11 @@ impl<'a> Sampler<'a> {
             profile,
             map: None,
             lens: None,
+            fallback: None,
             tol: Self::DEFAULT_TOL,
             evaluation: Evaluation::Auto,
             memory_limit: u64::MAX,
+            progress: &Silent,
         }
     }
 
@@ -240,7 +269,37 @@ impl<'a> Sampler<'a> {
         self
     }
 
-    /// Relative tolerance the off-map continuation must meet.
+    /// Recomputes by contour integration of `lens` ([`crate::contour`]) every value whose
+    /// error estimate exceeds the tolerance, and every point neither the map nor the
+    /// continuation can serve (off by default: those points then keep their estimate, or fail).
+    ///
+    /// ```
+    /// use causeway::curve::{Method, Sampler};
+    /// use causeway::{engine::{Engine, RayShooting}, lens::LensSystem, map::Window};
+    /// use causeway::source::SourceProfile;
+    /// let lens = LensSystem::single();
+    /// let map = RayShooting::new(100.0)
+    ///     .build(&lens, &Window::new((0.0, 0.0), 0.2, 40).unwrap()).unwrap();
+    /// // A source of 2 pixels over the lens: the map cannot give 1e-3, contour integration does.
+    /// let curve = Sampler::new(SourceProfile::uniform(0.01).unwrap())
+    ///     .map(&map)
+    ///     .lens(&lens)
+    ///     .fallback(&lens)
+    ///     .sample(&[(0.0, 0.0), (0.05, 0.0)])
+    ///     .unwrap();
+    /// let s = curve.samples[0];
+    /// assert_eq!(s.method, Method::Contour);
+    /// assert!(s.error <= 1e-3 * s.magnification);
+    /// // Witt & Mao 1994: sqrt(1 + 4/rho^2) at the lens.
+    /// assert!((s.magnification / (1.0f64 + 4e4).sqrt() - 1.0).abs() < 1e-3);
+    /// ```
+    pub fn fallback(mut self, lens: &'a LensSystem) -> Self {
+        self.fallback = Some(lens);
+        self
+    }
+
+    /// Relative tolerance of every value: the off-map continuation must meet it, and with
+    /// [`Sampler::fallback`] so must every value (default [`Sampler::DEFAULT_TOL`]).
     pub fn tol(mut self, tol: f64) -> Self {
         self.tol = tol;
         self
@@ -258,20 +317,30 @@ impl<'a> Sampler<'a> {
         self
     }
 
+    /// Reports the points done to `progress` (stage `curve`).
+    pub fn progress(mut self, progress: &'a dyn Progress) -> Self {
+        self.progress = progress;
+        self
+    }
+
     /// Samples the curve at `points` (in parallel; the result does not depend on the thread
     /// count). Fails on the first point (in order) that neither the map nor the continuation
-    /// can serve to the tolerance.
+    /// (nor, with [`Sampler::fallback`], contour integration) can serve.
+    ///
+    /// Every value carries an absolute error estimate: map reads by the read of the map binned
+    /// 2 x 2 ([`Coarse`]); the continuation by its last kept term (see [`small_source`]);
+    /// contour integration by its own.
     pub fn sample(&self, points: &[(f64, f64)]) -> Result<Curve> {
-        if !(self.tol.is_finite() && self.tol > 0.0) {
+        if !(self.tol.is_finite() && self.tol > 0.0 && self.tol <= 0.1) {
             return Err(Error::input(format!(
-                "--tol: must be finite and > 0, got {}",
+                "--tol: must be a relative tolerance in (0, 0.1], got {}",
                 self.tol
             )));
         }
         let rho = self.profile.rho;
         let mut warnings = Vec::new();
         let mut evaluation = Evaluation::Direct;
-        let mut conv = None;
+        let mut convolved = None;
         if let Some(map) = self.map {
             warnings.extend(resolution_warning(map, &self.profile));
             evaluation = match self.evaluation {
@@ -290,16 +359,48 @@ impl<'a> Sampler<'a> {
                 evaluation = Evaluation::Direct;
             }
             if rho > 0.0 && evaluation == Evaluation::Convolved {
-                conv = Some(Preconvolved::new(map, &self.profile)?);
+                convolved = Some(Preconvolved::new(map, &self.profile)?);
             }
         }
-        let direct = self.map.map(|m| DirectReader::new(m, &self.profile));
-        let results: Vec<Result<Sample>> = points
-            .par_iter()
+        let coarse = self.map.and_then(Coarse::new);
+        let readers = Readers {
+            direct: self.map.map(|m| DirectReader::new(m, &self.profile)),
+            coarse: match (self.map, coarse.as_ref()) {
+                (Some(m), Some(c)) => Some(CoarseReaders::new(
+                    m,
+                    c,
+                    &self.profile,
+                    convolved.is_some(),
+                )?),
+                _ => None,
+            },
+            convolved,
+        };
+        let contour = self
+            .fallback
+            .map(|lens| ContourSolver::new(lens, contour_tol(self.tol)))
+            .transpose()?;
+        self.progress.start("curve", points.len() as u64);
+        let results: Vec<Result<Vec<Sample>>> = points
+            .par_chunks(CHUNK)
             .enumerate()
-            .map(|(k, &(x, y))| self.sample_one(k, x, y, direct.as_ref(), conv.as_ref()))
+            .map(|(c, chunk)| {
+                let out = chunk
+                    .iter()
+                    .enumerate()
+                    .map(|(k, &(x, y))| {
+                        self.sample_one(c * CHUNK + k, x, y, &readers, contour.as_ref())
+                    })
+                    .collect();
+                self.progress.advance(chunk.len() as u64);
+                out
+            })
             .collect();
-        let samples = results.into_iter().collect::<Result<Vec<_>>>()?;
+        self.progress.finish("");
+        let mut samples = Vec::with_capacity(points.len());
+        for r in results {
+            samples.extend(r?);
+        }
         Ok(Curve {
             samples,
             evaluation,
@@ -307,50 +408,74 @@ impl<'a> Sampler<'a> {
         })
     }
 
+    /// The map's value at `(x, y)` and its error estimate, if the source lies on the map.
+    fn map_read(&self, x: f64, y: f64, readers: &Readers) -> Option<(f64, f64, Method)> {
+        let coarse = readers.coarse.as_ref();
+        let or_inf = |e: Option<f64>| e.unwrap_or(f64::INFINITY);
+        if self.profile.rho == 0.0 {
+            let a = point_read(self.map?, x, y)?;
+            return Some((a, or_inf(coarse.map(|c| c.point(a, x, y))), Method::Bilinear));
+        }
+        if let Some(a) = readers.convolved.as_ref().and_then(|c| c.read(x, y)) {
+            let e = or_inf(coarse.map(|c| c.convolved(a, x, y)));
+            return Some((a, e, Method::Convolved));
+        }
+        let a = readers.direct.as_ref()?.read(x, y)?;
+        Some((a, or_inf(coarse.map(|c| c.direct(a, x, y))), Method::Direct))
+    }
+
     fn sample_one(
         &self,
         k: usize,
         x: f64,
         y: f64,
-        direct: Option<&DirectReader>,
-        conv: Option<&Preconvolved>,
+        readers: &Readers,
+        contour: Option<&ContourSolver>,
     ) -> Result<Sample> {
-        let done = |magnification, method| {
-            Ok(Sample {
-                x,
-                y,
-                magnification,
-                method,
-            })
-        };
         if !(x.is_finite() && y.is_finite()) {
             return Err(Error::input(format!(
                 "point {}: position ({x}, {y}) is not finite",
                 k + 1
             )));
         }
-        if let (Some(map), true) = (self.map, self.profile.rho == 0.0) {
-            if let Some(a) = point_read(map, x, y) {
-                return done(a, Method::Bilinear);
+        let done = |magnification, error, method| {
+            Ok(Sample {
+                x,
+                y,
+                magnification,
+                error,
+                method,
+            })
+        };
+        let recompute = || -> Result<Sample> {
+            let solver = contour.expect("recomputed only with a contour solver");
+            let est = solver
+                .clone()
+                .magnification(Complex64::new(x, y), &self.profile)?;
+            done(est.magnification, est.error, Method::Contour)
+        };
+        let within = |a: f64, e: f64| e <= self.tol * a.abs();
+        if let Some((a, e, method)) = self.map_read(x, y, readers) {
+            if contour.is_some() && !within(a, e) {
+                return recompute();
             }
+            return done(a, e, method);
         }
-        if let Some(a) = conv.and_then(|c| c.read(x, y)) {
-            return done(a, Method::Convolved);
-        }
-        if self.profile.rho > 0.0 {
-            if let Some(a) = direct.and_then(|d| d.read(x, y)) {
-                return done(a, Method::Direct);
+        let Some(lens) = self.lens else {
+            if contour.is_some() {
+                return recompute();
             }
-        }
-        let lens = self.lens.ok_or_else(|| {
-            Error::input(format!(
+            return Err(Error::input(format!(
                 "point {} at ({x}, {y}): the source is not on the map and no lens was given to \
                  continue the curve",
                 k + 1
-            ))
-        })?;
+            )));
+        };
         let e = small_source(lens, &self.profile, x, y)?;
         if !e.accurate(self.tol) {
+            if contour.is_some() {
+                return recompute();
+            }
             let why = if e.images_agree {
                 format!(
                     "the small-source correction's error estimate {:.2e} exceeds --tol {:e}",
@@ -371,6 +496,13 @@ impl<'a> Sampler<'a> {
         } else {
             Method::Expansion
         };
-        done(e.magnification, method)
+        done(e.magnification, e.error, method)
     }
+}
+
+/// The tolerance contour integration is asked for when it recomputes a value for a curve of
+/// relative tolerance `tol`: a quarter of it, so that the result meets `tol` even where the
+/// integration's own estimate is a few times short.
+fn contour_tol(tol: f64) -> f64 {
+    0.25 * tol
 }
