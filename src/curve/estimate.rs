@@ -94,10 +94,10 @@ impl Coarse {
 }
 
 /// The estimate's multiple of the largest fine/coarse difference.
-const SPREAD_FACTOR: f64 = 1.6;
+const SPREAD_FACTOR: f64 = 1.5;
 
 /// The noise term's multiple of `sigma / r^1.5` (see [`noise`]).
-const NOISE_FACTOR: f64 = 0.8;
+const NOISE_FACTOR: f64 = 0.9;
 
 /// The largest `|value - other|` over the coarse reads that exist; infinite when none does.
 fn spread(value: f64, coarse: impl Iterator<Item = Option<f64>>) -> f64 {
@@ -114,7 +114,7 @@ fn spread(value: f64, coarse: impl Iterator<Item = Option<f64>>) -> f64 {
 /// pixels) at eight pixels on the rim. A read splits the `2 pi r` pixels of the rim, whose
 /// noises then count with weights below one (the lattice's counting errors of whole pixels
 /// cancel between neighbours), so the noise of the read is `sigma sqrt(2 pi r / 3) / (pi r^2)`
-/// `= 0.46 sigma / r^1.5`; [`NOISE_FACTOR`] = 0.8 (fitted on ray-shot caustic crossings,
+/// `= 0.46 sigma / r^1.5`; [`NOISE_FACTOR`] = 0.9 (fitted on ray-shot caustic crossings,
 /// tests/integration/curve.rs) covers the rim pixels' correlation. Where the magnification
 /// curves within a pixel the residual counts the curvature too, so the term only grows there.
 fn noise(map: &MagnificationMap, u: f64, v: f64, r: f64) -> f64 {

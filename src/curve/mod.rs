@@ -417,7 +417,14 @@ impl<'a> Sampler<'a> {
             return Some((a, or_inf(coarse.map(|c| c.point(a, x, y))), Method::Bilinear));
         }
         if let Some(a) = readers.convolved.as_ref().and_then(|c| c.read(x, y)) {
-            let e = or_inf(coarse.map(|c| c.convolved(a, x, y)));
+            // Half the fine grid's own interpolation bound joins the estimate: where the coarse
+            // grid's interpolation error happens to match the fine one it is what is left.
+            let interpolation = readers
+                .convolved
+                .as_ref()
+                .and_then(|c| c.interpolation_bound(x, y))
+                .unwrap_or(0.0);
+            let e = or_inf(coarse.map(|c| c.convolved(a, x, y))) + 0.5 * interpolation;
             return Some((a, e, Method::Convolved));
         }
         let a = readers.direct.as_ref()?.read(x, y)?;
