@@ -1,7 +1,7 @@
 //! `causeway compare`: a light curve read from a map against contour integration at the same
 //! points, with error statistics and an optional picture.
 
-use super::curve::{distances, sample_reported, SourceArgs, TrajectoryArgs};
+use super::curve::{distances, recomputed, sample_reported, SourceArgs, TrajectoryArgs};
 use super::map::default_memory_limit;
 use super::progress::Reporter;
 use super::ThreadArgs;
@@ -30,12 +30,15 @@ pub const DEFAULT_COMPARE_TOL: f64 = 1e-5;
         causeway compare --map planet.fits --t0 0 --u0 0.05 --te 30 --alpha 40 --time-range -20,20,401 --rho 0.002\n  \
         causeway compare --map planet.fits --path path.csv --rho 0.003 --ld 0.6 --png check.png\n\n\
         The lens is the one recorded in the map's header. The CSV on stdout has t (when times \
-        exist), x, y, map (the curve read from the map, as `causeway curve` makes it), contour \
-        (contour integration), contour_error (its estimated absolute error), relative_error = \
-        |map/contour - 1| and method (how the map value was made, as in `curve`). One summary \
-        line on stderr gives the median, 99th percentile (linear interpolation between order \
-        statistics) and largest relative error, and where the largest is. --png draws one image \
-        of two stacked charts: both curves on top, map/contour - 1 below."
+        exist), x, y, map (the curve read from the map, as `causeway curve` makes it, to \
+        --curve-tol), error (its estimated absolute error), contour (contour integration to \
+        --tol), contour_error (its estimated absolute error), relative_error = |map/contour - 1| \
+        and method (how the map value was made, as in `curve`). One summary line on stderr \
+        gives the median, 99th percentile (linear interpolation between order statistics) and \
+        largest relative error, where the largest is, how many map values were recomputed by \
+        contour integration and how many lie outside their stated error (|map - contour| > \
+        error + contour_error). --png draws one image of two stacked charts: both curves on \
+        top, map/contour - 1 below."
 )]
 pub struct CompareArgs {
     /// Magnification map (FITS) to read; the lens comes from its header.
@@ -48,6 +51,10 @@ pub struct CompareArgs {
     /// Relative tolerance of the contour integration.
     #[arg(long, default_value_t = DEFAULT_COMPARE_TOL, value_name = "T")]
     pub tol: f64,
+    /// Relative tolerance of the map curve (`curve`'s --tol): values whose error estimate
+    /// exceeds it are recomputed by contour integration (method contour).
+    #[arg(long, default_value_t = Sampler::DEFAULT_TOL, value_name = "T")]
+    pub curve_tol: f64,
     /// Also draw both curves and their residual (one PNG, two charts stacked).
     #[arg(long, value_name = "FILE.png")]
     pub png: Option<PathBuf>,
@@ -81,6 +88,13 @@ impl Pair {
     /// ```
     pub fn relative_error(&self) -> f64 {
         (self.map.magnification / self.contour.magnification - 1.0).abs()
+    }
+
+    /// Whether the map value lies outside its stated error: `|map - contour|` beyond the sum
+    /// of both estimates.
+    pub fn outside(&self) -> bool {
+        (self.map.magnification - self.contour.magnification).abs()
+            > self.map.error + self.contour.error
     }
 }
 
@@ -133,22 +147,28 @@ impl Summary {
         })
     }
 
-    /// The one-line report: statistics and where the largest error is (`t` when there are
-    /// times, else the point's index from 1).
+    /// The one-line report: statistics, where the largest error is (`t` when there are
+    /// times, else the point's index from 1), how many map values were recomputed by contour
+    /// integration and how many lie outside their stated error (see [`Pair::outside`]).
     pub fn line(&self, times: Option<&[f64]>, pairs: &[Pair]) -> String {
         let at = &pairs[self.argmax].map;
         let place = match times {
             Some(t) => format!("t = {}", fmt_f64(t[self.argmax])),
             None => format!("point {}", self.argmax + 1),
         };
+        let samples: Vec<Sample> = pairs.iter().map(|p| p.map).collect();
         format!(
             "relative error map vs contour: median {:.3e}, 99th percentile {:.3e}, largest \
-             {:.3e} at {place} (x = {}, y = {})",
+             {:.3e} at {place} (x = {}, y = {}); {} of {} recomputed by contour integration, \
+             {} outside their stated error",
             self.median,
             self.p99,
             self.max,
             fmt_f64(at.x),
-            fmt_f64(at.y)
+            fmt_f64(at.y),
+            recomputed(&samples),
+            pairs.len(),
+            pairs.iter().filter(|p| p.outside()).count()
         )
     }
 }
@@ -164,7 +184,9 @@ pub fn run(args: CompareArgs) -> Result<()> {
     let lens = map.provenance.lens.clone();
     // Checks the tolerance and the lens before the long work.
     contour::ContourSolver::new(&lens, args.tol)?;
-    let sampler = Sampler::new(profile).memory_limit(default_memory_limit());
+    let sampler = Sampler::new(profile)
+        .tol(args.curve_tol)
+        .memory_limit(default_memory_limit());
     let curve = sample_reported(sampler, Some(&map), &lens, &path.points)?;
     let centers: Vec<Complex64> = path
         .points

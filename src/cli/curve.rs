@@ -353,6 +353,14 @@ pub fn run(args: CurveArgs) -> Result<()> {
         .evaluation(evaluation)
         .memory_limit(limit);
     let curve = sample_reported(sampler, map.as_ref(), &lens, &path.points)?;
+    let recomputed = recomputed(&curve.samples);
+    if recomputed > 0 {
+        eprintln!(
+            "{recomputed} of {} values recomputed by contour integration (their map or \
+             expansion error estimate exceeded --tol)",
+            curve.samples.len()
+        );
+    }
     let flux = args.fs.map(|fs| (fs, args.fb, args.zero_point));
     let csv = format_csv(path.times.as_deref(), &curve.samples, flux)?;
     if let Some(png) = &args.png {
@@ -392,22 +400,15 @@ pub(super) fn sample_reported(
         sampler = sampler.map(m);
     }
     let curve = sampler.sample(points)?;
-    let recomputed = curve
-        .samples
-        .iter()
-        .filter(|s| s.method == Method::Contour)
-        .count();
-    if recomputed > 0 {
-        eprintln!(
-            "{recomputed} of {} values recomputed by contour integration (their map or \
-             expansion error estimate exceeded the tolerance)",
-            points.len()
-        );
-    }
     for w in &curve.warnings {
         eprintln!("{w}");
     }
     Ok(curve)
+}
+
+/// How many samples contour integration recomputed.
+pub(super) fn recomputed(samples: &[crate::curve::Sample]) -> usize {
+    samples.iter().filter(|s| s.method == Method::Contour).count()
 }
 
 /// The off-map continuation's point source: a solver built once for two to four lenses; `None`
