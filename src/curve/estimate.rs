@@ -96,6 +96,11 @@ impl Coarse {
 /// The estimate's multiple of the largest fine/coarse difference.
 const SPREAD_FACTOR: f64 = 1.5;
 
+/// The point-source read's estimate is this many times the finite-source rule's: its
+/// interpolation, smoothing and noise come from four pixels, not a rim of many, and measured
+/// fold crossings need it (tests/integration/curve/errors.rs).
+const POINT_FACTOR: f64 = 2.0;
+
 /// The noise term's multiple of `sigma / r^1.5` (see [`noise`]).
 const NOISE_FACTOR: f64 = 0.9;
 
@@ -194,8 +199,9 @@ impl<'a> CoarseReaders<'a> {
 
     /// Error estimate of a point-source read `value` at `(x, y)`.
     pub(crate) fn point(&self, value: f64, x: f64, y: f64) -> f64 {
-        SPREAD_FACTOR * spread(value, self.coarse.maps.iter().map(|m| point_read(m, x, y)))
-            + self.noise(x, y)
+        POINT_FACTOR
+            * (SPREAD_FACTOR * spread(value, self.coarse.maps.iter().map(|m| point_read(m, x, y)))
+                + self.noise(x, y))
     }
 
     /// Error estimate of a direct read `value` at `(x, y)`.

@@ -19,6 +19,8 @@
 //!   their area; over a rim band of area `2 pi rho d` that is
 //!   `sqrt(2) |grad A| d^2 / rho`. Allowed: the sum, with `|grad A|` the largest on the band.
 
+mod errors;
+
 use crate::common;
 
 use causeway::curve::{
