@@ -1,13 +1,12 @@
 //! `causeway curve`: the light curve of a finite source along a path or a straight trajectory.
 
 use super::library::StoreArgs;
-use super::progress::Reporter;
 use super::map::{build_reported, default_memory_limit, parse_size};
+use super::progress::Reporter;
 use super::{parse_pair, LensArgs, ThreadArgs};
 use crate::curve::{
     map_engine, plan_window, plot_png, read_times, time_range, Evaluation, Method,
-    PointMagnification,
-    Sampler, SourcePath, StraightLine,
+    PointMagnification, Sampler, SourcePath, StraightLine,
 };
 use crate::engine::RayShooting;
 use crate::error::{Error, Result};
@@ -408,7 +407,10 @@ pub(super) fn sample_reported(
 
 /// How many samples contour integration recomputed.
 pub(super) fn recomputed(samples: &[crate::curve::Sample]) -> usize {
-    samples.iter().filter(|s| s.method == Method::Contour).count()
+    samples
+        .iter()
+        .filter(|s| s.method == Method::Contour)
+        .count()
 }
 
 /// The off-map continuation's point source: a solver built once for two to four lenses; `None`

@@ -7,7 +7,7 @@
 //! items (a map built, say) only in a batch log, where they are all one learns of them.
 //!
 //! Every long command reports through one [`Reporter`]: `map` (through [`EngineStage`], the
-//! engine's own progress), `library`, `compare` and `search`.
+//! engine's own progress), `library`, `curve`, `compare` and `search`.
 
 use crate::progress::Progress;
 use std::io::IsTerminal;

@@ -12,7 +12,7 @@ use std::path::Path;
 /// ```
 /// use causeway::curve::{plot_png, Method, Sample};
 /// let samples: Vec<Sample> = (0..50).map(|k| Sample {
-///     x: k as f64 * 0.01, y: 0.0, magnification: 1.0 + 1.0 / (1.0 + k as f64),
+///     x: k as f64 * 0.01, y: 0.0, magnification: 1.0 + 1.0 / (1.0 + k as f64), error: 1e-4,
 ///     method: if k < 40 { Method::Direct } else { Method::Expansion },
 /// }).collect();
 /// let t: Vec<f64> = (0..50).map(|k| k as f64).collect();
@@ -70,6 +70,7 @@ mod tests {
                 x: k as f64 * 0.01,
                 y: 0.0,
                 magnification: 1.0 + 30.0 / (1.0 + (k as f64 - 200.0).abs()),
+                error: 1e-4,
                 method: if k < 350 {
                     Method::Direct
                 } else {

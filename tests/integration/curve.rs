@@ -595,7 +595,10 @@ fn cli_prints_the_curve_with_methods_and_reuses_the_stored_map() {
         // Near the lens the map serves the curve (or, where its estimate exceeds the default
         // tolerance 1e-3, contour integration), far away the expansion does.
         if u < 0.03 {
-            assert!(["direct", "convolved", "contour"].contains(&method), "{line}");
+            assert!(
+                ["direct", "convolved", "contour"].contains(&method),
+                "{line}"
+            );
         }
         let error: f64 = line.split(',').nth(4).unwrap().parse().unwrap();
         assert!(error <= 1e-3 * a, "{line}");

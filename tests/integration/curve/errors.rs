@@ -26,7 +26,12 @@ fn segment(a: (f64, f64), b: (f64, f64), n: usize) -> Vec<(f64, f64)> {
 
 /// A ray-shot map (400 rays per pixel area, as `curve` builds) covering `points` with room for
 /// a source of `rho` at `px_per_rho` pixels per radius.
-fn map_over(lens: &LensSystem, points: &[(f64, f64)], rho: f64, px_per_rho: f64) -> MagnificationMap {
+fn map_over(
+    lens: &LensSystem,
+    points: &[(f64, f64)],
+    rho: f64,
+    px_per_rho: f64,
+) -> MagnificationMap {
     let d = rho / px_per_rho;
     let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
     for &(x, y) in points {
@@ -34,7 +39,12 @@ fn map_over(lens: &LensSystem, points: &[(f64, f64)], rho: f64, px_per_rho: f64)
     }
     let side = (x1 - x0).max(y1 - y0) + 2.0 * (rho + 4.0 * d);
     let pixels = (side / d).ceil() as usize;
-    let window = Window::new((0.5 * (x0 + x1), 0.5 * (y0 + y1)), pixels as f64 * d, pixels).unwrap();
+    let window = Window::new(
+        (0.5 * (x0 + x1), 0.5 * (y0 + y1)),
+        pixels as f64 * d,
+        pixels,
+    )
+    .unwrap();
     RayShooting::new(400.0).build(lens, &window).unwrap()
 }
 
@@ -75,6 +85,16 @@ fn median(mut v: Vec<f64>) -> f64 {
     v[v.len() / 2]
 }
 
+/// A crossing: name, lens, source, pixels per rho, path, reference tolerance.
+type Case<'a> = (
+    &'a str,
+    &'a LensSystem,
+    SourceProfile,
+    f64,
+    &'a [(f64, f64)],
+    f64,
+);
+
 #[test]
 fn map_reads_are_within_their_stated_error_and_tight() {
     // A planetary caustic (s = 1.25, q = 2e-3: the caustic spans x = 0.32 ... 0.53) crossed
@@ -86,10 +106,31 @@ fn map_reads_are_within_their_stated_error_and_tight() {
     let uniform = |rho| SourceProfile::uniform(rho).unwrap();
     let linear = |rho| SourceProfile::new(rho, LimbDarkening::Linear { u: 0.6 }).unwrap();
     let crossing = segment((0.40, -0.02), (0.50, 0.02), 120);
-    let cases: [(&str, &LensSystem, SourceProfile, f64, &[(f64, f64)], f64); 5] = [
-        ("fold, uniform, 3 px", &planet, uniform(0.004), 3.0, &crossing, 1e-6),
-        ("fold, uniform, 20 px", &planet, uniform(0.004), 20.0, &crossing, 1e-6),
-        ("fold, linear 0.6, 10 px", &planet, linear(0.004), 10.0, &crossing[..60], 1e-5),
+    let cases: [Case; 5] = [
+        (
+            "fold, uniform, 3 px",
+            &planet,
+            uniform(0.004),
+            3.0,
+            &crossing,
+            1e-6,
+        ),
+        (
+            "fold, uniform, 20 px",
+            &planet,
+            uniform(0.004),
+            20.0,
+            &crossing,
+            1e-6,
+        ),
+        (
+            "fold, linear 0.6, 10 px",
+            &planet,
+            linear(0.004),
+            10.0,
+            &crossing[..60],
+            1e-5,
+        ),
         (
             "cusp and lenses, uniform, 10 px",
             &resonant,
@@ -121,7 +162,11 @@ fn map_reads_are_within_their_stated_error_and_tight() {
             let r = assert_within_stated(&name, &curve, &refs);
             // Tight: the median estimate at most 10 times the actual error over all cases
             // (issue 15; below), and no case far beyond.
-            assert!(median(r.clone()) <= 15.0, "{name}: median {}", median(r.clone()));
+            assert!(
+                median(r.clone()) <= 15.0,
+                "{name}: median {}",
+                median(r.clone())
+            );
             ratios.extend(r);
             // With the fallback every value is within the tolerance 1e-3 of the reference.
             let tol = 1e-3;
@@ -147,7 +192,10 @@ fn map_reads_are_within_their_stated_error_and_tight() {
         }
     }
     let pooled = median(ratios);
-    assert!((1.0..=10.0).contains(&pooled), "median estimate / actual error {pooled}");
+    assert!(
+        (1.0..=10.0).contains(&pooled),
+        "median estimate / actual error {pooled}"
+    );
 }
 
 #[test]
@@ -297,8 +345,20 @@ fn readme_compare_example_is_within_the_tolerance() {
         &dir,
         "compare",
         &[
-            "--map", "demo.fits", "--t0", "0", "--u0", "-0.388", "--te", "30", "--alpha", "60",
-            "--time-range", "2.72,10.72,201", "--rho", "0.003",
+            "--map",
+            "demo.fits",
+            "--t0",
+            "0",
+            "--u0",
+            "-0.388",
+            "--te",
+            "30",
+            "--alpha",
+            "60",
+            "--time-range",
+            "2.72,10.72,201",
+            "--rho",
+            "0.003",
         ],
     );
     assert_eq!(code, 0, "{err}");
