@@ -182,8 +182,14 @@ pub fn run(args: CompareArgs) -> Result<()> {
     let path = args.trajectory.path()?;
     let map = read_fits(&args.map)?;
     let lens = map.provenance.lens.clone();
-    // Checks the tolerance and the lens before the long work.
+    // Checks the tolerances and the lens before the long work.
     contour::ContourSolver::new(&lens, args.tol)?;
+    if !(args.curve_tol > 0.0 && args.curve_tol <= 0.1) {
+        return Err(Error::input(format!(
+            "--curve-tol: must be a relative tolerance in (0, 0.1], got {}",
+            args.curve_tol
+        )));
+    }
     let sampler = Sampler::new(profile)
         .tol(args.curve_tol)
         .memory_limit(default_memory_limit());

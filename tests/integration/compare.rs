@@ -194,7 +194,18 @@ fn bad_input_is_one_line_exit_2_and_nothing_written() {
     std::fs::write(dir.join("good.csv"), "x,y\n0.1,0\n").unwrap();
     std::fs::write(dir.join("junk.fits"), "not a FITS file").unwrap();
     let png = ["--png", "c.png"];
-    let cases: [(&[&str], &str); 8] = [
+    let cases: [(&[&str], &str); 9] = [
+        (
+            &[
+                "--map",
+                "m.fits",
+                "--path",
+                "good.csv",
+                "--curve-tol",
+                "nan",
+            ],
+            "--curve-tol",
+        ),
         (&["--map", "m.fits", "--path", "path.csv"], "path.csv:3"),
         (
             &["--map", "nothere.fits", "--path", "good.csv"],
