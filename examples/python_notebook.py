@@ -55,7 +55,7 @@ print(f"map: {m}, mean magnification {m.mean():.4f}, built in {m.provenance['bui
 # %% A caustic-crossing curve: map reads against contour integration.
 t = np.linspace(10.5, 15.0, 300 if args.quick else 2000)
 x, y = causeway.trajectory(TRUTH["t0"], TRUTH["u0"], TRUTH["te"], TRUTH["alpha"], t)
-a_map, method = causeway.map_magnification(m, x, y, TRUTH["rho"], ld=0.5)
+a_map, a_error, method = causeway.map_magnification(m, x, y, TRUTH["rho"], ld=0.5)
 a_exact, err, _ = causeway.contour_magnification(lens, x, y, TRUTH["rho"], ld=0.5, tol=1e-4)
 fig, (top, bottom) = plt.subplots(2, 1, sharex=True, figsize=(7, 5), height_ratios=[3, 1])
 top.plot(t, a_exact, lw=1.5, label="contour integration")

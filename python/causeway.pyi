@@ -88,8 +88,8 @@ def build_map(
     center: tuple[float, float],
     width: float,
     pixels: int,
-    rays: float = 100.0,
-    engine: str = "rays",
+    rays: Optional[float] = None,
+    engine: Optional[str] = None,
     accuracy: Optional[float] = None,
     threads: Optional[int] = None,
     max_memory: Optional[int] = None,
@@ -117,10 +117,11 @@ def map_magnification(
     rho: float,
     ld: Optional[float] = None,
     ld_sqrt: Optional[tuple[float, float]] = None,
-    tol: float = 1e-4,
+    tol: float = 1e-3,
     evaluation: str = "auto",
+    fallback: bool = True,
     threads: Optional[int] = None,
-) -> tuple[Floats, npt.NDArray[np.uint8]]: ...
+) -> tuple[Floats, Floats, npt.NDArray[np.uint8]]: ...
 def contour_magnification(
     lens: Lens,
     x: ArrayLike,

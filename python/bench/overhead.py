@@ -62,7 +62,7 @@ def main():
         x, y = rng.uniform(0.41, 0.49, k), rng.uniform(-0.035, 0.035, k)
         kw = dict(ld=0.5, evaluation=evaluation, threads=a.threads)
         py_s, rust_s = median_pair(
-            lambda: causeway.map_magnification(m, x, y, 0.001, **kw),
+            lambda: causeway.map_magnification(m, x, y, 0.001, fallback=False, **kw),
             lambda: causeway._time_map_magnification(m, x, y, 0.001, **kw),
             a.repeats,
         )

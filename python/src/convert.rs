@@ -4,8 +4,9 @@
 use causeway::Error;
 use ndarray::{ArrayD, IxDyn};
 use numpy::{AllowTypeChange, IntoPyArray, PyArrayDyn, PyArrayLikeDyn};
-use pyo3::exceptions::{PyRuntimeError, PyValueError};
+use pyo3::exceptions::{PyKeyboardInterrupt, PyRuntimeError, PyValueError};
 use pyo3::prelude::*;
+use std::sync::atomic::{AtomicBool, Ordering};
 
 /// Any array-like of floats (lists, scalars, other dtypes are converted).
 pub type Floats<'py> = PyArrayLikeDyn<'py, f64, AllowTypeChange>;
@@ -28,6 +29,7 @@ pub fn to_py(e: Error) -> PyErr {
             format!("{}: {source}", path.display()),
         )),
         Error::Numerical(m) => PyRuntimeError::new_err(m),
+        Error::Interrupted => PyKeyboardInterrupt::new_err("interrupted"),
     }
 }
 
@@ -110,6 +112,47 @@ pub fn shaped<'py, T: numpy::Element>(
     let a = ArrayD::from_shape_vec(IxDyn(shape), v)
         .map_err(|e| PyRuntimeError::new_err(e.to_string()))?;
     Ok(a.into_pyarray(py))
+}
+
+/// A listener for a build run by [`interruptible`]: asks the engine to stop after Ctrl-C.
+pub struct Stop(AtomicBool);
+
+impl causeway::engine::Progress for Stop {
+    fn cancelled(&self) -> bool {
+        self.0.load(Ordering::Relaxed)
+    }
+}
+
+/// Runs `f` without the GIL on a thread of its own while this thread checks for Ctrl-C every
+/// 50 ms; on Ctrl-C the listener handed to `f` asks it to stop, and the KeyboardInterrupt is
+/// raised once it has.
+pub fn interruptible<T: Send>(
+    py: Python<'_>,
+    f: impl FnOnce(&Stop) -> PyResult<T> + Send,
+) -> PyResult<T> {
+    let stop = Stop(AtomicBool::new(false));
+    let mut signal: Option<PyErr> = None;
+    let result = py.detach(|| {
+        std::thread::scope(|scope| {
+            let worker = scope.spawn(|| f(&stop));
+            while !worker.is_finished() {
+                std::thread::sleep(std::time::Duration::from_millis(50));
+                if signal.is_none() {
+                    if let Err(e) = Python::attach(|py| py.check_signals()) {
+                        signal = Some(e);
+                        stop.0.store(true, Ordering::Relaxed);
+                    }
+                }
+            }
+            worker
+                .join()
+                .unwrap_or_else(|panic| std::panic::resume_unwind(panic))
+        })
+    });
+    match signal {
+        Some(e) => Err(e),
+        None => result,
+    }
 }
 
 /// Runs `f` in a pool of `threads` workers (rayon's global pool when `None`).

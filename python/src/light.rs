@@ -15,7 +15,18 @@ use causeway::source::{LimbDarkening, SourceProfile};
 use pyo3::prelude::*;
 
 /// Names of the codes in the `method` array of `map_magnification`.
-pub const MAP_METHODS: [&str; 5] = ["direct", "convolved", "bilinear", "expansion", "point"];
+pub const MAP_METHODS: [&str; 6] = [
+    "direct",
+    "convolved",
+    "bilinear",
+    "expansion",
+    "point",
+    "contour",
+];
+
+/// A curve read from a map: magnifications, their estimated absolute errors, method codes
+/// (naming [`MAP_METHODS`]) and warnings.
+pub type MapRead = (Vec<f64>, Vec<f64>, Vec<u8>, Vec<String>);
 /// Names of the codes in the `method` array of `contour_magnification`.
 pub const CONTOUR_METHODS: [&str; 4] = ["point", "far-point", "small-source", "contour"];
 
@@ -102,14 +113,16 @@ pub fn evaluation(name: &str) -> PyResult<Evaluation> {
 }
 
 /// Finite-source values from `map` at `points`, continued off the map with the map's lens
-/// (as the command line's `curve --map` does): magnifications, method codes and warnings.
+/// (as the command line's `curve --map` does); with `fallback`, every value whose error
+/// estimate exceeds `tol` is recomputed by contour integration (as `curve` does by default).
 pub fn sample_map(
     map: &MagnificationMap,
     profile: SourceProfile,
     points: &[(f64, f64)],
     tol: f64,
     evaluation: Evaluation,
-) -> causeway::Result<(Vec<f64>, Vec<u8>, Vec<String>)> {
+    fallback: bool,
+) -> causeway::Result<MapRead> {
     let lens: &LensSystem = &map.provenance.lens;
     let solver = (lens.len() > 1)
         .then(|| ImageSolver::new(lens).ok())
@@ -118,32 +131,44 @@ pub fn sample_map(
         Some(s) => s,
         None => lens,
     };
-    let curve = Sampler::new(profile)
+    let mut sampler = Sampler::new(profile)
         .tol(tol)
         .evaluation(evaluation)
         .lens(point)
-        .map(map)
-        .sample(points)?;
-    let code = |m: Method| MAP_METHODS.iter().position(|&n| n == m.name()).unwrap() as u8;
+        .map(map);
+    if fallback {
+        sampler = sampler.fallback(lens);
+    }
+    let curve = sampler.sample(points)?;
+    let code = |m: Method| {
+        MAP_METHODS
+            .iter()
+            .position(|&n| n == m.name())
+            .expect("every method is named in MAP_METHODS") as u8
+    };
     Ok((
         curve.samples.iter().map(|s| s.magnification).collect(),
+        curve.samples.iter().map(|s| s.error).collect(),
         curve.samples.iter().map(|s| code(s.method)).collect(),
         curve.warnings,
     ))
 }
 
-/// map_magnification(map, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, evaluation="auto",
-/// threads=None) -> (A, method)
+/// map_magnification(map, x, y, rho, ld=None, ld_sqrt=None, tol=1e-3, evaluation="auto",
+/// fallback=True, threads=None) -> (A, error, method)
 ///
 /// Magnification of a source of radius `rho` (Einstein radii; 0 is a point source) centred at
-/// (x, y) (arrays of one shape), read from `map`: A float64 and method uint8 of that shape,
-/// method codes naming `causeway.MAP_METHODS` ("direct", "convolved", "bilinear",
-/// "expansion", "point"). Off the map the point-source magnification with its small-source
-/// correction serves where its error estimate is below `tol` (relative); a point it cannot
-/// serve raises ValueError. `ld` is the linear limb-darkening coefficient u, `ld_sqrt` the
+/// (x, y) (arrays of one shape), read from `map`: A and its estimated absolute error (float64)
+/// and method (uint8) of that shape, method codes naming `causeway.MAP_METHODS` ("direct",
+/// "convolved", "bilinear", "expansion", "point", "contour"). `tol` is one relative tolerance
+/// for every value, in (0, 0.1]: with `fallback` (the default, as `causeway curve`) a value
+/// whose error estimate exceeds it is recomputed by contour integration with the map's lens
+/// (method "contour"); without, the map's values are kept with their estimates. Off the map
+/// the point-source magnification with its small-source correction serves where its error
+/// estimate is below `tol`; a point nothing can serve raises ValueError. `ld` is the linear limb-darkening coefficient u, `ld_sqrt` the
 /// square-root law's (c, d). Warnings (a source too small for the map) go to `warnings.warn`.
 #[pyfunction]
-#[pyo3(signature = (map, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, evaluation="auto", threads=None))]
+#[pyo3(signature = (map, x, y, rho, ld=None, ld_sqrt=None, tol=1e-3, evaluation="auto", fallback=true, threads=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn map_magnification<'py>(
     py: Python<'py>,
@@ -155,15 +180,16 @@ pub fn map_magnification<'py>(
     ld_sqrt: Option<(f64, f64)>,
     tol: f64,
     evaluation: &str,
+    fallback: bool,
     threads: Option<usize>,
-) -> PyResult<(Array<'py, f64>, Array<'py, u8>)> {
+) -> PyResult<(Array<'py, f64>, Array<'py, f64>, Array<'py, u8>)> {
     let profile = profile(rho, ld, ld_sqrt)?;
     let evaluation = self::evaluation(evaluation)?;
     let (xs, ys, shape) = pair(&x, &y, ("x", "y"))?;
     let points: Vec<(f64, f64)> = xs.into_iter().zip(ys).collect();
-    let (a, m, warnings) = py.detach(|| {
+    let (a, e, m, warnings) = py.detach(|| {
         with_threads(threads, || {
-            sample_map(&map.inner, profile, &points, tol, evaluation)
+            sample_map(&map.inner, profile, &points, tol, evaluation, fallback)
         })
     })?;
     py.check_signals()?;
@@ -173,7 +199,11 @@ pub fn map_magnification<'py>(
             warn.call1((w.trim_start_matches("warning: "),))?;
         }
     }
-    Ok((shaped(py, a, &shape)?, shaped(py, m, &shape)?))
+    Ok((
+        shaped(py, a, &shape)?,
+        shaped(py, e, &shape)?,
+        shaped(py, m, &shape)?,
+    ))
 }
 
 /// contour_magnification(lens, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, threads=None)

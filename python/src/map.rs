@@ -1,8 +1,9 @@
 //! Magnification maps: building, the pixel data as a numpy view, window, provenance, FITS.
 
-use crate::convert::{bad, finite, ok, with_threads};
+use crate::convert::{bad, finite, interruptible, ok, with_threads};
 use crate::lens::Lens;
-use causeway::engine::{self, Engine};
+use causeway::engine;
+use causeway::map::certificate::ErrorSummary;
 use causeway::map::{read_fits, write_fits, MagnificationMap, Window};
 use numpy::PyArray2;
 use pyo3::prelude::*;
@@ -92,7 +93,10 @@ impl Map {
     }
 
     /// How the map was made: dict with "engine", "density", "rays_shot", "rays_landed",
-    /// "version", "build_time" (UTC), "build_seconds".
+    /// "version", "build_time" (UTC), "build_seconds", and "certificate": the measured
+    /// relative pixel errors (dict with "seed", "away" and "near": each (count, median, 99th
+    /// percentile) or None when no pixel of the kind was measured, "skipped", "seconds"; None for a map
+    /// built before certificates).
     #[getter]
     fn provenance<'py>(&self, py: Python<'py>) -> PyResult<Bound<'py, PyDict>> {
         let p = &self.inner.provenance;
@@ -104,6 +108,20 @@ impl Map {
         d.set_item("version", &p.version)?;
         d.set_item("build_time", &p.build_time)?;
         d.set_item("build_seconds", p.build_seconds)?;
+        let certificate = match &p.certificate {
+            Some(c) => {
+                let cd = PyDict::new(py);
+                cd.set_item("seed", c.seed)?;
+                let summary = |e: &Option<ErrorSummary>| e.map(|e| (e.count, e.median, e.p99));
+                cd.set_item("away", summary(&c.away))?;
+                cd.set_item("near", summary(&c.near))?;
+                cd.set_item("skipped", c.skipped)?;
+                cd.set_item("seconds", c.seconds)?;
+                Some(cd)
+            }
+            None => None,
+        };
+        d.set_item("certificate", certificate)?;
         Ok(d)
     }
 
@@ -121,16 +139,18 @@ impl Map {
     }
 }
 
-/// build_map(lens, center, width, pixels, rays=100.0, engine="rays", accuracy=None,
+/// build_map(lens, center, width, pixels, rays=None, engine=None, accuracy=None,
 /// threads=None, max_memory=None) -> Map
 ///
 /// Builds a map of the square window of side `width` (Einstein radii) centred on `center`
-/// (x, y), `pixels` per side. `rays` is the engine's density (rays, or image-plane cells for
-/// engine="polygon", per unlensed pixel area); `accuracy` (a median relative pixel error such
-/// as 1e-3) chooses engine and density instead. `max_memory` in bytes (default half the
-/// machine's memory). The pixel data are the same whatever the thread count.
+/// (x, y), `pixels` per side, as `causeway map` does: without `rays`, the engine ("polygon"
+/// unless `engine="rays"`) and its density are chosen for `accuracy`, a median relative pixel
+/// error (default 1e-3); `rays` sets the density itself (rays, or image-plane cells for
+/// engine="polygon", per unlensed pixel area; engine "rays" unless named). `max_memory` in
+/// bytes (default half the machine's memory). The pixel data are the same whatever the thread
+/// count; Ctrl-C stops the build within a fraction of a second (KeyboardInterrupt).
 #[pyfunction]
-#[pyo3(signature = (lens, center, width, pixels, rays=100.0, engine="rays", accuracy=None, threads=None, max_memory=None))]
+#[pyo3(signature = (lens, center, width, pixels, rays=None, engine=None, accuracy=None, threads=None, max_memory=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn build_map(
     py: Python<'_>,
@@ -138,8 +158,8 @@ pub fn build_map(
     center: (f64, f64),
     width: f64,
     pixels: usize,
-    rays: f64,
-    engine: &str,
+    rays: Option<f64>,
+    engine: Option<&str>,
     accuracy: Option<f64>,
     threads: Option<usize>,
     max_memory: Option<u64>,
@@ -152,24 +172,34 @@ pub fn build_map(
     if pixels == 0 {
         return Err(bad("pixels", "must be at least 1"));
     }
-    if !(rays.is_finite() && rays > 0.0) {
+    if let Some(rays) = rays.filter(|r| !(r.is_finite() && *r > 0.0)) {
         return Err(bad("rays", format!("must be finite and > 0, got {rays}")));
     }
+    if rays.is_some() && accuracy.is_some() {
+        return Err(bad("accuracy", "give rays or accuracy, not both"));
+    }
     let window = ok(Window::new(center, width, pixels))?;
-    let engine: Box<dyn Engine> = match accuracy {
-        Some(target) => {
-            if !(target.is_finite() && target > 0.0) {
-                return Err(bad(
-                    "accuracy",
-                    format!("must be finite and > 0, got {target}"),
-                ));
-            }
-            let (name, density) = ok(engine::accuracy::choose(&lens.inner, &window, target))?;
-            ok(engine::by_name(name, density))?
-        }
-        None => engine::by_name(engine, rays)
-            .map_err(|e| bad("engine", crate::convert::argument_names(&e.to_string())))?,
-    };
+    let target = accuracy.unwrap_or(engine::accuracy::DEFAULT_ACCURACY);
+    if !(target.is_finite() && target > 0.0) {
+        return Err(bad(
+            "accuracy",
+            format!("must be finite and > 0, got {target}"),
+        ));
+    }
+    if let Some(name) = engine.filter(|n| !engine::ENGINE_NAMES.contains(n)) {
+        return Err(bad(
+            "engine",
+            format!("must be one of {:?}, got {name:?}", engine::ENGINE_NAMES),
+        ));
+    }
+    let (engine, _) = ok(engine::accuracy::engine_for(
+        engine,
+        rays,
+        &lens.inner,
+        &window,
+        target,
+        accuracy.is_some(),
+    ))?;
     let limit = max_memory.unwrap_or_else(engine::default_memory_limit);
     engine::check_memory(engine.as_ref(), &lens.inner, &window, limit).map_err(|need| {
         bad(
@@ -181,6 +211,10 @@ pub fn build_map(
             ),
         )
     })?;
-    let map = py.detach(|| with_threads(threads, || engine.build(&lens.inner, &window)))?;
+    let map = interruptible(py, |stop| {
+        with_threads(threads, || {
+            engine.build_with_progress(&lens.inner, &window, stop)
+        })
+    })?;
     Ok(Map { inner: map })
 }

@@ -44,17 +44,18 @@ pub fn ephemeris(e: &Bound<'_, PyAny>) -> PyResult<Ephemeris> {
         )
     })?;
     let (v, shape) = values(&a);
-    let header =
-        match shape[..] {
-            [_, 4] => "t,x,y,z",
-            [_, 3] => "t,north,east",
-            _ => return Err(bad(
+    let header = match shape[..] {
+        [_, 4] => "t,x,y,z",
+        [_, 3] => "t,north,east",
+        _ => {
+            return Err(bad(
                 "ephemeris",
                 format!(
                     "must have shape (n, 4) (t, x, y, z) or (n, 3) (t, north, east), got {shape:?}"
                 ),
-            )),
-        };
+            ))
+        }
+    };
     // Shortest round-trip text: parsing gives back the same doubles and the library's checks.
     let mut text = format!("{header}\n");
     for r in v.chunks(shape[1]) {

@@ -83,13 +83,13 @@ def test_map_reads_against_witt_mao_and_the_annulus_integral():
     checked = 0
     for i in np.flatnonzero(on):
         kw = law_args(ref["law"][i], ref["ld_a"][i], ref["ld_b"][i])
-        a, method = causeway.map_magnification(m, [ref["u"][i]], [0.0], ref["rho"][i], evaluation="direct", **kw)
+        a, _, method = causeway.map_magnification(m, [ref["u"][i]], [0.0], ref["rho"][i], evaluation="direct", fallback=False, **kw)
         assert causeway.MAP_METHODS[method[0]] == "direct"
         assert abs(a[0] / ref["magnification"][i] - 1) < (3e-3 if ref["u"][i] < ref["rho"][i] else 1e-3)
         checked += 1
     assert checked >= 10
     # Off the map: the point source with the small-source correction (Gould 2008).
-    a, method = causeway.map_magnification(m, [1.0], [0.5], 0.02, tol=1e-5)
+    a, _, method = causeway.map_magnification(m, [1.0], [0.5], 0.02, tol=1e-5)
     assert causeway.MAP_METHODS[method[0]] == "expansion"
     assert abs(a[0] / paczynski(np.hypot(1.0, 0.5)) - 1) < 1e-3
 
@@ -110,10 +110,14 @@ def test_curve_and_contour_equal_the_command_line(cli, tmp_path):
     out = read_csv(cli("curve", "--map", tmp_path / "m.fits", "--t0", 0, "--u0=-0.388", "--te", 30,
                        "--alpha", 60, "--times", tmp_path / "t.csv", "--rho", 0.003, "--ld", 0.5))
     x, y = causeway.trajectory(0.0, -0.388, 30.0, 60.0, times)
-    a, method = causeway.map_magnification(m, x, y, 0.003, ld=0.5)
+    a, error, method = causeway.map_magnification(m, x, y, 0.003, ld=0.5)
     np.testing.assert_array_equal(np.array(out["x"]), x)
     np.testing.assert_array_equal(np.array(out["magnification"]), a)
+    np.testing.assert_array_equal(np.array(out["error"]), error)
     assert out["method"] == [causeway.MAP_METHODS[k] for k in method]
+    # The promise of tol (1e-3): every value within it of its own error bar, recomputed by
+    # contour integration where the map could not say so.
+    assert np.all(error <= 1e-3 * a)
 
     pts = np.c_[np.linspace(0.42, 0.48, 40), np.linspace(-0.01, 0.01, 40)]
     write_csv(tmp_path / "p.csv", "x,y", pts[:, 0], pts[:, 1])

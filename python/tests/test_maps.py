@@ -99,3 +99,32 @@ rule = "planetary"
     # Safizadeh 1998; Han 2006): the window is placed on it.
     host = m.lens.x[0]
     assert abs(m.center[0] - host - (1.3 - 1 / 1.3)) < 0.05
+
+
+def test_ctrl_c_stops_a_map_build():
+    # A build of some 9e9 rays on one thread (about a minute at 1.5e8 rays/s) interrupted after
+    # 0.3 s: KeyboardInterrupt arrives from inside the build, long before it could finish.
+    import _thread
+    import threading
+    import time
+
+    lens = causeway.Lens.binary(1.0, 1e-3)
+    timer = threading.Timer(0.3, _thread.interrupt_main)
+    started = time.monotonic()
+    timer.start()
+    with pytest.raises(KeyboardInterrupt):
+        causeway.build_map(lens, (0.0, 0.0), 2.0, 3000, rays=1000, engine="rays", threads=1)
+    timer.cancel()
+    assert time.monotonic() - started < 20
+
+
+def test_default_build_chooses_by_accuracy_and_carries_its_certificate():
+    # As `causeway map` without --rays: polygon at the density for a median error of 1e-3, and
+    # the certificate measured on the map (numbers checked against numpy in tests/python).
+    m = causeway.build_map(causeway.Lens.binary(1.2, 1e-3), (0.0, 0.0), 0.4, 100)
+    p = m.provenance
+    assert p["engine"] == "polygon"
+    count, median, p99 = p["certificate"]["away"]
+    assert count > 100 and 0 <= median <= p99
+    with pytest.raises(ValueError, match="accuracy"):
+        causeway.build_map(causeway.Lens.single(), (0, 0), 1.0, 10, rays=10, accuracy=1e-3)
