@@ -49,14 +49,14 @@ pub struct MapArgs {
     pub rays: Option<f64>,
     /// Map engine: rays (inverse ray shooting) or polygon (inverse polygon mapping); default
     /// polygon, or rays when --rays is given.
-    #[arg(long, value_name = "E")]
+    #[arg(long, value_name = "ENGINE")]
     pub engine: Option<String>,
     /// Median relative pixel error to aim for when --rays is not given: sets the engine's
     /// density by the rule fitted to the engine study (src/engine/accuracy.rs). The map's
     /// header then certifies the error actually measured. [default: 1e-3]
     #[arg(
         long,
-        value_name = "E",
+        value_name = "ERR",
         conflicts_with = "rays",
         allow_hyphen_values = true
     )]
