@@ -5,10 +5,15 @@
 //! along x = 0.1); "far": 64 centres between 1.5 and 2 Einstein radii from the centre of mass,
 //! with the small-source shortcut allowed and with contours forced. Baseline in the same run:
 //! the point-source magnification at the same centres (the exact solver alone), so the ratios
-//! read as "point-source solves per finite-source point". Besides criterion's figures, the
-//! setup prints the median and 90th percentile of single-point times.
+//! read as "point-source solves per finite-source point".
 //!
-//! Run: `cargo bench --bench contour`
+//! Besides criterion's figures (the mean over the 64 points), the setup prints the median over
+//! the points of the time per point, each point timed `REPEATS` times and its fastest time kept
+//! (so that a busy machine's pauses do not count), and the same for a point-source solve of the
+//! same point from fresh initial guesses, with their ratio.
+//!
+//! Run: `cargo bench --bench contour` (pin to one core with `taskset -c 0` for the figures of
+//! README and DEVELOPERS.md)
 
 use causeway::contour::ContourSolver;
 use causeway::lens::LensSystem;
@@ -39,21 +44,26 @@ fn fold_crossing(lens: &LensSystem) -> f64 {
     lo
 }
 
-fn per_point_times(
-    solver: &mut ContourSolver,
-    centres: &[Complex64],
-    source: &SourceProfile,
-) -> (f64, f64) {
+/// Times of one evaluation per repeat.
+const REPEATS: usize = 15;
+
+/// Median over `centres` of the fastest of [`REPEATS`] timings of `eval` at each centre, in
+/// microseconds.
+fn median_time(centres: &[Complex64], mut eval: impl FnMut(Complex64)) -> f64 {
     let mut t: Vec<f64> = centres
         .iter()
         .map(|&c| {
-            let start = Instant::now();
-            black_box(solver.magnification(c, source).unwrap());
-            start.elapsed().as_secs_f64() * 1e6
+            (0..REPEATS)
+                .map(|_| {
+                    let start = Instant::now();
+                    eval(c);
+                    start.elapsed().as_secs_f64() * 1e6
+                })
+                .fold(f64::INFINITY, f64::min)
         })
         .collect();
     t.sort_by(f64::total_cmp);
-    (t[t.len() / 2], t[t.len() * 9 / 10])
+    t[t.len() / 2]
 }
 
 fn bench(c: &mut Criterion) {
@@ -79,8 +89,18 @@ fn bench(c: &mut Criterion) {
         } else {
             &mut contour
         };
-        let (median, p90) = per_point_times(solver, centres, &source);
-        eprintln!("{name}: single-point median {median:.1} us, 90th percentile {p90:.1} us");
+        let finite = median_time(centres, |c| {
+            black_box(solver.magnification(c, &source).unwrap());
+        });
+        let single = median_time(centres, |c| {
+            point.reset();
+            black_box(point.magnification(c).unwrap());
+        });
+        eprintln!(
+            "{name}: median time per point {finite:.1} us; point-source solve {single:.2} us \
+             (fresh start); ratio {:.0}",
+            finite / single
+        );
     }
 
     let mut group = c.benchmark_group("contour rho=0.01 tol=1e-4");

@@ -15,7 +15,7 @@
 use super::segment::{cross, join, track, Piece};
 use crate::error::Result;
 use crate::lens::LensSystem;
-use crate::solve::ImageSolver;
+use crate::solve::{ImageSolver, WarmStart};
 use num_complex::Complex64;
 
 /// Most images of a point source the solver can return (5 (N - 1) for N = 4 lenses is 15).
@@ -49,10 +49,13 @@ pub(crate) struct Node {
     pub theta: f64,
     pub len: usize,
     pub pts: [ImagePoint; MAX_IMAGES],
+    /// The solver's roots for this sample, to seed the solves of samples next to it.
+    pub warm: WarmStart,
 }
 
 impl Node {
-    /// Solves the images of `center + rho e^{i theta}`.
+    /// Solves the images of `center + rho e^{i theta}`, warm-started from the solver's last
+    /// call.
     pub fn solve(
         solver: &mut ImageSolver,
         lens: &LensSystem,
@@ -67,6 +70,7 @@ impl Node {
             theta,
             len: images.len().min(MAX_IMAGES),
             pts: [ImagePoint::default(); MAX_IMAGES],
+            warm: WarmStart::default(),
         };
         for (p, im) in node.pts.iter_mut().zip(images) {
             let kappa = lens.shear(im.position);
@@ -78,6 +82,7 @@ impl Node {
                 parity: im.parity,
             };
         }
+        node.warm = solver.warm_start();
         Ok(node)
     }
 

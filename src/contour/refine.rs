@@ -66,7 +66,12 @@ struct Boundary<'a> {
 }
 
 impl Boundary<'_> {
-    fn add(&mut self, theta: f64) -> Result<usize> {
+    /// Solves a new sample at `theta`, its solve seeded by the roots of sample `near` (a
+    /// neighbour) when given, else by the last solve.
+    fn add(&mut self, theta: f64, near: Option<usize>) -> Result<usize> {
+        if let Some(k) = near {
+            self.solver.resume(&self.nodes[k].warm);
+        }
         let node = Node::solve(self.solver, self.lens, self.center, self.rho, theta)?;
         self.nodes.push(node);
         Ok(self.nodes.len() - 1)
@@ -88,7 +93,7 @@ impl Boundary<'_> {
                     self.center.re, self.center.im, self.rho, self.nodes[a].len, self.nodes[b].len
                 )));
             }
-            let m = self.add(0.5 * (ta + tb))?;
+            let m = self.add(0.5 * (ta + tb), Some(a))?;
             stack.push((m, b));
             stack.push((a, m));
         }
@@ -157,7 +162,7 @@ fn sampled_disk(
     angles.sort_by(f64::total_cmp);
     angles.dedup_by(|b, a| *b - *a < 1e-9);
     for &a in &angles {
-        boundary.add(a)?;
+        boundary.add(a, None)?;
     }
     // The last sample closes the loop: the images of theta = 0 again, at theta = 2 pi.
     let mut last = boundary.nodes[0];
@@ -194,7 +199,7 @@ fn sampled_disk(
             frozen.push(worst);
             continue;
         }
-        let m = boundary.add(0.5 * (ta + tb))?;
+        let m = boundary.add(0.5 * (ta + tb), Some(worst.a))?;
         boundary.settle(worst.a, m, &mut fresh)?;
         boundary.settle(m, worst.b, &mut fresh)?;
         total.area -= worst.piece.area;

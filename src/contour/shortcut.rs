@@ -23,6 +23,13 @@ use crate::lens::LensSystem;
 use crate::solve::ImageSolver;
 use num_complex::Complex64;
 
+/// The shortcut is considered only for a disk whose centre is at least this many radii from the
+/// traced caustics: a seeded sweep of 5,000 disks near the caustics of seven binaries
+/// (`examples/contour_bounds.rs`) found the 13-point image count blind to caustics and cusp tips
+/// that slip between the stencil points (errors up to 1e5 times the estimate), and the
+/// hexadecapole estimate short of the truth while the series still feels the caustic.
+pub(crate) const CLEARANCE: f64 = 2.0;
+
 /// The error reported for the shortcut, and tested against the tolerance, is this many times the
 /// size of the hexadecapole term: scans of binaries next to planetary caustics (rho = 0.05)
 /// found the true error up to about five times that size.

@@ -151,6 +151,15 @@ pub struct ImageSolver {
 
 const ZERO: Complex64 = Complex64::new(0.0, 0.0);
 
+/// The warm-start state of an [`ImageSolver`]: the roots of one call and its source (the
+/// default seeds nothing).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct WarmStart {
+    roots: [Complex64; MAX_DEGREE],
+    degree: usize,
+    source: Complex64,
+}
+
 /// A polished root: lens-plane position, Jacobian determinant, residual.
 #[derive(Debug, Clone, Copy)]
 struct Candidate {
@@ -222,6 +231,24 @@ impl ImageSolver {
     /// Forgets the previous roots: the next call starts from fresh initial guesses.
     pub fn reset(&mut self) {
         self.warm_degree = 0;
+    }
+
+    /// The roots of the last call and its source: restored by [`ImageSolver::resume`], they
+    /// seed a later call for a nearby source whatever was solved in between (as when a contour
+    /// is bisected, and the best seed of a new sample is its neighbour's).
+    pub fn warm_start(&self) -> WarmStart {
+        WarmStart {
+            roots: self.roots,
+            degree: self.warm_degree,
+            source: self.last_source,
+        }
+    }
+
+    /// Seeds the next call with a state taken by [`ImageSolver::warm_start`] (of this solver).
+    pub fn resume(&mut self, state: &WarmStart) {
+        self.roots = state.roots;
+        self.warm_degree = state.degree;
+        self.last_source = state.source;
     }
 
     /// The images of a point source at `zeta`, sorted by x then y. The slice lives in the

@@ -28,7 +28,7 @@ pub mod images;
 pub mod polynomial;
 pub mod roots;
 
-pub use images::{Image, ImageSolver, LOOSE_TOLERANCE, MAX_LENSES, RESIDUAL_TOLERANCE};
+pub use images::{Image, ImageSolver, WarmStart, LOOSE_TOLERANCE, MAX_LENSES, RESIDUAL_TOLERANCE};
 
 use crate::error::Result;
 use crate::lens::LensSystem;
