@@ -8,7 +8,7 @@
 //! radius where the disk first touches a caustic (radius `d`, the distance of the centre from
 //! the caustics): a quadrature across that radius converges erratically, and two successive sums
 //! can agree by chance far from the truth (a seeded sweep, `examples/contour_bounds.rs`, found
-//! one 28 times off its estimate). So when `0 < d < rho` the quadrature is split there, half the
+//! one 28 times off its estimate). So when `0.05 rho < d < rho` the quadrature is split there, half the
 //! nodes on each side. Each disk is computed to half the tolerance; the node count starts at
 //! [`FIRST_NODES`] and doubles until the last two changes of the sum are both below half the
 //! tolerance (the last change alone fell short of the error near a planetary caustic, where a
@@ -21,6 +21,9 @@ use crate::source::{gauss_legendre, LimbDarkening, SourceProfile};
 /// Gauss–Legendre nodes of the first annulus sum.
 pub const FIRST_NODES: usize = 2;
 
+/// Least split radius, as a fraction of the source radius (see [`disks`]).
+const MIN_SPLIT: f64 = 0.05;
+
 /// Most nodes tried.
 const MAX_NODES: usize = 256;
 
@@ -28,7 +31,10 @@ const MAX_NODES: usize = 256;
 /// `split` when it lies inside the disk (weights sum to 1).
 fn disks(source: &SourceProfile, nodes: usize, split: f64) -> Vec<(f64, f64)> {
     let rho = source.rho;
-    if !(split > 0.0 && split < rho) || source.is_uniform() {
+    // A disk touching the caustics only within a small fraction of its radius needs no split
+    // (its inner disks carry a weight of that fraction squared), and splitting there would ask
+    // for disks too small to link their images (radii of 1e-9 for a centre on a point lens).
+    if !(split > MIN_SPLIT * rho && split < rho) || source.is_uniform() {
         return source.as_uniform_disks(nodes);
     }
     // I(mu) / I0 = a + b mu + e sqrt(mu), with mu = sqrt(1 - (r / rho)^2) = s^2.
