@@ -118,12 +118,7 @@ fn draw(index: usize, seed: u64, caustics: &[Vec<Vec<Complex64>>]) -> Case {
 }
 
 fn profile(rho: f64, ld: f64) -> SourceProfile {
-    let law = if ld == 0.0 {
-        LimbDarkening::Uniform
-    } else {
-        LimbDarkening::Linear { u: ld }
-    };
-    SourceProfile::new(rho, law).unwrap()
+    SourceProfile::new(rho, LimbDarkening::linear(ld)).unwrap()
 }
 
 fn main() {

@@ -34,6 +34,23 @@ pub enum LimbDarkening {
     },
 }
 
+impl LimbDarkening {
+    /// The linear law of coefficient `u`, or [`LimbDarkening::Uniform`] when `u` is 0.
+    ///
+    /// ```
+    /// use causeway::source::LimbDarkening;
+    /// assert_eq!(LimbDarkening::linear(0.0), LimbDarkening::Uniform);
+    /// assert_eq!(LimbDarkening::linear(0.6), LimbDarkening::Linear { u: 0.6 });
+    /// ```
+    pub fn linear(u: f64) -> Self {
+        if u == 0.0 {
+            LimbDarkening::Uniform
+        } else {
+            LimbDarkening::Linear { u }
+        }
+    }
+}
+
 /// A circular source: radius and limb darkening.
 ///
 /// ```

@@ -8,12 +8,7 @@ use causeway::source::{LimbDarkening, SourceProfile};
 use num_complex::Complex64;
 
 fn profile(rho: f64, ld: f64) -> SourceProfile {
-    let law = if ld == 0.0 {
-        LimbDarkening::Uniform
-    } else {
-        LimbDarkening::Linear { u: ld }
-    };
-    SourceProfile::new(rho, law).unwrap()
+    SourceProfile::new(rho, LimbDarkening::linear(ld)).unwrap()
 }
 
 /// Single lens: uniform disks against the closed form of Witt & Mao 1994 (scipy.special elliptic
