@@ -337,6 +337,9 @@ pub fn refine_with_motion(
     Ok(out)
 }
 
+/// The chi^2 a return of rho to the start's value may cost (see [`Fitter::refine`]).
+const RHO_SLACK: f64 = 0.1;
+
 /// A refined model, its uncertainties and the minimiser's covariance.
 type Fitted = (BinaryModel, Vec<f64>, Option<Vec<Vec<f64>>>);
 
@@ -406,7 +409,17 @@ impl Fitter<'_> {
         }
         // alpha in [0, 2 pi), as the static table has it.
         x[2] = x[2].rem_euclid(std::f64::consts::TAU);
-        let model = from_vector(start, &x)?;
+        let mut model = from_vector(start, &x)?;
+        // A rho the data do not constrain drifts without changing chi^2 (to 1e-232 once): it
+        // keeps the start's value when that fits within RHO_SLACK.
+        let kept = BinaryModel {
+            rho: start.rho,
+            ..model
+        };
+        if start.rho > 0.0 && self.chi2(&kept)?.0 <= self.chi2(&model)?.0 + RHO_SLACK {
+            x[6] = start.rho.ln();
+            model = kept;
+        }
         // Where no point resolves the source, rho is unconstrained and J^T J singular: the
         // others are then measured at fixed rho, whose uncertainty is left unknown.
         let exact = residuals_at(self.options.tol);
