@@ -12,8 +12,9 @@
 //! 3. **Timing.** With [`FitOptions::adaptive_timing`] (the default) the grid's timings follow
 //!    the baseline: lines are also anchored on a localised anomaly ([`GridRule::timed`]); when
 //!    the anomaly covers the peak, or the baseline could not fix `u0` or `tE`, each line is
-//!    tried over a ladder of tE factors (0.5 to 2) and t0 shifts (-0.15 to 0.15 tE) and the whole
-//!    u0 range the window allows. The per-map trajectory budget
+//!    tried over a ladder of tE factors (0.5 to 2) and t0 shifts (-0.15 to 0.15 tE) about the
+//!    best single lens at its own `u0` (the valley widened from 0.001 to the largest `u0`
+//!    searched: [`Seed::widen`]), over the whole u0 range the window allows. The per-map trajectory budget
 //!    ([`GridRule::max_trajectories`]) then coarsens the lines rather than the timings.
 //! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged.
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
@@ -472,6 +473,7 @@ fn baseline(
     let trusted = options.baseline.is_some()
         || !(baseline.peak_covered || baseline.fit.bounds.iter().any(|b| b.is_shape()));
     if !trusted {
+        seed.widen(&baseline, &visible, untrusted_u0_max(&seed));
         seed.u0_bounds = Some(baseline.u0_range);
         note(format!(
             "baseline: its timing is not trusted (the anomaly at t = {:.3} covers the peak, or \
@@ -527,6 +529,16 @@ fn refine_starts(
     Ok((starts, zoomed))
 }
 
+/// The largest `u0` searched when the baseline's timing is not trusted: the larger of 0.3, three
+/// times the seed's and its valley's end.
+fn untrusted_u0_max(seed: &Seed) -> f64 {
+    seed.valley
+        .iter()
+        .map(|v: &ValleyPoint| v.u0)
+        .fold(3.0 * seed.u0, f64::max)
+        .max(0.3)
+}
+
 /// Step 3 of the module documentation.
 fn adapt_timing(rule: &mut GridRule, seed: &mut Seed, trusted: bool, note: &mut dyn FnMut(String)) {
     if seed.anomaly.is_some() {
@@ -539,16 +551,11 @@ fn adapt_timing(rule: &mut GridRule, seed: &mut Seed, trusted: bool, note: &mut 
         if rule.t0_shifts == [0.0] {
             rule.t0_shifts = WIDE_T0_SHIFTS.to_vec();
         }
-        let hi = seed
-            .valley
-            .iter()
-            .map(|v: &ValleyPoint| v.u0)
-            .fold(3.0 * seed.u0, f64::max);
-        seed.u0_bounds = Some((0.0, hi.max(0.3)));
+        let hi = untrusted_u0_max(seed);
+        seed.u0_bounds = Some((0.0, hi));
         note(format!(
-            "search: every line tried at {} timings, u0 from 0 to {:.3}",
+            "search: every line tried at {} timings, u0 from 0 to {hi:.3}",
             rule.timings_per_line(),
-            hi.max(0.3)
         ));
     }
 }

@@ -2,7 +2,10 @@
 //! (s, q, alpha, u0, t0, tE, rho) with exact magnifications, and uncertainties from its
 //! curvature.
 //!
-//! Each start goes through Levenberg-Marquardt on the normalised residuals (which follows the
+//! Each start first takes the best of a ladder of source radii ([`RHO_LADDER`] times its own,
+//! by exact chi^2 at the start's other parameters): a map search cannot try a radius below
+//! its pixel, and the refinement's steps in `ln rho` rarely cross the factors between a
+//! pixel-sized source and a caustic crossing's own. Then it goes through Levenberg-Marquardt on the normalised residuals (which follows the
 //! curved valleys of a caustic crossing), the Nelder-Mead simplex from there (which can step
 //! out of a shallow false minimum), and Levenberg-Marquardt again to converge. The
 //! uncertainties come from the Hessian of chi^2 at the minimum (see
@@ -29,6 +32,9 @@ pub const LM_ITERATIONS: u64 = 40;
 /// The magnification tolerance of the refinement's search stages when the one asked for is
 /// finer (the last stage and the reported chi^2 use the one asked for).
 pub const COARSE_TOL: f64 = 1e-3;
+
+/// The factors on a start's `rho` tried before the refinement (see the module documentation).
+pub const RHO_LADDER: [f64; 4] = [1.0, 0.5, 0.25, 0.125];
 
 /// Names of the model parameters, in the order of [`Refined::sigma`].
 pub const PARAMETERS: [&str; 7] = ["s", "q", "alpha", "u0", "t0", "tE", "rho"];
@@ -175,6 +181,7 @@ pub fn refine_until(
             }
         }
     };
+    let start = &best_radius(data, start, tol.max(COARSE_TOL));
     let x0 = to_vector(start);
     let step = steps(start);
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
@@ -238,6 +245,20 @@ pub fn refine_until(
         fluxes,
         evaluations: evaluations.load(Ordering::Relaxed) + 1,
     })
+}
+
+/// `start` with the radius of [`RHO_LADDER`] times its own that gives the least exact chi^2
+/// (magnification tolerance `tol`); `start` itself when none can be evaluated.
+fn best_radius(data: &[DataSet], start: &BinaryModel, tol: f64) -> BinaryModel {
+    RHO_LADDER
+        .iter()
+        .map(|f| BinaryModel {
+            rho: start.rho * f,
+            ..start.clone()
+        })
+        .filter_map(|m| exact_chi2(data, &m, tol).ok().map(|(chi2, _)| (m, chi2)))
+        .min_by(|a, b| a.1.total_cmp(&b.1))
+        .map_or_else(|| start.clone(), |(m, _)| m)
 }
 
 /// Uncertainties of [`PARAMETERS`] at `model` (a minimum of the exact chi^2 at tolerance

@@ -565,3 +565,35 @@ fn the_fit_at_fixed_u0_respects_the_bounds() {
         );
     }
 }
+
+#[test]
+fn a_trough_longer_than_the_event_is_not_masked_away() {
+    // Regression: a stellar binary's trough over the peak (the benchmark's stellar-1, variant
+    // 2: s 0.9, q 0.3, u0 0.1, tE 51 d) was masked over 71 days in a second round, and the fit
+    // without it put a different event beside the mask (t0 8963, u0 1.24, tE 12.7 d), whose
+    // timing the search then trusted. The run is now kept and the peak marked covered.
+    let event = causeway::fit::simulate::events::recovery_events()
+        .unwrap()
+        .into_iter()
+        .find(|e| e.name == "stellar-1")
+        .unwrap()
+        .variant(2)
+        .unwrap();
+    let line = *event.truth.trajectory.line();
+    let b = fit_baseline(&event.data().unwrap(), &BaselineOptions::default()).unwrap();
+    assert!(b.peak_covered, "notes {:?}", b.notes);
+    assert!(
+        b.notes.iter().any(|n| n.contains("it is the event")),
+        "notes {:?}",
+        b.notes
+    );
+    // The baseline's peak is the event's (within half its true tE), and no mask is longer than
+    // twice the tE of the event the baseline found.
+    assert!(
+        (b.fit.t0 - line.t0).abs() < 0.5 * line.te,
+        "t0 {} against {}",
+        b.fit.t0,
+        line.t0
+    );
+    assert!(b.masked.iter().all(|m| m.1 - m.0 <= 2.0 * b.fit.te));
+}

@@ -223,25 +223,83 @@ impl Seed {
     pub fn of_baseline(baseline: &Baseline, data: &[DataSet]) -> Seed {
         let fit = &baseline.fit;
         let anomaly = Self::departure(fit, data);
-        // A set with (almost) nothing outside the anomaly (a follow-up run over it) says
-        // nothing of the single lens: it is left out of the valley, as the baseline leaves it
-        // out, rather than letting the anomaly back in.
-        let masked: Vec<DataSet> = data
-            .iter()
-            .map(|d| {
-                baseline
-                    .masked
-                    .iter()
-                    .fold(d.clone(), |d, &(a, b)| d.without(a, b))
-            })
-            .filter(|d| d.len() >= 3)
-            .collect();
-        let masked = if masked.is_empty() {
-            data.to_vec()
-        } else {
-            masked
-        };
-        Self::along_valley(fit, &masked, anomaly)
+        Self::along_valley(fit, &outside_masks(baseline, data), anomaly)
+    }
+
+    /// Replaces the valley by one over `u0` from [`WIDE_VALLEY`]'s start to `u0_max`, for a
+    /// baseline whose timing is not trusted: each node is the best of the fits at that `u0`
+    /// started from its neighbour's timing, the old valley's, the baseline's and the fit to all
+    /// data's, so that every `u0` the
+    /// search tries gets the single lens's best timing there rather than one extrapolated from
+    /// a valley about a wrong `u0`. (The search still tries several timings about it.)
+    ///
+    /// ```
+    /// use causeway::fit::{photometry::DataSet, search::Seed, single::*};
+    /// let mut text = String::from("t,flux,flux_err\n");
+    /// for k in 0..400 {
+    ///     let t = -50.0 + 0.25 * k as f64;
+    ///     let u = (0.04 + (t / 20.0f64).powi(2)).sqrt();
+    ///     let a = (u * u + 2.0) / (u * (u * u + 4.0).sqrt());
+    ///     text += &format!("{t},{a},0.01\n");
+    /// }
+    /// let data = vec![DataSet::parse(&text, "d.csv", 22.0).unwrap()];
+    /// let baseline = fit_baseline(&data, &BaselineOptions::default()).unwrap();
+    /// let mut seed = Seed::of_baseline(&baseline, &data);
+    /// seed.widen(&baseline, &data, 1.0);
+    /// assert!(seed.valley.first().unwrap().u0 <= 1e-3 && seed.valley.last().unwrap().u0 >= 0.9);
+    /// let (t0, te) = seed.timing(0.2);
+    /// assert!(t0.abs() < 0.01 && (te - 20.0).abs() < 0.1);
+    /// ```
+    pub fn widen(&mut self, baseline: &Baseline, data: &[DataSet], u0_max: f64) {
+        let data = outside_masks(baseline, data);
+        let (start, step) = WIDE_VALLEY;
+        let starts = [
+            (baseline.fit.t0, baseline.fit.te),
+            (baseline.full.t0, baseline.full.te),
+        ];
+        let mut previous = starts[0];
+        let mut wide = Vec::new();
+        let mut u = start;
+        while u <= u0_max * step {
+            let u0 = u.min(u0_max);
+            let best = [previous, self.timing(u0)]
+                .into_iter()
+                .chain(starts)
+                .filter_map(|(t, e)| fit_at_u0(&data, u0, t, e).ok())
+                .min_by(|a, b| a.2.total_cmp(&b.2));
+            if let Some((t0, te, chi2)) = best {
+                previous = (t0, te);
+                wide.push(ValleyPoint { u0, t0, te, chi2 });
+            }
+            u *= step;
+        }
+        if !wide.is_empty() {
+            self.valley = wide;
+        }
+    }
+}
+
+/// The first `u0` of a widened valley and its step (as a factor; see [`Seed::widen`]).
+const WIDE_VALLEY: (f64, f64) = (1e-3, 1.1);
+
+/// `data` without a baseline's masked spans. A set with (almost) nothing outside the anomaly
+/// (a follow-up run over it) says nothing of the single lens: it is left out of the valley, as
+/// the baseline leaves it out, rather than letting the anomaly back in.
+fn outside_masks(baseline: &Baseline, data: &[DataSet]) -> Vec<DataSet> {
+    let masked: Vec<DataSet> = data
+        .iter()
+        .map(|d| {
+            baseline
+                .masked
+                .iter()
+                .fold(d.clone(), |d, &(a, b)| d.without(a, b))
+        })
+        .filter(|d| d.len() >= 3)
+        .collect();
+    if masked.is_empty() {
+        data.to_vec()
+    } else {
+        masked
     }
 }
 

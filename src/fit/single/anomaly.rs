@@ -36,8 +36,13 @@ pub(super) struct Round {
     pub problem: Problem,
     /// Its fit.
     pub fit: Local,
-    /// Whether the fit's peak lies inside the span: masking would remove the peak.
+    /// Whether masking would remove the peak: the fit's peak lies inside the span, or the
+    /// fit found another event beside it ([`Round::moves_event`]).
     pub covers_peak: bool,
+    /// Whether the fit without the span peaks outside it although the span is longer than
+    /// twice the fit's `tE` (its whole magnified stretch, |tau| < 1): an "anomaly" longer than
+    /// the event it is said to perturb is the event, and the fit without it a different one.
+    pub moves_event: bool,
     /// The unexplained chi^2 (`chi2 - points`) the mask removed.
     pub gain: f64,
 }
@@ -134,9 +139,12 @@ pub(super) fn round(
         }
         let start = (current.t0, current.u0, current.te);
         let fit = local::fit(&masked, &[start])?;
+        let inside = (span.0..=span.1).contains(&(fit.t0 + epoch));
+        let moves_event = !inside && span.1 - span.0 > 2.0 * fit.te;
         rounds.push(Round {
             span,
-            covers_peak: (span.0..=span.1).contains(&(fit.t0 + epoch)),
+            covers_peak: inside || moves_event,
+            moves_event,
             gain: before - unexplained(fit.chi2, &masked),
             problem: masked,
             fit,
@@ -209,6 +217,16 @@ pub(super) fn mask(
         };
         let (lo, hi) = next.span;
         let removed = out.problem.points() - next.problem.points();
+        if next.moves_event {
+            out.peak_covered = true;
+            out.notes.push(format!(
+                "the run at t = {lo:.2}..{hi:.2} is longer than the event the fit without it \
+                 finds beside it (2 tE = {:.1} d): it is the event, not an anomaly on it; the \
+                 baseline keeps its points",
+                2.0 * next.fit.te
+            ));
+            break;
+        }
         if next.covers_peak {
             out.peak_covered = true;
             let f = &next.fit;

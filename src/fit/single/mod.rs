@@ -59,6 +59,9 @@
 //!    with fewer than 3 points sits the fit out.
 //! 3. Repeat on what is left, at most 3 rounds.
 //!
+//! A run whose fit without it peaks outside it, with a `tE` shorter than half the run, is the event
+//! itself (a stellar binary's trough over the peak, which a fit without it replaces by another
+//! event beside it): it is not masked, the peak is marked covered and the rounds stop.
 //! If the refit's `t0` falls inside its mask, the anomaly covers the peak
 //! ([`Baseline::peak_covered`]), and the rounds stop. The mask is then kept only when the fit
 //! to all data misses the points outside it (by more than the range's chi^2 rise below) while
