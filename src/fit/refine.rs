@@ -254,11 +254,11 @@ fn best_radius(data: &[DataSet], start: &BinaryModel, tol: f64) -> BinaryModel {
         .iter()
         .map(|f| BinaryModel {
             rho: start.rho * f,
-            ..start.clone()
+            ..*start
         })
         .filter_map(|m| exact_chi2(data, &m, tol).ok().map(|(chi2, _)| (m, chi2)))
         .min_by(|a, b| a.1.total_cmp(&b.1))
-        .map_or_else(|| start.clone(), |(m, _)| m)
+        .map_or(*start, |(m, _)| m)
 }
 
 /// Uncertainties of [`PARAMETERS`] at `model` (a minimum of the exact chi^2 at tolerance
