@@ -50,7 +50,7 @@ use super::model::{BinaryModel, Trajectory};
 use super::motion::{fit_motion, MotionMinimum, MotionOptions};
 use super::noise::{clean, Clipped};
 use super::photometry::DataSet;
-use super::refine::{exact_chi2, refine_until};
+use super::refine::{exact_chi2, ladder_start, refine_until};
 use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
@@ -211,9 +211,15 @@ pub fn fit_event(
     let (mut starts, zoomed) =
         refine_starts(&local, &seed, &rule, &maps, &outcomes, options, progress)?;
     let zoom_seconds = started.elapsed().as_secs_f64();
-    for z in &zoomed {
+    for (z, start) in zoomed.iter().zip(&starts) {
+        let kept = if start.0 == best_start(z).0 {
+            ""
+        } else {
+            "; the grid point's own best is closer to the data (exact chi2) and starts the \
+             refinement instead"
+        };
         note(format!(
-            "zoom: best s = {:.4}, q = {:.3e} (search chi2 {:.1})",
+            "zoom: best s = {:.4}, q = {:.3e} (search chi2 {:.1}){kept}",
             z.s,
             z.q,
             z.best_chi2()
@@ -488,8 +494,8 @@ fn baseline(
 type Starts = Vec<(BinaryModel, f64)>;
 
 /// The refinement's starts (model, search chi^2): the best candidate of each of the best
-/// (s, q) local minima of the search, the first few replaced by the best of their zoom
-/// (with the zoomed outcomes).
+/// (s, q) local minima of the search, the first few replaced by the best of their zoom when
+/// that is closer to the data ([`closer_start`]; with the zoomed outcomes).
 fn refine_starts(
     local: &[DataSet],
     seed: &Seed,
@@ -518,7 +524,7 @@ fn refine_starts(
     progress.start("zoom", points as u64);
     for (k, &i) in centres.iter().take(zoom.centres).enumerate() {
         let found = zoomer.zoom(outcomes, i, zoom.levels, &|| progress.advance(1))?;
-        starts[k] = best_start(&found);
+        starts[k] = closer_start(local, starts[k], best_start(&found), options.refine.tol);
         zoomed.push(found);
     }
     progress.finish(&format!(
@@ -537,6 +543,25 @@ fn untrusted_u0_max(seed: &Seed) -> f64 {
         .map(|v: &ValleyPoint| v.u0)
         .fold(3.0 * seed.u0, f64::max)
         .max(0.3)
+}
+
+/// Of a grid point's best candidate and its zoom's, the one with the lower exact chi^2 at its
+/// best source radius ([`ladder_start`], magnification tolerance `tol`). Search chi^2 values
+/// of maps of different pixels do not compare: a finer zoomed map reads smaller sources, and
+/// its best can be a caustic crossing at a wrong radius that the grid's coarser map would not
+/// rank first; the exact chi^2 decides. The zoom's when neither can be evaluated.
+fn closer_start(
+    data: &[DataSet],
+    grid: (BinaryModel, f64),
+    zoom: (BinaryModel, f64),
+    tol: f64,
+) -> (BinaryModel, f64) {
+    let exact = |m: &BinaryModel| ladder_start(data, m, tol).map_or(f64::INFINITY, |(_, c)| c);
+    if exact(&grid.0) < exact(&zoom.0) {
+        grid
+    } else {
+        zoom
+    }
 }
 
 /// Step 3 of the module documentation.

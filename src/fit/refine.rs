@@ -181,7 +181,7 @@ pub fn refine_until(
             }
         }
     };
-    let start = &best_radius(data, start, tol.max(COARSE_TOL));
+    let start = &ladder_start(data, start, tol.max(COARSE_TOL)).map_or(*start, |(m, _)| m);
     let x0 = to_vector(start);
     let step = steps(start);
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
@@ -248,8 +248,8 @@ pub fn refine_until(
 }
 
 /// `start` with the radius of [`RHO_LADDER`] times its own that gives the least exact chi^2
-/// (magnification tolerance `tol`); `start` itself when none can be evaluated.
-fn best_radius(data: &[DataSet], start: &BinaryModel, tol: f64) -> BinaryModel {
+/// (magnification tolerance `tol`), and that chi^2; `None` when none can be evaluated.
+pub fn ladder_start(data: &[DataSet], start: &BinaryModel, tol: f64) -> Option<(BinaryModel, f64)> {
     RHO_LADDER
         .iter()
         .map(|f| BinaryModel {
@@ -258,7 +258,6 @@ fn best_radius(data: &[DataSet], start: &BinaryModel, tol: f64) -> BinaryModel {
         })
         .filter_map(|m| exact_chi2(data, &m, tol).ok().map(|(chi2, _)| (m, chi2)))
         .min_by(|a, b| a.1.total_cmp(&b.1))
-        .map_or(*start, |(m, _)| m)
 }
 
 /// Uncertainties of [`PARAMETERS`] at `model` (a minimum of the exact chi^2 at tolerance
