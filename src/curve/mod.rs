@@ -158,29 +158,32 @@ pub struct Curve {
 }
 
 /// Estimated cost, in nanoseconds, of one direct read of a profile (uniform disks of the given
-/// radii in pixels): interior pixels are summed (about 1 ns each), rim pixels get a closed-form
-/// overlap (about 60 ns each, some 8 (r + 1) of them per disk). Calibrated on benches/curve.rs
-/// against [`convolve_cost`]: their ratio decides, and it is measured about 10^4 points at
-/// rho = 10 px on a 1000 x 1000 map.
+/// radii in pixels): interior pixels are summed (about 3.3 ns each), rim pixels get a
+/// closed-form overlap (about 25 ns each, some 8 (r + 1) of them per disk). Fitted, with
+/// [`convolve_cost`], to reads with their estimates (below) on one thread, best of 15 or 30:
+/// 8, 20 and 57 us per point at 10, 20 and 40 pixels of radius (the crossing of
+/// benches/curve.rs and a point lens); the model gives 9, 21 and 58.
 fn direct_cost(disks: &[(f64, f64)]) -> f64 {
     disks
         .iter()
-        .map(|&(r, _)| std::f64::consts::PI * r * r + 60.0 * 8.0 * (r + 1.0))
+        .map(|&(r, _)| 3.3 * std::f64::consts::PI * r * r + 25.0 * 8.0 * (r + 1.0))
         .sum()
 }
 
-/// Estimated cost, in nanoseconds, of pre-convolving a map of `pixels` per side: `7 L^2 log2 L`,
-/// calibrated on benches/curve.rs at L = 1000 (66 ms) for the former route of three full
-/// complex 2-D FFTs. The present route ([`Preconvolved`]) measures 34 ms there; the estimate is
-/// not recalibrated yet, because the fixed costs that dominate on small maps are unmeasured
-/// (so it leans towards direct reads).
+/// Estimated cost, in nanoseconds, of pre-convolving a map of `pixels` per side through the
+/// transform: `1.5 L^2 log2 L`. Measured (one thread, best of 15 or 30), as a multiple of
+/// `L^2 log2 L` with the four half-size transforms of the estimate: 1.5 at L = 100 and 200,
+/// 1.3 at 400, 0.9 at 548, 1.0 at 1088 (fixed costs weigh on small maps), so the choice
+/// leans towards direct reads on large ones.
 fn convolve_cost(pixels: usize) -> f64 {
     let l = pixels as f64;
-    7.0 * l * l * l.log2().max(1.0)
+    1.5 * l * l * l.log2().max(1.0)
 }
 
 /// The evaluation [`Evaluation::Auto`] picks for `points` reads of `map` with `profile`:
-/// pre-convolved when the FFT costs less than the direct reads it replaces.
+/// pre-convolved when the FFT costs less than the direct reads it replaces. Each read comes
+/// with its error estimate, the same read of the four maps binned 2 x 2 ([`Coarse`]), so both
+/// sides count them: four reads with half the radius, four transforms of half the side.
 ///
 /// ```
 /// use causeway::curve::{choose_evaluation, Evaluation};
@@ -198,7 +201,10 @@ pub fn choose_evaluation(
     points: usize,
 ) -> Evaluation {
     let disks = sample::disks_in_pixels(profile, map.window.pixel_size());
-    if points as f64 * direct_cost(&disks) > convolve_cost(map.window.pixels) {
+    let halves: Vec<(f64, f64)> = disks.iter().map(|&(r, w)| (0.5 * r, w)).collect();
+    let direct = direct_cost(&disks) + 4.0 * direct_cost(&halves);
+    let n = map.window.pixels;
+    if points as f64 * direct > convolve_cost(n) + 4.0 * convolve_cost(n / 2) {
         Evaluation::Convolved
     } else {
         Evaluation::Direct
@@ -473,6 +479,8 @@ impl<'a> Sampler<'a> {
             })
         };
         let recompute = || -> Result<Sample> {
+            // A fresh solver per point: measured faster than one carried from the previous
+            // recomputed point (whose roots are a worse start than the solver's own).
             let solver = contour.expect("recomputed only with a contour solver");
             let est = solver
                 .clone()
