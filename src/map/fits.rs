@@ -28,13 +28,16 @@
 //! | `BUILDSEC` | float | wall-clock build duration, seconds |
 //! | `DATASUM`, `CHECKSUM` | standard | FITS checksum convention: data sum as a decimal string, and the encoded HDU checksum |
 //! | `EXTEND`, `ERR*` | | a certified map: the accuracy certificate's cards, and its sample as a table extension (`fits/table.rs`) |
+//! | `EXTEND`, `REFINE`, `TILE*` | | a refined map ([`crate::map::tiles`]): the refinement's cards, and each tile as an image extension with its own WCS (`fits/tiles.rs`) |
 //!
 //! Writing is deterministic: two maps that differ only in build time and duration give files
 //! that differ only in `DATE`, `BUILDSEC`, `ERRSEC` and the `CHECKSUM`s.
 
 mod checksum;
 mod table;
+mod tiles;
 
+use super::tiles::RefinedMap;
 use super::{MagnificationMap, Provenance, Window};
 use crate::error::{Error, Result};
 use crate::fsutil::write_atomic;
@@ -78,7 +81,31 @@ pub const MAX_LENSES: usize = 999;
 /// std::fs::remove_file(&path).unwrap();
 /// ```
 pub fn write_fits(map: &MagnificationMap, path: &Path) -> Result<()> {
-    write_atomic(path, &encode(map)?)
+    write_atomic(path, &encode(map, None)?)
+}
+
+/// Writes a map and its tiles as one FITS file, atomically: the base as the primary image (as
+/// [`write_fits`] writes it, with the refinement's cards), then each tile as an image
+/// extension `TILE` (`EXTVER` 1, 2, ...) with its own WCS and checksums.
+///
+/// ```
+/// use causeway::engine::by_name;
+/// use causeway::lens::LensSystem;
+/// use causeway::map::fits::{read_refined, write_refined};
+/// use causeway::map::tiles::{RefinedMap, Refinement};
+/// use causeway::map::Window;
+/// let lens = LensSystem::binary(1.0, 0.1).unwrap();
+/// let window = Window::new((0.0, 0.0), 1.0, 48).unwrap();
+/// let refine = Some(Refinement::new(2).unwrap());
+/// let map = RefinedMap::build(by_name("rays", 2.0).unwrap().as_ref(), &lens, &window, refine,
+///                             &(), false).unwrap();
+/// let path = std::env::temp_dir().join(format!("causeway-doc-tiles-{}.fits", std::process::id()));
+/// write_refined(&map, &path).unwrap();
+/// assert_eq!(read_refined(&path).unwrap(), map);
+/// std::fs::remove_file(&path).unwrap();
+/// ```
+pub fn write_refined(map: &RefinedMap, path: &Path) -> Result<()> {
+    write_atomic(path, &encode(&map.base, Some(map))?)
 }
 
 /// Reads a map written by [`write_fits`]: pixels through `fitsrs`, the window and provenance from
@@ -87,22 +114,47 @@ pub fn write_fits(map: &MagnificationMap, path: &Path) -> Result<()> {
 /// Errors name the file and the missing or bad keyword.
 pub fn read_fits(path: &Path) -> Result<MagnificationMap> {
     let bytes = std::fs::read(path).map_err(|e| Error::io(path, e))?;
-    decode(&bytes).map_err(|msg| Error::input(format!("{}: {msg}", path.display())))
+    decode(&bytes)
+        .map(|d| d.map)
+        .map_err(|msg| Error::input(format!("{}: {msg}", path.display())))
+}
+
+/// Reads a map file with its tiles, if any ([`write_refined`]); a file of a plain map reads as
+/// [`RefinedMap::plain`]. Every HDU's checksums are verified, and each tile's window against
+/// the base and the refinement.
+pub fn read_refined(path: &Path) -> Result<RefinedMap> {
+    let bytes = std::fs::read(path).map_err(|e| Error::io(path, e))?;
+    decode(&bytes)
+        .and_then(|d| tiles::decode(d, &bytes))
+        .map_err(|msg| Error::input(format!("{}: {msg}", path.display())))
 }
 
 /// The whole file: the primary HDU (header, then data, each padded to whole blocks, then the
-/// checksums) and, for a certified map, the table of its sample.
-fn encode(map: &MagnificationMap) -> Result<Vec<u8>> {
-    let mut data = Vec::with_capacity(4 * map.data.len());
-    for v in map.data.iter() {
-        data.extend_from_slice(&v.to_be_bytes());
+/// checksums), for a certified map the table of its sample, and the tiles of a refined map.
+fn encode(map: &MagnificationMap, refined: Option<&RefinedMap>) -> Result<Vec<u8>> {
+    let refinement = refined.and_then(|r| r.refinement.map(|f| (f, r.tiles.as_slice())));
+    let mut header = map_header(map, refinement.is_some())?;
+    if let Some((r, t)) = refinement {
+        tiles::refinement_cards(&mut header, &r, t.len());
     }
-    let mut bytes = hdu_bytes(map_header(map)?, &data)?;
+    let mut bytes = hdu_bytes(header, &image_bytes(map))?;
     if let Some(c) = &map.provenance.certificate {
         let (header, rows) = table::encode(c)?;
         bytes.extend(hdu_bytes(header, &rows)?);
     }
+    if let Some((r, t)) = refinement {
+        bytes.extend(tiles::encode(map, &r, t)?);
+    }
     Ok(bytes)
+}
+
+/// The pixels as big-endian float32, `[[iy, ix]]` in order.
+fn image_bytes(map: &MagnificationMap) -> Vec<u8> {
+    let mut data = Vec::with_capacity(4 * map.data.len());
+    for v in map.data.iter() {
+        data.extend_from_slice(&v.to_be_bytes());
+    }
+    data
 }
 
 /// One HDU: `h` with the checksum cards and END, then `data` padded to whole blocks.
@@ -127,17 +179,13 @@ fn hdu_bytes(mut h: Header, data: &[u8]) -> Result<Vec<u8>> {
     Ok(bytes)
 }
 
-/// Every card but the checksums and END, after checking that the map can be written.
-fn map_header(map: &MagnificationMap) -> Result<Header> {
+/// Every card but the checksums and END, after checking that the map can be written;
+/// `extended` when image extensions (tiles) follow.
+fn map_header(map: &MagnificationMap, extended: bool) -> Result<Header> {
     let w = &map.window;
     let p = &map.provenance;
     let n = w.pixels;
-    if map.data.dim() != (n, n) {
-        return Err(Error::input(format!(
-            "map data are {:?} pixels but the window has {n} x {n}",
-            map.data.dim()
-        )));
-    }
+    check_shape(map)?;
     let lenses = p.lens.lenses();
     if lenses.len() > MAX_LENSES {
         return Err(Error::input(format!(
@@ -145,31 +193,20 @@ fn map_header(map: &MagnificationMap) -> Result<Header> {
             lenses.len()
         )));
     }
-    let (x0, y0) = w.pixel_center(0, 0);
-
     let mut h = Header::default();
     h.logical("SIMPLE", true, "conforms to FITS Standard 4.0");
     h.integer("BITPIX", -32, "IEEE 754 float32, big-endian");
     h.integer("NAXIS", 2, "two-dimensional image");
     h.integer("NAXIS1", n as i64, "pixels along x");
     h.integer("NAXIS2", n as i64, "pixels along y");
-    if p.certificate.is_some() {
+    if extended {
+        h.logical("EXTEND", true, "refined tiles follow as image extensions");
+    } else if p.certificate.is_some() {
         h.logical("EXTEND", true, "the sample of the certificate follows");
     }
     h.comment("Mean magnification per pixel; lengths in Einstein radii of the total mass.");
-    h.integer("WCSAXES", 2, "two world coordinates: source-plane x and y");
-    h.string("CTYPE1", "LINEAR", "source-plane x, Einstein radii")?;
-    h.string("CTYPE2", "LINEAR", "source-plane y, Einstein radii")?;
-    h.float("CRPIX1", 1.0, "reference: centre of the first pixel")?;
-    h.float("CRPIX2", 1.0, "reference: centre of the first pixel")?;
-    h.float("CRVAL1", x0, "x at the reference pixel")?;
-    h.float("CRVAL2", y0, "y at the reference pixel")?;
-    h.float("CDELT1", w.pixel_size(), "pixel side along x")?;
-    h.float("CDELT2", w.pixel_size(), "pixel side along y")?;
-    h.float("WIN_XC", w.center.0, "window centre x")?;
-    h.float("WIN_YC", w.center.1, "window centre y")?;
-    h.float("WIN_SIDE", w.width, "window side length")?;
-    h.integer("WIN_PIX", n as i64, "pixels per side");
+    window_cards(&mut h, w)?;
+
     h.integer("LENS_N", lenses.len() as i64, "number of point lenses");
     for (i, l) in lenses.iter().enumerate() {
         let k = i + 1;
@@ -185,6 +222,47 @@ fn map_header(map: &MagnificationMap) -> Result<Header> {
         h.float("BIN_S", s, "binary separation s")?;
         h.float("BIN_Q", q, "binary mass ratio q = m2/m1")?;
     }
+    build_cards(&mut h, p)?;
+    if let Some(c) = &p.certificate {
+        table::certificate_cards(&mut h, c)?;
+    }
+    Ok(h)
+}
+
+/// The data must be the window's square of pixels.
+fn check_shape(map: &MagnificationMap) -> Result<()> {
+    let n = map.window.pixels;
+    if map.data.dim() != (n, n) {
+        return Err(Error::input(format!(
+            "map data are {:?} pixels but the window has {n} x {n}",
+            map.data.dim()
+        )));
+    }
+    Ok(())
+}
+
+/// The linear WCS of `w` (the centre of the first pixel as the reference) and the `WIN_*` cards.
+fn window_cards(h: &mut Header, w: &Window) -> Result<()> {
+    let (x0, y0) = w.pixel_center(0, 0);
+    let n = w.pixels;
+    h.integer("WCSAXES", 2, "two world coordinates: source-plane x and y");
+    h.string("CTYPE1", "LINEAR", "source-plane x, Einstein radii")?;
+    h.string("CTYPE2", "LINEAR", "source-plane y, Einstein radii")?;
+    h.float("CRPIX1", 1.0, "reference: centre of the first pixel")?;
+    h.float("CRPIX2", 1.0, "reference: centre of the first pixel")?;
+    h.float("CRVAL1", x0, "x at the reference pixel")?;
+    h.float("CRVAL2", y0, "y at the reference pixel")?;
+    h.float("CDELT1", w.pixel_size(), "pixel side along x")?;
+    h.float("CDELT2", w.pixel_size(), "pixel side along y")?;
+    h.float("WIN_XC", w.center.0, "window centre x")?;
+    h.float("WIN_YC", w.center.1, "window centre y")?;
+    h.float("WIN_SIDE", w.width, "window side length")?;
+    h.integer("WIN_PIX", n as i64, "pixels per side");
+    Ok(())
+}
+
+/// How the image was made: engine, density, counts, version, time.
+fn build_cards(h: &mut Header, p: &Provenance) -> Result<()> {
     h.string("ENGINE", &p.engine, "map engine")?;
     h.float("DENSITY", p.density, "rays per unlensed pixel area")?;
     h.integer("RAYSHOT", count(p.rays_shot, "rays shot")?, "rays shot");
@@ -196,10 +274,7 @@ fn map_header(map: &MagnificationMap) -> Result<Header> {
     h.string("CW_VERS", &p.version, "causeway version")?;
     h.string("DATE", &p.build_time, "build time, UTC")?;
     h.float("BUILDSEC", p.build_seconds, "build duration, seconds")?;
-    if let Some(c) = &p.certificate {
-        table::certificate_cards(&mut h, c)?;
-    }
-    Ok(h)
+    Ok(())
 }
 
 /// A count as a FITS integer.
@@ -330,8 +405,20 @@ fn fits_float(v: f64) -> String {
     format!("{mantissa}E{}{:02}", if e < 0 { '-' } else { '+' }, e.abs())
 }
 
-/// Parses a whole file; the error message lacks only the file name.
-fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
+/// The primary HDU (and the certificate's table) of a file, and where the rest begins.
+struct Decoded<'a> {
+    map: MagnificationMap,
+    /// The refinement and the number of tiles the primary header announces.
+    refinement: Option<(super::tiles::Refinement, usize)>,
+    /// The reader, positioned after the HDUs read.
+    fits: Fits<Cursor<&'a [u8]>>,
+    /// Byte offset of the end of the HDUs read.
+    end: usize,
+}
+
+/// Parses the primary HDU and the certificate's table; the error message lacks only the file
+/// name.
+fn decode(bytes: &[u8]) -> std::result::Result<Decoded<'_>, String> {
     let mut fits = Fits::from_reader(Cursor::new(bytes));
     let hdu = match fits.next() {
         Some(Ok(HDU::Primary(hdu))) => hdu,
@@ -395,17 +482,25 @@ fn decode(bytes: &[u8]) -> std::result::Result<MagnificationMap, String> {
         ));
     }
     let data = Array2::from_shape_vec((n, n), pixels).map_err(|e| e.to_string())?;
+    let mut end = data_end;
     if header.0.get("ERRSEED").is_some() {
-        let certificate = table::decode(&header, &mut fits, bytes, data_end, n)?;
+        let (certificate, table_end) = table::decode(&header, &mut fits, bytes, data_end, n)?;
         if !certificate.reproduces(&data) {
             return Err("ERRMED_*/ERR99_* disagree with the table ERRSAMPL and the image".into());
         }
         provenance.certificate = Some(certificate);
+        end = table_end;
     }
-    Ok(MagnificationMap {
-        window,
-        data,
-        provenance,
+    let refinement = tiles::refinement(&header)?;
+    Ok(Decoded {
+        map: MagnificationMap {
+            window,
+            data,
+            provenance,
+        },
+        refinement,
+        fits,
+        end,
     })
 }
 
@@ -459,6 +554,11 @@ fn read_provenance(h: &Keywords) -> std::result::Result<Provenance, String> {
         (None, None) => LensSystem::new(&lenses).map_err(|e| format!("LENSn keywords: {e}"))?,
         _ => return Err("BIN_S and BIN_Q must come together".into()),
     };
+    read_build(h, lens)
+}
+
+/// The provenance of `lens` from the cards of [`build_cards`] (no certificate).
+fn read_build(h: &Keywords, lens: LensSystem) -> std::result::Result<Provenance, String> {
     Ok(Provenance {
         lens,
         engine: h.string("ENGINE")?,

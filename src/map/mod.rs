@@ -8,9 +8,11 @@ pub mod certificate;
 pub mod fits;
 pub mod reference;
 pub mod render;
+pub mod tiles;
 
-pub use fits::{read_fits, write_fits};
+pub use fits::{read_fits, read_refined, write_fits, write_refined};
 pub use render::{render_png, Overlay};
+pub use tiles::{RefinedMap, Refinement};
 
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;

@@ -13,6 +13,7 @@ use super::library::GridPoint;
 use super::{Entry, Store};
 use crate::engine::{self, Engine};
 use crate::error::Result;
+use crate::map::tiles::RefinedMap;
 use std::collections::HashSet;
 use std::time::Duration;
 
@@ -168,8 +169,16 @@ fn try_build(store: &Store, p: &GridPoint, policy: ClaimPolicy) -> Result<bool> 
         return Ok(false);
     }
     let engine: Box<dyn Engine> = engine::by_name(&p.key.engine, p.key.density)?;
-    let map = engine.build(&p.key.lens, &p.key.window)?;
-    store.put(&map)?;
+    let key = &p.key;
+    let map = RefinedMap::build(
+        engine.as_ref(),
+        &key.lens,
+        &key.window,
+        key.refine,
+        &(),
+        true,
+    )?;
+    store.put_refined(&map)?;
     claim.release()?;
     Ok(true)
 }

@@ -10,6 +10,7 @@
 //! pixels = 500
 //! rays = 100          # rays per unlensed pixel area
 //! engine = "rays"     # optional, the default
+//! refine = 4          # optional: tiles 4 times finer where the caustics run
 //!
 //! [window]            # the same window for every map
 //! center = [0.0, 0.0]
@@ -30,6 +31,10 @@
 //! maps of each binary (one map where the binary has a single caustic): the library to use
 //! when the answer is not known, since any caustic an event may have crossed is on a map.
 //!
+//! With `refine = F` (2 to 64), each map holds refined tiles near its caustics at F times its
+//! resolution ([`crate::map::tiles`]), in the same file; the keys of such maps carry the
+//! refinement (key format 2), and those of plain maps are unchanged.
+//!
 //! Grid points are numbered q-major (`index = iq * len(s) + is`); shard `K/N` takes the points
 //! whose index is `K - 1` modulo `N`, so the shards of one spec are disjoint and together
 //! make the whole grid. Builders sharing a store claim each map before they build it (see
@@ -46,6 +51,7 @@ use crate::caustics::caustic_curves;
 use crate::engine;
 use crate::error::{shown, tidy, Error, Result};
 use crate::lens::LensSystem;
+use crate::map::tiles::Refinement;
 use crate::map::Window;
 use serde::Deserialize;
 use std::path::Path;
@@ -310,6 +316,7 @@ struct SpecFile {
     rays: f64,
     #[serde(default = "default_engine")]
     engine: String,
+    refine: Option<usize>,
     window: WindowSpec,
 }
 
@@ -330,6 +337,8 @@ pub struct LibrarySpec {
     pub engine: String,
     /// Engine density.
     pub density: f64,
+    /// Refined tiles near the caustics of every map, if any.
+    pub refine: Option<Refinement>,
 }
 
 /// One map of a library: its grid index and key.
@@ -407,6 +416,11 @@ impl LibrarySpec {
             return Err(Error::input(format!("{origin}: pixels must be at least 1")));
         }
         let window = file.window.rule(file.pixels).map_err(named)?;
+        let refine = file
+            .refine
+            .map(Refinement::new)
+            .transpose()
+            .map_err(named)?;
         let builder = engine::by_name(&file.engine, file.rays).map_err(named)?;
         let s = file.s.values("s").map_err(named)?;
         let q = file.q.values("q").map_err(named)?;
@@ -426,7 +440,12 @@ impl LibrarySpec {
         };
         let lens = LensSystem::binary(s[0], q[0]).map_err(named)?;
         let limit = engine::default_memory_limit();
-        engine::check_memory(builder.as_ref(), &lens, &sample, limit).map_err(|need| {
+        let tile = refine.map(|r| r.tile_window(&sample, (0, 0))).transpose()?;
+        let largest = match tile {
+            Some(t) if t.pixels > sample.pixels => t,
+            _ => sample,
+        };
+        engine::check_memory(builder.as_ref(), &lens, &largest, limit).map_err(|need| {
             Error::input(format!(
                 "{origin}: pixels = {}: each map needs about {}, more than the allowed {} \
                  (half the memory)",
@@ -441,6 +460,7 @@ impl LibrarySpec {
             window,
             engine: file.engine,
             density: file.rays,
+            refine,
         })
     }
 
@@ -461,7 +481,8 @@ impl LibrarySpec {
                         index: out.len(),
                         s,
                         q,
-                        key: MapKey::new(lens.clone(), window, &self.engine, self.density),
+                        key: MapKey::new(lens.clone(), window, &self.engine, self.density)
+                            .refined(self.refine),
                     });
                 }
             }

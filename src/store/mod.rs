@@ -34,7 +34,8 @@ pub use layout::{is_claim_name, is_map_name, is_temporary_name, MARKER, STORE_FO
 pub use upkeep::{Problem, PruneReport, Verification};
 
 use crate::error::{Error, Result};
-use crate::map::fits::{read_fits, write_fits};
+use crate::map::fits::{read_refined, write_fits, write_refined};
+use crate::map::tiles::RefinedMap;
 use crate::map::MagnificationMap;
 use std::fs::File;
 use std::path::{Path, PathBuf};
@@ -123,13 +124,16 @@ impl Store {
     /// Reads the map of `key` if present; a present file that fails its checksums or whose
     /// header does not match the key is an error naming it.
     pub fn get(&self, key: &MapKey) -> Result<Option<MagnificationMap>> {
+        Ok(self.get_refined(key)?.map(|m| m.base))
+    }
+
+    /// [`Store::get`] with the map's tiles, if the key has a refinement.
+    pub fn get_refined(&self, key: &MapKey) -> Result<Option<RefinedMap>> {
         let path = self.path_of(key);
         if !path.exists() {
             return Ok(None);
         }
-        let map = read_fits(&path)?;
-        check_key(&map, &path)?;
-        Ok(Some(map))
+        read_checked(&path).map(Some)
     }
 
     /// True when the map of `key` is present and verifies.
@@ -143,6 +147,15 @@ impl Store {
         let path = self.path_of(&key);
         write_fits(map, &path)?;
         self.record(Entry::of_map(map, &key.file_name()))?;
+        Ok(path)
+    }
+
+    /// Writes a map with its tiles under its key (atomically) and records it in the index.
+    pub fn put_refined(&self, map: &RefinedMap) -> Result<PathBuf> {
+        let key = MapKey::of_refined(map);
+        let path = self.path_of(&key);
+        write_refined(map, &path)?;
+        self.record(Entry::of_map(&map.base, &key.file_name()))?;
         Ok(path)
     }
 
@@ -236,14 +249,16 @@ fn file_name(path: &Path) -> String {
         .unwrap_or_default()
 }
 
-/// Checks that a map read from `path` carries the key its file name says.
-fn check_key(map: &MagnificationMap, path: &Path) -> Result<()> {
-    let expected = MapKey::of_map(map).file_name();
+/// Reads the map (with its tiles) at `path` and checks that it carries the key its file name
+/// says.
+fn read_checked(path: &Path) -> Result<RefinedMap> {
+    let map = read_refined(path)?;
+    let expected = MapKey::of_refined(&map).file_name();
     if file_name(path) != expected {
         return Err(Error::input(format!(
             "{}: header describes a different map (its key hashes to {expected})",
             path.display()
         )));
     }
-    Ok(())
+    Ok(map)
 }

@@ -6,10 +6,9 @@
 
 use super::claim::{ClaimInfo, ClaimPolicy};
 use super::layout::{is_claim_name, is_map_name, is_temporary_name};
-use super::{check_key, file_name, index, Entry, Store};
+use super::{file_name, index, read_checked, Entry, Store};
 use crate::error::{Error, Result};
 use crate::map::certificate::Certificate;
-use crate::map::fits::read_fits;
 use crate::map::MagnificationMap;
 use std::collections::HashSet;
 use std::fs;
@@ -249,8 +248,8 @@ fn found(path: &Path) -> Found {
     if !path.exists() {
         return Found::Missing;
     }
-    match read_fits(path).and_then(|m| check_key(&m, path).map(|()| m)) {
-        Ok(map) => Found::Complete(Box::new(map)),
+    match read_checked(path) {
+        Ok(map) => Found::Complete(Box::new(map.base)),
         Err(err) => {
             let text = err.to_string();
             let prefix = format!("{}: ", path.display());

@@ -85,15 +85,15 @@ pub(super) fn encode(c: &Certificate) -> Result<(Header, Vec<u8>)> {
 }
 
 /// The certificate of a file whose primary header `primary` holds `ERRSEED`, reading the table
-/// from `fits` (positioned after the primary HDU, which ends at byte `start` of `bytes`); `n` is
-/// the map's pixels per side.
+/// from `fits` (positioned after the primary HDU, which ends at byte `start` of `bytes`), and
+/// the byte offset where the table ends; `n` is the map's pixels per side.
 pub(super) fn decode(
     primary: &Keywords,
     fits: &mut Fits<Cursor<&[u8]>>,
     bytes: &[u8],
     start: usize,
     n: usize,
-) -> std::result::Result<Certificate, String> {
+) -> std::result::Result<(Certificate, usize), String> {
     let hdu = match fits.next() {
         Some(Ok(HDU::XBinaryTable(hdu))) => hdu,
         Some(Err(e)) => return Err(format!("table {EXTNAME}: not readable: {e}")),
@@ -168,12 +168,13 @@ pub(super) fn decode(
             "ERRN_A and ERRN_C disagree with the {rows} rows of table {EXTNAME}"
         ));
     }
-    Ok(Certificate {
+    let certificate = Certificate {
         seed: primary.count("ERRSEED")? as u64,
         away,
         near,
         skipped: primary.count("ERRSKIP")?,
         seconds: primary.float("ERRSEC")?,
         pixels,
-    })
+    };
+    Ok((certificate, end))
 }
