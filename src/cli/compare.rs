@@ -9,7 +9,7 @@ use crate::contour::{self, Estimate};
 use crate::curve::{Sample, Sampler};
 use crate::error::{Error, Result};
 use crate::fsutil::{check_outputs, Output};
-use crate::map::read_fits;
+use crate::map::read_refined;
 use crate::plot::{write_stacked_png, Axis, Chart, Series, Style};
 use crate::progress::Progress;
 use crate::table::fmt_f64;
@@ -180,8 +180,8 @@ pub fn run(args: CompareArgs) -> Result<()> {
     args.threads.install()?;
     let profile = args.source.profile()?;
     let path = args.trajectory.path()?;
-    let map = read_fits(&args.map)?;
-    let lens = map.provenance.lens.clone();
+    let map = read_refined(&args.map)?;
+    let lens = map.base.provenance.lens.clone();
     // Checks the tolerances and the lens before the long work.
     contour::ContourSolver::new(&lens, args.tol)?;
     if !(args.curve_tol > 0.0 && args.curve_tol <= 0.1) {

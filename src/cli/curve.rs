@@ -12,7 +12,7 @@ use crate::engine::RayShooting;
 use crate::error::{Error, Result};
 use crate::fit::photometry::DEFAULT_ZERO_POINT;
 use crate::fsutil::{check_outputs, Output};
-use crate::map::{read_fits, MagnificationMap};
+use crate::map::{read_refined, MagnificationMap, RefinedMap};
 use crate::solve::ImageSolver;
 use crate::source::{LimbDarkening, SourceProfile};
 use crate::store::MapKey;
@@ -332,14 +332,14 @@ pub fn run(args: CurveArgs) -> Result<()> {
     let limit = args.max_memory.unwrap_or_else(default_memory_limit);
     let (map, lens) = match &args.map {
         Some(file) => {
-            let map = read_fits(file)?;
-            let lens = map.provenance.lens.clone();
+            let map = read_refined(file)?;
+            let lens = map.base.provenance.lens.clone();
             (Some(map), lens)
         }
         None => {
             let lens = args.lens.lens_system()?;
             let map = needed_map(&args, &lens, &profile, &path.points, limit)?;
-            (map, lens)
+            (map.map(RefinedMap::plain), lens)
         }
     };
     let evaluation = match args.evaluation {
@@ -384,7 +384,7 @@ pub fn run(args: CurveArgs) -> Result<()> {
 /// tolerance; shows progress and prints the sampler's warnings on stderr.
 pub(super) fn sample_reported(
     sampler: Sampler,
-    map: Option<&MagnificationMap>,
+    map: Option<&RefinedMap>,
     lens: &crate::lens::LensSystem,
     points: &[(f64, f64)],
 ) -> Result<crate::curve::Curve> {
@@ -396,7 +396,7 @@ pub(super) fn sample_reported(
     let reporter = Reporter::new().without_start_lines();
     let mut sampler = sampler.lens(point).fallback(lens).progress(&reporter);
     if let Some(m) = map {
-        sampler = sampler.map(m);
+        sampler = sampler.refined(m);
     }
     let curve = sampler.sample(points)?;
     for w in &curve.warnings {

@@ -11,6 +11,8 @@
 //! 2. off the map, the exact point-source magnification with the small-source correction
 //!    ([`small_source`]), where that correction is accurate to the tolerance; elsewhere the
 //!    sampler fails, naming the first such point;
+//!    With a refined map ([`Sampler::refined`]), a source near a caustic is read from the
+//!    tile of its block where it fits ([`crate::map::tiles`]);
 //! 3. with [`Sampler::fallback`], contour integration ([`crate::contour`]) for every value the
 //!    others cannot give to the tolerance ([`Method::Contour`]).
 //!
@@ -58,6 +60,7 @@ mod estimate;
 mod plan;
 mod plot;
 mod sample;
+mod tiled;
 mod trajectory;
 
 pub use continuation::{small_source, Expansion, PointMagnification, SAFETY};
@@ -73,6 +76,7 @@ pub use trajectory::{parse_times, read_times, time_range, SourcePath, StraightLi
 use crate::contour::ContourSolver;
 use crate::error::{Error, Result};
 use crate::lens::LensSystem;
+use crate::map::tiles::RefinedMap;
 use crate::map::MagnificationMap;
 use crate::progress::{Progress, Silent};
 use crate::source::SourceProfile;
@@ -237,6 +241,7 @@ pub fn resolution_warning(map: &MagnificationMap, profile: &SourceProfile) -> Op
 pub struct Sampler<'a> {
     profile: SourceProfile,
     map: Option<&'a MagnificationMap>,
+    tiles: Option<&'a RefinedMap>,
     lens: Option<&'a dyn PointMagnification>,
     fallback: Option<&'a LensSystem>,
     tol: f64,
@@ -253,6 +258,7 @@ struct Readers<'a> {
     direct: Option<DirectReader<'a>>,
     convolved: Option<Preconvolved>,
     coarse: Option<CoarseReaders<'a>>,
+    tiles: Option<tiled::TileReaders<'a>>,
 }
 
 impl<'a> Sampler<'a> {
@@ -264,6 +270,7 @@ impl<'a> Sampler<'a> {
         Sampler {
             profile,
             map: None,
+            tiles: None,
             lens: None,
             fallback: None,
             tol: Self::DEFAULT_TOL,
@@ -276,6 +283,14 @@ impl<'a> Sampler<'a> {
     /// Reads this map where the source lies on it.
     pub fn map(mut self, map: &'a MagnificationMap) -> Self {
         self.map = Some(map);
+        self
+    }
+
+    /// Reads this map, and its tiles where a source near a caustic fits in one (see
+    /// [`crate::map::tiles`]).
+    pub fn refined(mut self, map: &'a RefinedMap) -> Self {
+        self.map = Some(&map.base);
+        self.tiles = Some(map);
         self
     }
 
@@ -379,6 +394,7 @@ impl<'a> Sampler<'a> {
             }
         }
         let coarse = self.map.and_then(Coarse::new);
+        let coarse_tiles = self.tiles.map(tiled::coarse_tiles).unwrap_or_default();
         let readers = Readers {
             direct: self.map.map(|m| DirectReader::new(m, &self.profile)),
             coarse: match (self.map, coarse.as_ref()) {
@@ -391,6 +407,10 @@ impl<'a> Sampler<'a> {
                 _ => None,
             },
             convolved,
+            tiles: self
+                .tiles
+                .map(|t| tiled::TileReaders::new(t, &coarse_tiles, &self.profile))
+                .transpose()?,
         };
         let contour = self
             .fallback
@@ -432,6 +452,14 @@ impl<'a> Sampler<'a> {
     fn map_read(&self, x: f64, y: f64, readers: &Readers) -> Option<(f64, f64, Method)> {
         let coarse = readers.coarse.as_ref();
         let or_inf = |e: Option<f64>| e.unwrap_or(f64::INFINITY);
+        if let Some((a, e)) = readers.tiles.as_ref().and_then(|t| t.read(x, y)) {
+            let method = if self.profile.rho == 0.0 {
+                Method::Bilinear
+            } else {
+                Method::Direct
+            };
+            return Some((a, e, method));
+        }
         if self.profile.rho == 0.0 {
             let a = point_read(self.map?, x, y)?;
             return Some((

@@ -238,14 +238,14 @@ impl RefinedMap {
         4 * (self.base.data.len() + self.tiles.iter().map(|t| t.map.data.len()).sum::<usize>())
     }
 
-    /// The tile whose block holds `(x, y)`, if that block is refined.
-    pub fn tile_at(&self, x: f64, y: f64) -> Option<&Tile> {
+    /// The index in [`RefinedMap::tiles`] of the tile whose block holds `(x, y)`, if that
+    /// block is refined.
+    pub fn tile_index_at(&self, x: f64, y: f64) -> Option<usize> {
         let r = self.refinement?;
         let (ix, iy) = self.base.window.pixel_of(x, y)?;
-        let block = (ix / r.block, iy / r.block);
+        let (bx, by) = (ix / r.block, iy / r.block);
         self.tiles
-            .binary_search_by(|t| (t.block.1, t.block.0).cmp(&(block.1, block.0)))
+            .binary_search_by(|t| (t.block.1, t.block.0).cmp(&(by, bx)))
             .ok()
-            .map(|k| &self.tiles[k])
     }
 }

@@ -35,3 +35,4 @@ mod simulate;
 mod slurm;
 mod solve;
 mod store;
+mod tiles;
