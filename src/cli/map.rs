@@ -63,7 +63,7 @@ pub struct MapArgs {
         allow_hyphen_values = true
     )]
     pub accuracy: Option<f64>,
-    /// Also hold tiles FACTOR times finer (2 to 64) where the caustics run: blocks of 24 x 24
+    /// Also hold tiles FACTOR times finer (2 to 64) where the caustics run: blocks of 48 x 48
     /// pixels that a caustic passes within 4 pixels of, each tile reaching 4 pixels beyond
     /// its block, built by the same engine at the same density per (fine) pixel and written
     /// as image extensions of the same file. Sources of a few pixels then read accurately near

@@ -24,7 +24,7 @@ pub const REFINED_KEY_FORMAT: u32 = 2;
 /// // A refined map's key says so, in format version 2; the plain key is untouched.
 /// let refined = key.clone().refined(Some(causeway::map::Refinement::new(4).unwrap()));
 /// assert!(refined.canonical().starts_with("causeway map key v2\n"));
-/// assert!(refined.canonical().ends_with("refine factor=4 block=24 halo=4\n"));
+/// assert!(refined.canonical().ends_with("refine factor=4 block=48 halo=4\n"));
 /// assert_ne!(refined.hash(), key.hash());
 /// ```
 #[derive(Debug, Clone, PartialEq)]
