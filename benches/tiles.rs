@@ -1,12 +1,13 @@
 //! A refined map against a uniform map at the fine resolution, at equal accuracy near the
-//! caustic: the central caustic of s = 1.25, q = 2e-3 (window 0.12 theta_E), a 240^2 base with
-//! tiles 4 times finer against a uniform 960^2 map, both by the polygon engine at the density
+//! caustic, for the two caustics of s = 1.25, q = 2e-3: the central one (window 0.12 theta_E, a
+//! 240^2 base with tiles 4 times finer against a uniform 960^2 map) and the planetary one
+//! (window 0.24, 500^2 against 2000^2), both maps by the polygon engine at the density
 //! `--accuracy 1e-3` picks for the fine pixels, on 2 cores, in one run.
 //!
 //! Printed before timing: the pixels each holds (bytes, and the ratio), the engines' peak
 //! working memory of the largest single build (base, tile or the uniform map), and the
 //! accuracy of curves read from each near the caustic (uniform sources of 3 base pixels on
-//! five trajectories across the caustic, against contour integration at 1e-7): median and
+//! trajectories across the caustic, against contour integration at 1e-7): median and
 //! largest relative error, and how many reads each took from its finest pixels. Timed: the
 //! whole build of each (`RefinedMap::build` without certificates, `Engine::build_certified`).
 //!
@@ -27,7 +28,7 @@ use std::time::Instant;
 const FACTOR: usize = 4;
 
 /// Whether this is a measuring run (`cargo bench`), not the one-pass check of `cargo test`,
-/// which runs every step once on a 60^2 base.
+/// which runs every step once on bases a quarter as wide.
 fn measuring() -> bool {
     std::env::args().any(|a| a == "--bench")
 }
@@ -69,78 +70,121 @@ fn seconds(runs: usize, mut f: impl FnMut()) -> f64 {
         .fold(f64::INFINITY, f64::min)
 }
 
+/// One case: a caustic's window and the trajectories across it.
+struct Case {
+    name: &'static str,
+    center: (f64, f64),
+    width: f64,
+    base_pixels: usize,
+    /// Source positions: `(from, to)` segments, 200 points each.
+    segments: Vec<((f64, f64), (f64, f64))>,
+}
+
+fn cases() -> Vec<Case> {
+    let scale = if measuring() { 1 } else { 4 };
+    vec![
+        Case {
+            name: "central",
+            center: (0.02, 0.0),
+            width: 0.12,
+            base_pixels: 240 / scale,
+            segments: [-0.004, -0.002, 0.0005, 0.002, 0.004]
+                .iter()
+                .map(|&y| ((-0.01, y), (0.05, y)))
+                .collect(),
+        },
+        Case {
+            name: "planetary",
+            center: (0.427, 0.0),
+            width: 0.24,
+            base_pixels: 500 / scale,
+            segments: [0.36, 0.40, 0.447, 0.49]
+                .iter()
+                .map(|&x| ((x, -0.06), (x, 0.06)))
+                .collect(),
+        },
+    ]
+}
+
 fn bench(c: &mut Criterion) {
     let lens = LensSystem::binary(1.25, 2e-3).unwrap();
-    let base_pixels = if measuring() { 240 } else { 60 };
-    let window = Window::new((0.02, 0.0), 0.12, base_pixels).unwrap();
-    let fine_window = Window::new(window.center, window.width, FACTOR * base_pixels).unwrap();
-    let (name, density) = choose(&lens, &fine_window, 1e-3).unwrap();
-    let engine = by_name(name, density).unwrap();
-    let r = Refinement::new(FACTOR).unwrap();
-    let refinement = Some(r);
-    let build_refined =
-        || RefinedMap::build(engine.as_ref(), &lens, &window, refinement, &(), false).unwrap();
-    let build_uniform = || {
-        engine
-            .build_certified(&lens, &fine_window, &(), false)
-            .unwrap()
-    };
-    let refined = build_refined();
-    let uniform = RefinedMap::plain(build_uniform());
-    eprintln!(
-        "{name} at {density:.4} per fine pixel: {} tiles over {:.1}% of the window",
-        refined.tiles.len(),
-        100.0 * refined.covered_fraction()
-    );
-    let (held_refined, held_uniform) = (refined.pixel_bytes(), uniform.pixel_bytes());
-    let tile = r.tile_window(&window, (0, 0)).unwrap();
-    let peak_refined = engine
-        .memory_bytes(&lens, &window)
-        .max(engine.memory_bytes(&lens, &tile));
-    let peak_uniform = engine.memory_bytes(&lens, &fine_window);
-    eprintln!(
-        "pixels held: refined {held_refined} bytes, uniform {held_uniform} bytes (ratio {:.3}); \
-         peak build memory: refined {peak_refined}, uniform {peak_uniform} (ratio {:.3})",
-        held_refined as f64 / held_uniform as f64,
-        peak_refined as f64 / peak_uniform as f64
-    );
-
-    // Five trajectories across the central caustic, parallel to the binary axis.
-    let profile = SourceProfile::uniform(3.0 * window.pixel_size()).unwrap();
-    let points: Vec<(f64, f64)> = [-0.004, -0.002, 0.0005, 0.002, 0.004]
-        .iter()
-        .flat_map(|&y| (0..200).map(move |k| (-0.01 + 0.06 * k as f64 / 199.0, y)))
-        .collect();
-    let sampler = Sampler::new(profile).evaluation(Evaluation::Direct);
-    let served = points
-        .iter()
-        .filter(|p| refined.tile_index_at(p.0, p.1).is_some())
-        .count();
-    let (rm, rx) = errors(sampler.refined(&refined), &lens, &profile, &points);
-    let (um, ux) = errors(sampler.map(&uniform.base), &lens, &profile, &points);
-    let (bm, bx) = errors(sampler.map(&refined.base), &lens, &profile, &points);
-    eprintln!(
-        "near the caustic ({} points, rho = 3 base pixels, {served} centred in refined blocks): \
-         relative error median / largest: refined {rm:.2e} / {rx:.2e}, uniform fine \
-         {um:.2e} / {ux:.2e}, base alone {bm:.2e} / {bx:.2e}",
-        points.len()
-    );
-
-    let runs = if measuring() { 5 } else { 1 };
-    let (t_refined, t_uniform) = (
-        seconds(runs, || drop(build_refined())),
-        seconds(runs, || drop(build_uniform())),
-    );
-    eprintln!(
-        "build: refined {t_refined:.3} s, uniform {t_uniform:.3} s (time ratio refined / \
-         uniform {:.3})",
-        t_refined / t_uniform
-    );
-
     let mut group = c.benchmark_group("refined_against_uniform_fine");
     group.sample_size(10);
-    group.bench_function("refined", |b| b.iter(build_refined));
-    group.bench_function("uniform", |b| b.iter(build_uniform));
+    for case in cases() {
+        let window = Window::new(case.center, case.width, case.base_pixels).unwrap();
+        let fine_window =
+            Window::new(window.center, window.width, FACTOR * case.base_pixels).unwrap();
+        let (name, density) = choose(&lens, &fine_window, 1e-3).unwrap();
+        let engine = by_name(name, density).unwrap();
+        let r = Refinement::new(FACTOR).unwrap();
+        let build_refined =
+            || RefinedMap::build(engine.as_ref(), &lens, &window, Some(r), &(), false).unwrap();
+        let build_uniform = || {
+            engine
+                .build_certified(&lens, &fine_window, &(), false)
+                .unwrap()
+        };
+        let refined = build_refined();
+        let uniform = RefinedMap::plain(build_uniform());
+        let label = format!("{} {}^2 base", case.name, case.base_pixels);
+        eprintln!(
+            "{label}: {name} at {density:.4} per fine pixel; {} tiles over {:.1}% of the window",
+            refined.tiles.len(),
+            100.0 * refined.covered_fraction()
+        );
+        let (held_refined, held_uniform) = (refined.pixel_bytes(), uniform.pixel_bytes());
+        let tile = r.tile_window(&window, (0, 0)).unwrap();
+        let peak_refined = engine
+            .memory_bytes(&lens, &window)
+            .max(engine.memory_bytes(&lens, &tile));
+        let peak_uniform = engine.memory_bytes(&lens, &fine_window);
+        eprintln!(
+            "{label}: pixels held: refined {held_refined} bytes, uniform {held_uniform} bytes \
+             (ratio {:.3}); peak build memory: refined {peak_refined}, uniform {peak_uniform} \
+             (ratio {:.3})",
+            held_refined as f64 / held_uniform as f64,
+            peak_refined as f64 / peak_uniform as f64
+        );
+
+        let profile = SourceProfile::uniform(3.0 * window.pixel_size()).unwrap();
+        let points: Vec<(f64, f64)> = case
+            .segments
+            .iter()
+            .flat_map(|&((x0, y0), (x1, y1))| {
+                (0..200).map(move |k| {
+                    let t = k as f64 / 199.0;
+                    (x0 + t * (x1 - x0), y0 + t * (y1 - y0))
+                })
+            })
+            .collect();
+        let sampler = Sampler::new(profile).evaluation(Evaluation::Direct);
+        let served = points
+            .iter()
+            .filter(|p| refined.tile_index_at(p.0, p.1).is_some())
+            .count();
+        let (rm, rx) = errors(sampler.refined(&refined), &lens, &profile, &points);
+        let (um, ux) = errors(sampler.map(&uniform.base), &lens, &profile, &points);
+        let (bm, bx) = errors(sampler.map(&refined.base), &lens, &profile, &points);
+        eprintln!(
+            "{label}: {} points across the caustic, rho = 3 base pixels, {served} centred in \
+             refined blocks; relative error median / largest: refined {rm:.2e} / {rx:.2e}, \
+             uniform fine {um:.2e} / {ux:.2e}, base alone {bm:.2e} / {bx:.2e}",
+            points.len()
+        );
+
+        let runs = if measuring() { 5 } else { 1 };
+        let (t_refined, t_uniform) = (
+            seconds(runs, || drop(build_refined())),
+            seconds(runs, || drop(build_uniform())),
+        );
+        eprintln!(
+            "{label}: build (best of {runs}): refined {t_refined:.3} s, uniform {t_uniform:.3} s \
+             (time ratio refined / uniform {:.3})",
+            t_refined / t_uniform
+        );
+        group.bench_function(format!("{}_refined", case.name), |b| b.iter(build_refined));
+        group.bench_function(format!("{}_uniform", case.name), |b| b.iter(build_uniform));
+    }
     group.finish();
 }
 
