@@ -133,9 +133,20 @@ pub fn run(args: MapArgs) -> Result<()> {
         args.accuracy.is_some(),
     )?;
     let limit = args.max_memory.unwrap_or_else(default_memory_limit);
+    // The tiles' engine: the same, at the density --accuracy picks for their pixels (or the
+    // same density per pixel with --rays).
+    let tile_engine = match refinement {
+        Some(r) if args.rays.is_none() => {
+            // The window at the fine resolution: what a uniform fine map would be built at.
+            let fine = Window::new(window.center, window.width, window.pixels * r.factor)?;
+            Some(engine_for(args.engine.as_deref(), None, &lens, &fine, target, false)?.0)
+        }
+        _ => None,
+    };
+    let tiles_by = tile_engine.as_deref().unwrap_or(engine.as_ref());
     if let Some(r) = refinement {
         let tile = r.tile_window(&window, (0, 0))?;
-        engine::check_memory(engine.as_ref(), &lens, &tile, limit).map_err(|need| {
+        engine::check_memory(tiles_by, &lens, &tile, limit).map_err(|need| {
             Error::input(format!(
                 "--refine {}: each tile needs about {}, more than the allowed {} \
                  (--max-memory); use a smaller factor",
@@ -147,7 +158,7 @@ pub fn run(args: MapArgs) -> Result<()> {
     }
     let base = build_reported(engine.as_ref(), &lens, &window, limit)?;
     let map = match refinement {
-        Some(r) => refine_reported(base, engine.as_ref(), r)?,
+        Some(r) => refine_reported(base, tiles_by, r)?,
         None => RefinedMap::plain(base),
     };
     // Said after the build, so that a refused build says one line.
@@ -201,10 +212,14 @@ pub fn tiles_line(map: &RefinedMap) -> String {
     let fine = (map.base.window.pixels * r.factor).pow(2) as f64;
     let held = map.pixel_bytes() as f64 / 4.0;
     format!(
-        "tiles: {} of {side} x {side} pixels at {} times the resolution, over {:.1}% of the \
+        "tiles: {} of {side} x {side} pixels at {} times the resolution{}, over {:.1}% of the \
          window, {seconds:.2} s; {:.1}% of the pixels of a uniform {}-pixel map",
         map.tiles.len(),
         r.factor,
+        map.tiles.first().map_or(String::new(), |t| format!(
+            " (density {:.4})",
+            t.map.provenance.density
+        )),
         100.0 * map.covered_fraction(),
         100.0 * held / fine,
         map.base.window.pixels * r.factor

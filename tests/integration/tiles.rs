@@ -267,3 +267,43 @@ fn a_library_with_refine_builds_refined_maps_that_verify() {
         "{bad}"
     );
 }
+
+#[test]
+fn map_refine_writes_the_tiles_and_says_what_they_cover() {
+    let dir = Scratch::new("tiles-cli");
+    let args = [
+        "--s",
+        "1.25",
+        "--q",
+        "2e-3",
+        "--center",
+        "0.02,0",
+        "--width",
+        "0.12",
+        "--pixels",
+        "120",
+        "--refine",
+        "4",
+        "--out",
+        "refined.fits",
+    ];
+    let (code, _, stderr) = crate::common::run_cli(&dir, "map", &args);
+    assert_eq!(code, 0, "{stderr}");
+    let map = read_refined(&dir.join("refined.fits")).unwrap();
+    let line = format!(
+        "tiles: {} of 224 x 224 pixels at 4 times the resolution",
+        map.tiles.len()
+    );
+    assert!(!map.tiles.is_empty() && stderr.contains(&line), "{stderr}");
+    // A factor out of range: exit 2, one line naming the option, nothing written.
+    let mut bad = args;
+    bad[11] = "1";
+    bad[13] = "bad.fits";
+    let (code, _, stderr) = crate::common::run_cli(&dir, "map", &bad);
+    assert_eq!(code, 2);
+    assert_eq!(
+        stderr.trim(),
+        "causeway: error: --refine: the factor must be 2 ..= 64, got 1"
+    );
+    assert!(!dir.join("bad.fits").exists());
+}
