@@ -217,7 +217,7 @@ fn astropy_records(args: &[&Path]) -> Vec<Vec<String>> {
 }
 
 /// Runs the script `name` of tests/python with `args`; returns its records split on commas.
-fn python_records(name: &str, args: &[&Path]) -> Vec<Vec<String>> {
+pub(crate) fn python_records(name: &str, args: &[&Path]) -> Vec<Vec<String>> {
     let script = Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("tests/python")
         .join(name);

@@ -2,13 +2,11 @@
 //! resolution, the FITS file (round trip, astropy), the store key and library spec, and light
 //! curves read from the tiles.
 
-use crate::common::{python, Scratch};
+use crate::common::Scratch;
 use causeway::engine::by_name;
 use causeway::lens::LensSystem;
 use causeway::map::tiles::{RefinedMap, Refinement};
 use causeway::map::{read_fits, read_refined, write_fits, write_refined, Window};
-use std::path::Path;
-use std::process::Command;
 
 /// The planetary caustic of s = 1.25, q = 2e-3 (near s - 1/s = 0.45 from the host).
 fn planetary() -> (LensSystem, Window) {
@@ -138,27 +136,6 @@ fn a_crossing_read_from_the_tiles_is_within_tolerance_where_the_base_is_not() {
     assert!(tiles_median < 1e-3 && tiles_median < 0.1 * base_median);
 }
 
-/// Runs tests/python/tiles_check.py on `path`; returns its records split on commas.
-fn astropy_records(path: &Path) -> Vec<Vec<String>> {
-    let script = crate::common::root().join("tests/python/tiles_check.py");
-    let out = Command::new(python())
-        .arg(script)
-        .arg(path)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "astropy rejected {}: {}",
-        path.display(),
-        String::from_utf8_lossy(&out.stderr)
-    );
-    String::from_utf8(out.stdout)
-        .unwrap()
-        .lines()
-        .map(|l| l.split(',').map(str::to_string).collect())
-        .collect()
-}
-
 #[test]
 fn a_refined_map_round_trips_and_astropy_verifies_every_extension() {
     let dir = Scratch::new("tiles-fits");
@@ -177,7 +154,7 @@ fn a_refined_map_round_trips_and_astropy_verifies_every_extension() {
     // every HDU verifies; each tile's own WCS puts its pixels where the tiling rule and the
     // primary's WCS do; each block's mean agrees between the tile and the base (both are
     // means over the same area, from lattices of the same density).
-    let records = astropy_records(&path);
+    let records = crate::fits::python_records("tiles_check.py", &[&path]);
     let sums: Vec<_> = records.iter().filter(|r| r[0] == "checksum").collect();
     assert_eq!(sums.len(), 2 + map.tiles.len());
     assert!(sums.iter().all(|r| r[2..] == ["1", "1"]), "{sums:?}");
