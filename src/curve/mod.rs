@@ -288,6 +288,24 @@ impl<'a> Sampler<'a> {
 
     /// Reads this map, and its tiles where a source near a caustic fits in one (see
     /// [`crate::map::tiles`]).
+    ///
+    /// ```
+    /// use causeway::curve::Sampler;
+    /// use causeway::{engine::by_name, lens::LensSystem, map::{RefinedMap, Refinement, Window}};
+    /// use causeway::source::SourceProfile;
+    /// let lens = LensSystem::binary(1.0, 0.1).unwrap();
+    /// let window = Window::new((0.0, 0.0), 1.0, 96).unwrap();
+    /// let refine = Some(Refinement::new(4).unwrap());
+    /// let map = RefinedMap::build(by_name("polygon", 1.0).unwrap().as_ref(), &lens, &window,
+    ///                             refine, &(), false).unwrap();
+    /// // A source of 2 base pixels over the central caustic: read from a tile, at 8 fine pixels.
+    /// let profile = SourceProfile::uniform(2.0 * window.pixel_size()).unwrap();
+    /// let at = (-0.1 / 1.1, 0.0); // the host
+    /// assert!(map.tile_index_at(at.0, at.1).is_some());
+    /// let refined = Sampler::new(profile).refined(&map).sample(&[at]).unwrap().samples[0];
+    /// let base = Sampler::new(profile).map(&map.base).sample(&[at]).unwrap().samples[0];
+    /// assert!(refined.error < base.error);
+    /// ```
     pub fn refined(mut self, map: &'a RefinedMap) -> Self {
         self.map = Some(&map.base);
         self.tiles = Some(map);
