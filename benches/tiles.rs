@@ -2,9 +2,8 @@
 //! caustic, for the two caustics of s = 1.25, q = 2e-3: the central one (window 0.12 theta_E, a
 //! 240^2 base with tiles 4 times finer against a uniform 960^2 map) and the planetary one
 //! (window 0.24, 500^2 against 2000^2), both maps by the polygon engine at the density
-//! `--accuracy 1e-3` picks for their pixels (as `map --refine` builds them: the base at the
-//! density for base pixels, tiles and the uniform map at that for fine pixels), on 2 cores, in
-//! one run.
+//! `--accuracy 1e-3` picks for the base pixels, per pixel (as `map --refine` builds them), on 2
+//! cores, in one run.
 //!
 //! Printed before timing: the pixels each holds (bytes, and the ratio), the engines' peak
 //! working memory of the largest single build (base, tile or the uniform map), and the
@@ -117,19 +116,13 @@ fn bench(c: &mut Criterion) {
         let window = Window::new(case.center, case.width, case.base_pixels).unwrap();
         let fine_window =
             Window::new(window.center, window.width, FACTOR * case.base_pixels).unwrap();
-        // As `map --refine 4` builds them: the base at the density --accuracy 1e-3 picks for
-        // its pixels, the tiles (and the uniform map) at the density it picks for fine pixels.
-        let (base_name, base_density) = choose(&lens, &window, 1e-3).unwrap();
-        let base_engine = by_name(base_name, base_density).unwrap();
-        let (name, density) = choose(&lens, &fine_window, 1e-3).unwrap();
+        // As `map --refine 4` builds them: base and tiles at the density --accuracy 1e-3 picks
+        // for the base pixels (per pixel), and the uniform map at the same.
+        let (name, density) = choose(&lens, &window, 1e-3).unwrap();
         let engine = by_name(name, density).unwrap();
         let r = Refinement::new(FACTOR).unwrap();
-        let build_refined = || {
-            let base = base_engine
-                .build_certified(&lens, &window, &(), false)
-                .unwrap();
-            RefinedMap::refine(base, engine.as_ref(), r, &()).unwrap()
-        };
+        let build_refined =
+            || RefinedMap::build(engine.as_ref(), &lens, &window, Some(r), &(), false).unwrap();
         let build_uniform = || {
             engine
                 .build_certified(&lens, &fine_window, &(), false)
@@ -139,14 +132,13 @@ fn bench(c: &mut Criterion) {
         let uniform = RefinedMap::plain(build_uniform());
         let label = format!("{} {}^2 base", case.name, case.base_pixels);
         eprintln!(
-            "{label}: {name} at {base_density:.4} per base pixel, {density:.4} per fine pixel; \
-             {} tiles over {:.1}% of the window",
+            "{label}: {name} at {density:.4} per pixel; {} tiles over {:.1}% of the window",
             refined.tiles.len(),
             100.0 * refined.covered_fraction()
         );
         let (held_refined, held_uniform) = (refined.pixel_bytes(), uniform.pixel_bytes());
         let tile = r.tile_window(&window, (0, 0)).unwrap();
-        let peak_refined = base_engine
+        let peak_refined = engine
             .memory_bytes(&lens, &window)
             .max(engine.memory_bytes(&lens, &tile));
         let peak_uniform = engine.memory_bytes(&lens, &fine_window);

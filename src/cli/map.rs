@@ -65,7 +65,9 @@ pub struct MapArgs {
     pub accuracy: Option<f64>,
     /// Also hold tiles FACTOR times finer (2 to 64) where the caustics run: blocks of 48 x 48
     /// pixels that a caustic passes within 4 pixels of, each tile reaching 4 pixels beyond
-    /// its block, built by the same engine at the same density per (fine) pixel and written
+    /// its block, built by the same engine at the same density per (fine) pixel (from --rays
+    /// or --accuracy for the base pixels: cells no larger than a fine pixel keep the reads'
+    /// error estimates sound) and written
     /// as image extensions of the same file. Sources of a few pixels then read accurately near
     /// the caustics without a finer map everywhere (--refine 4 with 250 pixels reads there as
     /// a 1000-pixel map would).
@@ -133,20 +135,9 @@ pub fn run(args: MapArgs) -> Result<()> {
         args.accuracy.is_some(),
     )?;
     let limit = args.max_memory.unwrap_or_else(default_memory_limit);
-    // The tiles' engine: the same, at the density --accuracy picks for their pixels (or the
-    // same density per pixel with --rays).
-    let tile_engine = match refinement {
-        Some(r) if args.rays.is_none() => {
-            // The window at the fine resolution: what a uniform fine map would be built at.
-            let fine = Window::new(window.center, window.width, window.pixels * r.factor)?;
-            Some(engine_for(args.engine.as_deref(), None, &lens, &fine, target, false)?.0)
-        }
-        _ => None,
-    };
-    let tiles_by = tile_engine.as_deref().unwrap_or(engine.as_ref());
     if let Some(r) = refinement {
         let tile = r.tile_window(&window, (0, 0))?;
-        engine::check_memory(tiles_by, &lens, &tile, limit).map_err(|need| {
+        engine::check_memory(engine.as_ref(), &lens, &tile, limit).map_err(|need| {
             Error::input(format!(
                 "--refine {}: each tile needs about {}, more than the allowed {} \
                  (--max-memory); use a smaller factor",
@@ -158,7 +149,7 @@ pub fn run(args: MapArgs) -> Result<()> {
     }
     let base = build_reported(engine.as_ref(), &lens, &window, limit)?;
     let map = match refinement {
-        Some(r) => refine_reported(base, tiles_by, r)?,
+        Some(r) => refine_reported(base, engine.as_ref(), r)?,
         None => RefinedMap::plain(base),
     };
     // Said after the build, so that a refused build says one line.
