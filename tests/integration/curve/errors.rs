@@ -7,8 +7,8 @@
 use crate::common;
 
 use causeway::contour;
-use causeway::curve::{Curve, Evaluation, Method, Sampler};
-use causeway::engine::{Engine, RayShooting};
+use causeway::curve::{map_engine, Curve, Evaluation, Method, Sampler};
+use causeway::engine::{by_name, Engine, RayShooting};
 use causeway::lens::LensSystem;
 use causeway::map::{write_fits, MagnificationMap, Window};
 use causeway::source::{LimbDarkening, SourceProfile};
@@ -24,14 +24,21 @@ fn segment(a: (f64, f64), b: (f64, f64), n: usize) -> Vec<(f64, f64)> {
         .collect()
 }
 
-/// A ray-shot map (400 rays per pixel area, as `curve` builds) covering `points` with room for
-/// a source of `rho` at `px_per_rho` pixels per radius.
+/// A ray-shot map (400 rays per pixel area) covering `points` with room for a source of `rho`
+/// at `px_per_rho` pixels per radius.
 fn map_over(
     lens: &LensSystem,
     points: &[(f64, f64)],
     rho: f64,
     px_per_rho: f64,
 ) -> MagnificationMap {
+    RayShooting::new(400.0)
+        .build(lens, &window_over(points, rho, px_per_rho))
+        .unwrap()
+}
+
+/// The window of [`map_over`].
+fn window_over(points: &[(f64, f64)], rho: f64, px_per_rho: f64) -> Window {
     let d = rho / px_per_rho;
     let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
     for &(x, y) in points {
@@ -39,13 +46,12 @@ fn map_over(
     }
     let side = (x1 - x0).max(y1 - y0) + 2.0 * (rho + 4.0 * d);
     let pixels = (side / d).ceil() as usize;
-    let window = Window::new(
+    Window::new(
         (0.5 * (x0 + x1), 0.5 * (y0 + y1)),
         pixels as f64 * d,
         pixels,
     )
-    .unwrap();
-    RayShooting::new(400.0).build(lens, &window).unwrap()
+    .unwrap()
 }
 
 /// Contour integration at `tol` at every point: the reference.
@@ -94,6 +100,60 @@ type Case<'a> = (
     &'a [(f64, f64)],
     f64,
 );
+
+/// Reads `map` along `points` directly and pre-convolved: every value within its stated error
+/// of `refs`, each case's median estimate / actual at most `case_limit`, and with the fallback every value
+/// within the tolerance 1e-3. Returns the ratios estimate / actual error.
+fn check_reads(
+    name: &str,
+    lens: &LensSystem,
+    profile: &SourceProfile,
+    map: &MagnificationMap,
+    points: &[(f64, f64)],
+    refs: &[contour::Estimate],
+    case_limit: f64,
+) -> Vec<f64> {
+    let mut ratios = Vec::new();
+    for evaluation in [Evaluation::Direct, Evaluation::Convolved] {
+        let curve = Sampler::new(*profile)
+            .map(map)
+            .evaluation(evaluation)
+            .sample(points)
+            .unwrap();
+        let name = format!("{name}, {evaluation:?}");
+        let r = assert_within_stated(&name, &curve, refs);
+        // Tight: the median estimate at most 10 times the actual error over all cases
+        // (issue 15; below), and no case far beyond.
+        assert!(
+            median(r.clone()) <= case_limit,
+            "{name}: median {}",
+            median(r.clone())
+        );
+        ratios.extend(r);
+        // With the fallback every value is within the tolerance 1e-3 of the reference.
+        let tol = 1e-3;
+        let kept = Sampler::new(*profile)
+            .map(map)
+            .evaluation(evaluation)
+            .fallback(lens)
+            .tol(tol)
+            .sample(points)
+            .unwrap();
+        for (s, r) in kept.samples.iter().zip(refs) {
+            assert!(
+                (s.magnification - r.magnification).abs() <= tol * r.magnification,
+                "{name}: {} {} vs {} at ({}, {})",
+                s.method.name(),
+                s.magnification,
+                r.magnification,
+                s.x,
+                s.y
+            );
+            assert!(s.error <= tol * s.magnification, "{name}");
+        }
+    }
+    ratios
+}
 
 #[test]
 fn map_reads_are_within_their_stated_error_and_tight() {
@@ -152,45 +212,137 @@ fn map_reads_are_within_their_stated_error_and_tight() {
     for (name, lens, profile, px, points, ref_tol) in cases {
         let map = map_over(lens, points, profile.rho, px);
         let refs = reference(lens, points, &profile, ref_tol);
-        for evaluation in [Evaluation::Direct, Evaluation::Convolved] {
-            let curve = Sampler::new(profile)
-                .map(&map)
-                .evaluation(evaluation)
-                .sample(points)
-                .unwrap();
-            let name = format!("{name}, {evaluation:?}");
-            let r = assert_within_stated(&name, &curve, &refs);
-            // Tight: the median estimate at most 10 times the actual error over all cases
-            // (issue 15; below), and no case far beyond.
-            assert!(
-                median(r.clone()) <= 15.0,
-                "{name}: median {}",
-                median(r.clone())
-            );
-            ratios.extend(r);
-            // With the fallback every value is within the tolerance 1e-3 of the reference.
-            let tol = 1e-3;
-            let kept = Sampler::new(profile)
-                .map(&map)
-                .evaluation(evaluation)
-                .fallback(lens)
-                .tol(tol)
-                .sample(points)
-                .unwrap();
-            for (s, r) in kept.samples.iter().zip(&refs) {
-                assert!(
-                    (s.magnification - r.magnification).abs() <= tol * r.magnification,
-                    "{name}: {} {} vs {} at ({}, {})",
-                    s.method.name(),
-                    s.magnification,
-                    r.magnification,
-                    s.x,
-                    s.y
-                );
-                assert!(s.error <= tol * s.magnification, "{name}");
-            }
-        }
+        ratios.extend(check_reads(name, lens, &profile, &map, points, &refs, 15.0));
     }
+    let pooled = median(ratios);
+    assert!(
+        (1.0..=10.0).contains(&pooled),
+        "median estimate / actual error {pooled}"
+    );
+}
+
+#[test]
+fn polygon_map_reads_are_within_their_stated_error_and_tight() {
+    // The crossings above on polygon-mapped maps at the density `curve` and `map --accuracy
+    // 1e-3` choose (src/curve/plan.rs map_engine): 1/16 to 2 cells per pixel here, cells as
+    // large as a pixel or larger, whose errors the 2 x 2 binning alone does not see (before the
+    // cell-scale noise term 33 of 1000 direct reads of the 10-pixel crossing were beyond their
+    // estimate, up to 2.1x; 439 of 1000 at 40 pixels, up to 12x); and at 4 cells per pixel.
+    let planet = LensSystem::binary(1.25, 2e-3).unwrap();
+    let resonant = LensSystem::binary(1.0, 0.1).unwrap();
+    let uniform = |rho| SourceProfile::uniform(rho).unwrap();
+    let linear = |rho| SourceProfile::new(rho, LimbDarkening::Linear { u: 0.6 }).unwrap();
+    let crossing = segment((0.40, -0.02), (0.50, 0.02), 100);
+    let cases: [(Case, Option<f64>); 8] = [
+        (
+            (
+                "fold, uniform, 3 px",
+                &planet,
+                uniform(0.004),
+                3.0,
+                &crossing,
+                1e-6,
+            ),
+            None,
+        ),
+        (
+            (
+                "fold, uniform, 10 px",
+                &planet,
+                uniform(0.004),
+                10.0,
+                &crossing,
+                1e-6,
+            ),
+            None,
+        ),
+        (
+            (
+                "fold, uniform, 20 px",
+                &planet,
+                uniform(0.004),
+                20.0,
+                &crossing,
+                1e-6,
+            ),
+            None,
+        ),
+        (
+            (
+                "fold, uniform, 40 px",
+                &planet,
+                uniform(0.004),
+                40.0,
+                &crossing,
+                1e-6,
+            ),
+            None,
+        ),
+        (
+            (
+                "fold, uniform, 20 px, 4 cells",
+                &planet,
+                uniform(0.004),
+                20.0,
+                &crossing,
+                1e-6,
+            ),
+            Some(4.0),
+        ),
+        (
+            (
+                "fold, linear 0.6, 10 px",
+                &planet,
+                linear(0.004),
+                10.0,
+                &crossing[..50],
+                1e-5,
+            ),
+            None,
+        ),
+        (
+            (
+                "cusp and lenses, uniform, 10 px",
+                &resonant,
+                uniform(0.01),
+                10.0,
+                &segment((-0.3, -0.25), (0.3, 0.2), 100),
+                1e-6,
+            ),
+            None,
+        ),
+        (
+            (
+                "over the host, linear 0.6, 50 px",
+                &planet,
+                linear(0.05),
+                50.0,
+                &segment((-0.1, -0.03), (0.1, 0.05), 30),
+                1e-5,
+            ),
+            None,
+        ),
+    ];
+    let mut ratios = Vec::new();
+    let mut sparse = false;
+    for ((name, lens, profile, px, points, ref_tol), cells) in cases {
+        let window = window_over(points, profile.rho, px);
+        let engine = match cells {
+            Some(c) => by_name("polygon", c).unwrap(),
+            None => map_engine(lens, &window, None, Sampler::DEFAULT_TOL).unwrap(),
+        };
+        assert_eq!(engine.name(), "polygon");
+        sparse |= engine.density() < 1.0;
+        let map = engine.build(lens, &window).unwrap();
+        let refs = reference(lens, points, &profile, ref_tol);
+        let name = format!("{name} ({:.3} cells per pixel)", engine.density());
+        ratios.extend(check_reads(
+            &name, lens, &profile, &map, points, &refs, 20.0,
+        ));
+    }
+    // Cases with cells of 3 to 4 pixels are the loosest (median 17 across the cusp at 1/8
+    // cell per pixel, hence 20 per case); the pooled median holds the issue's bound.
+    assert!(sparse, "no case with cells larger than a pixel");
     let pooled = median(ratios);
     assert!(
         (1.0..=10.0).contains(&pooled),
