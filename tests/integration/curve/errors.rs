@@ -101,6 +101,25 @@ type Case<'a> = (
     f64,
 );
 
+/// A uniform source of radius `rho`.
+fn uniform(rho: f64) -> SourceProfile {
+    SourceProfile::uniform(rho).unwrap()
+}
+
+/// A source of radius `rho` with linear limb darkening 0.6.
+fn linear(rho: f64) -> SourceProfile {
+    SourceProfile::new(rho, LimbDarkening::Linear { u: 0.6 }).unwrap()
+}
+
+/// The bound on the pooled ratios estimate / actual error: a median in [1, 10].
+fn assert_pooled_median(ratios: Vec<f64>) {
+    let pooled = median(ratios);
+    assert!(
+        (1.0..=10.0).contains(&pooled),
+        "median estimate / actual error {pooled}"
+    );
+}
+
 /// Reads `map` along `points` directly and pre-convolved: every value within its stated error
 /// of `refs`, each case's median estimate / actual at most `case_limit`, and with the fallback every value
 /// within the tolerance 1e-3. Returns the ratios estimate / actual error.
@@ -163,8 +182,6 @@ fn map_reads_are_within_their_stated_error_and_tight() {
     // directly and pre-convolved.
     let planet = LensSystem::binary(1.25, 2e-3).unwrap();
     let resonant = LensSystem::binary(1.0, 0.1).unwrap();
-    let uniform = |rho| SourceProfile::uniform(rho).unwrap();
-    let linear = |rho| SourceProfile::new(rho, LimbDarkening::Linear { u: 0.6 }).unwrap();
     let crossing = segment((0.40, -0.02), (0.50, 0.02), 120);
     let cases: [Case; 5] = [
         (
@@ -214,11 +231,7 @@ fn map_reads_are_within_their_stated_error_and_tight() {
         let refs = reference(lens, points, &profile, ref_tol);
         ratios.extend(check_reads(name, lens, &profile, &map, points, &refs, 15.0));
     }
-    let pooled = median(ratios);
-    assert!(
-        (1.0..=10.0).contains(&pooled),
-        "median estimate / actual error {pooled}"
-    );
+    assert_pooled_median(ratios);
 }
 
 #[test]
@@ -230,8 +243,6 @@ fn polygon_map_reads_are_within_their_stated_error_and_tight() {
     // estimate, up to 2.1x; 439 of 1000 at 40 pixels, up to 12x); and at 4 cells per pixel.
     let planet = LensSystem::binary(1.25, 2e-3).unwrap();
     let resonant = LensSystem::binary(1.0, 0.1).unwrap();
-    let uniform = |rho| SourceProfile::uniform(rho).unwrap();
-    let linear = |rho| SourceProfile::new(rho, LimbDarkening::Linear { u: 0.6 }).unwrap();
     let crossing = segment((0.40, -0.02), (0.50, 0.02), 100);
     let cases: [(Case, Option<f64>); 8] = [
         (
@@ -343,11 +354,7 @@ fn polygon_map_reads_are_within_their_stated_error_and_tight() {
     // Cases with cells of 3 to 4 pixels are the loosest (median 17 across the cusp at 1/8
     // cell per pixel, hence 20 per case); the pooled median holds the bound.
     assert!(sparse, "no case with cells larger than a pixel");
-    let pooled = median(ratios);
-    assert!(
-        (1.0..=10.0).contains(&pooled),
-        "median estimate / actual error {pooled}"
-    );
+    assert_pooled_median(ratios);
 }
 
 #[test]
