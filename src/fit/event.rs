@@ -14,8 +14,9 @@
 //!    the anomaly covers the peak, or the baseline could not fix `u0` or `tE`, each line is
 //!    tried over a ladder of tE factors (0.5 to 2) and t0 shifts (-0.15 to 0.15 tE) about the
 //!    best single lens at its own `u0` (the valley widened from 0.001 to the largest `u0`
-//!    searched: [`Seed::widen`]), over the whole u0 range the window allows. The per-map trajectory budget
-//!    ([`GridRule::max_trajectories`]) then coarsens the lines rather than the timings.
+//!    searched: [`Seed::widen`]), over the whole u0 range the window allows. The per-map
+//!    trajectory budget ([`GridRule::max_trajectories`]) then coarsens the lines rather than
+//!    the timings.
 //! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged.
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
 //!    half and a quarter of the library's step are built and searched ([`super::zoom`]).

@@ -5,9 +5,10 @@
 //! Each start first takes the best of a ladder of source radii ([`RHO_LADDER`] times its own,
 //! by exact chi^2 at the start's other parameters): a map search cannot try a radius below
 //! its pixel, and the refinement's steps in `ln rho` rarely cross the factors between a
-//! pixel-sized source and a caustic crossing's own. Then it goes through Levenberg-Marquardt on the normalised residuals (which follows the
-//! curved valleys of a caustic crossing), the Nelder-Mead simplex from there (which can step
-//! out of a shallow false minimum), and Levenberg-Marquardt again to converge. The
+//! pixel-sized source and a caustic crossing's own. Then it goes through Levenberg-Marquardt
+//! on the normalised residuals (which follows the curved valleys of a caustic crossing), the
+//! Nelder-Mead simplex from there (which can step out of a shallow false minimum), and
+//! Levenberg-Marquardt again to converge. The
 //! uncertainties come from the Hessian of chi^2 at the minimum (see
 //! [`super::optimize::covariance`]), by differences with magnifications ten times finer.
 //!
