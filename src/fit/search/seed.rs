@@ -226,12 +226,12 @@ impl Seed {
         Self::along_valley(fit, &outside_masks(baseline, data), anomaly)
     }
 
-    /// Replaces the valley by one over `u0` from [`WIDE_VALLEY`]'s start to `u0_max`, for a
+    /// Replaces the valley by one over `u0` from 0.001 to `u0_max` in steps of 10%, for a
     /// baseline whose timing is not trusted: each node is the best of the fits at that `u0`
     /// started from its neighbour's timing, the old valley's, the baseline's and the fit to all
-    /// data's, so that every `u0` the
-    /// search tries gets the single lens's best timing there rather than one extrapolated from
-    /// a valley about a wrong `u0`. (The search still tries several timings about it.)
+    /// data's, so that every `u0` the search tries gets the single lens's best timing there
+    /// rather than one extrapolated from a valley about a wrong `u0`. (The search still tries
+    /// several timings about it.)
     ///
     /// ```
     /// use causeway::fit::{photometry::DataSet, search::Seed, single::*};
