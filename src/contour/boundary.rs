@@ -182,6 +182,50 @@ fn pair_up(
     Some(Matching { to, worst, total })
 }
 
+/// The pairing of [`pair_up`] without skipped images, found directly when every image of `a`
+/// has a different nearest partner in `b` (the usual case away from critical curves): the greedy
+/// pairing then links each image to that partner, whatever the order of its picks. Returns the
+/// partners and [`Matching::worst`]; None when two images share a nearest partner or one has
+/// none (then [`pair_up`] decides).
+fn pair_nearest(a: &Node, b: &Node, cost: &Costs) -> Option<([usize; MAX_IMAGES], f64)> {
+    let (ia, ib) = (a.images(), b.images());
+    let mut to = [usize::MAX; MAX_IMAGES];
+    let mut taken = [false; MAX_IMAGES];
+    for (i, p) in ia.iter().enumerate() {
+        // The first strict minimum, as the greedy scan finds it.
+        let mut best = (f64::INFINITY, usize::MAX);
+        for (j, q) in ib.iter().enumerate() {
+            if q.parity == p.parity && cost[i][j] < best.0 {
+                best = (cost[i][j], j);
+            }
+        }
+        let j = best.1;
+        if j == usize::MAX || taken[j] {
+            return None;
+        }
+        taken[j] = true;
+        to[i] = j;
+    }
+    let mut worst = 0.0f64;
+    for (i, p) in ia.iter().enumerate() {
+        let j = to[i];
+        let c = cost[i][j];
+        let mut second = f64::INFINITY;
+        for (jj, q) in ib.iter().enumerate() {
+            if jj != j && q.parity == p.parity {
+                second = second.min(cost[i][jj]);
+            }
+        }
+        for (ii, r) in ia.iter().enumerate() {
+            if ii != i && r.parity == ib[j].parity {
+                second = second.min(cost[ii][j]);
+            }
+        }
+        worst = worst.max(c.min(LINK_AGREEMENT * c / (UNAMBIGUOUS * second)));
+    }
+    Some((to, worst))
+}
+
 /// The best choice of an appearing (or vanishing) pair among the images of `side`: one image of
 /// each parity, the rest matched with the other side.
 fn best_pair(
@@ -223,24 +267,28 @@ pub(crate) const FORCE_LINK: f64 = 1e-8;
 pub(crate) fn link(a: &Node, b: &Node, o: Complex64) -> Option<Piece> {
     let h = b.theta - a.theta;
     let cost = costs(a, b, h);
-    let (pair, m) = match b.len as isize - a.len as isize {
-        0 => (None, pair_up(a, b, &cost, None, None)?),
+    let (pair, (to, worst)) = match b.len as isize - a.len as isize {
+        0 => (
+            None,
+            pair_nearest(a, b, &cost)
+                .or_else(|| pair_up(a, b, &cost, None, None).map(|m| (m.to, m.worst)))?,
+        ),
         2 => {
             let (p, m) = best_pair(a, b, &cost, true)?;
-            (Some((p, true)), m)
+            (Some((p, true)), (m.to, m.worst))
         }
         -2 => {
             let (p, m) = best_pair(a, b, &cost, false)?;
-            (Some((p, false)), m)
+            (Some((p, false)), (m.to, m.worst))
         }
         _ => return None,
     };
-    if m.worst > LINK_AGREEMENT && h >= FORCE_LINK {
+    if worst > LINK_AGREEMENT && h >= FORCE_LINK {
         return None;
     }
     let mut piece = Piece::default();
     for (i, p) in a.images().iter().enumerate() {
-        let j = m.to[i];
+        let j = to[i];
         if j == usize::MAX {
             continue;
         }

@@ -135,6 +135,8 @@ pub struct ContourSolver {
     trace: Arc<CausticTrace>,
     tol: f64,
     shortcut: bool,
+    /// Buffers reused from point to point.
+    work: refine::Workspace,
 }
 
 impl ContourSolver {
@@ -152,6 +154,7 @@ impl ContourSolver {
             trace: Arc::new(CausticTrace::new(lens)),
             tol,
             shortcut: true,
+            work: refine::Workspace::default(),
         })
     }
 
@@ -214,12 +217,17 @@ impl ContourSolver {
                 });
             }
         }
-        let (solver, lens, trace) = (&mut self.solver, &self.lens, &*self.trace);
+        let mut disk = refine::Sampling {
+            solver: &mut self.solver,
+            lens: &self.lens,
+            trace: &self.trace,
+            work: &mut self.work,
+        };
         let (magnification, error) = if source.is_uniform() {
-            refine::uniform_disk(solver, lens, trace, center, rho, self.tol)?
+            refine::uniform_disk(&mut disk, center, rho, self.tol)?
         } else {
             annuli::limb_darkened(source, self.tol, d, |r, tol| {
-                refine::uniform_disk(solver, lens, trace, center, r, tol)
+                refine::uniform_disk(&mut disk, center, r, tol)
             })?
         };
         Ok(Estimate {

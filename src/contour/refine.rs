@@ -56,13 +56,34 @@ impl Ord for Interval {
     }
 }
 
+/// The buffers of one disk's sampling, kept by a [`super::ContourSolver`] from disk to disk so
+/// that a point allocates nothing once they have grown. A clone starts empty.
+#[derive(Debug, Default)]
+pub(crate) struct Workspace {
+    nodes: Vec<Node>,
+    cuts: Vec<f64>,
+    angles: Vec<f64>,
+    fresh: Vec<Interval>,
+    frozen: Vec<Interval>,
+    /// The heap's storage between disks.
+    queue: Vec<Interval>,
+    stack: Vec<(usize, usize)>,
+}
+
+impl Clone for Workspace {
+    fn clone(&self) -> Self {
+        Workspace::default()
+    }
+}
+
 /// The sampled boundary of one disk.
 struct Boundary<'a> {
     solver: &'a mut ImageSolver,
     lens: &'a LensSystem,
     center: Complex64,
     rho: f64,
-    nodes: Vec<Node>,
+    nodes: &'a mut Vec<Node>,
+    stack: &'a mut Vec<(usize, usize)>,
 }
 
 impl Boundary<'_> {
@@ -79,8 +100,9 @@ impl Boundary<'_> {
 
     /// Links samples a and b, bisecting until every sub-interval links; pushes the results.
     fn settle(&mut self, a: usize, b: usize, out: &mut Vec<Interval>) -> Result<()> {
-        let mut stack = vec![(a, b)];
-        while let Some((a, b)) = stack.pop() {
+        self.stack.clear();
+        self.stack.push((a, b));
+        while let Some((a, b)) = self.stack.pop() {
             if let Some(piece) = link(&self.nodes[a], &self.nodes[b], self.center) {
                 out.push(Interval { a, b, piece });
                 continue;
@@ -94,8 +116,8 @@ impl Boundary<'_> {
                 )));
             }
             let m = self.add(0.5 * (ta + tb), Some(a))?;
-            stack.push((m, b));
-            stack.push((a, m));
+            self.stack.push((m, b));
+            self.stack.push((a, m));
         }
         Ok(())
     }
@@ -113,46 +135,55 @@ const NUDGE: f64 = 1e-9;
 /// `rho (1 +- 1e-9)` instead, and their mean returned with half their difference added to the
 /// error.
 pub(crate) fn uniform_disk(
-    solver: &mut ImageSolver,
-    lens: &LensSystem,
-    trace: &CausticTrace,
+    disk: &mut Sampling,
     center: Complex64,
     rho: f64,
     tol: f64,
 ) -> Result<(f64, f64)> {
-    match sampled_disk(solver, lens, trace, center, rho, tol) {
+    match sampled_disk(disk, center, rho, tol) {
         Err(Error::Numerical(_)) => {
-            let (a1, e1) = sampled_disk(solver, lens, trace, center, rho * (1.0 + NUDGE), tol)?;
-            let (a2, e2) = sampled_disk(solver, lens, trace, center, rho * (1.0 - NUDGE), tol)?;
+            let (a1, e1) = sampled_disk(disk, center, rho * (1.0 + NUDGE), tol)?;
+            let (a2, e2) = sampled_disk(disk, center, rho * (1.0 - NUDGE), tol)?;
             Ok((0.5 * (a1 + a2), e1.max(e2) + 0.5 * (a1 - a2).abs()))
         }
         other => other,
     }
 }
 
-fn sampled_disk(
-    solver: &mut ImageSolver,
-    lens: &LensSystem,
-    trace: &CausticTrace,
-    center: Complex64,
-    rho: f64,
-    tol: f64,
-) -> Result<(f64, f64)> {
-    solver.reset();
+/// What the sampling of a disk works with: the lens's image solver, the lens, its traced
+/// caustics and the reused buffers.
+pub(crate) struct Sampling<'a> {
+    pub solver: &'a mut ImageSolver,
+    pub lens: &'a LensSystem,
+    pub trace: &'a CausticTrace,
+    pub work: &'a mut Workspace,
+}
+
+fn sampled_disk(disk: &mut Sampling, center: Complex64, rho: f64, tol: f64) -> Result<(f64, f64)> {
+    disk.solver.reset();
+    let Workspace {
+        nodes,
+        cuts,
+        angles,
+        fresh,
+        frozen,
+        queue,
+        stack,
+    } = &mut *disk.work;
+    nodes.clear();
     let mut boundary = Boundary {
-        solver,
-        lens,
+        solver: disk.solver,
+        lens: disk.lens,
         center,
         rho,
-        nodes: Vec::with_capacity(4 * INITIAL_SAMPLES),
+        nodes,
+        stack,
     };
     // Start from evenly spaced angles, the caustic crossings and the midpoints between
     // successive crossings (see `crossings`).
-    let mut cuts = Vec::new();
-    trace.crossings(center, rho, &mut cuts);
-    let mut angles: Vec<f64> = (0..INITIAL_SAMPLES)
-        .map(|k| TAU * k as f64 / INITIAL_SAMPLES as f64)
-        .collect();
+    disk.trace.crossings(center, rho, cuts);
+    angles.clear();
+    angles.extend((0..INITIAL_SAMPLES).map(|k| TAU * k as f64 / INITIAL_SAMPLES as f64));
     for (k, &a) in cuts.iter().enumerate() {
         let next = cuts.get(k + 1).copied().unwrap_or(cuts[0] + TAU);
         let mid = 0.5 * (a + next);
@@ -161,18 +192,20 @@ fn sampled_disk(
     }
     angles.sort_by(f64::total_cmp);
     angles.dedup_by(|b, a| *b - *a < 1e-9);
-    for &a in &angles {
+    for &a in angles.iter() {
         boundary.add(a, None)?;
     }
     // The last sample closes the loop: the images of theta = 0 again, at theta = 2 pi.
     let mut last = boundary.nodes[0];
     last.theta = TAU;
     boundary.nodes.push(last);
-    let mut fresh = Vec::new();
+    fresh.clear();
     for k in 0..angles.len() {
-        boundary.settle(k, k + 1, &mut fresh)?;
+        boundary.settle(k, k + 1, fresh)?;
     }
-    let mut heap: BinaryHeap<Interval> = fresh.drain(..).collect();
+    queue.clear();
+    queue.append(fresh);
+    let mut heap = BinaryHeap::from(std::mem::take(queue));
     let sum = |heap: &BinaryHeap<Interval>| {
         heap.iter().fold(Piece::default(), |mut acc, i| {
             acc += i.piece;
@@ -180,7 +213,7 @@ fn sampled_disk(
         })
     };
     let mut total = sum(&heap);
-    let mut frozen = Vec::new();
+    frozen.clear();
     loop {
         if total.error <= tol * total.area.abs() {
             // Re-add from scratch: the running sums drift.
@@ -200,8 +233,8 @@ fn sampled_disk(
             continue;
         }
         let m = boundary.add(0.5 * (ta + tb), Some(worst.a))?;
-        boundary.settle(worst.a, m, &mut fresh)?;
-        boundary.settle(m, worst.b, &mut fresh)?;
+        boundary.settle(worst.a, m, fresh)?;
+        boundary.settle(m, worst.b, fresh)?;
         total.area -= worst.piece.area;
         total.error -= worst.piece.error;
         for i in fresh.drain(..) {
@@ -211,6 +244,7 @@ fn sampled_disk(
     }
     let mut total = sum(&heap);
     frozen.iter().for_each(|i| total += i.piece);
+    *queue = heap.into_vec();
     let unlensed = PI * rho * rho;
     Ok((total.area / unlensed, total.error / unlensed))
 }
