@@ -161,18 +161,30 @@ impl Preconvolved {
         profile: &SourceProfile,
         route: Route,
     ) -> Result<Self> {
-        let (disks, margin) = kernel_extent(spectrum.map, profile)?;
+        let kernel = Kernel::new(profile, spectrum.map.window.pixel_size());
+        Self::with_kernel(spectrum, profile, &kernel, route)
+    }
+
+    /// [`Preconvolved::with_route`] with the profile's kernel already made (for every map of
+    /// one pixel size: a curve's crops).
+    pub(crate) fn with_kernel(
+        spectrum: &MapSpectrum,
+        profile: &SourceProfile,
+        kernel: &Kernel,
+        route: Route,
+    ) -> Result<Self> {
         let window = spectrum.map.window;
-        let quadrant = kernel_quadrant(&disks, margin);
+        kernel.fits(window.pixels, profile)?;
+        let (quadrant, margin) = (&kernel.quadrant, kernel.margin);
         let direct = match route {
             Route::Auto => margin <= DIRECT_MARGIN,
             Route::Direct => true,
             Route::Fourier => false,
         };
         let grid = if direct {
-            convolve_direct(spectrum.map, &quadrant, margin)
+            convolve_direct(spectrum.map, quadrant, margin)
         } else {
-            convolve_fourier(spectrum, &quadrant, margin)
+            convolve_fourier(spectrum, quadrant, margin)
         };
         Ok(Preconvolved {
             window,
@@ -185,8 +197,10 @@ impl Preconvolved {
     /// kernel, product) for one profile. Kept as the baseline of benches/curve.rs.
     #[doc(hidden)]
     pub fn full_complex_baseline(map: &MagnificationMap, profile: &SourceProfile) -> Result<Self> {
-        let (disks, margin) = kernel_extent(map, profile)?;
         let window = map.window;
+        let kernel = Kernel::new(profile, window.pixel_size());
+        kernel.fits(window.pixels, profile)?;
+        let (quadrant, margin) = (&kernel.quadrant, kernel.margin);
         let n = window.pixels;
         let l = fft_size(n);
         let mut image = vec![ZERO; l * l];
@@ -196,7 +210,6 @@ impl Preconvolved {
             }
         }
         let mut kernel = vec![ZERO; l * l];
-        let quadrant = kernel_quadrant(&disks, margin);
         let w = margin + 1;
         for ky in 0..=margin {
             for kx in 0..=margin {
@@ -294,28 +307,36 @@ impl Preconvolved {
     }
 }
 
-/// Half-width of the kernel in pixels: offsets `|k| <= margin` can touch the largest disk.
-fn kernel_margin(disks: &[(f64, f64)]) -> usize {
-    let r = disks.iter().map(|d| d.0).fold(0.0, f64::max);
-    (r + 0.5).ceil() as usize
+/// A profile's kernel on pixels of one size: the weights of offsets `0 <= kx, ky <= margin`.
+#[derive(Debug, Clone)]
+pub(crate) struct Kernel {
+    margin: usize,
+    quadrant: Vec<f64>,
 }
 
-/// The profile's disks in pixels and the kernel half-width; an error if the kernel does not
-/// fit on the map.
-fn kernel_extent(
-    map: &MagnificationMap,
-    profile: &SourceProfile,
-) -> Result<(Vec<(f64, f64)>, usize)> {
-    let window = map.window;
-    let disks = disks_in_pixels(profile, window.pixel_size());
-    let margin = kernel_margin(&disks);
-    if 2 * margin + 1 > window.pixels {
-        return Err(Error::input(format!(
-            "--rho {}: the source is wider than the map ({} pixels)",
-            profile.rho, window.pixels
-        )));
+impl Kernel {
+    /// The kernel of `profile` (`rho > 0`) on pixels of side `pixel`.
+    pub(crate) fn new(profile: &SourceProfile, pixel: f64) -> Self {
+        let disks = disks_in_pixels(profile, pixel);
+        // Offsets `|k| <= margin` can touch the largest disk.
+        let r = disks.iter().map(|d| d.0).fold(0.0, f64::max);
+        let margin = (r + 0.5).ceil() as usize;
+        Kernel {
+            margin,
+            quadrant: kernel_quadrant(&disks, margin),
+        }
     }
-    Ok((disks, margin))
+
+    /// An error if the kernel does not fit on a map of `pixels` per side.
+    fn fits(&self, pixels: usize, profile: &SourceProfile) -> Result<()> {
+        if 2 * self.margin + 1 > pixels {
+            return Err(Error::input(format!(
+                "--rho {}: the source is wider than the map ({pixels} pixels)",
+                profile.rho
+            )));
+        }
+        Ok(())
+    }
 }
 
 /// Kernel weights for offsets `0 <= kx, ky <= margin` (row-major, `margin + 1` wide); the
@@ -389,9 +410,15 @@ fn convolve_direct(map: &MagnificationMap, quadrant: &[f64], margin: usize) -> V
     grid
 }
 
-/// FFT plans of size `l`, forward and inverse.
+/// FFT plans of size `l`, forward and inverse, from one planner kept for the process (it keeps
+/// every plan it made: a curve convolves a few crops of the same sizes, each five times).
 fn plans(l: usize) -> (Arc<dyn Fft<f64>>, Arc<dyn Fft<f64>>) {
-    let mut planner = FftPlanner::<f64>::new();
+    static PLANNER: OnceLock<Mutex<FftPlanner<f64>>> = OnceLock::new();
+    let mut planner = PLANNER
+        .get_or_init(|| Mutex::new(FftPlanner::new()))
+        .lock()
+        // A panic elsewhere cannot leave the planner inconsistent: plans are only added.
+        .unwrap_or_else(|e| e.into_inner());
     (planner.plan_fft_forward(l), planner.plan_fft_inverse(l))
 }
 

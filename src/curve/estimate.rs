@@ -39,7 +39,6 @@
 
 use super::convolve::Preconvolved;
 use super::sample::{point_read, DirectReader};
-use crate::error::Result;
 use crate::map::{MagnificationMap, Window};
 use crate::source::SourceProfile;
 use ndarray::Array2;
@@ -147,10 +146,21 @@ fn noise(map: &MagnificationMap, u: f64, v: f64, r: f64, step: isize) -> f64 {
     let n = map.window.pixels as isize;
     let at = |i: isize, j: isize| map.data[[j as usize, i as usize]] as f64;
     let (mut sum, mut count) = (0.0, 0);
-    for k in 0..8 {
-        let phi = std::f64::consts::FRAC_PI_4 * k as f64;
-        let i = (u + r * phi.cos()).floor() as isize;
-        let j = (v + r * phi.sin()).floor() as isize;
+    // The eight directions k pi / 4.
+    const H: f64 = std::f64::consts::FRAC_1_SQRT_2;
+    const DIRECTIONS: [(f64, f64); 8] = [
+        (1.0, 0.0),
+        (H, H),
+        (0.0, 1.0),
+        (-H, H),
+        (-1.0, 0.0),
+        (-H, -H),
+        (0.0, -1.0),
+        (H, -H),
+    ];
+    for (cos, sin) in DIRECTIONS {
+        let i = (u + r * cos).floor() as isize;
+        let j = (v + r * sin).floor() as isize;
         if i < step || j < step || i > n - 1 - step || j > n - 1 - step {
             continue;
         }
@@ -167,62 +177,33 @@ fn noise(map: &MagnificationMap, u: f64, v: f64, r: f64, step: isize) -> f64 {
 
 /// The noise term's step, in pixels: 1 for ray-shot maps; for polygon-mapped maps
 /// [`CELL_STEPS`] cell sides rounded up (1 from 2.25 cells per pixel on: the ray rule; see the module docs).
-fn noise_step(map: &MagnificationMap) -> isize {
+pub(crate) fn noise_step(map: &MagnificationMap) -> usize {
     if map.provenance.engine != "polygon" {
         return 1;
     }
-    (CELL_STEPS / map.provenance.density.sqrt()).ceil().max(1.0) as isize
+    (CELL_STEPS / map.provenance.density.sqrt()).ceil().max(1.0) as usize
 }
 
-/// Reads of the binned maps, one reader per layout, made the way the fine read is made.
-pub(crate) struct CoarseReaders<'a> {
-    coarse: &'a Coarse,
+/// The noise term of reads of one map by one source (see [`noise`]).
+#[derive(Clone, Copy)]
+pub(crate) struct NoiseTerm<'a> {
     fine: &'a MagnificationMap,
     rho: f64,
     step: isize,
-    direct: Vec<DirectReader<'a>>,
-    convolved: Vec<Preconvolved>,
 }
 
-impl<'a> CoarseReaders<'a> {
-    /// Readers of `coarse` for `profile`; the binned maps are pre-convolved too when
-    /// `convolved`.
-    pub(crate) fn new(
-        fine: &'a MagnificationMap,
-        coarse: &'a Coarse,
-        profile: &SourceProfile,
-        convolved: bool,
-    ) -> Result<Self> {
-        let direct = if profile.rho > 0.0 {
-            coarse
-                .maps
-                .iter()
-                .map(|m| DirectReader::new(m, profile))
-                .collect()
-        } else {
-            Vec::new()
-        };
-        let convolved = if convolved && profile.rho > 0.0 {
-            coarse
-                .maps
-                .iter()
-                .filter_map(|m| Preconvolved::new(m, profile).ok())
-                .collect()
-        } else {
-            Vec::new()
-        };
-        Ok(CoarseReaders {
-            coarse,
+impl<'a> NoiseTerm<'a> {
+    /// The term for reads of `fine` by a source of radius `rho`.
+    pub(crate) fn new(fine: &'a MagnificationMap, rho: f64) -> Self {
+        NoiseTerm {
             fine,
-            rho: profile.rho,
-            step: noise_step(fine),
-            direct,
-            convolved,
-        })
+            rho,
+            step: noise_step(fine) as isize,
+        }
     }
 
     /// The noise term at `(x, y)`.
-    fn noise(&self, x: f64, y: f64) -> f64 {
+    fn at(&self, x: f64, y: f64) -> f64 {
         let w = &self.fine.window;
         let (x0, y0) = w.origin();
         let d = w.pixel_size();
@@ -235,6 +216,48 @@ impl<'a> CoarseReaders<'a> {
         )
     }
 
+    /// Error estimate of a pre-convolved read `value` at `(x, y)`, given the binned maps
+    /// pre-convolved the same way (`coarse`).
+    pub(crate) fn convolved(&self, coarse: &[Preconvolved], value: f64, x: f64, y: f64) -> f64 {
+        SPREAD_FACTOR * spread(value, coarse.iter().map(|c| c.read(x, y))) + self.at(x, y)
+    }
+}
+
+/// Direct and point reads of the binned maps, one reader per layout.
+pub(crate) struct CoarseReaders<'a> {
+    coarse: &'a Coarse,
+    noise: NoiseTerm<'a>,
+    direct: Vec<DirectReader<'a>>,
+}
+
+impl<'a> CoarseReaders<'a> {
+    /// Readers of `coarse` (the binned `fine`) for `profile`.
+    pub(crate) fn new(
+        fine: &'a MagnificationMap,
+        coarse: &'a Coarse,
+        profile: &SourceProfile,
+    ) -> Self {
+        let direct = if profile.rho > 0.0 {
+            coarse
+                .maps
+                .iter()
+                .map(|m| DirectReader::new(m, profile))
+                .collect()
+        } else {
+            Vec::new()
+        };
+        CoarseReaders {
+            coarse,
+            noise: NoiseTerm::new(fine, profile.rho),
+            direct,
+        }
+    }
+
+    /// The noise term at `(x, y)`.
+    fn noise(&self, x: f64, y: f64) -> f64 {
+        self.noise.at(x, y)
+    }
+
     /// Error estimate of a point-source read `value` at `(x, y)`.
     pub(crate) fn point(&self, value: f64, x: f64, y: f64) -> f64 {
         POINT_FACTOR
@@ -245,11 +268,5 @@ impl<'a> CoarseReaders<'a> {
     /// Error estimate of a direct read `value` at `(x, y)`.
     pub(crate) fn direct(&self, value: f64, x: f64, y: f64) -> f64 {
         SPREAD_FACTOR * spread(value, self.direct.iter().map(|r| r.read(x, y))) + self.noise(x, y)
-    }
-
-    /// Error estimate of a pre-convolved read `value` at `(x, y)`.
-    pub(crate) fn convolved(&self, value: f64, x: f64, y: f64) -> f64 {
-        SPREAD_FACTOR * spread(value, self.convolved.iter().map(|c| c.read(x, y)))
-            + self.noise(x, y)
     }
 }

@@ -60,6 +60,7 @@ mod convolve;
 mod estimate;
 mod plan;
 mod plot;
+mod regions;
 mod sample;
 mod tiled;
 mod trajectory;
@@ -81,9 +82,11 @@ use crate::map::tiles::RefinedMap;
 use crate::map::MagnificationMap;
 use crate::progress::{Progress, Silent};
 use crate::source::SourceProfile;
-use estimate::CoarseReaders;
+use estimate::{noise_step, CoarseReaders, NoiseTerm};
 use num_complex::Complex64;
 use rayon::prelude::*;
+use regions::Plan;
+use std::sync::OnceLock;
 
 /// Least source radius, in pixels, that a map resolves honestly.
 pub const MIN_RHO_PIXELS: f64 = 3.0;
@@ -205,11 +208,24 @@ pub fn choose_evaluation(
     profile: &SourceProfile,
     points: usize,
 ) -> Evaluation {
+    choose_for_crops(map, profile, points, &[map.window.pixels])
+}
+
+/// [`choose_evaluation`] when the pre-convolution covers square crops of these sides.
+fn choose_for_crops(
+    map: &MagnificationMap,
+    profile: &SourceProfile,
+    points: usize,
+    sides: &[usize],
+) -> Evaluation {
     let disks = sample::disks_in_pixels(profile, map.window.pixel_size());
     let halves: Vec<(f64, f64)> = disks.iter().map(|&(r, w)| (0.5 * r, w)).collect();
     let direct = direct_cost(&disks) + 4.0 * direct_cost(&halves);
-    let n = map.window.pixels;
-    if points as f64 * direct > convolve_cost(n) + 4.0 * convolve_cost(n / 2) {
+    let convolve: f64 = sides
+        .iter()
+        .map(|&n| convolve_cost(n) + 4.0 * convolve_cost(n / 2))
+        .sum();
+    if points as f64 * direct > convolve {
         Evaluation::Convolved
     } else {
         Evaluation::Direct
@@ -256,10 +272,50 @@ const CHUNK: usize = 64;
 
 /// The fine and coarse readers of one map, made once per curve.
 struct Readers<'a> {
+    map: Option<&'a MagnificationMap>,
+    profile: SourceProfile,
     direct: Option<DirectReader<'a>>,
-    convolved: Option<Preconvolved>,
-    coarse: Option<CoarseReaders<'a>>,
+    convolved: Option<Convolved<'a>>,
+    /// The map binned ([`Coarse`]) and read for the estimate of direct and point reads, made on
+    /// first need (a pre-convolved curve needs them only where its crops cannot serve).
+    binned: &'a OnceLock<Option<Coarse>>,
+    coarse: OnceLock<Option<CoarseReaders<'a>>>,
     tiles: Option<tiled::TileReaders<'a>>,
+}
+
+/// The pre-convolved crops of a curve ([`regions`]) and the noise term of their estimates.
+struct Convolved<'a> {
+    plan: Plan,
+    crops: Vec<regions::Convolved>,
+    noise: NoiseTerm<'a>,
+}
+
+impl<'a> Readers<'a> {
+    /// The readers of the binned map, if the map has them.
+    fn coarse(&self) -> Option<&CoarseReaders<'a>> {
+        self.coarse
+            .get_or_init(|| {
+                let map = self.map?;
+                let binned = self.binned.get_or_init(|| Coarse::new(map)).as_ref()?;
+                Some(CoarseReaders::new(map, binned, &self.profile))
+            })
+            .as_ref()
+    }
+
+    /// A pre-convolved read of point `k` at `(x, y)` and its error estimate, if its crop
+    /// serves it.
+    fn convolved(&self, k: usize, x: f64, y: f64) -> Option<(f64, f64)> {
+        let c = self.convolved.as_ref()?;
+        let crop = &c.crops[c.plan.of_point[k]?];
+        let a = crop.fine.read(x, y)?;
+        // Half the fine grid's own interpolation bound joins the estimate: where the coarse
+        // grid's interpolation error happens to match the fine one it is what is left.
+        let interpolation = crop.fine.interpolation_bound(x, y).unwrap_or(0.0);
+        Some((
+            a,
+            c.noise.convolved(&crop.coarse, a, x, y) + 0.5 * interpolation,
+        ))
+    }
 }
 
 impl<'a> Sampler<'a> {
@@ -393,14 +449,15 @@ impl<'a> Sampler<'a> {
         let mut convolved = None;
         if let Some(map) = self.map {
             warnings.extend(resolution_warning(map, &self.profile));
+            // Only the crops of the map that the sources reach are pre-convolved.
+            let plan = Plan::new(map, &self.profile, noise_step(map), points);
+            let sides: Vec<usize> = plan.crops.iter().map(|c| c.side()).collect();
             evaluation = match self.evaluation {
-                Evaluation::Auto => choose_evaluation(map, &self.profile, points.len()),
+                Evaluation::Auto => choose_for_crops(map, &self.profile, points.len(), &sides),
                 e => e,
             };
-            if rho > 0.0
-                && evaluation == Evaluation::Convolved
-                && Preconvolved::memory_bytes(map.window.pixels) > self.memory_limit
-            {
+            let memory: u64 = sides.iter().map(|&n| Preconvolved::memory_bytes(n)).sum();
+            if rho > 0.0 && evaluation == Evaluation::Convolved && memory > self.memory_limit {
                 warnings.push(format!(
                     "warning: pre-convolving the {0}x{0} map needs more memory than allowed; \
                      reading it directly",
@@ -409,22 +466,21 @@ impl<'a> Sampler<'a> {
                 evaluation = Evaluation::Direct;
             }
             if rho > 0.0 && evaluation == Evaluation::Convolved {
-                convolved = Some(Preconvolved::new(map, &self.profile)?);
+                convolved = Some(Convolved {
+                    crops: regions::convolve(map, &plan, &self.profile)?,
+                    plan,
+                    noise: NoiseTerm::new(map, rho),
+                });
             }
         }
-        let coarse = self.map.and_then(Coarse::new);
+        let binned = OnceLock::new();
         let coarse_tiles = self.tiles.map(tiled::coarse_tiles).unwrap_or_default();
         let readers = Readers {
+            map: self.map,
+            profile: self.profile,
             direct: self.map.map(|m| DirectReader::new(m, &self.profile)),
-            coarse: match (self.map, coarse.as_ref()) {
-                (Some(m), Some(c)) => Some(CoarseReaders::new(
-                    m,
-                    c,
-                    &self.profile,
-                    convolved.is_some(),
-                )?),
-                _ => None,
-            },
+            binned: &binned,
+            coarse: OnceLock::new(),
             convolved,
             tiles: self
                 .tiles
@@ -468,8 +524,7 @@ impl<'a> Sampler<'a> {
     }
 
     /// The map's value at `(x, y)` and its error estimate, if the source lies on the map.
-    fn map_read(&self, x: f64, y: f64, readers: &Readers) -> Option<(f64, f64, Method)> {
-        let coarse = readers.coarse.as_ref();
+    fn map_read(&self, k: usize, x: f64, y: f64, readers: &Readers) -> Option<(f64, f64, Method)> {
         let or_inf = |e: Option<f64>| e.unwrap_or(f64::INFINITY);
         if let Some((a, e)) = readers.tiles.as_ref().and_then(|t| t.read(x, y)) {
             let method = if self.profile.rho == 0.0 {
@@ -481,25 +536,15 @@ impl<'a> Sampler<'a> {
         }
         if self.profile.rho == 0.0 {
             let a = point_read(self.map?, x, y)?;
-            return Some((
-                a,
-                or_inf(coarse.map(|c| c.point(a, x, y))),
-                Method::Bilinear,
-            ));
+            let e = or_inf(readers.coarse().map(|c| c.point(a, x, y)));
+            return Some((a, e, Method::Bilinear));
         }
-        if let Some(a) = readers.convolved.as_ref().and_then(|c| c.read(x, y)) {
-            // Half the fine grid's own interpolation bound joins the estimate: where the coarse
-            // grid's interpolation error happens to match the fine one it is what is left.
-            let interpolation = readers
-                .convolved
-                .as_ref()
-                .and_then(|c| c.interpolation_bound(x, y))
-                .unwrap_or(0.0);
-            let e = or_inf(coarse.map(|c| c.convolved(a, x, y))) + 0.5 * interpolation;
+        if let Some((a, e)) = readers.convolved(k, x, y) {
             return Some((a, e, Method::Convolved));
         }
         let a = readers.direct.as_ref()?.read(x, y)?;
-        Some((a, or_inf(coarse.map(|c| c.direct(a, x, y))), Method::Direct))
+        let e = or_inf(readers.coarse().map(|c| c.direct(a, x, y)));
+        Some((a, e, Method::Direct))
     }
 
     fn sample_one(
@@ -535,7 +580,7 @@ impl<'a> Sampler<'a> {
             done(est.magnification, est.error, Method::Contour)
         };
         let within = |a: f64, e: f64| e <= self.tol * a.abs();
-        if let Some((a, e, method)) = self.map_read(x, y, readers) {
+        if let Some((a, e, method)) = self.map_read(k, x, y, readers) {
             if contour.is_some() && !within(a, e) {
                 return recompute();
             }

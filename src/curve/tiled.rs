@@ -36,13 +36,10 @@ impl<'a> TileReaders<'a> {
             .iter()
             .zip(coarse)
             .map(|(t, c)| {
-                let estimate = c
-                    .as_ref()
-                    .map(|c| CoarseReaders::new(&t.map, c, profile, false))
-                    .transpose()?;
-                Ok((DirectReader::new(&t.map, profile), estimate))
+                let estimate = c.as_ref().map(|c| CoarseReaders::new(&t.map, c, profile));
+                (DirectReader::new(&t.map, profile), estimate)
             })
-            .collect::<Result<_>>()?;
+            .collect();
         Ok(TileReaders {
             map,
             profile: *profile,

@@ -176,7 +176,8 @@ fn straight_trajectory_has_times_and_a_two_chart_picture() {
         let tau = (t - 1.0) / 20.0;
         assert_eq!(num(row[0]), t);
         assert!((num(row[1]) + 0.05).abs() < 1e-15 && (num(row[2]) - tau).abs() < 1e-15);
-        assert_eq!(row[8], "direct");
+        // Auto's read, by the cost of these five points: either is a map read.
+        assert!(matches!(row[8], "direct" | "convolved"), "{}", row[8]);
     }
     assert!(
         err.contains("relative error map vs contour: median "),
