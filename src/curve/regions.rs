@@ -10,7 +10,7 @@
 //! are the map's own, bin for bin: a read of a crop and its estimate are those of the whole map,
 //! to the transforms' round-off. A square of side `s + 2M` serves a stretch of `s` pixels of
 //! path, so its cost per pixel of path is least at `s = 2M`; a run closes when its extent would
-//! pass that.
+//! pass that. Crops that together hold more pixels than the map give way to the whole map.
 
 use super::convolve::{Kernel, MapSpectrum, Preconvolved, Route};
 use super::estimate::Coarse;
@@ -131,6 +131,18 @@ impl Plan {
         if let Some(b) = run {
             close(b, &mut crops);
         }
+        // Crops that cover more than the map, together, cost more than the map.
+        if crops.iter().map(|c| c.side * c.side).sum::<usize>() >= n * n {
+            let whole = Crop {
+                ix: 0,
+                iy: 0,
+                side: n,
+            };
+            return Plan {
+                crops: vec![whole],
+                of_point: of_point.iter().map(|k| k.map(|_| 0)).collect(),
+            };
+        }
         Plan { crops, of_point }
     }
 }
@@ -204,6 +216,55 @@ pub(super) fn convolve(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn single_lens_map(pixels: usize) -> MagnificationMap {
+        use crate::engine::{Engine, RayShooting};
+        let window = Window::new((0.0, 0.0), 1.0, pixels).unwrap();
+        RayShooting::new(1.0)
+            .build(&crate::lens::LensSystem::single(), &window)
+            .unwrap()
+    }
+
+    #[test]
+    fn runs_are_cut_along_a_path_and_a_crowded_plan_takes_the_whole_map() {
+        let map = single_lens_map(400);
+        let profile = SourceProfile::uniform(0.01).unwrap(); // 4 pixels: margin 5 + 6 + 1
+        let line: Vec<(f64, f64)> = (0..200).map(|k| (-0.45 + 0.0045 * k as f64, 0.1)).collect();
+        let plan = Plan::new(&map, &profile, 1, &line);
+        // 360 pixels of path in runs of at most 24: 14 or more crops, each of side 24 + 24 + 4
+        // at most, in order along the path.
+        assert!(plan.crops.len() >= 14, "{:?}", plan.crops);
+        assert!(plan.crops.iter().all(|c| c.side <= 52));
+        assert!(plan.of_point.windows(2).all(|w| w[0] <= w[1]));
+        // Every point lies a margin inside its crop.
+        for (&(x, y), k) in line.iter().zip(&plan.of_point) {
+            let c = plan.crops[k.unwrap()];
+            let (u, v) = ((x + 0.5) * 400.0, (y + 0.5) * 400.0);
+            assert!(u - c.ix as f64 >= 12.0 && (c.ix + c.side) as f64 - u >= 12.0);
+            assert!(v - c.iy as f64 >= 12.0 && (c.iy + c.side) as f64 - v >= 12.0);
+        }
+        // Back and forth over the map: the crops would hold more than the map.
+        let zigzag: Vec<(f64, f64)> = (0..2000)
+            .map(|k| {
+                (
+                    -0.45 + 0.0045 * (k % 200) as f64,
+                    -0.45 + 0.00045 * k as f64,
+                )
+            })
+            .collect();
+        let plan = Plan::new(&map, &profile, 1, &zigzag);
+        assert_eq!(
+            plan.crops,
+            vec![Crop {
+                ix: 0,
+                iy: 0,
+                side: 400
+            }]
+        );
+        // Off the map: no crop.
+        let plan = Plan::new(&map, &profile, 1, &[(2.0, 0.0)]);
+        assert_eq!(plan.of_point, vec![None]);
+    }
 
     #[test]
     fn squares_start_even_and_stay_inside() {
