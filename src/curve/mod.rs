@@ -5,8 +5,9 @@
 //!
 //! 1. the map, when the whole source lies on it: [`DirectReader`] (exact disk/pixel overlap
 //!    weights) or [`Preconvolved`] (the map convolved once with the profile, by FFT for all
-//!    but the smallest sources, read bilinearly), chosen by the number of points
-//!    ([`Evaluation::Auto`]); a point source (`rho = 0`) is read by bilinear interpolation
+//!    but the smallest sources, read bilinearly; only square crops around runs of the points,
+//!    `regions.rs`), chosen by cost ([`Evaluation::Auto`]); a point source (`rho = 0`) is
+//!    read by bilinear interpolation
 //!    ([`point_read`]);
 //! 2. off the map, the exact point-source magnification with the small-source correction
 //!    ([`small_source`]), where that correction is accurate to the tolerance; elsewhere the
