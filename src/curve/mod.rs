@@ -488,14 +488,7 @@ impl<'a> Sampler<'a> {
                 .map(|t| tiled::TileReaders::new(t, &coarse_tiles, &self.profile))
                 .transpose()?,
         };
-        let contour = self
-            .fallback
-            .map(|lens| ContourSolver::new(lens, contour_tol(self.tol)))
-            .transpose()?
-            // Full contours only: the values recomputed lie near caustics, where the
-            // integration's small-source shortcut has been seen 37 times beyond its estimate
-            // (a source whose limb has just left a fold, tests/integration/curve/errors.rs).
-            .map(|c| c.with_shortcut(false));
+        let contour = self.fallback.map(Fallback::new).transpose()?;
         self.progress.start("curve", points.len() as u64);
         let results: Vec<Result<Vec<Sample>>> = points
             .par_chunks(CHUNK)
@@ -505,7 +498,8 @@ impl<'a> Sampler<'a> {
                     .iter()
                     .enumerate()
                     .map(|(k, &(x, y))| {
-                        self.sample_one(c * CHUNK + k, x, y, &readers, contour.as_ref())
+                        let contour = contour.as_ref().map(|f| f.solver(self.tol));
+                        self.sample_one(c * CHUNK + k, x, y, &readers, contour)
                     })
                     .collect();
                 self.progress.advance(chunk.len() as u64);
@@ -554,7 +548,7 @@ impl<'a> Sampler<'a> {
         x: f64,
         y: f64,
         readers: &Readers,
-        contour: Option<&ContourSolver>,
+        contour: Option<impl Fn() -> Result<ContourSolver>>,
     ) -> Result<Sample> {
         if !(x.is_finite() && y.is_finite()) {
             return Err(Error::input(format!(
@@ -574,10 +568,10 @@ impl<'a> Sampler<'a> {
         let recompute = || -> Result<Sample> {
             // A fresh solver per point: measured faster than one carried from the previous
             // recomputed point (whose roots are a worse start than the solver's own).
-            let solver = contour.expect("recomputed only with a contour solver");
-            let est = solver
-                .clone()
-                .magnification(Complex64::new(x, y), &self.profile)?;
+            let solver = contour
+                .as_ref()
+                .expect("recomputed only with a contour solver");
+            let est = solver()?.magnification(Complex64::new(x, y), &self.profile)?;
             done(est.magnification, est.error, Method::Contour)
         };
         let within = |a: f64, e: f64| e <= self.tol * a.abs();
@@ -623,6 +617,40 @@ impl<'a> Sampler<'a> {
             Method::Expansion
         };
         done(e.magnification, e.error, method)
+    }
+}
+
+/// Contour integration for the values the map and the continuation cannot give: the lens
+/// checked at once, the solver made on first need (it traces the caustics, about a millisecond,
+/// which a curve the map serves whole does not spend).
+struct Fallback<'a> {
+    lens: &'a LensSystem,
+    solver: OnceLock<std::result::Result<ContourSolver, String>>,
+}
+
+impl<'a> Fallback<'a> {
+    fn new(lens: &'a LensSystem) -> Result<Self> {
+        crate::solve::ImageSolver::new(lens)?;
+        Ok(Fallback {
+            lens,
+            solver: OnceLock::new(),
+        })
+    }
+
+    /// A fresh solver for one point, at [`contour_tol`] of `tol`.
+    fn solver(&self, tol: f64) -> impl Fn() -> Result<ContourSolver> + '_ {
+        move || {
+            let made = self.solver.get_or_init(|| {
+                ContourSolver::new(self.lens, contour_tol(tol))
+                    // Full contours only: the values recomputed lie near caustics, where the
+                    // integration's small-source shortcut has been seen 37 times beyond its
+                    // estimate (a source whose limb has just left a fold,
+                    // tests/integration/curve/errors.rs).
+                    .map(|c| c.with_shortcut(false))
+                    .map_err(|e| e.to_string())
+            });
+            made.clone().map_err(Error::Numerical)
+        }
     }
 }
 
