@@ -2,6 +2,7 @@
 //! off-map point-source curve (exact solves at a subset, interpolated) elsewhere.
 
 use super::grid::{GridRule, Line};
+use super::profile::{LineContext, LineProfile};
 use super::readers::Readers;
 use super::sums::{CurveSums, Weighted};
 use crate::error::{Error, Result};
@@ -29,6 +30,9 @@ pub(super) struct Scratch {
     pub(super) host: Vec<f64>,
     /// chi^2 at each trial rho.
     pub(super) chi2: Vec<f64>,
+    /// The off-map curve of the current line for each limb-darkening law, shared by its
+    /// timings (see [`super::profile`]); `None`: each trajectory samples its own.
+    pub(super) profiles: Option<Vec<LineProfile>>,
 }
 
 impl Scratch {
@@ -73,7 +77,11 @@ impl Scratch {
             for (need, v) in self.needed[ka..kb].iter_mut().zip(&self.on_widest) {
                 *need = v.is_nan();
             }
-            self.point_curve(solver, readers, times, l.te, rule.interpolation_tol)?;
+            if self.profiles.is_some() {
+                self.point_from_profile(solver, readers, law, times, l, rule.interpolation_tol)?;
+            } else {
+                self.point_curve(solver, readers, times, l.te, rule.interpolation_tol)?;
+            }
             let mut off = CurveSums::default();
             for i in (0..ka).chain(kb..times.len()) {
                 off.add(weighted, i, self.point[i]);
@@ -105,6 +113,47 @@ impl Scratch {
     }
 
     /// Point-source magnifications at the points marked in `self.needed` (NaN elsewhere), into
+    /// `self.point`, read from the line's shared profile for the reader of `law` (solved
+    /// directly where the profile skips the map).
+    fn point_from_profile(
+        &mut self,
+        solver: &mut ImageSolver,
+        readers: &Readers,
+        law: usize,
+        times: &[f64],
+        l: &crate::curve::StraightLine,
+        tol: f64,
+    ) -> Result<()> {
+        let profiles = self.profiles.get_or_insert_with(Vec::new);
+        profiles.resize_with(readers.convolved.len(), LineProfile::default);
+        let profile = &mut profiles[law];
+        profile.select(l.alpha, l.u0);
+        let (sn, cs) = l.alpha.sin_cos();
+        let mut context = LineContext {
+            solver,
+            readers,
+            reader: readers.widest[law].and_then(|r| readers.convolved[law][r].as_ref()),
+            tol,
+            geometry: (l.u0, sn, cs),
+        };
+        self.point.clear();
+        self.point.resize(times.len(), f64::NAN);
+        for (i, &t) in times.iter().enumerate() {
+            if !self.needed[i] {
+                continue;
+            }
+            let (x, y) = self.positions[i];
+            let z = Complex64::new(x, y);
+            let ratio = profile.ratio_at((t - l.t0) / l.te, &mut context)?;
+            self.point[i] = match ratio {
+                Some(r) => r * readers.host_alone(z),
+                None => context.solver.magnification(z)?,
+            };
+        }
+        Ok(())
+    }
+
+    /// Point-source magnifications at the points marked in `self.needed` (NaN elsewhere), into
     /// `self.point`: exact at a subset and interpolated linearly in time between (see the
     /// module documentation).
     pub(super) fn point_curve(
@@ -115,18 +164,16 @@ impl Scratch {
         te: f64,
         tol: f64,
     ) -> Result<()> {
-        let host = &readers.host;
         let n = times.len();
         let (positions, needed) = (&self.positions, &self.needed);
-        // The host's own magnification, Paczynski's formula in u^2 (no square root of u).
         self.host.clear();
         self.host
             .extend(positions.iter().zip(needed).map(|(&(x, y), &need)| {
-                if !need {
-                    return f64::NAN;
+                if need {
+                    readers.host_alone(Complex64::new(x, y))
+                } else {
+                    f64::NAN
                 }
-                let u2 = ((Complex64::new(x, y) - host.position).norm_sqr() / host.mass).max(1e-24);
-                (u2 + 2.0) / (u2 * (u2 + 4.0)).sqrt()
             }));
         // The ratio to the host's own magnification is interpolated: it is flat where the
         // companion matters little, which is most of an off-map curve.
@@ -210,7 +257,8 @@ mod tests {
     use crate::lens::LensSystem;
     use crate::map::Window;
 
-    /// The off-map curve (exact solves at a subset, the ratio to the host interpolated) against
+    /// The off-map curve (exact solves at a subset, the ratio to the host interpolated; per
+    /// trajectory and from the line's shared profile) against
     /// exact solves at every point (ImageSolver, checked against numpy.roots and mpmath in
     /// tests/images.rs), on lines through the central caustic, past the planetary caustic
     /// (off this map's small window) and far from both.
@@ -236,6 +284,12 @@ mod tests {
         // (t0, u0, tE, alpha): central caustic; across the planetary caustic at s - 1/s; far.
         let mut lines = vec![(0.12, -0.2), (0.6, 2.0)];
         lines.extend((0..40).map(|k| (0.0005 * k as f64, 0.37 * k as f64)));
+        // Each line per trajectory, and through the line's profile shared by two timings.
+        let mut shared = Scratch {
+            profiles: Some(Vec::new()),
+            ..Scratch::default()
+        };
+        let mut worst_shared = 0.0f64;
         for (u0, alpha) in lines {
             let line = Trajectory::straight(0.0, u0, 25.0, alpha).unwrap();
             let mut scratch = Scratch {
@@ -246,11 +300,32 @@ mod tests {
             scratch
                 .point_curve(&mut solver, &readers, &times, 25.0, tol)
                 .unwrap();
-            for (i, &(x, y)) in scratch.positions.iter().enumerate() {
-                let exact = solver.magnification(Complex64::new(x, y)).unwrap();
-                worst = worst.max((scratch.point[i] / exact - 1.0).abs());
+            let exact: Vec<f64> = scratch
+                .positions
+                .iter()
+                .map(|&(x, y)| solver.magnification(Complex64::new(x, y)).unwrap())
+                .collect();
+            for (a, e) in scratch.point.iter().zip(&exact) {
+                worst = worst.max((a / e - 1.0).abs());
+            }
+            for (t0, te) in [(0.0, 25.0), (3.0, 40.0)] {
+                let timed = Trajectory::straight(t0, u0, te, alpha).unwrap();
+                shared.positions = timed.positions(&times);
+                shared.needed = vec![true; times.len()];
+                shared
+                    .point_from_profile(&mut solver, &readers, 0, &times, timed.line(), tol)
+                    .unwrap();
+                for (i, &(x, y)) in shared.positions.iter().enumerate().step_by(5) {
+                    let exact = solver.magnification(Complex64::new(x, y)).unwrap();
+                    worst_shared = worst_shared.max((shared.point[i] / exact - 1.0).abs());
+                }
             }
         }
+        eprintln!("worst {worst:e}, shared {worst_shared:e}");
         assert!(worst < 3.0 * tol, "worst relative error {worst:e}");
+        assert!(
+            worst_shared < 3.0 * tol,
+            "worst relative error {worst_shared:e}"
+        );
     }
 }

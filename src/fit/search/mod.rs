@@ -54,16 +54,18 @@
 //! where the midpoint of every interval agrees with the interpolation to
 //! [`GridRule::interpolation_tol`], no interval spans more than [`MAX_STRIDE`] points, and none
 //! is longer than [`CLEARANCE_REACH`] times the source's clearance at its start: its distance
-//! from the nearest lens or caustic point, less the spacing of the caustic points kept. Off
+//! from the nearest lens or caustic point, less the spacing of that caustic's points kept. Off
 //! the caustics the point-source magnification is smooth on the scale of that distance, so far
 //! from them a few solves serve long stretches of the curve, and near them the intervals
 //! shrink before the midpoint test could be fooled by a feature between its samples. What
 //! is interpolated is the ratio of the binary's magnification to the host's alone (Paczynski's
 //! formula for m1 at its position), which stays near 1 and flat wherever the companion matters
 //! little; the host's peak is then not interpolated at all. The intervals are taken in time
-//! order, so that consecutive solves start from the previous images. Only the points observed while the
-//! line is in the window (a time span found once per line) are looked up on the maps; the
-//! others are off every map without a look.
+//! order, so that consecutive solves start from the previous images. Only the points observed
+//! while the line is in the window (a time span found once per line) are looked up on the
+//! maps; the others are off every map without a look. The grid's timings of one line share
+//! its off-map curve, sampled once along the line by the same tests (`profile.rs`); the polish
+//! samples each trajectory's own.
 //!
 //! # The search's weights
 //!
@@ -86,6 +88,7 @@
 
 mod evaluate;
 mod grid;
+mod profile;
 mod readers;
 mod seed;
 mod sums;
@@ -287,7 +290,13 @@ pub fn search_map(
     let evaluated: Vec<Option<(f64, usize)>> = lines
         .par_iter()
         .map_init(
-            || (solver.clone(), Scratch::default()),
+            || {
+                let scratch = Scratch {
+                    profiles: Some(Vec::new()),
+                    ..Scratch::default()
+                };
+                (solver.clone(), scratch)
+            },
             |(solver, scratch), line| {
                 scratch
                     .trajectory_chi2(solver, &sets, &readers, line, rule, None)

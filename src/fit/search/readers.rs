@@ -17,8 +17,9 @@ const CLEARANCE_POINTS: usize = 256;
 pub(super) struct Readers {
     /// The heavier lens (m1), whose own magnification the off-map curve is scaled by.
     pub(super) host: PointLens,
-    /// Lens positions and caustic points, and the longest gap between kept caustic points.
-    pub(super) landmarks: (Vec<Complex64>, f64),
+    /// Groups of landmarks, each with the longest gap between its consecutive points: the
+    /// lens positions (gap 0), then the kept points of each caustic.
+    pub(super) landmarks: Vec<(Vec<Complex64>, f64)>,
     /// `convolved[law][rho]`: `None` where the map cannot hold that source.
     pub(super) convolved: Vec<Vec<Option<Preconvolved>>>,
     /// The law index of each data set.
@@ -96,11 +97,11 @@ impl Readers {
     }
 }
 
-/// The lens positions and up to [`CLEARANCE_POINTS`] points of each caustic of `lens`, with
-/// the longest gap between consecutive kept caustic points.
-pub(super) fn landmarks(lens: &LensSystem) -> Result<(Vec<Complex64>, f64)> {
-    let mut points: Vec<Complex64> = lens.lenses().iter().map(|l| l.position).collect();
-    let mut gap = 0.0f64;
+/// The lens positions (exact, gap 0), then up to [`CLEARANCE_POINTS`] points of each caustic of
+/// `lens` with the longest gap between its consecutive kept points: a small caustic near a
+/// lens is not blurred by the spacing of a large one.
+pub(super) fn landmarks(lens: &LensSystem) -> Result<Vec<(Vec<Complex64>, f64)>> {
+    let mut groups = vec![(lens.lenses().iter().map(|l| l.position).collect(), 0.0)];
     for curve in crate::caustics::caustic_curves(lens)? {
         let every = curve.len().div_ceil(CLEARANCE_POINTS).max(1);
         let kept: Vec<Complex64> = curve
@@ -109,24 +110,38 @@ pub(super) fn landmarks(lens: &LensSystem) -> Result<(Vec<Complex64>, f64)> {
             .chain(curve.last())
             .map(|&(x, y)| Complex64::new(x, y))
             .collect();
-        for w in kept.windows(2) {
-            gap = gap.max((w[1] - w[0]).norm());
-        }
-        points.extend(kept);
+        let gap = kept
+            .windows(2)
+            .map(|w| (w[1] - w[0]).norm())
+            .fold(0.0, f64::max);
+        groups.push((kept, gap));
     }
-    Ok((points, gap))
+    Ok(groups)
 }
 
 impl Readers {
-    /// The source's clearance at `z`: its distance from the nearest landmark less their gap
-    /// (a lower bound on the distance from the lenses and caustics).
+    /// The host's own magnification at `z` (Paczynski's formula in u^2, without the square
+    /// root of u).
+    pub(super) fn host_alone(&self, z: Complex64) -> f64 {
+        let host = &self.host;
+        let u2 = ((z - host.position).norm_sqr() / host.mass).max(1e-24);
+        (u2 + 2.0) / (u2 * (u2 + 4.0)).sqrt()
+    }
+
+    /// The source's clearance at `z`: for each group of landmarks, its distance from the
+    /// nearest less the group's gap; the least of these (a lower bound on the distance from
+    /// the lenses and caustics).
     pub(super) fn clearance(&self, z: Complex64) -> f64 {
-        let (points, gap) = &self.landmarks;
-        let d2 = points
+        self.landmarks
             .iter()
-            .map(|p| (z - p).norm_sqr())
-            .fold(f64::INFINITY, f64::min);
-        (d2.sqrt() - gap).max(0.0)
+            .map(|(points, gap)| {
+                let d2 = points
+                    .iter()
+                    .map(|p| (z - p).norm_sqr())
+                    .fold(f64::INFINITY, f64::min);
+                (d2.sqrt() - gap).max(0.0)
+            })
+            .fold(f64::INFINITY, f64::min)
     }
 }
 
