@@ -24,16 +24,17 @@ use num_complex::Complex64;
 
 /// Length of a profile's cell along the line (Einstein radii).
 pub const CELL: f64 = 1.0;
-/// Shortest interval sampled (Einstein radii): shorter ones that fail a test, and intervals
-/// whose clearance allows none longer (within the caustic points' spacing of a caustic or
-/// lens), are left to the timings, which solve their points there one by one.
+/// Shortest interval sampled (Einstein radii): an interval that still fails a test when its
+/// halves would be shorter (at a caustic or lens, within the caustic points' spacing of one) is
+/// left to the timings, which solve their points there one by one.
 const MIN_STEP: f64 = CELL / 4096.0;
 
 /// One sample of the line.
 #[derive(Debug, Clone, Copy)]
 struct Node {
     tau: f64,
-    /// Binary over host magnification; NaN until needed.
+    /// Binary over host magnification; NaN where not solved (both ends of its intervals on
+    /// the map).
     ratio: f64,
     /// Distance from the lenses and caustics (see [`Readers::clearance`]).
     clearance: f64,
@@ -88,11 +89,10 @@ impl LineContext<'_> {
         }
     }
 
-    fn ratio(&mut self, node: &mut Node) -> Result<f64> {
-        if node.ratio.is_nan() {
-            let z = self.position(node.tau);
-            node.ratio = self.solver.magnification(z)? / self.readers.host_alone(z);
-        }
+    /// Solves `node`'s ratio, binary over host magnification.
+    fn solve(&mut self, node: &mut Node) -> Result<f64> {
+        let z = self.position(node.tau);
+        node.ratio = self.solver.magnification(z)? / self.readers.host_alone(z);
         Ok(node.ratio)
     }
 }
@@ -164,8 +164,8 @@ fn build_cell(k: i64, context: &mut LineContext) -> Result<Vec<Node>> {
     let mut a = context.node(k as f64 * CELL);
     let mut b = context.node((k + 1) as f64 * CELL);
     if !(a.readable && b.readable) {
-        context.ratio(&mut a)?;
-        context.ratio(&mut b)?;
+        context.solve(&mut a)?;
+        context.solve(&mut b)?;
     }
     let mut nodes = Vec::new();
     split(a, b, context, &mut nodes)?;
@@ -184,7 +184,7 @@ fn split(mut a: Node, b: Node, context: &mut LineContext, nodes: &mut Vec<Node>)
     // midpoint before it is passed on.
     let (ra, rb) = (a.ratio, b.ratio);
     let mut m = context.node(0.5 * (a.tau + b.tau));
-    let rm = context.ratio(&mut m)?;
+    let rm = context.solve(&mut m)?;
     let linear = (rm - 0.5 * (ra + rb)).abs() <= context.tol * rm;
     let reach = CLEARANCE_REACH * a.clearance.min(b.clearance);
     if b.tau - a.tau <= reach && linear {

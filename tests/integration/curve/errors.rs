@@ -111,6 +111,17 @@ fn linear(rho: f64) -> SourceProfile {
     SourceProfile::new(rho, LimbDarkening::Linear { u: 0.6 }).unwrap()
 }
 
+/// A uniform source of rho 0.004 across the fold of `points`, read from a map of `px` pixels
+/// per rho, against contours at 1e-6.
+fn fold_case<'a>(
+    name: &'a str,
+    lens: &'a LensSystem,
+    px: f64,
+    points: &'a [(f64, f64)],
+) -> Case<'a> {
+    (name, lens, uniform(0.004), px, points, 1e-6)
+}
+
 /// The bound on the pooled ratios estimate / actual error: a median in [1, 10].
 fn assert_pooled_median(ratios: Vec<f64>) {
     let pooled = median(ratios);
@@ -183,23 +194,10 @@ fn map_reads_are_within_their_stated_error_and_tight() {
     let planet = LensSystem::binary(1.25, 2e-3).unwrap();
     let resonant = LensSystem::binary(1.0, 0.1).unwrap();
     let crossing = segment((0.40, -0.02), (0.50, 0.02), 120);
+    let fold = |name, px| fold_case(name, &planet, px, &crossing);
     let cases: [Case; 5] = [
-        (
-            "fold, uniform, 3 px",
-            &planet,
-            uniform(0.004),
-            3.0,
-            &crossing,
-            1e-6,
-        ),
-        (
-            "fold, uniform, 20 px",
-            &planet,
-            uniform(0.004),
-            20.0,
-            &crossing,
-            1e-6,
-        ),
+        fold("fold, uniform, 3 px", 3.0),
+        fold("fold, uniform, 20 px", 20.0),
         (
             "fold, linear 0.6, 10 px",
             &planet,
@@ -244,62 +242,13 @@ fn polygon_map_reads_are_within_their_stated_error_and_tight() {
     let planet = LensSystem::binary(1.25, 2e-3).unwrap();
     let resonant = LensSystem::binary(1.0, 0.1).unwrap();
     let crossing = segment((0.40, -0.02), (0.50, 0.02), 100);
+    let fold = |name, px| fold_case(name, &planet, px, &crossing);
     let cases: [(Case, Option<f64>); 8] = [
-        (
-            (
-                "fold, uniform, 3 px",
-                &planet,
-                uniform(0.004),
-                3.0,
-                &crossing,
-                1e-6,
-            ),
-            None,
-        ),
-        (
-            (
-                "fold, uniform, 10 px",
-                &planet,
-                uniform(0.004),
-                10.0,
-                &crossing,
-                1e-6,
-            ),
-            None,
-        ),
-        (
-            (
-                "fold, uniform, 20 px",
-                &planet,
-                uniform(0.004),
-                20.0,
-                &crossing,
-                1e-6,
-            ),
-            None,
-        ),
-        (
-            (
-                "fold, uniform, 40 px",
-                &planet,
-                uniform(0.004),
-                40.0,
-                &crossing,
-                1e-6,
-            ),
-            None,
-        ),
-        (
-            (
-                "fold, uniform, 20 px, 4 cells",
-                &planet,
-                uniform(0.004),
-                20.0,
-                &crossing,
-                1e-6,
-            ),
-            Some(4.0),
-        ),
+        (fold("fold, uniform, 3 px", 3.0), None),
+        (fold("fold, uniform, 10 px", 10.0), None),
+        (fold("fold, uniform, 20 px", 20.0), None),
+        (fold("fold, uniform, 40 px", 40.0), None),
+        (fold("fold, uniform, 20 px, 4 cells", 20.0), Some(4.0)),
         (
             (
                 "fold, linear 0.6, 10 px",
