@@ -106,8 +106,8 @@ pub struct SearchArgs {
     /// the baseline is not trusted).
     #[arg(long, value_name = "K[,K...]", value_parser = NumberList::parse, allow_hyphen_values = true, default_value_t = NumberList(GridRule::default().t0_shifts))]
     pub t0_shifts: NumberList,
-    /// Keep the timings as given: no anchoring on the anomaly, no widening when the baseline
-    /// is not trusted.
+    /// Keep the timings as given: no anchoring on the anomaly or on the data's caustic
+    /// crossings, no widening when the baseline is not trusted.
     #[arg(long)]
     pub fixed_timing: bool,
     /// Most trajectories tried on one map (the lines are spaced more widely beyond it).

@@ -14,9 +14,17 @@
 //!    the anomaly covers the peak, or the baseline could not fix `u0` or `tE`, each line is
 //!    tried over a ladder of tE factors (0.5 to 2) and t0 shifts (-0.15 to 0.15 tE) about the
 //!    best single lens at its own `u0` (the valley widened from 0.001 to the largest `u0`
-//!    searched: [`Seed::widen`]), over the whole u0 range the window allows. The per-map
+//!    searched: [`Seed::widen`]), over the whole u0 range the window allows. When the data
+//!    show a caustic crossing (a sharp rise and a later sharp drop), lines through a caustic
+//!    are also timed on those two times ([`super::search::anchor`]). The per-map
 //!    trajectory budget ([`GridRule::max_trajectories`]) then coarsens the lines rather than
 //!    the timings.
+//!    With [`FitOptions::clip_sigma`], the isolated outliers at the baseline's single lens
+//!    ([`super::noise::spikes`]: beyond that many robust standard deviations, a neighbour
+//!    within a quarter day that does not follow them) are left out of every later stage but
+//!    the chi^2 on the data as given: a minuscule caustic read with a point source could pass
+//!    through one alone and claim its chi^2 (on an invented single lens, +169 for a binary of
+//!    q 2e-7). An anomaly seen in one point only is left out with them.
 //! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged.
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
 //!    half and a quarter of the library's step are built and searched ([`super::zoom`]).
@@ -49,15 +57,17 @@ use super::minima::{
 };
 use super::model::{BinaryModel, Trajectory};
 use super::motion::{fit_motion, MotionMinimum, MotionOptions};
-use super::noise::{clean, Clipped};
+use super::noise::{clean, spikes, Clipped};
 use super::photometry::DataSet;
 use super::refine::{exact_chi2, ladder_start, refine_until};
+use super::search::anchor::crossing_pairs;
 use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
 use super::zoom::{MapRecipe, ZoomOptions, Zoomer, POINTS_PER_LEVEL};
 use crate::error::{Error, Result};
+use crate::lens::paczynski;
 use crate::map::read_fits;
 use crate::progress::Progress;
 use std::time::Instant;
@@ -80,8 +90,9 @@ pub struct FitOptions {
     pub zoom: Option<ZoomOptions>,
     /// The refinement.
     pub refine: RefineOptions,
-    /// Clip isolated points beyond this many robust standard deviations at the best model;
-    /// `None` keeps every point.
+    /// Clip isolated points beyond this many robust standard deviations at the single lens
+    /// (before the search) and at the best model (after the refinement); `None` keeps every
+    /// point.
     pub clip_sigma: Option<f64>,
     /// Scale each data set's error bars to chi^2/dof = 1 at the best model and refine again.
     pub rescale_errors: bool,
@@ -188,9 +199,43 @@ pub fn fit_event(
         adapt_timing(&mut rule, &mut seed, trusted, &mut note);
     }
 
+    // Isolated outliers at the single lens stay out of every binary fit: a minuscule caustic
+    // read with a point source could otherwise pass through one and claim its chi^2.
+    let (searched, spiked) = match options.clip_sigma {
+        Some(c) => without_spikes(&local, &seed, c),
+        None => (local.clone(), Vec::new()),
+    };
+    if !spiked.is_empty() {
+        note(format!(
+            "noise: {} isolated outliers at the single lens left out of the binary fits (t = {})",
+            spiked.len(),
+            spiked
+                .iter()
+                .take(8)
+                .map(|c| format!("{:.3}", c.time + epoch))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ));
+    }
+
+    if options.adaptive_timing {
+        seed.crossings = crossing_pairs(&searched);
+        if !seed.crossings.is_empty() {
+            note(format!(
+                "timing: lines through a caustic also timed on the data's crossings (entry, \
+                 exit) at {}",
+                seed.crossings
+                    .iter()
+                    .map(|(a, b)| format!("({:.2}, {:.2})", a + epoch, b + epoch))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ));
+        }
+    }
+
     progress.start("search", maps.len() as u64);
     let started = Instant::now();
-    let outcomes = search_maps(&local, &seed, maps, &rule, &|| progress.advance(1))?;
+    let outcomes = search_maps(&searched, &seed, maps, &rule, &|| progress.advance(1))?;
     let outcomes = merge_grid_points(outcomes, rule.keep);
     let search_seconds = started.elapsed().as_secs_f64();
     let trajectories: u64 = outcomes.iter().map(|o| o.trajectories).sum();
@@ -210,7 +255,7 @@ pub fn fit_event(
 
     let started = Instant::now();
     let (mut starts, zoomed) =
-        refine_starts(&local, &seed, &rule, &maps, &outcomes, options, progress)?;
+        refine_starts(&searched, &seed, &rule, &maps, &outcomes, options, progress)?;
     let zoom_seconds = started.elapsed().as_secs_f64();
     for (z, start) in zoomed.iter().zip(&starts) {
         let kept = if start.0 == best_start(z).0 {
@@ -237,10 +282,10 @@ pub fn fit_event(
     }
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
-    let mut minima = refine_models(&local, &starts, &options.refine, &|| progress.advance(1))?;
+    let mut minima = refine_models(&searched, &starts, &options.refine, &|| progress.advance(1))?;
     progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
     let (fitted, clipped, scales) = clean(
-        &local,
+        &searched,
         &minima[0].refined.model,
         options.clip_sigma,
         options.rescale_errors,
@@ -289,7 +334,7 @@ pub fn fit_event(
         ));
     }
     // On the data the minima were refined on: their chi^2 values compare only there.
-    let refined_on = if changed { &fitted } else { &local };
+    let refined_on = if changed { &fitted } else { &searched };
     converge_best(refined_on, &mut minima, &options.refine, progress)?;
     if let Some(n) = hop_best(refined_on, &mut minima, &options.refine, progress)? {
         note(n);
@@ -330,6 +375,9 @@ pub fn fit_event(
         v.t0 += epoch;
     }
     seed.anomaly = seed.anomaly.map(|t| t + epoch);
+    for c in &mut seed.crossings {
+        *c = (c.0 + epoch, c.1 + epoch);
+    }
     let mut single = single;
     single.t0 += epoch;
     let mut result = FitResult {
@@ -340,8 +388,9 @@ pub fn fit_event(
         zoomed,
         minima,
         error_scales: scales,
-        clipped: clipped
+        clipped: spiked
             .into_iter()
+            .chain(clipped)
             .map(|c| Clipped {
                 time: c.time + epoch,
                 ..c
@@ -356,6 +405,32 @@ pub fn fit_event(
         result.motion = fit_motion(data, &result, motion, progress)?;
     }
     Ok(result)
+}
+
+/// `local` without the isolated outliers at the seed's single lens (each set's fluxes fitted to
+/// Paczynski's curve of the seed's trajectory; [`spikes`]), and those points.
+fn without_spikes(local: &[DataSet], seed: &Seed, sigma: f64) -> (Vec<DataSet>, Vec<Clipped>) {
+    let mut kept = Vec::with_capacity(local.len());
+    let mut out = Vec::new();
+    for (k, set) in local.iter().enumerate() {
+        let a: Vec<f64> = set
+            .times
+            .iter()
+            .map(|t| paczynski(seed.u0.hypot((t - seed.t0) / seed.te)))
+            .collect();
+        let found = spikes(set, &a, sigma);
+        out.extend(found.iter().map(|&(i, residual)| Clipped {
+            set: k,
+            time: set.times[i],
+            line: set.lines[i],
+            residual,
+        }));
+        let keep: Vec<usize> = (0..set.len())
+            .filter(|i| !found.iter().any(|f| f.0 == *i))
+            .collect();
+        kept.push(set.subset(&keep));
+    }
+    (kept, out)
 }
 
 /// Levenberg-Marquardt passes after the refinement, on the best minimum alone, at most ...

@@ -85,6 +85,49 @@ pub fn clean(
     Ok((cleaned, clipped, scales))
 }
 
+/// The isolated outliers of one data set at magnifications `a` (the set's fluxes fitted to
+/// them): the points [`clip_outliers`] finds among the normalised residuals that also have a
+/// neighbour within [`SCATTER_MAX_GAP`] days, a witness that the light curve did not move with
+/// them. Each with its residual in robust standard deviations. Before any binary is fitted,
+/// these are the points a minuscule caustic read with a point source could pass through
+/// alone; a feature shorter than the cadence, seen in one point, is one of them too.
+///
+/// ```
+/// use causeway::fit::noise::spikes;
+/// use causeway::fit::photometry::DataSet;
+/// // A rising light curve sampled every 0.01 d with one point 40 sigma high, and a last point
+/// // 40 sigma low three days after the others (no witness in time): only the first is a spike.
+/// let a: Vec<f64> = (0..60).map(|i| 1.0 + 0.001 * i as f64).collect();
+/// let mut text = String::from("t,flux,flux_err\n");
+/// for i in 0..60 {
+///     let t = if i < 59 { i as f64 * 0.01 } else { 3.6 };
+///     let noise = if i % 2 == 0 { 1.0 } else { -1.0 };
+///     let jump = [0.0, 40.0, -40.0][(i == 10) as usize + 2 * (i == 59) as usize];
+///     text += &format!("{t},{},1\n", 100.0 * a[i] + noise + jump);
+/// }
+/// let set = DataSet::parse(&text, "a.csv", 22.0).unwrap();
+/// let found = spikes(&set, &a, 5.0);
+/// assert_eq!(found.iter().map(|f| f.0).collect::<Vec<_>>(), vec![10]);
+/// assert!(found[0].1 > 5.0); // beyond the threshold, in robust standard deviations
+/// ```
+pub fn spikes(set: &DataSet, a: &[f64], sigma: f64) -> Vec<(usize, f64)> {
+    let f = fit_fluxes(set, a);
+    let r: Vec<f64> = (0..set.len())
+        .map(|i| (set.flux[i] - f.fs * a[i] - f.fb) / set.sigma(i))
+        .collect();
+    let scale = robust_scale(&r);
+    let t = &set.times;
+    let witnessed = |i: usize| {
+        (i > 0 && t[i] - t[i - 1] <= SCATTER_MAX_GAP)
+            || (i + 1 < t.len() && t[i + 1] - t[i] <= SCATTER_MAX_GAP)
+    };
+    clip_outliers(&r, sigma)
+        .into_iter()
+        .filter(|&i| witnessed(i))
+        .map(|i| (i, r[i] / scale))
+        .collect()
+}
+
 /// 1.4826 times the median absolute normalised residual: the standard deviation of Gaussian
 /// residuals, unmoved by a few outliers (common practice).
 ///

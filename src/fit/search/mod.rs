@@ -35,6 +35,10 @@
 //! or blending biases the single-lens tE by several percent, which moves a caustic crossing
 //! by many source radii; the timed copy does not depend on it.
 //!
+//! When the data show a caustic crossing ([`Seed::crossings`]: their sharpest rise and a later
+//! sharpest drop), every line through a caustic is also tried with the timing that puts its
+//! entry and exit at those times ([`anchor`]).
+//!
 //! On a window that holds the host, the lines of [`GridRule::outer_lines`] are tried as well:
 //! lines that pass beside the window, out to a few of its half-diagonals, read wholly off the
 //! map, with the same timings (less the anomaly anchoring, which needs a feature on the map).
@@ -86,6 +90,7 @@
 //! the off-map points do not depend on rho and are taken once per trajectory. The search only
 //! ranks; the refinement ([`super::refine`]) recomputes every point exactly.
 
+pub mod anchor;
 mod evaluate;
 mod grid;
 mod profile;
@@ -97,6 +102,7 @@ pub use evaluate::{CLEARANCE_REACH, MAX_STRIDE};
 pub use grid::GridRule;
 pub use seed::{Seed, ValleyPoint};
 
+use crate::caustics::caustic_curves;
 use crate::error::{Error, Result};
 use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::optimize::minimize;
@@ -106,8 +112,10 @@ use crate::map::{read_fits, MagnificationMap, Window};
 use crate::solve::ImageSolver;
 use crate::store::library::LibrarySpec;
 use crate::store::Store;
+use anchor::{anchored_timings, inside_intervals};
 use evaluate::Scratch;
 use grid::{distinct, host_timing, strongest_feature, Line};
+use num_complex::Complex64;
 use rayon::prelude::*;
 use readers::Readers;
 use std::path::PathBuf;
@@ -423,9 +431,24 @@ fn timed_lines(
     times: &[f64],
 ) -> Result<Vec<Line>> {
     let smoothest = readers.convolved[0].iter().rev().flatten().next();
+    let caustics: Vec<Vec<Complex64>> = if seed.crossings.is_empty() {
+        Vec::new()
+    } else {
+        caustic_curves(&map.provenance.lens)?
+            .iter()
+            .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
+            .collect()
+    };
     let mut lines = Vec::new();
     for (alpha, u0) in rule.lines_at(&map.window, seed, grid_rho) {
         let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
+        if !caustics.is_empty() {
+            let inside = inside_intervals(&caustics, alpha, u0);
+            for (t0, te) in anchored_timings(&inside, &seed.crossings, te) {
+                let tr = Trajectory::straight(t0, u0, te, alpha)?;
+                lines.extend(Line::observed(tr, &map.window, times));
+            }
+        }
         let base = Trajectory::straight(t0, u0, te, alpha)?;
         let feature = match (rule.timed, seed.anomaly, smoothest) {
             (true, Some(ta), Some(conv)) => {

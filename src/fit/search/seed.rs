@@ -26,6 +26,10 @@ pub struct Seed {
     /// A range of `u0` the data could not narrow (the baseline's, when its `u0` is poorly
     /// fixed), searched whole; `None` when the valley decides.
     pub u0_bounds: Option<(f64, f64)>,
+    /// Candidate (entry, exit) times of a caustic crossing in the data
+    /// ([`super::anchor::crossing_pairs`]); the grid's lines through a caustic are also timed
+    /// on them. Empty: no such timings.
+    pub crossings: Vec<(f64, f64)>,
 }
 
 /// The best single lens at one fixed `u0`.
@@ -60,6 +64,7 @@ impl Seed {
             valley: Vec::new(),
             misfit: 0.0,
             u0_bounds: None,
+            crossings: Vec::new(),
         }
     }
 
@@ -97,6 +102,7 @@ impl Seed {
             valley: valley(data, fit.t0, fit.u0, fit.te),
             misfit: (fit.chi2 - fit.dof() as f64).max(0.0),
             u0_bounds: None,
+            crossings: Vec::new(),
         }
     }
 
