@@ -293,7 +293,30 @@ pub fn magnifications(
     source: &SourceProfile,
     tol: f64,
 ) -> Result<Vec<Estimate>> {
-    let solver = ContourSolver::new(lens, tol)?;
+    magnifications_with(&ContourSolver::new(lens, tol)?, centers, source)
+}
+
+/// [`magnifications`] by a solver made beforehand (its lens and tolerance): calls for one lens
+/// then trace its caustics once. The same values as [`magnifications`].
+///
+/// ```
+/// use causeway::contour::{magnifications, magnifications_with, ContourSolver};
+/// use causeway::{lens::LensSystem, source::SourceProfile};
+/// use num_complex::Complex64;
+/// let lens = LensSystem::binary(1.0, 0.1).unwrap();
+/// let solver = ContourSolver::new(&lens, 1e-4).unwrap();
+/// let centers = [Complex64::new(0.1, 0.05), Complex64::new(0.6, 0.0)];
+/// let disk = SourceProfile::uniform(0.01).unwrap();
+/// assert_eq!(
+///     magnifications_with(&solver, &centers, &disk).unwrap(),
+///     magnifications(&lens, &centers, &disk, 1e-4).unwrap()
+/// );
+/// ```
+pub fn magnifications_with(
+    solver: &ContourSolver,
+    centers: &[Complex64],
+    source: &SourceProfile,
+) -> Result<Vec<Estimate>> {
     centers
         .par_chunks(BATCH_CHUNK)
         .map(|chunk| {

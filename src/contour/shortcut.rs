@@ -47,8 +47,10 @@ pub(crate) fn small_source(
     if lens.len() == 1 && (center - lens.lenses()[0].position).norm() < 3.0 * rho {
         return Ok(None);
     }
-    let count = solver.images(center)?.len();
-    let a0 = solver.magnification(center)?;
+    // One solve of the centre gives its image count and magnification.
+    let images = solver.images(center)?;
+    let count = images.len();
+    let a0 = images.iter().map(|i| i.magnification).sum::<f64>();
     let mut ring = |radius: f64, phase: f64| -> Result<Option<f64>> {
         let mut sum = 0.0;
         for k in 0..4 {

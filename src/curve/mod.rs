@@ -67,6 +67,7 @@ mod tiled;
 mod trajectory;
 
 pub use continuation::{small_source, Expansion, PointMagnification, SAFETY};
+pub(crate) use convolve::Cell;
 #[doc(hidden)]
 pub use convolve::Route;
 pub use convolve::{MapSpectrum, Preconvolved, DIRECT_MARGIN};

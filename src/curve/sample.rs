@@ -260,9 +260,10 @@ pub(crate) fn bilinear(
     if lo == hi {
         return Some(at(lo, lo));
     }
-    // The cell's lower-left centre, clamped so the last row and column of centres still read.
-    let i = (fu.floor() as usize).min(hi - 1);
-    let j = (fv.floor() as usize).min(hi - 1);
+    // The cell's lower-left centre, clamped so the last row and column of centres still read
+    // (fu, fv >= 0 here: truncation is the floor, without a call to libm).
+    let i = (fu as usize).min(hi - 1);
+    let j = (fv as usize).min(hi - 1);
     let (tx, ty) = (fu - i as f64, fv - j as f64);
     Some(
         (1.0 - ty) * ((1.0 - tx) * at(i, j) + tx * at(i + 1, j))

@@ -12,7 +12,7 @@
 //! `alpha + dalpha/dt (t - t0,kep)` (rates per Julian year of 365.25 d; the binary's axis turns
 //! by `-dalpha/dt` against the sky). The lens frame's origin is the centre of mass.
 
-use crate::contour;
+use crate::contour::{self, ContourSolver};
 use crate::curve::StraightLine;
 use crate::error::Error;
 use crate::error::Result;
@@ -21,6 +21,7 @@ use crate::parallax::{Geometry, Observer};
 use crate::source::{LimbDarkening, SourceProfile};
 use num_complex::Complex64;
 use rayon::prelude::*;
+use std::sync::Mutex;
 
 /// Days per Julian year: the unit of the orbital-motion rates.
 pub const DAYS_PER_YEAR: f64 = 365.25;
@@ -340,7 +341,7 @@ impl BinaryModel {
         law: LimbDarkening,
         tol: f64,
     ) -> Result<Vec<f64>> {
-        let lens = self.lens()?;
+        let solver = contour_solver(self.s, self.q, tol)?;
         let profile = SourceProfile::new(self.rho, law)?;
         let centres: Vec<Complex64> = self
             .trajectory
@@ -348,11 +349,45 @@ impl BinaryModel {
             .into_iter()
             .map(|(x, y)| Complex64::new(x, y))
             .collect();
-        Ok(contour::magnifications(&lens, &centres, &profile, tol)?
+        Ok(contour::magnifications_with(&solver, &centres, &profile)?
             .into_iter()
             .map(|e| e.magnification)
             .collect())
     }
+}
+
+/// Contour solvers of the binaries evaluated last, newest first: a fit evaluates one lens
+/// many times over (the columns of a Jacobian that move the trajectory or the source, the
+/// curvature's steps), and a solver traces its lens's caustics when made.
+static SOLVERS: Mutex<Vec<(SolverKey, ContourSolver)>> = Mutex::new(Vec::new());
+
+/// Solvers kept in [`SOLVERS`].
+const KEPT_SOLVERS: usize = 8;
+
+/// The bits of (s, q, tolerance).
+type SolverKey = (u64, u64, u64);
+
+/// A contour solver of the binary (s, q) at tolerance `tol`, from [`SOLVERS`] when it is
+/// there (a clone shares the traced caustics); the same solver as made afresh.
+fn contour_solver(s: f64, q: f64, tol: f64) -> Result<ContourSolver> {
+    let key = (s.to_bits(), q.to_bits(), tol.to_bits());
+    let lock = || SOLVERS.lock().unwrap_or_else(|e| e.into_inner());
+    {
+        let mut kept = lock();
+        if let Some(i) = kept.iter().position(|(k, _)| *k == key) {
+            let entry = kept.remove(i);
+            let solver = entry.1.clone();
+            kept.insert(0, entry);
+            return Ok(solver);
+        }
+    }
+    let solver = ContourSolver::new(&LensSystem::binary(s, q)?, tol)?;
+    let mut kept = lock();
+    if !kept.iter().any(|(k, _)| *k == key) {
+        kept.insert(0, (key, solver.clone()));
+        kept.truncate(KEPT_SOLVERS);
+    }
+    Ok(solver)
 }
 
 pub use crate::lens::paczynski;

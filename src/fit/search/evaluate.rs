@@ -5,6 +5,7 @@ use super::grid::{GridRule, Line};
 use super::profile::{LineContext, LineProfile};
 use super::readers::Readers;
 use super::sums::{CurveSums, Weighted};
+use crate::curve::Cell;
 use crate::error::{Error, Result};
 use crate::solve::ImageSolver;
 use num_complex::Complex64;
@@ -20,6 +21,9 @@ pub const CLEARANCE_REACH: f64 = 0.5;
 pub(super) struct Scratch {
     /// Source positions at the data set's times.
     pub(super) positions: Vec<(f64, f64)>,
+    /// The cell of each point in the window's time span on the map with the widest margin
+    /// (`None` off it or at its edge), where every reader reads it.
+    pub(super) cells: Vec<Option<Cell>>,
     /// The reads of the map with the widest margin in the window's time span (NaN off it).
     pub(super) on_widest: Vec<f64>,
     /// Whether a point needs the point-source magnification.
@@ -65,13 +69,21 @@ impl Scratch {
             let row = &readers.convolved[law];
             // Off the map with the widest margin is off every map (they share the window).
             let widest = readers.widest[law];
+            // Each point's cell is found once, on the reader with the widest margin, and
+            // read on every reader (they share the window); points at the valid square's edge
+            // take the full read.
+            let wide = widest.and_then(|r| row[r].as_ref());
+            self.cells.clear();
             self.on_widest.clear();
-            self.on_widest
-                .extend(self.positions[ka..kb].iter().map(|&(x, y)| {
-                    widest
-                        .and_then(|r| row[r].as_ref()?.read(x, y))
-                        .unwrap_or(f64::NAN)
-                }));
+            for &(x, y) in &self.positions[ka..kb] {
+                let cell = wide.and_then(|w| w.cell(x, y));
+                self.cells.push(cell);
+                self.on_widest.push(match (wide, cell) {
+                    (Some(w), Some(c)) => w.read_cell(&c),
+                    (Some(w), None) => w.read(x, y).unwrap_or(f64::NAN),
+                    (None, _) => f64::NAN,
+                });
+            }
             self.needed.clear();
             self.needed.resize(times.len(), true);
             for (need, v) in self.needed[ka..kb].iter_mut().zip(&self.on_widest) {
@@ -92,14 +104,22 @@ impl Scratch {
                     continue;
                 };
                 let mut sums = off;
-                for i in ka..kb {
-                    let on = if widest == Some(r) {
-                        self.on_widest[i - ka]
-                    } else {
-                        let (x, y) = self.positions[i];
-                        conv.read(x, y).unwrap_or(f64::NAN)
-                    };
-                    sums.add(weighted, i, if on.is_nan() { self.point[i] } else { on });
+                if widest == Some(r) {
+                    for i in ka..kb {
+                        let on = self.on_widest[i - ka];
+                        sums.add(weighted, i, if on.is_nan() { self.point[i] } else { on });
+                    }
+                } else {
+                    for (i, cell) in (ka..kb).zip(&self.cells) {
+                        let on = match cell {
+                            Some(c) => conv.read_cell(c),
+                            None => {
+                                let (x, y) = self.positions[i];
+                                conv.read(x, y).unwrap_or(f64::NAN)
+                            }
+                        };
+                        sums.add(weighted, i, if on.is_nan() { self.point[i] } else { on });
+                    }
                 }
                 if !sums.is_finite() {
                     return Err(Error::Numerical(
