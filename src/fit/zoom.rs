@@ -18,6 +18,7 @@ use crate::error::Result;
 use crate::lens::LensSystem;
 use crate::map::MagnificationMap;
 use crate::store::library::WindowRule;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// How far the fit zooms.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -121,18 +122,34 @@ impl Zoomer<'_> {
         let steps = (local_step(&ss, best.s), local_step(&qs, best.q));
         for level in 1..=levels {
             let scale = 0.5f64.powi(level as i32);
-            let mut found = Vec::new();
+            // The maps of every neighbour are searched together, so that the threads share
+            // them (one map's polish of its few candidates would leave threads idle).
+            let mut maps = Vec::new();
+            let mut ends = Vec::new();
             for (s, q) in neighbours((best.s, best.q), (steps.0 * scale, steps.1 * scale)) {
-                let maps = self.recipe.build(s, q)?;
-                found.extend(search_maps(
-                    self.data,
-                    self.seed,
-                    MapSource::Loaded(&maps),
-                    self.rule,
-                    &|| {},
-                )?);
-                progress();
+                let built = self.recipe.build(s, q)?;
+                if built.is_empty() {
+                    progress();
+                } else {
+                    maps.extend(built);
+                    ends.push(maps.len());
+                }
             }
+            // search_maps reports maps as they finish, in any order: a point is counted done
+            // when as many maps have finished as there are up to its last.
+            let finished = AtomicUsize::new(0);
+            let found = search_maps(
+                self.data,
+                self.seed,
+                MapSource::Loaded(&maps),
+                self.rule,
+                &|| {
+                    let n = finished.fetch_add(1, Ordering::Relaxed) + 1;
+                    if ends.binary_search(&n).is_ok() {
+                        progress();
+                    }
+                },
+            )?;
             for o in merge_grid_points(found, self.rule.keep) {
                 if o.best_chi2() < best.best_chi2() {
                     best = o;
