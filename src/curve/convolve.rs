@@ -297,6 +297,12 @@ impl Preconvolved {
         })
     }
 
+    /// The convolved values at the pixel centres, row by row from the lower left (NaN within
+    /// the margin).
+    pub(crate) fn grid(&self) -> &[f64] {
+        &self.grid
+    }
+
     /// [`Preconvolved::read`] at a point whose [`Cell`] is known (from this reader or one of
     /// the same window with a margin at least as wide): the same value, bit for bit.
     #[inline]
@@ -349,6 +355,13 @@ pub(crate) struct Cell {
     /// Fractions of the way to the next centre along x and y.
     tx: f64,
     ty: f64,
+}
+
+impl Cell {
+    /// The grid index of the cell's lower-left centre and the fractions `(tx, ty)`.
+    pub(crate) fn parts(&self) -> (usize, f64, f64) {
+        (self.index, self.tx, self.ty)
+    }
 }
 
 /// A profile's kernel on pixels of one size: the weights of offsets `0 <= kx, ky <= margin`.

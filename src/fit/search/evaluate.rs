@@ -3,7 +3,7 @@
 
 use super::grid::{GridRule, Line};
 use super::profile::{LineContext, LineProfile};
-use super::readers::Readers;
+use super::readers::{Readers, Stacked};
 use super::sums::{CurveSums, Weighted};
 use crate::curve::Cell;
 use crate::error::{Error, Result};
@@ -34,6 +34,9 @@ pub(super) struct Scratch {
     pub(super) host: Vec<f64>,
     /// chi^2 at each trial rho.
     pub(super) chi2: Vec<f64>,
+    /// The flux sums of each interleaved reader, and one point's values at each.
+    pub(super) sums: Vec<CurveSums>,
+    pub(super) values: Vec<f64>,
     /// The off-map curve of the current line for each limb-darkening law, shared by its
     /// timings (see [`super::profile`]); `None`: each trajectory samples its own.
     pub(super) profiles: Option<Vec<LineProfile>>,
@@ -98,6 +101,10 @@ impl Scratch {
             for i in (0..ka).chain(kb..times.len()) {
                 off.add(weighted, i, self.point[i]);
             }
+            if only.is_none() {
+                self.every_radius(weighted, readers, law, (ka, kb), off)?;
+                continue;
+            }
             for (r, conv) in row.iter().enumerate() {
                 let Some(conv) = conv.as_ref().filter(|_| only.is_none_or(|o| o == r)) else {
                     self.chi2[r] = f64::INFINITY;
@@ -128,6 +135,67 @@ impl Scratch {
                 }
                 self.chi2[r] += weighted.chi2(&sums);
             }
+        }
+        Ok(())
+    }
+
+    /// Adds one data set's chi^2 at every radius to `self.chi2` (infinite where the radius
+    /// cannot be read): the sums over the points in the window's time span `ka..kb` (index
+    /// range of the set) added to `off`, those of the points outside it. A point's values at
+    /// every radius are read together from the interleaved readers ([`Stacked`]); the sums of
+    /// each radius run over the points in order, as one reader's alone would.
+    fn every_radius(
+        &mut self,
+        weighted: &Weighted,
+        readers: &Readers,
+        law: usize,
+        (ka, kb): (usize, usize),
+        off: CurveSums,
+    ) -> Result<()> {
+        let row = &readers.convolved[law];
+        let widest = readers.widest[law];
+        let stacked: &Stacked = &readers.stacked[law];
+        let k = stacked.readers.len();
+        self.sums.clear();
+        self.sums.resize(k, off);
+        self.values.resize(k, 0.0);
+        for (i, cell) in (ka..kb).zip(&self.cells) {
+            let point = self.point[i];
+            match cell {
+                Some(c) => {
+                    stacked.read(c, &mut self.values);
+                    for (sums, &on) in self.sums.iter_mut().zip(&self.values) {
+                        sums.add(weighted, i, if on.is_nan() { point } else { on });
+                    }
+                }
+                None => {
+                    let (x, y) = self.positions[i];
+                    for (sums, &r) in self.sums.iter_mut().zip(&stacked.readers) {
+                        let on = if widest == Some(r) {
+                            self.on_widest[i - ka]
+                        } else {
+                            row[r]
+                                .as_ref()
+                                .and_then(|c| c.read(x, y))
+                                .unwrap_or(f64::NAN)
+                        };
+                        sums.add(weighted, i, if on.is_nan() { point } else { on });
+                    }
+                }
+            }
+        }
+        for (r, conv) in row.iter().enumerate() {
+            if conv.is_none() {
+                self.chi2[r] = f64::INFINITY;
+            }
+        }
+        for (sums, &r) in self.sums.iter().zip(&stacked.readers) {
+            if !sums.is_finite() {
+                return Err(Error::Numerical(
+                    "search: point-source value missing".into(),
+                ));
+            }
+            self.chi2[r] += weighted.chi2(sums);
         }
         Ok(())
     }
