@@ -17,6 +17,18 @@ pub struct FluxFit {
     pub chi2: f64,
 }
 
+impl FluxFit {
+    /// The normalised residuals `(F_i - fs A_i - fb) / sigma_i` of `data` at these fluxes and
+    /// the magnifications `a`.
+    pub fn residuals<'a>(
+        &'a self,
+        data: &'a DataSet,
+        a: &'a [f64],
+    ) -> impl Iterator<Item = f64> + 'a {
+        (0..data.len()).map(move |i| (data.flux[i] - self.fs * a[i] - self.fb) / data.sigma(i))
+    }
+}
+
 /// Solves for `(fs, fb)` given the model magnification at each point of `data`.
 ///
 /// A curve without contrast (all `A_i` equal) cannot separate source from blend; the blend is

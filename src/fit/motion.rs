@@ -375,7 +375,7 @@ impl Fitter<'_> {
         for (k, set) in self.data.iter().enumerate() {
             let a = self.magnifications(model, k, tol)?;
             let f = fit_fluxes(set, &a);
-            out.extend((0..set.len()).map(|i| (set.flux[i] - f.fs * a[i] - f.fb) / set.sigma(i)));
+            out.extend(f.residuals(set, &a));
         }
         Ok(out)
     }

@@ -53,9 +53,7 @@ pub fn clean(
     for (k, set) in data.iter().enumerate() {
         let a = model.magnifications(&set.times, set.limb_darkening, tol)?;
         let f = fit_fluxes(set, &a);
-        let r: Vec<f64> = (0..set.len())
-            .map(|i| (set.flux[i] - f.fs * a[i] - f.fb) / set.sigma(i))
-            .collect();
+        let r: Vec<f64> = f.residuals(set, &a).collect();
         let out = match clip_sigma {
             Some(c) => clip_outliers(&r, c),
             None => Vec::new(),
@@ -112,9 +110,7 @@ pub fn clean(
 /// ```
 pub fn spikes(set: &DataSet, a: &[f64], sigma: f64) -> Vec<(usize, f64)> {
     let f = fit_fluxes(set, a);
-    let r: Vec<f64> = (0..set.len())
-        .map(|i| (set.flux[i] - f.fs * a[i] - f.fb) / set.sigma(i))
-        .collect();
+    let r: Vec<f64> = f.residuals(set, a).collect();
     let scale = robust_scale(&r);
     let t = &set.times;
     let witnessed = |i: usize| {

@@ -72,7 +72,7 @@ fn residuals_of(data: &[DataSet], model: &BinaryModel, tol: f64) -> Result<Vec<f
     for set in data {
         let a = model.magnifications(&set.times, set.limb_darkening, tol)?;
         let f = fit_fluxes(set, &a);
-        out.extend((0..set.len()).map(|i| (set.flux[i] - f.fs * a[i] - f.fb) / set.sigma(i)));
+        out.extend(f.residuals(set, &a));
     }
     Ok(out)
 }
