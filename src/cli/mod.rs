@@ -161,6 +161,7 @@ const OPTION_OF_PARAMETER: &[(&str, &str)] = &[
     ("ld_sqrt", "--ld-sqrt"),
     ("max_trajectories", "--max-trajectories"),
     ("model_floor", "--model-floor"),
+    ("point_cap", "--point-cap"),
     ("pi_ee", "--pi-e-e"),
     ("pi_en", "--pi-e-n"),
     ("parallax_minima", "--parallax-minima"),

@@ -117,6 +117,10 @@ pub struct SearchArgs {
     /// percentile added to its error bar in quadrature (0 = none; the refinement never uses it).
     #[arg(long, value_name = "FRACTION", default_value_t = GridRule::default().model_floor, allow_hyphen_values = true)]
     pub model_floor: f64,
+    /// Where one point's share of the search's chi2 turns from its squared residual r^2 to
+    /// cap (1 + ln(r^2 / cap)), in chi2 units ("inf": never; the refinement never uses it).
+    #[arg(long, value_name = "CHI2", default_value_t = GridRule::default().point_cap, allow_hyphen_values = true)]
+    pub point_cap: f64,
     /// Distinct trajectories kept per map.
     #[arg(long, value_name = "N", default_value_t = GridRule::default().keep, allow_hyphen_values = true)]
     pub keep: usize,
@@ -213,6 +217,7 @@ impl SearchArgs {
             keep: self.keep,
             max_trajectories: self.max_trajectories,
             model_floor: self.model_floor,
+            point_cap: self.point_cap,
             ..GridRule::default()
         };
         rule.validate()?;

@@ -37,6 +37,11 @@ pub(super) struct Scratch {
     /// The flux sums of each interleaved reader, and one point's values at each.
     pub(super) sums: Vec<CurveSums>,
     pub(super) values: Vec<f64>,
+    /// The curve at each point in the window's time span and each radius read (point by point,
+    /// radii together), kept for the capped chi^2 ([`GridRule::point_cap`]).
+    pub(super) curves: Vec<f64>,
+    /// The points the capped chi^2 sets apart.
+    pub(super) apart: Vec<usize>,
     /// The off-map curve of the current line for each limb-darkening law, shared by its
     /// timings (see [`super::profile`]); `None`: each trajectory samples its own.
     pub(super) profiles: Option<Vec<LineProfile>>,
@@ -102,7 +107,7 @@ impl Scratch {
                 off.add(weighted, i, self.point[i]);
             }
             if only.is_none() {
-                self.every_radius(weighted, readers, law, (ka, kb), off)?;
+                self.every_radius(weighted, readers, law, (ka, kb), off, rule.point_cap)?;
                 continue;
             }
             for (r, conv) in row.iter().enumerate() {
@@ -111,29 +116,29 @@ impl Scratch {
                     continue;
                 };
                 let mut sums = off;
-                if widest == Some(r) {
-                    for i in ka..kb {
-                        let on = self.on_widest[i - ka];
-                        sums.add(weighted, i, if on.is_nan() { self.point[i] } else { on });
-                    }
-                } else {
-                    for (i, cell) in (ka..kb).zip(&self.cells) {
-                        let on = match cell {
+                self.curves.clear();
+                for (i, cell) in (ka..kb).zip(&self.cells) {
+                    let on = if widest == Some(r) {
+                        self.on_widest[i - ka]
+                    } else {
+                        match cell {
                             Some(c) => conv.read_cell(c),
                             None => {
                                 let (x, y) = self.positions[i];
                                 conv.read(x, y).unwrap_or(f64::NAN)
                             }
-                        };
-                        sums.add(weighted, i, if on.is_nan() { self.point[i] } else { on });
-                    }
+                        }
+                    };
+                    let a = if on.is_nan() { self.point[i] } else { on };
+                    self.curves.push(a);
+                    sums.add(weighted, i, a);
                 }
                 if !sums.is_finite() {
                     return Err(Error::Numerical(
                         "search: point-source value missing".into(),
                     ));
                 }
-                self.chi2[r] += weighted.chi2(&sums);
+                self.chi2[r] += self.set_chi2(weighted, &sums, (ka, kb), (0, 1), rule.point_cap);
             }
         }
         Ok(())
@@ -151,6 +156,7 @@ impl Scratch {
         law: usize,
         (ka, kb): (usize, usize),
         off: CurveSums,
+        cap: f64,
     ) -> Result<()> {
         let row = &readers.convolved[law];
         let widest = readers.widest[law];
@@ -159,19 +165,15 @@ impl Scratch {
         self.sums.clear();
         self.sums.resize(k, off);
         self.values.resize(k, 0.0);
+        self.curves.clear();
         for (i, cell) in (ka..kb).zip(&self.cells) {
             let point = self.point[i];
             match cell {
-                Some(c) => {
-                    stacked.read(c, &mut self.values);
-                    for (sums, &on) in self.sums.iter_mut().zip(&self.values) {
-                        sums.add(weighted, i, if on.is_nan() { point } else { on });
-                    }
-                }
+                Some(c) => stacked.read(c, &mut self.values),
                 None => {
                     let (x, y) = self.positions[i];
-                    for (sums, &r) in self.sums.iter_mut().zip(&stacked.readers) {
-                        let on = if widest == Some(r) {
+                    for (v, &r) in self.values.iter_mut().zip(&stacked.readers) {
+                        *v = if widest == Some(r) {
                             self.on_widest[i - ka]
                         } else {
                             row[r]
@@ -179,9 +181,13 @@ impl Scratch {
                                 .and_then(|c| c.read(x, y))
                                 .unwrap_or(f64::NAN)
                         };
-                        sums.add(weighted, i, if on.is_nan() { point } else { on });
                     }
                 }
+            }
+            for (sums, &on) in self.sums.iter_mut().zip(&self.values) {
+                let a = if on.is_nan() { point } else { on };
+                self.curves.push(a);
+                sums.add(weighted, i, a);
             }
         }
         for (r, conv) in row.iter().enumerate() {
@@ -189,15 +195,40 @@ impl Scratch {
                 self.chi2[r] = f64::INFINITY;
             }
         }
-        for (sums, &r) in self.sums.iter().zip(&stacked.readers) {
+        let all = std::mem::take(&mut self.sums);
+        for (j, (sums, &r)) in all.iter().zip(&stacked.readers).enumerate() {
             if !sums.is_finite() {
                 return Err(Error::Numerical(
                     "search: point-source value missing".into(),
                 ));
             }
-            self.chi2[r] += weighted.chi2(sums);
+            self.chi2[r] += self.set_chi2(weighted, sums, (ka, kb), (j, k), cap);
         }
+        self.sums = all;
         Ok(())
+    }
+
+    /// One data set's chi^2 for the curve whose sums are `sums`, capped per point at `cap`:
+    /// the curve is `self.curves[(i - ka) * k + j]` in the window's time span `ka..kb` and
+    /// the point-source values `self.point` outside it.
+    fn set_chi2(
+        &mut self,
+        weighted: &Weighted,
+        sums: &CurveSums,
+        (ka, kb): (usize, usize),
+        (j, k): (usize, usize),
+        cap: f64,
+    ) -> f64 {
+        let mut apart = std::mem::take(&mut self.apart);
+        let chi2 = weighted.capped_chi2(sums, cap, &mut apart, |i| {
+            if (ka..kb).contains(&i) {
+                self.curves[(i - ka) * k + j]
+            } else {
+                self.point[i]
+            }
+        });
+        self.apart = apart;
+        chi2
     }
 
     /// Point-source magnifications at the points marked in `self.needed` (NaN elsewhere), into

@@ -42,6 +42,9 @@ pub struct GridRule {
     /// flux above its data set's tenth percentile, so that a crossing a coarse map puts a
     /// little early does not outweigh the shape of the whole curve.
     pub model_floor: f64,
+    /// Where one point's share of the search's chi^2 turns from its squared residual to a
+    /// logarithm of it (`f64::INFINITY`: never; see the module documentation of the search).
+    pub point_cap: f64,
 }
 
 impl Default for GridRule {
@@ -59,6 +62,7 @@ impl Default for GridRule {
             coarse_divisions: 100.0,
             max_trajectories: 10_000,
             model_floor: 0.03,
+            point_cap: 25.0,
         }
     }
 }
@@ -117,6 +121,9 @@ impl GridRule {
                 "model_floor: must be in [0, 1), got {}",
                 self.model_floor
             ));
+        }
+        if self.point_cap.is_nan() || self.point_cap <= 0.0 {
+            return bad(format!("point_cap: must be > 0, got {}", self.point_cap));
         }
         if self.max_trajectories == 0 {
             return bad("max_trajectories: must be at least 1".into());
