@@ -38,7 +38,8 @@ pub(super) struct Scratch {
     pub(super) sums: Vec<CurveSums>,
     pub(super) values: Vec<f64>,
     /// The curve at each point in the window's time span and each radius read (point by point,
-    /// radii together), kept for the capped chi^2 ([`GridRule::point_cap`]).
+    /// radii together), kept for the capped chi^2 ([`GridRule::point_cap`]; empty without a
+    /// cap, which never reads it).
     pub(super) curves: Vec<f64>,
     /// The points the capped chi^2 sets apart.
     pub(super) apart: Vec<usize>,
@@ -130,7 +131,9 @@ impl Scratch {
                         }
                     };
                     let a = if on.is_nan() { self.point[i] } else { on };
-                    self.curves.push(a);
+                    if rule.point_cap.is_finite() {
+                        self.curves.push(a);
+                    }
                     sums.add(weighted, i, a);
                 }
                 if !sums.is_finite() {
@@ -186,7 +189,9 @@ impl Scratch {
             }
             for (sums, &on) in self.sums.iter_mut().zip(&self.values) {
                 let a = if on.is_nan() { point } else { on };
-                self.curves.push(a);
+                if cap.is_finite() {
+                    self.curves.push(a);
+                }
                 sums.add(weighted, i, a);
             }
         }
