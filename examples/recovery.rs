@@ -18,6 +18,8 @@
 //! cargo run --release --example recovery -- --variant 2       # each event observed another way
 //! ```
 //!
+//! `--point-cap CHI2` sets the search's point cap (`search --point-cap`).
+//!
 //! `--variant K` fits variant K of each event instead (`BenchEvent::variant`: the same lens and
 //! path, another tE, rho, blending, timing within the night and noise): events the fit was
 //! not tuned on.
@@ -43,9 +45,13 @@ fn main() {
     let variant: u64 = args.iter().position(|a| a == "--variant").map_or(0, |i| {
         args[i + 1].parse().expect("--variant takes a number")
     });
+    let mut options = FitOptions::default();
+    if let Some(i) = args.iter().position(|a| a == "--point-cap") {
+        options.rule.point_cap = args[i + 1].parse().expect("--point-cap takes a number");
+    }
     let names: Vec<&String> = args
         .iter()
-        .filter(|a| !a.starts_with("--") && a.parse::<u64>().is_err())
+        .filter(|a| !a.starts_with("--") && a.parse::<f64>().is_err())
         .collect();
     let events: Vec<BenchEvent> = recovery_events()
         .unwrap()
@@ -73,7 +79,7 @@ fn main() {
         let fit = fit_event(
             &data,
             MapSource::Files(&maps),
-            &FitOptions::default(),
+            &options,
             &Reporter::with_terminal(false),
         )
         .unwrap();

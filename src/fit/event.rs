@@ -282,7 +282,12 @@ pub fn fit_event(
     }
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
-    let mut minima = refine_models(&searched, &starts, &options.refine, &|| progress.advance(1))?;
+    // The first pass of each refinement on the chi^2 the search ranked the starts by.
+    let first = RefineOptions {
+        point_cap: rule.point_cap,
+        ..options.refine
+    };
+    let mut minima = refine_models(&searched, &starts, &first, &|| progress.advance(1))?;
     progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
     let (fitted, clipped, scales) = clean(
         &searched,
@@ -322,6 +327,7 @@ pub fn fit_event(
             options.refine.tol,
             options.refine.max_iters,
             true,
+            f64::INFINITY,
             options.refine.budget.map(|b| Instant::now() + b),
         )?;
         if best.chi2 < minima[0].refined.chi2 {
@@ -463,6 +469,7 @@ fn converge_best(
             options.tol,
             options.max_iters,
             false,
+            f64::INFINITY,
             deadline,
         )?;
         progress.advance(1);

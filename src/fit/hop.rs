@@ -22,8 +22,8 @@ use super::model::BinaryModel;
 use super::optimize::least_squares;
 use super::photometry::DataSet;
 use super::refine::{
-    canonical, counted_residuals, exact_chi2, from_vector, steps, to_vector, Refined, COARSE_TOL,
-    LM_ITERATIONS,
+    canonical, close_in, counted_residuals, exact_chi2, from_vector, steps, to_vector, Refined,
+    COARSE_TOL, LM_ITERATIONS,
 };
 use crate::error::Result;
 use crate::progress::Progress;
@@ -81,7 +81,7 @@ pub struct Hopped {
 /// # let data: Vec<DataSet> = vec![];
 /// # let start = BinaryModel { s: 1.0, q: 1e-3, rho: 1e-3,
 /// #     trajectory: Trajectory::straight(0.0, 0.1, 20.0, 0.5).unwrap() };
-/// let first = refine_until(&data, &start, 1e-4, 600, true, None).unwrap();
+/// let first = refine_until(&data, &start, 1e-4, 600, true, f64::INFINITY, None).unwrap();
 /// let plan = HopPlan { hops: 8, seed: 1, deadline: None };
 /// let hopped = hop(&data, &first, &[], 1e-4, &plan, &|| {}).unwrap();
 /// assert!(hopped.refined.chi2 <= first.chi2);
@@ -150,6 +150,7 @@ pub fn hop(
         let x = end.x;
         let exact = residuals_to(tol);
         let x = least_squares(&exact, &x, &h, 1e-3, LM_ITERATIONS).map_or(x, |m| m.x);
+        let x = close_in(data, &x, tol, LM_ITERATIONS, &evaluations, deadline);
         let model = canonical(&from_vector(&x)?);
         let (chi2, fluxes) = exact_chi2(data, &model, tol)?;
         if chi2 >= best.chi2 - HOP_GAIN {

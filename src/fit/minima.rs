@@ -5,7 +5,7 @@
 use super::model::BinaryModel;
 use super::photometry::DataSet;
 use super::refine::{close_wide, refine_until, same_minimum, uncertainties, Refined};
-use super::search::{local_minima, MapOutcome};
+use super::search::{local_minima, GridRule, MapOutcome};
 use crate::error::{Error, Result};
 use rayon::prelude::*;
 use std::time::{Duration, Instant};
@@ -45,6 +45,10 @@ pub struct RefineOptions {
     /// Perturbed restarts per round around the best minimum after it converged (see
     /// [`super::hop`]); 0 for none.
     pub hops: usize,
+    /// The point cap of a first pass on the capped chi^2 (with the simplex stages only; see
+    /// [`super::refine::refine_until`]); `f64::INFINITY` for none. [`super::event::fit_event`]
+    /// sets it to the search's [`super::search::GridRule::point_cap`].
+    pub point_cap: f64,
 }
 
 impl Default for RefineOptions {
@@ -57,6 +61,7 @@ impl Default for RefineOptions {
             budget: Some(Duration::from_secs(600)),
             within: DEFAULT_WITHIN,
             hops: super::hop::HOPS,
+            point_cap: GridRule::default().point_cap,
         }
     }
 }
@@ -160,6 +165,11 @@ pub fn refine_models(
                 options.tol,
                 options.max_iters,
                 options.simplex,
+                if options.simplex {
+                    options.point_cap
+                } else {
+                    f64::INFINITY
+                },
                 deadline,
             );
             progress();

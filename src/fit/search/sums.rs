@@ -1,6 +1,7 @@
 //! chi^2 at the best fluxes from three sums over a curve: the data's own sums are taken once per
 //! data set, so that a trial curve costs one pass.
 
+use crate::fit::fluxes::capped_share;
 use crate::fit::photometry::DataSet;
 
 /// A data set with its weights and the flux sums that do not depend on the model, so that the
@@ -94,13 +95,7 @@ impl<'a> Weighted<'a> {
         if !cap.is_finite() || plain <= cap {
             return plain;
         }
-        let share = |r2: f64| {
-            if r2 > cap {
-                cap * (1.0 + (r2 / cap).ln())
-            } else {
-                r2
-            }
-        };
+        let share = |r2: f64| capped_share(r2, cap);
         let mean = self.sf / self.sw;
         let caa = c.saa - c.sa * c.sa / self.sw;
         let (fs, fb) = if caa > 1e-12 * c.saa {

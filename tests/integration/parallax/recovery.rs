@@ -70,7 +70,7 @@ fn static_minimum(data: &[DataSet], model: &BinaryModel) -> BinaryModel {
         trajectory: Trajectory::straight(l.t0, l.u0, l.te, l.alpha).unwrap(),
         ..*model
     };
-    refine_until(data, &start, 1e-4, 200, false, None)
+    refine_until(data, &start, 1e-4, 200, false, f64::INFINITY, None)
         .unwrap()
         .model
 }
