@@ -28,7 +28,13 @@ pub const MAP_METHODS: [&str; 6] = [
 /// (naming [`MAP_METHODS`]) and warnings.
 pub type MapRead = (Vec<f64>, Vec<f64>, Vec<u8>, Vec<String>);
 /// Names of the codes in the `method` array of `contour_magnification`.
-pub const CONTOUR_METHODS: [&str; 4] = ["point", "far-point", "small-source", "contour"];
+pub const CONTOUR_METHODS: [&str; 5] = [
+    "point",
+    "far-point",
+    "small-source",
+    "contour",
+    "quadrupole",
+];
 
 /// The limb-darkening law of the `ld` (linear u) and `ld_sqrt` ((c, d)) arguments.
 pub fn law(ld: Option<f64>, ld_sqrt: Option<(f64, f64)>) -> PyResult<LimbDarkening> {
@@ -213,7 +219,8 @@ pub fn map_magnification<'py>(
 /// tolerance `tol` in (0, 0.1], at source centres (x, y) (arrays of one shape, Einstein radii):
 /// A and its estimated absolute error (float64), method (uint8 codes naming
 /// `causeway.CONTOUR_METHODS`: "point" for rho = 0, "far-point" far from the caustics where the
-/// point source meets the tolerance, "small-source" where the expansion does, "contour").
+/// point source meets the tolerance, "quadrupole" nearer where the point source and its
+/// quadrupole term do, "small-source" where the expansion does, "contour").
 /// Up to 4 lenses.
 #[pyfunction]
 #[pyo3(signature = (lens, x, y, rho, ld=None, ld_sqrt=None, tol=1e-4, threads=None))]
@@ -241,6 +248,7 @@ pub fn contour_magnification<'py>(
         contour::Method::FarPoint => 1,
         contour::Method::SmallSource => 2,
         contour::Method::Contour => 3,
+        contour::Method::Quadrupole => 4,
     };
     Ok((
         shaped(py, est.iter().map(|e| e.magnification).collect(), &shape)?,

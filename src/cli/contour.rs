@@ -16,7 +16,8 @@ use std::path::PathBuf;
     allow_negative_numbers = true,
     after_help = "Prints CSV x,y,magnification,error,method (error: estimated absolute error of the \
         magnification; method: point (rho = 0), far-point (far from the caustics: the point source \
-        stands in), small-source or contour).\n\nExamples:\n  \
+        stands in), quadrupole (nearer: the point source and its quadrupole term), small-source or \
+        contour).\n\nExamples:\n  \
         causeway contour --s 1.2 --q 1e-3 --points sources.csv --rho 0.01\n  \
         causeway contour --s 1 --q 1 --points sources.csv --rho 0.05 --ld 0.6 --tol 1e-6"
 )]
@@ -73,6 +74,7 @@ pub fn run(args: ContourArgs) -> Result<()> {
             contour::Method::PointSource => "point",
             contour::Method::FarPoint => "far-point",
             contour::Method::SmallSource => "small-source",
+            contour::Method::Quadrupole => "quadrupole",
             contour::Method::Contour => "contour",
         };
         out.push_str(&format!(

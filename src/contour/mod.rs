@@ -10,13 +10,16 @@
 //! sums of uniform disks over concentric annuli, refined to the same tolerance. Far from
 //! caustics a 13-point small-source test (Gould 2008; Pejcha & Heyrovsky 2009) can stand in for
 //! the full calculation; its rule is stated in [`shortcut`](self#the-small-source-shortcut).
+//! Farther out the point source with its quadrupole term alone serves
+//! ([the quadrupole rule](self#the-quadrupole-rule)), and farther still the point source alone
+//! ([far from the caustics](self#far-from-the-caustics)).
 //!
 //! - `segment`: area and error of one piece of a contour;
 //! - `boundary`: boundary samples, their images, and linking;
 //! - `crossings`: the caustics traced once per lens, and where a boundary crosses them;
 //! - `refine`: the adaptive sampling of one uniform disk;
 //! - `annuli`: limb darkening;
-//! - `shortcut`: the small-source shortcut.
+//! - `shortcut`: the small-source shortcut and the quadrupole rule's five-point term.
 //!
 //! # Tolerance
 //!
@@ -46,6 +49,29 @@
 //! `(rho/d)^2 A` beside a planetary caustic, hence [`FAR_SAFETY`] = 10. One image solve instead
 //! of the shortcut's thirteen: most points of a long light curve are there. Checked in
 //! `tests/integration/contour.rs`.
+//!
+//! # The quadrupole rule
+//!
+//! Nearer, a source whose centre is at distance `d >= QUADRUPOLE_CLEARANCE rho` (5 radii) from
+//! the caustics (the nearer of the traced caustic and the fold its images see, as in the far
+//! rule) with `QUADRUPOLE_SAFETY (rho / d)^4 <= tol` takes the point source plus its quadrupole
+//! term alone, `A0 + m2 A2` (`m2 = <r^2>/rho^2` of the profile, 1/2 for the uniform disk), from
+//! five image solves instead of the shortcut's thirteen: the centre and four points at `rho/2`
+//! on the axes, whose mean is `A0 + A2/4` up to terms of order `rho^4` (the circle-mean series
+//! `A0 + (r^2/4) ΔA + (r^4/64) Δ²A`, with `A2 = rho^2 ΔA / 4`), so `A2 = 4 (A_half+ - A0)`. The
+//! four points must have as many images as the centre. What is left out, the hexadecapole term
+//! and the `rho^4` part of the ring's mean, is `rho^4` times fourth derivatives of `A`: `(rho/d)^4
+//! A` times a number of order one beside a fold (`A ~ d^-1/2`) or a cusp (`A ~ 1/d`), and
+//! [`QUADRUPOLE_SAFETY`] = 10 times that is the reported error. A seeded sweep of 27,000 disks
+//! around the caustics of nine binaries (rho 1e-3 to 0.05, 4 to 40 radii from a caustic point,
+//! tolerances 0.1 to 1e-3; `quadrupole_bound_on_a_seeded_sweep` in
+//! `tests/integration/contour.rs` at 3,000 disks per lens) found the actual error at most 2.3
+//! `(rho/d)^4 A` (beside a cusp of a wide stellar binary; above 1 only there) over the 5,758
+//! values the rule gave, against contours at 1e-9. With the traced
+//! distance alone it was 61 `(rho/d)^4 A` on the ridge that runs out along a cusp's axis (a
+//! wide planetary binary, 14 radii from the traced caustic): across the ridge the magnification
+//! varies on the scale of the radius, which the fold its images see tells and the trace does
+//! not. Five solves instead of thirteen for most points of a light curve near an anomaly.
 //!
 //! ```
 //! use causeway::contour::{ContourSolver, Method};
@@ -85,6 +111,14 @@ pub const DEFAULT_TOLERANCE: f64 = 1e-4;
 /// [far from the caustics](self#far-from-the-caustics)).
 pub const FAR_SAFETY: f64 = 10.0;
 
+/// The quadrupole rule's error is this many times `(rho / d)^4 A` (see
+/// [the quadrupole rule](self#the-quadrupole-rule)).
+pub const QUADRUPOLE_SAFETY: f64 = 10.0;
+
+/// The quadrupole rule is taken only for a source centre at least this many radii from the
+/// caustics (see [the quadrupole rule](self#the-quadrupole-rule)).
+pub const QUADRUPOLE_CLEARANCE: f64 = 5.0;
+
 /// Sources per parallel work item in [`magnifications`] (fixed, so results do not depend on the
 /// number of threads; each source is computed from a fresh start anyway).
 const BATCH_CHUNK: usize = 16;
@@ -99,6 +133,9 @@ pub enum Method {
     FarPoint,
     /// The small-source shortcut (point source plus quadrupole and hexadecapole).
     SmallSource,
+    /// The point source plus its quadrupole term, from five image solves (see
+    /// [the quadrupole rule](self#the-quadrupole-rule)).
+    Quadrupole,
     /// Contour integration.
     Contour,
 }
@@ -183,18 +220,34 @@ impl ContourSolver {
         let d = self.trace.distance(center);
         if self.shortcut {
             self.solver.reset();
-            let relative = FAR_SAFETY * (rho / d).powi(2);
-            if d > rho && relative <= self.tol {
+            let far = |d: f64| d > rho && FAR_SAFETY * (rho / d).powi(2) <= self.tol;
+            let quadrupole = |d: f64| {
+                d >= QUADRUPOLE_CLEARANCE * rho && QUADRUPOLE_SAFETY * (rho / d).powi(4) <= self.tol
+            };
+            if far(d) || quadrupole(d) {
                 let images = self.solver.images(center)?;
-                let near = fold_distance(&self.lens, images);
-                let relative = relative.max(FAR_SAFETY * (rho / near).powi(2));
-                if near > rho && relative <= self.tol {
-                    let magnification = images.iter().map(|i| i.magnification).sum::<f64>();
+                let count = images.len();
+                let a0 = images.iter().map(|i| i.magnification).sum::<f64>();
+                // The nearer of the traced caustic and the fold the images see.
+                let near = d.min(fold_distance(&self.lens, images));
+                if far(near) {
                     return Ok(Estimate {
-                        magnification,
-                        error: relative * magnification,
+                        magnification: a0,
+                        error: FAR_SAFETY * (rho / near).powi(2) * a0,
                         method: Method::FarPoint,
                     });
+                }
+                if quadrupole(near) {
+                    if let Some(a2) =
+                        shortcut::quadrupole(&mut self.solver, center, rho, a0, count)?
+                    {
+                        let magnification = a0 + source.moments().0 * a2;
+                        return Ok(Estimate {
+                            magnification,
+                            error: QUADRUPOLE_SAFETY * (rho / near).powi(4) * magnification,
+                            method: Method::Quadrupole,
+                        });
+                    }
                 }
             }
             let found = if d < shortcut::CLEARANCE * rho {

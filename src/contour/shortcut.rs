@@ -17,6 +17,10 @@
 //! must also stay three radii clear of the lens (its point caustic). A caustic smaller than the
 //! stencil spacing lying wholly inside the disk can escape the image-count test; the size test
 //! then has to catch it.
+//!
+//! The quadrupole rule's term ([`quadrupole`]) uses the centre and the ring at `rho/2` alone:
+//! its mean is `A0 + A2/4` up to order `rho^4`, so `A2 = 4 (A_half+ - A0)`; when it serves is
+//! stated in [the quadrupole rule](super#the-quadrupole-rule).
 
 use crate::error::Result;
 use crate::lens::LensSystem;
@@ -51,19 +55,7 @@ pub(crate) fn small_source(
     let images = solver.images(center)?;
     let count = images.len();
     let a0 = images.iter().map(|i| i.magnification).sum::<f64>();
-    let mut ring = |radius: f64, phase: f64| -> Result<Option<f64>> {
-        let mut sum = 0.0;
-        for k in 0..4 {
-            let z = center
-                + Complex64::from_polar(radius, phase + k as f64 * std::f64::consts::FRAC_PI_2);
-            let images = solver.images(z)?;
-            if images.len() != count {
-                return Ok(None);
-            }
-            sum += images.iter().map(|i| i.magnification).sum::<f64>();
-        }
-        Ok(Some(0.25 * sum))
-    };
+    let mut ring = |radius: f64, phase: f64| ring_mean(solver, center, radius, phase, count);
     let Some(half) = ring(0.5 * rho, 0.0)? else {
         return Ok(None);
     };
@@ -84,4 +76,40 @@ pub(crate) fn small_source(
     } else {
         Ok(None)
     }
+}
+
+/// The quadrupole term `A2 = rho^2 ΔA / 4` of a source at `center` whose centre has `count`
+/// images, from the mean of four points at `rho/2` on the axes: that mean is `A0 + A2/4` to
+/// order `rho^4`, so `A2 = 4 (A_half+ - A0)`. None when a point has another image count than
+/// the centre (a fold crosses the ring).
+pub(crate) fn quadrupole(
+    solver: &mut ImageSolver,
+    center: Complex64,
+    rho: f64,
+    a0: f64,
+    count: usize,
+) -> Result<Option<f64>> {
+    Ok(ring_mean(solver, center, 0.5 * rho, 0.0, count)?.map(|half| 4.0 * (half - a0)))
+}
+
+/// The mean point-source magnification of four points at `radius` from `center`, the first at
+/// angle `phase`, a quarter turn apart; None when one of them has other than `count` images.
+fn ring_mean(
+    solver: &mut ImageSolver,
+    center: Complex64,
+    radius: f64,
+    phase: f64,
+    count: usize,
+) -> Result<Option<f64>> {
+    let mut sum = 0.0;
+    for k in 0..4 {
+        let z =
+            center + Complex64::from_polar(radius, phase + k as f64 * std::f64::consts::FRAC_PI_2);
+        let images = solver.images(z)?;
+        if images.len() != count {
+            return Ok(None);
+        }
+        sum += images.iter().map(|i| i.magnification).sum::<f64>();
+    }
+    Ok(Some(0.25 * sum))
 }
