@@ -44,6 +44,17 @@ def test_contour_single_lens_against_witt_mao():
             assert np.all(np.abs(a - want) <= 10 * err + 1e-12 * want)
 
 
+def test_contour_quadrupole_rule_against_witt_mao():
+    # tests/reference/contour_single.csv (Witt & Mao 1994): at u = 1, rho = 0.1 and tol 1e-2 the
+    # point source and its quadrupole term serve (code 4), within their stated error of it.
+    ref = reference("contour_single.csv")
+    sel = (ref["u"] == 1.0) & (ref["rho"] == 0.1) & (ref["ld"] == 0.0)
+    want = ref["magnification"][sel][0]
+    a, err, method = causeway.contour_magnification(causeway.Lens.single(), 1.0, 0.0, 0.1, tol=1e-2)
+    assert causeway.CONTOUR_METHODS[int(method)] == "quadrupole"
+    assert abs(a - want) <= err <= 1e-2 * a
+
+
 def test_contour_all_laws_against_the_annulus_integral():
     # tests/reference/finite_source.py: uniform disk (Witt & Mao 1994), linear and square-root
     # laws as integrals over annuli (Lee et al. 2009 form) with scipy.integrate.

@@ -84,6 +84,11 @@
 //! let est = solver.magnification(Complex64::new(0.0, 0.0), &disk).unwrap();
 //! assert!((est.magnification - (1.0f64 + 400.0).sqrt()).abs() < 1e-5 * est.magnification);
 //! assert_eq!(est.method, Method::Contour);
+//! // Ten radii out, at tolerance 1e-2: the point source and its quadrupole term (five solves).
+//! let mut solver = ContourSolver::new(&LensSystem::single(), 1e-2).unwrap();
+//! let est = solver.magnification(Complex64::new(1.0, 0.0), &disk).unwrap();
+//! assert_eq!(est.method, Method::Quadrupole);
+//! assert!(est.error <= 1e-2 * est.magnification);
 //! ```
 
 mod annuli;
