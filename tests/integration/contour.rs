@@ -221,10 +221,29 @@ fn command_line() {
 /// 1994 (tests/reference/contour_single.csv: the rows far enough from the lens for the rule).
 #[test]
 fn far_from_caustics_single_lens_against_witt_mao() {
+    let taken = single_lens_rows_taken(&[1e-2, 1e-3, 1e-4], Method::FarPoint);
+    for (line, tol, _, _, want, est) in &taken {
+        let err = (est.magnification - want).abs();
+        assert!(
+            err <= est.error && est.error <= tol * est.magnification,
+            "line {line} tol {tol:e}: {est:?} vs {want}"
+        );
+    }
+    assert!(taken.len() >= 5, "far rule taken {} times", taken.len());
+}
+
+/// The single-lens rows of tests/reference/contour_single.csv (Witt & Mao 1994 and the
+/// quadrature) that the default solver gives by `method` at each of `tols`: (line, tol, u,
+/// (rho, ld), reference, estimate).
+#[allow(clippy::type_complexity)]
+fn single_lens_rows_taken(
+    tols: &[f64],
+    method: Method,
+) -> Vec<(usize, f64, f64, (f64, f64), f64, contour::Estimate)> {
     let table = common::reference("contour_single.csv", &["u", "rho", "ld", "magnification"]);
-    let mut taken = 0;
-    for tol in [1e-2, 1e-3, 1e-4] {
-        for (row, line) in table.rows.iter().zip(&table.lines) {
+    let mut out = Vec::new();
+    for &tol in tols {
+        for (row, &line) in table.rows.iter().zip(&table.lines) {
             let (u, rho, ld, want) = (row[0], row[1], row[2], row[3]);
             let est = contour::magnification(
                 &LensSystem::single(),
@@ -233,18 +252,12 @@ fn far_from_caustics_single_lens_against_witt_mao() {
                 tol,
             )
             .unwrap();
-            if est.method != Method::FarPoint {
-                continue;
+            if est.method == method {
+                out.push((line, tol, u, (rho, ld), want, est));
             }
-            taken += 1;
-            let err = (est.magnification - want).abs();
-            assert!(
-                err <= est.error && est.error <= tol * est.magnification,
-                "line {line} tol {tol:e}: {est:?} vs {want}"
-            );
         }
     }
-    assert!(taken >= 5, "far rule taken {taken} times");
+    out
 }
 
 /// The same bound for binaries (planetary, resonant, stellar; rho 1e-3 and 5e-3, linear limb
@@ -348,45 +361,35 @@ fn error_estimates_bound_the_worst_cases() {
 /// `24 A / d^4`, so the rule must not be far from its bound there either.
 #[test]
 fn quadrupole_single_lens_against_witt_mao() {
-    let table = common::reference("contour_single.csv", &["u", "rho", "ld", "magnification"]);
-    let (mut taken, mut limb_darkened, mut worst) = (0, 0, 0.0f64);
-    for tol in [0.1, 1e-2, 1e-3, 1e-4] {
-        for (row, line) in table.rows.iter().zip(&table.lines) {
-            let (u, rho, ld, want) = (row[0], row[1], row[2], row[3]);
-            let est = contour::magnification(
-                &LensSystem::single(),
-                Complex64::new(u, 0.0),
-                &profile(rho, ld),
-                tol,
-            )
-            .unwrap();
-            if est.method != Method::Quadrupole {
-                continue;
-            }
-            taken += 1;
-            limb_darkened += usize::from(ld > 0.0);
-            assert!(
-                u >= contour::QUADRUPOLE_CLEARANCE * rho,
-                "line {line}: {est:?}"
-            );
-            let err = (est.magnification - want).abs();
-            // The rule's distance is u here: the error is 10 (rho/u)^4 A.
-            let bound = contour::QUADRUPOLE_SAFETY * (rho / u).powi(4) * est.magnification;
-            assert!(
-                (est.error / bound - 1.0).abs() < 1e-12,
-                "line {line}: {est:?}"
-            );
-            assert!(
-                err <= est.error && est.error <= tol * est.magnification,
-                "line {line} tol {tol:e}: {est:?} vs {want}"
-            );
-            worst = worst.max(err / (bound / contour::QUADRUPOLE_SAFETY));
-        }
+    let taken = single_lens_rows_taken(&[0.1, 1e-2, 1e-3, 1e-4], Method::Quadrupole);
+    let mut worst = 0.0f64;
+    for &(line, tol, u, (rho, _), want, est) in &taken {
+        assert!(
+            u >= contour::QUADRUPOLE_CLEARANCE * rho,
+            "line {line}: {est:?}"
+        );
+        let err = (est.magnification - want).abs();
+        // The rule's distance is u here: the error is 10 (rho/u)^4 A.
+        let bound = contour::QUADRUPOLE_SAFETY * (rho / u).powi(4) * est.magnification;
+        assert!(
+            (est.error / bound - 1.0).abs() < 1e-12,
+            "line {line}: {est:?}"
+        );
+        assert!(
+            err <= est.error && est.error <= tol * est.magnification,
+            "line {line} tol {tol:e}: {est:?} vs {want}"
+        );
+        worst = worst.max(err / (bound / contour::QUADRUPOLE_SAFETY));
     }
-    println!("quadrupole taken {taken} times; worst error {worst:.3} (rho/d)^4 A");
+    let limb_darkened = taken.iter().filter(|t| t.3 .1 > 0.0).count();
+    println!(
+        "quadrupole taken {} times; worst error {worst:.3} (rho/d)^4 A",
+        taken.len()
+    );
     assert!(
-        taken >= 15 && limb_darkened >= 4,
-        "taken {taken} ({limb_darkened} ld)"
+        taken.len() >= 15 && limb_darkened >= 4,
+        "taken {} ({limb_darkened} ld)",
+        taken.len()
     );
 }
 
