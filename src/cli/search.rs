@@ -118,8 +118,8 @@ pub struct SearchArgs {
     #[arg(long, value_name = "FRACTION", default_value_t = GridRule::default().model_floor, allow_hyphen_values = true)]
     pub model_floor: f64,
     /// Where one point's share of the search's chi2 turns from its squared residual r^2 to
-    /// cap (1 + ln(r^2 / cap)), in chi2 units (default inf: never; 25 is five sigma); with
-    /// a cap the refinement's first pass minimises the same capped chi2, the rest the plain one.
+    /// cap (1 + ln(r^2 / cap)), in chi2 units (25 is five sigma; inf: never); with a cap the
+    /// refinement also starts from the end of a pass on the same capped chi2.
     #[arg(long, value_name = "CHI2", default_value_t = GridRule::default().point_cap, allow_hyphen_values = true)]
     pub point_cap: f64,
     /// Distinct trajectories kept per map.

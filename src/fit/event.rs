@@ -282,12 +282,10 @@ pub fn fit_event(
     }
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
-    // The first pass of each refinement on the chi^2 the search ranked the starts by.
-    let first = RefineOptions {
-        point_cap: rule.point_cap,
-        ..options.refine
-    };
-    let mut minima = refine_models(&searched, &starts, &first, &|| progress.advance(1))?;
+    // The first refinements also start from a pass on the chi^2 the search ranked by.
+    let mut minima = refine_models(&searched, &starts, &options.refine, rule.point_cap, &|| {
+        progress.advance(1)
+    })?;
     progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
     let (fitted, clipped, scales) = clean(
         &searched,
@@ -317,7 +315,9 @@ pub fn fit_event(
             simplex: false,
             ..options.refine
         };
-        minima = refine_models(&fitted, &starts, &again, &|| progress.advance(1))?;
+        minima = refine_models(&fitted, &starts, &again, f64::INFINITY, &|| {
+            progress.advance(1)
+        })?;
         // The best once more with the simplex: the first pass walked a landscape that the
         // outliers and error bars shaped, and can have stopped in a basin the cleaned data
         // no longer hold it in.

@@ -5,7 +5,7 @@
 use super::model::BinaryModel;
 use super::photometry::DataSet;
 use super::refine::{close_wide, refine_until, same_minimum, uncertainties, Refined};
-use super::search::{local_minima, GridRule, MapOutcome};
+use super::search::{local_minima, MapOutcome};
 use crate::error::{Error, Result};
 use rayon::prelude::*;
 use std::time::{Duration, Instant};
@@ -45,10 +45,6 @@ pub struct RefineOptions {
     /// Perturbed restarts per round around the best minimum after it converged (see
     /// [`super::hop`]); 0 for none.
     pub hops: usize,
-    /// The point cap of a first pass on the capped chi^2 (with the simplex stages only; see
-    /// [`super::refine::refine_until`]); `f64::INFINITY` for none. [`super::event::fit_event`]
-    /// sets it to the search's [`super::search::GridRule::point_cap`].
-    pub point_cap: f64,
 }
 
 impl Default for RefineOptions {
@@ -61,7 +57,6 @@ impl Default for RefineOptions {
             budget: Some(Duration::from_secs(600)),
             within: DEFAULT_WITHIN,
             hops: super::hop::HOPS,
-            point_cap: GridRule::default().point_cap,
         }
     }
 }
@@ -110,11 +105,14 @@ pub fn promising(starts: &mut Vec<(BinaryModel, f64)>, within: f64) -> usize {
 /// Refines the best (s, q)-grid local minima of `outcomes` that are [`promising`] (in
 /// parallel), merges those that
 /// reach the same model, ranks them by chi^2, marks close/wide pairs and measures their
-/// uncertainties ([`with_uncertainties`]). `progress` is called after each refinement.
+/// uncertainties ([`with_uncertainties`]). `cap` is the search's point cap
+/// ([`super::search::GridRule::point_cap`]: see [`refine_models`]). `progress` is called
+/// after each refinement.
 pub fn refine_minima(
     data: &[DataSet],
     outcomes: &[MapOutcome],
     options: &RefineOptions,
+    cap: f64,
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<Minimum>> {
     let mut starts: Vec<(BinaryModel, f64)> = grid_starts(outcomes, options.candidates)?
@@ -122,7 +120,7 @@ pub fn refine_minima(
         .map(|i| best_start(&outcomes[i]))
         .collect();
     promising(&mut starts, options.within);
-    let minima = refine_models(data, &starts, options, progress)?;
+    let minima = refine_models(data, &starts, options, cap, progress)?;
     Ok(with_uncertainties(data, minima, options.tol, &|| {}))
 }
 
@@ -147,12 +145,15 @@ pub fn best_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
 /// Refines each `(model, search chi^2)` of `starts` (in parallel, within the options' time
 /// budget), merges those that reach the same model, ranks them by chi^2 and marks close/wide
 /// pairs. Their uncertainties are left NaN (the curvature costs as much as a refinement's
-/// last stage: [`with_uncertainties`] measures it once, on the final data). `progress` is
-/// called after each refinement.
+/// last stage: [`with_uncertainties`] measures it once, on the final data). With the simplex
+/// stages and a finite `cap` (the search's point cap, by which it ranked the starts), each
+/// refinement also starts from the end of a pass on the capped chi^2 (see
+/// [`super::refine::refine_until`]). `progress` is called after each refinement.
 pub fn refine_models(
     data: &[DataSet],
     starts: &[(BinaryModel, f64)],
     options: &RefineOptions,
+    cap: f64,
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<Minimum>> {
     let deadline = options.budget.map(|b| Instant::now() + b);
@@ -165,11 +166,7 @@ pub fn refine_models(
                 options.tol,
                 options.max_iters,
                 options.simplex,
-                if options.simplex {
-                    options.point_cap
-                } else {
-                    f64::INFINITY
-                },
+                if options.simplex { cap } else { f64::INFINITY },
                 deadline,
             );
             progress();

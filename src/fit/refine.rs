@@ -5,11 +5,12 @@
 //! Each start first takes the best of a ladder of source radii ([`RHO_LADDER`] times its own,
 //! by exact chi^2 at the start's other parameters): a map search cannot try a radius below
 //! its pixel, and the refinement's steps in `ln rho` rarely cross the factors between a
-//! pixel-sized source and a caustic crossing's own. With the search's point cap, a
-//! Levenberg-Marquardt pass on the capped chi^2 (the search's measure: see
-//! [`super::fluxes::capped_share`]) comes first and brings a crossing the start put a little
-//! off to the data before any point's full misfit counts. Then it goes through Levenberg-Marquardt
-//! on the normalised residuals (which follows the curved valleys of a caustic crossing), the
+//! pixel-sized source and a caustic crossing's own. Then it goes through Levenberg-Marquardt
+//! on the normalised residuals (which follows the curved valleys of a caustic crossing); with
+//! the search's point cap, also from the end of a Levenberg-Marquardt pass on the capped
+//! chi^2 (the search's measure: see [`super::fluxes::capped_share`]), which brings a crossing
+//! the start put a little off to the data before any point's full misfit counts but can
+//! settle on a partial fit, so the lower plain chi^2 of the two goes on. Then the
 //! Nelder-Mead simplex from there (which can step out of a shallow false minimum),
 //! Levenberg-Marquardt again to converge, and last Levenberg-Marquardt with Jacobian steps
 //! twenty times smaller at a tenth of the tolerance, which follows a valley narrower than the
@@ -191,9 +192,9 @@ pub(super) fn steps(model: &BinaryModel) -> [f64; 7] {
 
 /// [`refine`] without the curvature (the uncertainties are NaN: see [`uncertainties`]), with
 /// the simplex stages and the closing pass ([`close_in`]) only when `simplex` (without them,
-/// Levenberg-Marquardt alone: enough from a start already at a minimum), from a first Levenberg-Marquardt pass on the capped
-/// chi^2 when `cap` is finite (the search's [`super::search::GridRule::point_cap`]: see the
-/// module documentation), stopped at `deadline`: from then on every trial counts as
+/// Levenberg-Marquardt alone: enough from a start already at a minimum), also from the end of
+/// a Levenberg-Marquardt pass on the capped chi^2 when `cap` is finite (the search's
+/// [`super::search::GridRule::point_cap`]: see the module documentation), stopped at `deadline`: from then on every trial counts as
 /// infeasible, so each stage ends at once with the best model it had.
 pub fn refine_until(
     data: &[DataSet],
@@ -223,16 +224,6 @@ pub fn refine_until(
     let step = steps(start);
     let h: Vec<f64> = step.iter().map(|s| 0.02 * s).collect();
     let lm_iters = LM_ITERATIONS.min(max_iters.max(1));
-    // With a cap, Levenberg-Marquardt on the capped chi^2 first: a start the search's capped
-    // ranking chose can put a crossing a little off, its few points misfit by hundreds of
-    // sigma; they would pull the plain minimiser into whatever aligns them soonest.
-    let x0 = to_vector(start);
-    let x0 = if cap.is_finite() {
-        let capped = capped_residuals(data, tol.max(COARSE_TOL), cap, &evaluations, deadline);
-        least_squares(&capped, &x0, &h, 1e-2, lm_iters).map_or(x0, |m| m.x)
-    } else {
-        x0
-    };
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
     // along. Its Jacobian steps are a fiftieth of the simplex's.
@@ -241,15 +232,33 @@ pub fn refine_until(
     // last Levenberg-Marquardt pass at the one asked for.
     let coarse = if simplex { tol.max(COARSE_TOL) } else { tol };
     let residuals = residuals_to(coarse);
-    let lm = match least_squares(&residuals, &x0, &h, 1e-4, lm_iters) {
-        Ok(m) => m,
-        // Out of time (or the start outside the model): the start itself.
-        Err(_) => super::optimize::Minimum {
-            value: exact_chi2(data, &from_vector(&x0)?, tol)?.0,
-            x: x0.clone(),
-            evaluations: 1,
-        },
+    let plain_from = |x0: &[f64]| -> Result<super::optimize::Minimum> {
+        Ok(match least_squares(&residuals, x0, &h, 1e-4, lm_iters) {
+            Ok(m) => m,
+            // Out of time (or the start outside the model): the start itself.
+            Err(_) => super::optimize::Minimum {
+                value: exact_chi2(data, &from_vector(x0)?, tol)?.0,
+                x: x0.to_vec(),
+                evaluations: 1,
+            },
+        })
     };
+    let x0 = to_vector(start);
+    let mut lm = plain_from(&x0)?;
+    // With a cap, also from the end of a Levenberg-Marquardt pass on the capped chi^2: a
+    // start the search's capped ranking chose can put a crossing a little off, its few points
+    // misfit by hundreds of sigma, and they pull the plain minimiser into whatever aligns them
+    // soonest. The capped pass can also settle on a partial fit that gives up points the
+    // start fitted, so the lower plain chi^2 of the two is kept.
+    if cap.is_finite() && !late() {
+        let capped = capped_residuals(data, tol.max(COARSE_TOL), cap, &evaluations, deadline);
+        if let Ok(m) = least_squares(&capped, &x0, &h, 1e-2, lm_iters) {
+            let other = plain_from(&m.x)?;
+            if other.value < lm.value {
+                lm = other;
+            }
+        }
+    }
     // Then the simplex from there: stop when its chi^2 values agree to 0.01; start afresh
     // from the minimum (up to four rounds) while that still gains more than 0.1.
     let objective = chi2_to(coarse);
@@ -317,15 +326,14 @@ pub(super) fn close_in(
     evaluations: &AtomicU64,
     deadline: Option<Instant>,
 ) -> Vec<f64> {
-    let residuals = counted_residuals(data, 0.1 * tol, evaluations, deadline);
-    let h: Vec<f64> = from_vector(x)
-        .map(|m| steps(&m).iter().map(|s| CLOSING_STEP * s).collect())
-        .unwrap_or_default();
-    if h.is_empty() {
+    let Ok(model) = from_vector(x) else {
         return x.to_vec();
-    }
+    };
+    let step = steps(&model);
+    let h: Vec<f64> = step.iter().map(|s| CLOSING_STEP * s).collect();
+    let residuals = counted_residuals(data, 0.1 * tol, evaluations, deadline);
     match least_squares(&residuals, x, &h, 1e-3, iterations) {
-        Ok(m) if within_reach(x, &m.x, &steps(&from_vector(x).expect("checked above"))) => m.x,
+        Ok(m) if within_reach(x, &m.x, &step) => m.x,
         _ => x.to_vec(),
     }
 }

@@ -93,9 +93,17 @@ fn times_on_a_jd_scale_give_the_same_minimum() {
         la.t0,
         lb.t0
     );
-    assert!((a.model.s / b.model.s - 1.0).abs() < 1e-6);
-    assert!((a.model.q / b.model.q - 1.0).abs() < 1e-6);
-    assert!((a.chi2 - b.chi2).abs() < 1e-3 * a.chi2.max(1.0));
+    // The rest the same to a hundredth of their uncertainties: the times' rounding (2e-10 d
+    // at 2.46e6) moves where each minimiser stops within its own tolerance.
+    assert!(
+        (a.model.s - b.model.s).abs() < 0.01 * a.sigma[0],
+        "{a:?}\n{b:?}"
+    );
+    assert!(
+        (a.model.q - b.model.q).abs() < 0.01 * a.sigma[1],
+        "{a:?}\n{b:?}"
+    );
+    assert!((a.chi2 - b.chi2).abs() < 1e-3, "{a:?}\n{b:?}");
     // And it is the truth: within one percent in s and 10% in q (the map is the truth's).
     assert!((a.model.s / 1.3 - 1.0).abs() < 0.01, "{:?}", a.model);
     assert!((a.model.q / 3e-3 - 1.0).abs() < 0.1, "{:?}", a.model);

@@ -39,6 +39,9 @@ fn bright_event(model: &BinaryModel, seed: u64) -> Vec<DataSet> {
     simulate(model, &times, Noise::Magnitude { sigma: 0.01 }, seed)
 }
 
+/// The search's point cap, which the refinement's capped start follows (the default rule's).
+const CAP: f64 = 25.0;
+
 /// A library of polygon maps over `s` and `q` (each `[first, last, count]`, log spaced) with
 /// `pixels` per side, windows by `rule` ("planetary" or "central").
 struct Library {
@@ -61,6 +64,7 @@ fn search_library(name: &str, library: Library, rhos: &[f64], data: &[DataSet]) 
     let rule = GridRule {
         rhos: rhos.to_vec(),
         timed: true,
+        point_cap: CAP,
         ..GridRule::default()
     };
     let dir = common::Scratch::new(name);
@@ -154,7 +158,7 @@ fn a_planetary_caustic_crossing_is_recovered() {
     let outcomes = search_library("search-planetary", library, &[1.5e-3, 3e-3, 6e-3], &data);
     // The best (s, q) local minima refined, as fit::event::fit_event refines them: the best
     // within one grid step of the truth (steps: 6% in s, a factor 1.78 in q).
-    let minima = refine_minima(&data, &outcomes, &RefineOptions::default(), &|| {}).unwrap();
+    let minima = refine_minima(&data, &outcomes, &RefineOptions::default(), CAP, &|| {}).unwrap();
     let best = &minima[0].refined.model;
     assert!((best.s / truth.s).ln().abs() < 0.06, "{best:?}");
     assert!((best.q / truth.q).ln().abs() < 0.58, "{best:?}");
@@ -184,7 +188,7 @@ fn a_central_caustic_and_its_close_wide_partner_are_recovered() {
     };
     let outcomes = search_library("search-central", library, &GridRule::default().rhos, &data);
     let minima: Vec<Minimum> =
-        refine_minima(&data, &outcomes, &RefineOptions::default(), &|| {}).unwrap();
+        refine_minima(&data, &outcomes, &RefineOptions::default(), CAP, &|| {}).unwrap();
     // The true (close) model among the minima, within one grid step in s (12.6%) and q (a
     // factor 2), its chi^2 as the noise gives.
     let close = minima
@@ -230,7 +234,7 @@ fn a_resonant_caustic_crossing_is_recovered() {
         candidates: 2,
         ..RefineOptions::default()
     };
-    let minima = refine_minima(&data, &outcomes, &options, &|| {}).unwrap();
+    let minima = refine_minima(&data, &outcomes, &options, CAP, &|| {}).unwrap();
     let r = &minima[0].refined;
     // The best minimum within one grid step of the truth (8.7% in s, a factor 2 in q), its
     // chi^2 as the noise gives, every parameter within 4 sigma.

@@ -62,7 +62,7 @@ impl Default for GridRule {
             coarse_divisions: 100.0,
             max_trajectories: 10_000,
             model_floor: 0.03,
-            point_cap: f64::INFINITY,
+            point_cap: 25.0,
         }
     }
 }

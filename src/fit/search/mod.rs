@@ -88,17 +88,17 @@
 //! grid step off in (s, q), or with pixels larger than the source, puts the crossing's sharp
 //! rise a little early and misfits those points by hundreds of sigma, while a line that misses
 //! the caustic misfits them by less, so the truth's neighbours ranked below lines that explain
-//! nothing. With [`GridRule::point_cap`] set (off by default: on a small 160-point test
-//! event, python/tests/test_fit.py, 25 lost the planet), a point's share of the search's
-//! chi^2 beyond it grows only as a logarithm, `cap (1 + ln(r^2 / cap))`: the fluxes
+//! nothing. So a point's share of the search's chi^2 beyond [`GridRule::point_cap`]
+//! (default 25, five sigma) grows only as a logarithm, `cap (1 + ln(r^2 / cap))`: the fluxes
 //! are fitted to every point, the points beyond the cap there set apart, the fluxes fitted
 //! again to the others, and every point counted at those (one step of a trimmed least-squares
 //! fit). A crossing a little early then costs its points a few times the cap, and the rest of
-//! the curve decides. The refinement's first pass minimises the same capped chi^2 (a start the
-//! cap forgave can have a crossing a little off; [`super::refine`]). A hard cap lost the
-//! polish's pull altogether, and polishing with the plain chi^2 while ranking capped lost the
-//! truth's neighbours again. 25 recovers two invented events of the recovery benchmark that
-//! the plain chi^2 loses (docs/recovery.md).
+//! the curve decides. The refinement starts both from the line the search chose and from the
+//! end of a pass on the same capped chi^2 (a start the cap forgave can have a crossing a
+//! little off; [`super::refine`]). A hard cap lost the polish's pull altogether, and
+//! polishing with the plain chi^2 while ranking capped lost the truth's neighbours again.
+//! `f64::INFINITY` turns the cap off (the search as it was); 25 recovers two invented events
+//! of the recovery benchmark that the plain chi^2 loses (docs/recovery.md).
 //!
 //! The fluxes are not formed: for each data set the weights and the sums of the data alone are
 //! computed once per map, and a curve's chi^2 at its best `(fs, fb)` follows from three sums
