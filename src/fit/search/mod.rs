@@ -98,7 +98,8 @@
 //! little off; [`super::refine`]). A hard cap lost the polish's pull altogether, and
 //! polishing with the plain chi^2 while ranking capped lost the truth's neighbours again.
 //! `f64::INFINITY` turns the cap off (the search as it was); 25 recovers two invented events
-//! of the recovery benchmark that the plain chi^2 loses (docs/recovery.md).
+//! of the recovery benchmark that the plain chi^2 loses and loses one low-q planet that the
+//! plain chi^2 finds (the zoom's capped ranking walks to another map; docs/recovery.md).
 //!
 //! The fluxes are not formed: for each data set the weights and the sums of the data alone are
 //! computed once per map, and a curve's chi^2 at its best `(fs, fb)` follows from three sums
