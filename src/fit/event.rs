@@ -29,7 +29,9 @@
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
 //!    half and a quarter of the library's step are built and searched ([`super::zoom`]).
 //! 6. **Refinement** of the best (s, q) local minima with exact magnifications, each from its
-//!    zoom's best where it was zoomed, within the time budget ([`RefineOptions::budget`]);
+//!    zoom's best where it was zoomed (of the walks by the capped and by the plain search
+//!    chi^2, the end closer to the data, and the other end as well when it is another map),
+//!    within the time budget ([`RefineOptions::budget`]);
 //!    starts whose search chi^2 is above [`RefineOptions::within`] times the best's are left
 //!    out (with a note).
 //! 7. **Noise.** At the best model, isolated outliers are clipped ([`FitOptions::clip_sigma`],
@@ -65,7 +67,7 @@ use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
-use super::zoom::{MapRecipe, ZoomOptions, Zoomer, POINTS_PER_LEVEL};
+use super::zoom::{most_points, MapRecipe, ZoomOptions, Zoomer};
 use crate::error::{Error, Result};
 use crate::lens::paczynski;
 use crate::map::read_fits;
@@ -258,17 +260,19 @@ pub fn fit_event(
         refine_starts(&searched, &seed, &rule, &maps, &outcomes, options, progress)?;
     let zoom_seconds = started.elapsed().as_secs_f64();
     for (z, start) in zoomed.iter().zip(&starts) {
-        let kept = if start.0 == best_start(z).0 {
-            ""
+        let walk = if start.0 == best_start(z).0 {
+            " (search chi2 {:.1})"
+        } else if Some(start.0) == z.best_plain().map(|c| c.model) {
+            " (search chi2 {:.1}; the walk by the plain chi2, closer to the data)"
         } else {
             "; the grid point's own best is closer to the data (exact chi2) and starts the \
              refinement instead"
         };
         note(format!(
-            "zoom: best s = {:.4}, q = {:.3e} (search chi2 {:.1}){kept}",
+            "zoom: best s = {:.4}, q = {:.3e}{}",
             z.s,
             z.q,
-            z.best_chi2()
+            walk.replace("{:.1}", &format!("{:.1}", z.best_chi2()))
         ));
     }
 
@@ -372,7 +376,7 @@ pub fn fit_event(
     let mut outcomes = outcomes;
     let mut zoomed = zoomed;
     for o in outcomes.iter_mut().chain(zoomed.iter_mut()) {
-        for c in &mut o.candidates {
+        for c in o.candidates.iter_mut().chain(o.plain.iter_mut()) {
             c.model = unshift(&c.model)?;
         }
     }
@@ -577,8 +581,9 @@ fn baseline(
 type Starts = Vec<(BinaryModel, f64)>;
 
 /// The refinement's starts (model, search chi^2): the best candidate of each of the best
-/// (s, q) local minima of the search, the first few replaced by the best of their zoom when
-/// that is closer to the data ([`closer_start`]; with the zoomed outcomes).
+/// (s, q) local minima of the search, the first few replaced by the end of their zoom's walks
+/// closest to the data ([`closest_start`]), and, when that is a walk's end, the other walk's
+/// end appended if it is another map (with the zoomed outcomes, one per zoomed start).
 fn refine_starts(
     local: &[DataSet],
     seed: &Seed,
@@ -603,13 +608,34 @@ fn refine_starts(
             MapSource::Loaded(loaded) => MapRecipe::of_map(&loaded[0]),
         },
     };
-    let points = centres.len().min(zoom.centres) * zoom.levels * POINTS_PER_LEVEL;
+    let points = centres.len().min(zoom.centres) * most_points(zoom.levels);
     progress.start("zoom", points as u64);
+    let mut extra: Starts = Vec::new();
     for (k, &i) in centres.iter().take(zoom.centres).enumerate() {
         let found = zoomer.zoom(outcomes, i, zoom.levels, &|| progress.advance(1))?;
-        starts[k] = closer_start(local, starts[k], best_start(&found), options.refine.tol);
-        zoomed.push(found);
+        let choices = [
+            starts[k],
+            plain_start(&outcomes[i]),
+            best_start(&found.capped),
+            plain_start(&found.plain),
+        ];
+        let closest = closest_start(local, &choices, options.refine.tol);
+        starts[k] = choices[closest];
+        // The exact chi^2 at a start is a poor guide between two walks' ends whose lines were
+        // timed on maps (a low-q planet's plain end can start 3,000 above the capped end and
+        // refine 200 below it): the end not chosen is refined as well, if it is another map.
+        let other = if closest == 3 { choices[2] } else { choices[3] };
+        let same_map = |a: &BinaryModel, b: &BinaryModel| a.s == b.s && a.q == b.q;
+        if closest >= 2 && !same_map(&other.0, &starts[k].0) {
+            extra.push(other);
+        }
+        zoomed.push(if closest == 3 {
+            found.plain
+        } else {
+            found.capped
+        });
     }
+    starts.extend(extra);
     progress.finish(&format!(
         "zoom: around {} grid points, {} levels",
         zoomed.len(),
@@ -628,23 +654,35 @@ fn untrusted_u0_max(seed: &Seed) -> f64 {
         .max(0.3)
 }
 
-/// Of a grid point's best candidate and its zoom's, the one with the lower exact chi^2 at its
-/// best source radius ([`ladder_start`], magnification tolerance `tol`). Search chi^2 values
-/// of maps of different pixels do not compare: a finer zoomed map reads smaller sources, and
-/// its best can be a caustic crossing at a wrong radius that the grid's coarser map would not
-/// rank first; the exact chi^2 decides. The zoom's when neither can be evaluated.
-fn closer_start(
-    data: &[DataSet],
-    grid: (BinaryModel, f64),
-    zoom: (BinaryModel, f64),
-    tol: f64,
-) -> (BinaryModel, f64) {
-    let exact = |m: &BinaryModel| ladder_start(data, m, tol).map_or(f64::INFINITY, |(_, c)| c);
-    if exact(&grid.0) < exact(&zoom.0) {
-        grid
-    } else {
-        zoom
+/// The best candidate of an outcome by the plain search chi^2 as a refinement's start, with
+/// the outcome's best search chi^2 (the capped one, by which the starts are compared).
+fn plain_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
+    let model = outcome
+        .best_plain()
+        .map_or(outcome.candidates[0].model, |c| c.model);
+    (model, outcome.best_chi2())
+}
+
+/// Which of `starts` (a grid point's best candidates and its zoom's, by the capped and the
+/// plain search chi^2) has the lowest exact chi^2 at its best source radius ([`ladder_start`],
+/// magnification tolerance `tol`); the last when none can be evaluated. Search chi^2 values of
+/// maps of different pixels do not compare (a finer zoomed map reads smaller sources, and its
+/// best can be a caustic crossing at a wrong radius that the grid's coarser map would not rank
+/// first), nor do the capped and the plain; the exact chi^2 decides. A start repeated is
+/// evaluated once.
+fn closest_start(data: &[DataSet], starts: &[(BinaryModel, f64)], tol: f64) -> usize {
+    let mut exact: Vec<f64> = Vec::with_capacity(starts.len());
+    for (k, (m, _)) in starts.iter().enumerate() {
+        let c = match starts[..k].iter().position(|(o, _)| o == m) {
+            Some(j) => exact[j],
+            None => ladder_start(data, m, tol).map_or(f64::INFINITY, |(_, c)| c),
+        };
+        exact.push(c);
     }
+    (0..starts.len())
+        .rev()
+        .min_by(|&a, &b| exact[a].total_cmp(&exact[b]))
+        .unwrap_or(0)
 }
 
 /// Step 3 of the module documentation.

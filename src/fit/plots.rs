@@ -351,6 +351,7 @@ mod tests {
                     s,
                     q,
                     candidates,
+                    plain: vec![],
                     trajectories: 1,
                     points: 1,
                     notes: vec![],

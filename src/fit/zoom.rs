@@ -4,7 +4,10 @@
 //! then stops in a wrong minimum. The zoom builds maps at the eight neighbours of a grid point
 //! at half the library's local step, searches them with the same seed and rule, moves to the
 //! best, and repeats at a quarter of the step ([`ZoomOptions::levels`]); the refinement then
-//! starts from the last best candidate.
+//! starts from the last best candidate. The walk is made twice, by the search's chi^2 and by
+//! its plain chi^2 (without the point cap; see [`super::search`]): the cap forgives a crossing
+//! a map puts a little early, and also a low-q planet's lines that explain its anomaly less
+//! well; the fit refines from both ends.
 //!
 //! The maps are made as the library's are ([`MapRecipe`]: engine, density and pixels of one of
 //! its maps, a window on every caustic), in memory, and not kept.
@@ -104,29 +107,53 @@ pub struct Zoomer<'a> {
     pub recipe: MapRecipe,
 }
 
+/// The ends of a zoom's two walks: the best outcome by the search's chi^2 and the best by its
+/// plain chi^2 (the same walk without a point cap).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Zoomed {
+    /// The walk by [`MapOutcome::best_chi2`].
+    pub capped: MapOutcome,
+    /// The walk by [`MapOutcome::best_plain_chi2`].
+    pub plain: MapOutcome,
+}
+
 impl Zoomer<'_> {
     /// Zooms on `outcomes[start]` (one of the merged outcomes of a library search, whose grid
-    /// sets the step) over `levels` halvings, as the module documentation says; returns the
-    /// best outcome found, `outcomes[start]` itself if no finer map beats it. `progress` is
-    /// called after each (s, q) point is built and searched (at most [`POINTS_PER_LEVEL`] a
-    /// level).
+    /// sets the step) over `levels` halvings, as the module documentation says, walking twice:
+    /// by the search's chi^2 and by its plain chi^2 (they part where the point cap forgives a
+    /// misfit the plain chi^2 does not; a level searches the neighbours of both walks'
+    /// points). Each walk's end is `outcomes[start]` itself if no finer map beats it.
+    /// `progress` is called after each (s, q) point is built and searched (at most
+    /// [`most_points`] in all).
     pub fn zoom(
         &self,
         outcomes: &[MapOutcome],
         start: usize,
         levels: usize,
         progress: &(dyn Fn() + Sync),
-    ) -> Result<MapOutcome> {
+    ) -> Result<Zoomed> {
         let (ss, qs) = grid_axes(outcomes);
-        let mut best = outcomes[start].clone();
-        let steps = (local_step(&ss, best.s), local_step(&qs, best.q));
+        let mut capped = outcomes[start].clone();
+        let mut plain = capped.clone();
+        let steps = (local_step(&ss, capped.s), local_step(&qs, capped.q));
         for level in 1..=levels {
             let scale = 0.5f64.powi(level as i32);
-            // The maps of every neighbour are searched together, so that the threads share
-            // them (one map's polish of its few candidates would leave threads idle).
+            let h = (steps.0 * scale, steps.1 * scale);
+            let mut points = neighbours((capped.s, capped.q), h);
+            for p in neighbours((plain.s, plain.q), h) {
+                let same = |a: &(f64, f64)| {
+                    (a.0 / p.0 - 1.0).abs() < 1e-9 && (a.1 / p.1 - 1.0).abs() < 1e-9
+                };
+                let centre = (capped.s, capped.q);
+                if !points.iter().any(same) && !same(&centre) {
+                    points.push(p);
+                }
+            }
+            // The maps of every point are searched together, so that the threads share them
+            // (one map's polish of its few candidates would leave threads idle).
             let mut maps = Vec::new();
             let mut ends = Vec::new();
-            for (s, q) in neighbours((best.s, best.q), (steps.0 * scale, steps.1 * scale)) {
+            for (s, q) in points {
                 let built = self.recipe.build(s, q)?;
                 if built.is_empty() {
                     progress();
@@ -151,12 +178,25 @@ impl Zoomer<'_> {
                 },
             )?;
             for o in merge_grid_points(found, self.rule.keep) {
-                if o.best_chi2() < best.best_chi2() {
-                    best = o;
+                if o.best_plain_chi2() < plain.best_plain_chi2() {
+                    plain = o.clone();
+                }
+                if o.best_chi2() < capped.best_chi2() {
+                    capped = o;
                 }
             }
         }
-        Ok(best)
+        Ok(Zoomed { capped, plain })
+    }
+}
+
+/// Most (s, q) points a zoom over `levels` halvings searches: the eight neighbours of the
+/// start, then up to eight of each walk's point a level.
+pub fn most_points(levels: usize) -> usize {
+    if levels == 0 {
+        0
+    } else {
+        POINTS_PER_LEVEL * (2 * levels - 1)
     }
 }
 

@@ -249,7 +249,7 @@ fn a_resonant_caustic_crossing_is_recovered() {
 /// a quarter step of the truth's s, and its chi^2 falls below both grid points'.
 #[test]
 fn the_zoom_finds_a_separation_between_grid_points() {
-    use causeway::fit::search::{local_minima, merge_grid_points};
+    use causeway::fit::search::{local_minima, merge_grid_points, trajectory_chi2_on_map};
     use causeway::fit::zoom::{MapRecipe, Zoomer};
     use causeway::map::read_fits;
     let (truth, data) = planetary_crossing(12);
@@ -267,6 +267,34 @@ fn the_zoom_finds_a_separation_between_grid_points() {
         ..GridRule::default()
     };
     let outcomes = merge_grid_points(search(&data, &seed, &maps, &rule, &|| {}).unwrap(), 3);
+    // Each map also keeps its best line by the plain search chi^2: what the search reads for
+    // that line with the cap off.
+    let plain_rule = GridRule {
+        point_cap: f64::INFINITY,
+        ..rule.clone()
+    };
+    for o in &outcomes {
+        assert_eq!(o.plain.len(), 1, "{o:?}");
+        let c = o.plain[0];
+        let read: Vec<f64> = maps
+            .iter()
+            .filter(|m| (m.s, m.q) == (o.s, o.q))
+            .map(|m| {
+                let map = read_fits(&m.path).unwrap();
+                let chi2 = trajectory_chi2_on_map(&data, &map, &plain_rule, &c.model.trajectory);
+                let at = chi2
+                    .unwrap()
+                    .into_iter()
+                    .find(|&(rho, _)| rho == c.model.rho);
+                at.unwrap().1
+            })
+            .collect();
+        assert!(
+            read.iter().any(|&r| (r / c.chi2 - 1.0).abs() < 1e-9),
+            "{read:?} vs {}",
+            c.chi2
+        );
+    }
     let start = local_minima(&outcomes)[0];
     let zoomer = Zoomer {
         data: &data,
@@ -274,14 +302,18 @@ fn the_zoom_finds_a_separation_between_grid_points() {
         rule: &rule,
         recipe: MapRecipe::of_map(&read_fits(&maps[0].path).unwrap()),
     };
-    let zoomed = zoomer.zoom(&outcomes, start, 2, &|| {}).unwrap();
-    // A quarter of the library's step ln(1.43 / 1.18) = 0.192 is 0.048.
-    assert!(
-        (zoomed.s / truth.s).ln().abs() < 0.05,
-        "zoomed to s = {}",
-        zoomed.s
-    );
-    assert_eq!(zoomed.q, 3e-3);
+    let walks = zoomer.zoom(&outcomes, start, 2, &|| {}).unwrap();
+    // A quarter of the library's step ln(1.43 / 1.18) = 0.192 is 0.048; both walks (by the
+    // capped and by the plain search chi^2) end there on these clean data.
+    for end in [&walks.capped, &walks.plain] {
+        assert!(
+            (end.s / truth.s).ln().abs() < 0.05,
+            "zoomed to s = {}",
+            end.s
+        );
+        assert_eq!(end.q, 3e-3);
+    }
+    let zoomed = walks.capped;
     let grid_best = outcomes
         .iter()
         .map(|o| o.best_chi2())

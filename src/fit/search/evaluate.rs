@@ -32,8 +32,10 @@ pub(super) struct Scratch {
     pub(super) point: Vec<f64>,
     /// The host's own magnification at the needed points.
     pub(super) host: Vec<f64>,
-    /// chi^2 at each trial rho.
+    /// chi^2 at each trial rho (capped per point at [`GridRule::point_cap`]).
     pub(super) chi2: Vec<f64>,
+    /// The plain chi^2 at each trial rho (no cap; equal to `chi2` without one).
+    pub(super) plain: Vec<f64>,
     /// The flux sums of each interleaved reader, and one point's values at each.
     pub(super) sums: Vec<CurveSums>,
     pub(super) values: Vec<f64>,
@@ -50,7 +52,8 @@ pub(super) struct Scratch {
 
 impl Scratch {
     /// chi^2 of a trajectory at each trial rho (or only at the reader `only`), into `self.chi2`
-    /// (infinite where that rho could not be read or was not asked for).
+    /// and, without the cap, into `self.plain` (infinite where that rho could not be read or
+    /// was not asked for).
     pub(super) fn trajectory_chi2(
         &mut self,
         solver: &mut ImageSolver,
@@ -62,6 +65,8 @@ impl Scratch {
     ) -> Result<()> {
         self.chi2.clear();
         self.chi2.resize(readers.rhos.len(), 0.0);
+        self.plain.clear();
+        self.plain.resize(readers.rhos.len(), 0.0);
         let l = line.trajectory.line();
         let (sn, cs) = l.alpha.sin_cos();
         for (weighted, &law) in sets.iter().zip(&readers.set_law) {
@@ -114,6 +119,7 @@ impl Scratch {
             for (r, conv) in row.iter().enumerate() {
                 let Some(conv) = conv.as_ref().filter(|_| only.is_none_or(|o| o == r)) else {
                     self.chi2[r] = f64::INFINITY;
+                    self.plain[r] = f64::INFINITY;
                     continue;
                 };
                 let mut sums = off;
@@ -142,6 +148,7 @@ impl Scratch {
                     ));
                 }
                 self.chi2[r] += self.set_chi2(weighted, &sums, (ka, kb), (0, 1), rule.point_cap);
+                self.plain[r] += weighted.chi2(&sums);
             }
         }
         Ok(())
@@ -198,6 +205,7 @@ impl Scratch {
         for (r, conv) in row.iter().enumerate() {
             if conv.is_none() {
                 self.chi2[r] = f64::INFINITY;
+                self.plain[r] = f64::INFINITY;
             }
         }
         let all = std::mem::take(&mut self.sums);
@@ -208,6 +216,7 @@ impl Scratch {
                 ));
             }
             self.chi2[r] += self.set_chi2(weighted, sums, (ka, kb), (j, k), cap);
+            self.plain[r] += weighted.chi2(sums);
         }
         self.sums = all;
         Ok(())

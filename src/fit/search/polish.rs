@@ -1,0 +1,173 @@
+//! The kept lines of a map: the best distinct lines of the grid by the capped and by the
+//! plain search chi^2, and the polish of each on its map.
+
+use super::evaluate::Scratch;
+use super::grid::{distinct, GridRule, Line};
+use super::readers::Readers;
+use super::sums::Weighted;
+use super::{Candidate, POLISH_ITERATIONS, POLISH_TOLERANCE, RHO_RETRIES};
+use crate::error::Result;
+use crate::fit::model::{BinaryModel, Trajectory};
+use crate::fit::optimize::minimize;
+use crate::map::Window;
+use crate::solve::ImageSolver;
+
+/// The lowest finite value of `chi2` and its index.
+pub(super) fn lowest(chi2: &[f64]) -> Option<(f64, usize)> {
+    chi2.iter()
+        .enumerate()
+        .filter(|(_, c)| c.is_finite())
+        .min_by(|a, b| a.1.total_cmp(b.1))
+        .map(|(i, &c)| (c, i))
+}
+
+/// Which search chi^2 ranks and polishes: capped per point ([`GridRule::point_cap`]) or plain.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) enum Measure {
+    Capped,
+    Plain,
+}
+
+/// The `keep` best distinct lines by `measure` of the grid's evaluated lines (each its best
+/// capped and plain `(chi2, radius index)`), as candidates with their radius index; lines
+/// closer than the grid's `steps` in (alpha, u0) to a better one are skipped.
+pub(super) fn best_lines(
+    evaluated: &[Option<[(f64, usize); 2]>],
+    measure: Measure,
+    keep: usize,
+    steps: (f64, f64),
+    model_at: impl Fn(usize, usize) -> BinaryModel,
+) -> Vec<(Candidate, usize)> {
+    let m = measure as usize;
+    let mut ranked: Vec<(f64, usize, usize)> = evaluated
+        .iter()
+        .enumerate()
+        .filter_map(|(i, e)| e.map(|e| (e[m].0, i, e[m].1)))
+        .collect();
+    ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    let mut kept: Vec<(Candidate, usize)> = Vec::new();
+    for (chi2, i, r) in ranked {
+        let model = model_at(i, r);
+        if kept
+            .iter()
+            .all(|(c, _)| distinct(&c.model.trajectory, &model.trajectory, steps.0, steps.1))
+        {
+            kept.push((Candidate { model, chi2 }, r));
+            if kept.len() == keep {
+                break;
+            }
+        }
+    }
+    kept
+}
+
+/// What the polish of a kept line on its map needs.
+pub(super) struct Polisher<'a> {
+    pub(super) solver: &'a ImageSolver,
+    pub(super) sets: &'a [Weighted<'a>],
+    pub(super) readers: &'a Readers,
+    pub(super) rule: &'a GridRule,
+    /// The grid's steps in alpha and u0, the simplex's first steps.
+    pub(super) steps: (f64, f64),
+    pub(super) window: &'a Window,
+    /// The chi^2 it minimises.
+    pub(super) measure: Measure,
+}
+
+impl Polisher<'_> {
+    /// Polishes a grid candidate read at `readers.rhos[r]`: a local minimisation of the map's
+    /// chi^2 over (alpha, u0, t0, ln tE) at that radius. The polished line is then read at
+    /// every trial radius and polished again at the [`RHO_RETRIES`] best others (a caustic
+    /// crossing seen at a few points makes chi^2 rugged in rho, and the grid's best radius is
+    /// often not the one nearest the truth); the best of these is kept.
+    pub(super) fn run(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+        let trials = self.rule.rhos.len();
+        let mut best = self.polish_at(start, r)?;
+        let chi2 = self.chi2_all(&Line::on(best.model.trajectory, self.window));
+        let mut others: Vec<usize> = (0..trials)
+            .filter(|&i| i != r && chi2[i].is_finite())
+            .collect();
+        others.sort_by(|&a, &b| chi2[a].total_cmp(&chi2[b]));
+        // A candidate at the grid's smoothing radius (beyond the trial radii) must move to one.
+        let retries = if r < trials {
+            RHO_RETRIES
+        } else {
+            RHO_RETRIES + 1
+        };
+        let from = best;
+        for &i in others.iter().take(retries) {
+            let at_trial = Candidate {
+                model: BinaryModel {
+                    rho: self.rule.rhos[i],
+                    ..from.model
+                },
+                chi2: chi2[i],
+            };
+            let polished = self.polish_at(&at_trial, i)?;
+            if polished.chi2 < best.chi2 || best.model.rho == from.model.rho && r >= trials {
+                best = polished;
+            }
+        }
+        Ok(best)
+    }
+
+    /// chi^2 of `line` at every reader's radius (infinite where it cannot be read).
+    fn chi2_all(&self, line: &Line) -> Vec<f64> {
+        let mut solver = self.solver.clone();
+        let mut scratch = Scratch::default();
+        match scratch.trajectory_chi2(&mut solver, self.sets, self.readers, line, self.rule, None) {
+            Ok(()) => self.measured(scratch),
+            Err(_) => vec![f64::INFINITY; self.readers.rhos.len()],
+        }
+    }
+
+    /// The chi^2 of the polisher's measure at every radius of `scratch`'s last evaluation.
+    fn measured(&self, scratch: Scratch) -> Vec<f64> {
+        match self.measure {
+            Measure::Capped => scratch.chi2,
+            Measure::Plain => scratch.plain,
+        }
+    }
+
+    /// The polish at one radius; keeps the start if the minimisation finds nothing better.
+    fn polish_at(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+        let work = std::sync::Mutex::new((self.solver.clone(), Scratch::default()));
+        let chi2 = |p: &[f64]| -> f64 {
+            let Ok(trajectory) = Trajectory::straight(p[2], p[1], p[3].exp(), p[0]) else {
+                return f64::INFINITY;
+            };
+            let line = Line::on(trajectory, self.window);
+            let mut guard = work.lock().unwrap_or_else(|e| e.into_inner());
+            let (solver, scratch) = &mut *guard;
+            match scratch.trajectory_chi2(
+                solver,
+                self.sets,
+                self.readers,
+                &line,
+                self.rule,
+                Some(r),
+            ) {
+                Ok(()) => match self.measure {
+                    Measure::Capped => scratch.chi2[r],
+                    Measure::Plain => scratch.plain[r],
+                },
+                Err(_) => f64::INFINITY,
+            }
+        };
+        let l = start.model.trajectory.line();
+        let x0 = [l.alpha, l.u0, l.t0, l.te.ln()];
+        let step = [self.steps.0, self.steps.1, 0.01 * l.te, 0.03];
+        let found = minimize(&chi2, &x0, &step, POLISH_TOLERANCE, POLISH_ITERATIONS)?;
+        if found.value >= start.chi2 {
+            return Ok(*start);
+        }
+        let p = &found.x;
+        Ok(Candidate {
+            model: BinaryModel {
+                trajectory: Trajectory::straight(p[2], p[1], p[3].exp(), p[0])?,
+                ..start.model
+            },
+            chi2: found.value,
+        })
+    }
+}
