@@ -61,13 +61,13 @@ use super::model::{BinaryModel, Trajectory};
 use super::motion::{fit_motion, MotionMinimum, MotionOptions};
 use super::noise::{clean, spikes, Clipped};
 use super::photometry::DataSet;
-use super::refine::{exact_chi2, ladder_start, refine_until};
+use super::refine::{exact_chi2, refine_until};
 use super::search::anchor::crossing_pairs;
 use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
-use super::zoom::{most_points, MapRecipe, ZoomOptions, Zoomer};
+use super::zoom::{closest_start, most_points, plain_start, MapRecipe, ZoomOptions, Zoomer};
 use crate::error::{Error, Result};
 use crate::lens::paczynski;
 use crate::map::read_fits;
@@ -652,37 +652,6 @@ fn untrusted_u0_max(seed: &Seed) -> f64 {
         .map(|v: &ValleyPoint| v.u0)
         .fold(3.0 * seed.u0, f64::max)
         .max(0.3)
-}
-
-/// The best candidate of an outcome by the plain search chi^2 as a refinement's start, with
-/// the outcome's best search chi^2 (the capped one, by which the starts are compared).
-fn plain_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
-    let model = outcome
-        .best_plain()
-        .map_or(outcome.candidates[0].model, |c| c.model);
-    (model, outcome.best_chi2())
-}
-
-/// Which of `starts` (a grid point's best candidates and its zoom's, by the capped and the
-/// plain search chi^2) has the lowest exact chi^2 at its best source radius ([`ladder_start`],
-/// magnification tolerance `tol`); the last when none can be evaluated. Search chi^2 values of
-/// maps of different pixels do not compare (a finer zoomed map reads smaller sources, and its
-/// best can be a caustic crossing at a wrong radius that the grid's coarser map would not rank
-/// first), nor do the capped and the plain; the exact chi^2 decides. A start repeated is
-/// evaluated once.
-fn closest_start(data: &[DataSet], starts: &[(BinaryModel, f64)], tol: f64) -> usize {
-    let mut exact: Vec<f64> = Vec::with_capacity(starts.len());
-    for (k, (m, _)) in starts.iter().enumerate() {
-        let c = match starts[..k].iter().position(|(o, _)| o == m) {
-            Some(j) => exact[j],
-            None => ladder_start(data, m, tol).map_or(f64::INFINITY, |(_, c)| c),
-        };
-        exact.push(c);
-    }
-    (0..starts.len())
-        .rev()
-        .min_by(|&a, &b| exact[a].total_cmp(&exact[b]))
-        .unwrap_or(0)
 }
 
 /// Step 3 of the module documentation.

@@ -12,7 +12,9 @@
 //! The maps are made as the library's are ([`MapRecipe`]: engine, density and pixels of one of
 //! its maps, a window on every caustic), in memory, and not kept.
 
+use super::model::BinaryModel;
 use super::photometry::DataSet;
+use super::refine::ladder_start;
 use super::search::{
     grid_axes, merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed,
 };
@@ -188,6 +190,37 @@ impl Zoomer<'_> {
         }
         Ok(Zoomed { capped, plain })
     }
+}
+
+/// The best candidate of an outcome by the plain search chi^2 as a refinement's start, with
+/// the outcome's best search chi^2 (the capped one, by which the starts are compared).
+pub(super) fn plain_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
+    let model = outcome
+        .best_plain()
+        .map_or(outcome.candidates[0].model, |c| c.model);
+    (model, outcome.best_chi2())
+}
+
+/// Which of `starts` (a grid point's best candidates and its zoom's, by the capped and the
+/// plain search chi^2) has the lowest exact chi^2 at its best source radius ([`ladder_start`],
+/// magnification tolerance `tol`); the last when none can be evaluated. Search chi^2 values of
+/// maps of different pixels do not compare (a finer zoomed map reads smaller sources, and its
+/// best can be a caustic crossing at a wrong radius that the grid's coarser map would not rank
+/// first), nor do the capped and the plain; the exact chi^2 decides. A start repeated is
+/// evaluated once.
+pub(super) fn closest_start(data: &[DataSet], starts: &[(BinaryModel, f64)], tol: f64) -> usize {
+    let mut exact: Vec<f64> = Vec::with_capacity(starts.len());
+    for (k, (m, _)) in starts.iter().enumerate() {
+        let c = match starts[..k].iter().position(|(o, _)| o == m) {
+            Some(j) => exact[j],
+            None => ladder_start(data, m, tol).map_or(f64::INFINITY, |(_, c)| c),
+        };
+        exact.push(c);
+    }
+    (0..starts.len())
+        .rev()
+        .min_by(|&a, &b| exact[a].total_cmp(&exact[b]))
+        .unwrap_or(0)
 }
 
 /// Most (s, q) points a zoom over `levels` halvings searches: the eight neighbours of the
