@@ -116,16 +116,16 @@ impl Polisher<'_> {
         let mut solver = self.solver.clone();
         let mut scratch = Scratch::default();
         match scratch.trajectory_chi2(&mut solver, self.sets, self.readers, line, self.rule, None) {
-            Ok(()) => self.measured(scratch),
+            Ok(()) => self.measured(&scratch).to_vec(),
             Err(_) => vec![f64::INFINITY; self.readers.rhos.len()],
         }
     }
 
     /// The chi^2 of the polisher's measure at every radius of `scratch`'s last evaluation.
-    fn measured(&self, scratch: Scratch) -> Vec<f64> {
+    fn measured<'s>(&self, scratch: &'s Scratch) -> &'s [f64] {
         match self.measure {
-            Measure::Capped => scratch.chi2,
-            Measure::Plain => scratch.plain,
+            Measure::Capped => &scratch.chi2,
+            Measure::Plain => &scratch.plain,
         }
     }
 
@@ -147,10 +147,7 @@ impl Polisher<'_> {
                 self.rule,
                 Some(r),
             ) {
-                Ok(()) => match self.measure {
-                    Measure::Capped => scratch.chi2[r],
-                    Measure::Plain => scratch.plain[r],
-                },
+                Ok(()) => self.measured(scratch)[r],
                 Err(_) => f64::INFINITY,
             }
         };
