@@ -277,6 +277,7 @@ pub fn fit_event<'py>(
         zoom: Some(ZoomOptions {
             centres: zoom_points,
             levels: zoom_levels,
+            ..ZoomOptions::default()
         }),
         clip_sigma: (clip > 0.0).then_some(clip),
         rescale_errors,

@@ -132,6 +132,10 @@ pub struct SearchArgs {
     /// Grid points zoomed (the best local minima of the search).
     #[arg(long, value_name = "N", default_value_t = ZoomOptions::default().centres, allow_hyphen_values = true)]
     pub zoom_points: usize,
+    /// Zoom only the local minima, not also the best grid point that is none when it ranks
+    /// above the last of them.
+    #[arg(long)]
+    pub no_slope_zoom: bool,
     /// Local minima of the (s, q) grid to refine.
     #[arg(long, value_name = "N", default_value_t = RefineOptions::default().candidates, allow_hyphen_values = true)]
     pub refine: usize,
@@ -263,6 +267,7 @@ impl SearchArgs {
             zoom: Some(ZoomOptions {
                 centres: self.zoom_points,
                 levels: self.zoom,
+                runner_up: !self.no_slope_zoom,
             }),
             refine: RefineOptions {
                 candidates: self.refine,

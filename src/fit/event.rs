@@ -27,7 +27,9 @@
 //!    q 2e-7). An anomaly seen in one point only is left out with them.
 //! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged.
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
-//!    half and a quarter of the library's step are built and searched ([`super::zoom`]).
+//!    half and a quarter of the library's step are built and searched ([`super::zoom`]); also
+//!    around the best grid point that is no local minimum when it ranks above the last of
+//!    them (it adds a refinement's start).
 //! 6. **Refinement** of the best (s, q) local minima with exact magnifications, each from its
 //!    zoom's best where it was zoomed (of the walks by the capped and by the plain search
 //!    chi^2, the end closer to the data, and the other end as well when it is another map),
@@ -67,7 +69,7 @@ use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
-use super::zoom::{closest_start, most_points, plain_start, MapRecipe, ZoomOptions, Zoomer};
+use super::zoom::{most_points, runner_up, MapRecipe, ZoomOptions, Zoomer};
 use crate::error::{Error, Result};
 use crate::lens::paczynski;
 use crate::map::read_fits;
@@ -582,8 +584,9 @@ type Starts = Vec<(BinaryModel, f64)>;
 
 /// The refinement's starts (model, search chi^2): the best candidate of each of the best
 /// (s, q) local minima of the search, the first few replaced by the end of their zoom's walks
-/// closest to the data ([`closest_start`]), and, when that is a walk's end, the other walk's
-/// end appended if it is another map (with the zoomed outcomes, one per zoomed start).
+/// closest to the data ([`Zoomer::start`]), then the zoomed [`runner_up`]'s, and, for each
+/// local minimum zoomed whose start is a walk's end, the other walk's end if it is another map
+/// (with the zoomed outcomes, one per zoomed start, in the order of the starts).
 fn refine_starts(
     local: &[DataSet],
     seed: &Seed,
@@ -608,32 +611,34 @@ fn refine_starts(
             MapSource::Loaded(loaded) => MapRecipe::of_map(&loaded[0]),
         },
     };
-    let points = centres.len().min(zoom.centres) * most_points(zoom.levels);
+    let runner_up = zoom
+        .runner_up
+        .then(|| runner_up(outcomes, &centres, zoom.centres))
+        .flatten();
+    let points = (centres.len().min(zoom.centres) + usize::from(runner_up.is_some()))
+        * most_points(zoom.levels);
     progress.start("zoom", points as u64);
     let mut extra: Starts = Vec::new();
     for (k, &i) in centres.iter().take(zoom.centres).enumerate() {
-        let found = zoomer.zoom(outcomes, i, zoom.levels, &|| progress.advance(1))?;
-        let choices = [
-            starts[k],
-            plain_start(&outcomes[i]),
-            best_start(&found.capped),
-            plain_start(&found.plain),
-        ];
-        let closest = closest_start(local, &choices, options.refine.tol);
-        starts[k] = choices[closest];
-        // The exact chi^2 at a start is a poor guide between two walks' ends whose lines were
-        // timed on maps (a low-q planet's plain end can start 3,000 above the capped end and
-        // refine 200 below it): the end not chosen is refined as well, if it is another map.
-        let other = if closest == 3 { choices[2] } else { choices[3] };
-        let same_map = |a: &BinaryModel, b: &BinaryModel| a.s == b.s && a.q == b.q;
-        if closest >= 2 && !same_map(&other.0, &starts[k].0) {
-            extra.push(other);
-        }
-        zoomed.push(if closest == 3 {
-            found.plain
-        } else {
-            found.capped
-        });
+        let found = zoomer.start(outcomes, i, zoom.levels, options.refine.tol, &|| {
+            progress.advance(1)
+        })?;
+        starts[k] = found.start;
+        extra.extend(found.other);
+        zoomed.push(found.outcome);
+    }
+    // The runner-up's start follows the zoomed local minima's (so that `zoomed` stays in the
+    // order of the starts); the other walk's end is not refined.
+    if let Some(j) = runner_up {
+        progress.note(&format!(
+            "zoom: s = {:.4}, q = {:.3e} is no local minimum but ranks above the last zoomed",
+            outcomes[j].s, outcomes[j].q
+        ));
+        let found = zoomer.start(outcomes, j, zoom.levels, options.refine.tol, &|| {
+            progress.advance(1)
+        })?;
+        starts.insert(zoomed.len(), found.start);
+        zoomed.push(found.outcome);
     }
     starts.extend(extra);
     progress.finish(&format!(

@@ -9,9 +9,15 @@
 //! a map puts a little early, and also a low-q planet's lines that explain its anomaly less
 //! well; the fit refines from both ends.
 //!
+//! A grid point that is no local minimum of the search is zoomed as well when it ranks above the
+//! last local minimum zoomed ([`ZoomOptions::runner_up`], [`runner_up`]): a resonant caustic's
+//! truth can sit on the slope of a neighbouring map's basin, and its half-step zoom then walks
+//! to the truth while the local minimum's grid point stays in a wrong one.
+//!
 //! The maps are made as the library's are ([`MapRecipe`]: engine, density and pixels of one of
 //! its maps, a window on every caustic), in memory, and not kept.
 
+use super::minima::best_start;
 use super::model::BinaryModel;
 use super::photometry::DataSet;
 use super::refine::ladder_start;
@@ -33,6 +39,9 @@ pub struct ZoomOptions {
     pub centres: usize,
     /// Halvings of the step: 1 zooms to half the library's step, 2 to a quarter.
     pub levels: usize,
+    /// Whether the best grid point that is no local minimum is zoomed too when it ranks above
+    /// the last local minimum zoomed ([`runner_up`]).
+    pub runner_up: bool,
 }
 
 impl Default for ZoomOptions {
@@ -40,6 +49,7 @@ impl Default for ZoomOptions {
         ZoomOptions {
             centres: 2,
             levels: 2,
+            runner_up: true,
         }
     }
 }
@@ -190,6 +200,81 @@ impl Zoomer<'_> {
         }
         Ok(Zoomed { capped, plain })
     }
+
+    /// Zooms on `outcomes[start]` ([`Zoomer::zoom`]) and chooses the refinement's start: of
+    /// the grid point's best candidates and the two walks' ends (each by the capped and by the
+    /// plain search chi^2), the one closest to the data ([`closest_start`], tolerance `tol`).
+    pub fn start(
+        &self,
+        outcomes: &[MapOutcome],
+        start: usize,
+        levels: usize,
+        tol: f64,
+        progress: &(dyn Fn() + Sync),
+    ) -> Result<ZoomedStart> {
+        let found = self.zoom(outcomes, start, levels, progress)?;
+        let choices = [
+            best_start(&outcomes[start]),
+            plain_start(&outcomes[start]),
+            best_start(&found.capped),
+            plain_start(&found.plain),
+        ];
+        let closest = closest_start(self.data, &choices, tol);
+        // The exact chi^2 at a start is a poor guide between two walks' ends whose lines were
+        // timed on maps (a low-q planet's plain end can start 3,000 above the capped end and
+        // refine 200 below it): the end not chosen is offered as well, if it is another map.
+        let other = if closest == 3 { choices[2] } else { choices[3] };
+        let same_map = |a: &BinaryModel, b: &BinaryModel| a.s == b.s && a.q == b.q;
+        Ok(ZoomedStart {
+            start: choices[closest],
+            other: (closest >= 2 && !same_map(&other.0, &choices[closest].0)).then_some(other),
+            outcome: if closest == 3 {
+                found.plain
+            } else {
+                found.capped
+            },
+        })
+    }
+}
+
+/// A zoomed grid point's refinement starts ([`Zoomer::start`]): each a model and its search
+/// chi^2.
+#[derive(Debug, Clone)]
+pub struct ZoomedStart {
+    /// The start closest to the data.
+    pub start: (BinaryModel, f64),
+    /// When that is a walk's end, the other walk's end if it is another map.
+    pub other: Option<(BinaryModel, f64)>,
+    /// The end of the walk chosen (the capped walk's when the grid point's own start is).
+    pub outcome: MapOutcome,
+}
+
+/// The grid point to zoom besides the local minima `centres` (indices into `outcomes`), of
+/// which the first `zoomed` are zoomed: the best of the others by the search's chi^2, if it
+/// ranks above the last one zoomed.
+///
+/// ```
+/// use causeway::fit::model::{BinaryModel, Trajectory};
+/// use causeway::fit::search::{local_minima, Candidate, MapOutcome};
+/// use causeway::fit::zoom::runner_up;
+/// let at = |s: f64, chi2: f64| MapOutcome { s, q: 1e-3, candidates: vec![Candidate { chi2,
+///     model: BinaryModel { s, q: 1e-3, rho: 1e-3,
+///         trajectory: Trajectory::straight(0.0, 0.1, 10.0, 0.0).unwrap() } }],
+///     plain: vec![], trajectories: 1, points: 1, notes: vec![] };
+/// // s = 1.0 (chi^2 4) lies on the slope from 0.8 (3) but ranks above the minimum at 1.6 (5).
+/// let grid = vec![at(0.8, 3.0), at(1.0, 4.0), at(1.25, 9.0), at(1.6, 5.0)];
+/// let minima = local_minima(&grid);
+/// assert_eq!(minima, vec![0, 3]);
+/// assert_eq!(runner_up(&grid, &minima, 2), Some(1));
+/// // With one zoomed, the last zoomed (chi^2 3) is better than any other grid point.
+/// assert_eq!(runner_up(&grid, &minima, 1), None);
+/// ```
+pub fn runner_up(outcomes: &[MapOutcome], centres: &[usize], zoomed: usize) -> Option<usize> {
+    let last = outcomes[*centres[..zoomed.min(centres.len())].last()?].best_chi2();
+    (0..outcomes.len())
+        .filter(|j| !centres.contains(j))
+        .min_by(|&a, &b| outcomes[a].best_chi2().total_cmp(&outcomes[b].best_chi2()))
+        .filter(|&j| outcomes[j].best_chi2() < last)
 }
 
 /// The best candidate of an outcome by the plain search chi^2 as a refinement's start, with
