@@ -628,7 +628,7 @@ fn refine_starts(
         zoomed.push(found.outcome);
     }
     // The runner-up's start follows the zoomed local minima's (so that `zoomed` stays in the
-    // order of the starts); the other walk's end is not refined.
+    // order of the starts); its other walk's end is not refined.
     if let Some(j) = runner_up {
         progress.note(&format!(
             "zoom: s = {:.4}, q = {:.3e} is no local minimum but ranks above the last zoomed",
@@ -637,8 +637,14 @@ fn refine_starts(
         let found = zoomer.start(outcomes, j, zoom.levels, options.refine.tol, &|| {
             progress.advance(1)
         })?;
-        starts.insert(zoomed.len(), found.start);
-        zoomed.push(found.outcome);
+        // Its walk can end on a map a local minimum's walk ended on (rebuilt from another
+        // centre, its (s, q) can differ in the last bits): that map is refined once.
+        let near = |a: f64, b: f64| (a / b - 1.0).abs() < 1e-9;
+        let (s, q) = (found.start.0.s, found.start.0.q);
+        if !starts.iter().any(|(m, _)| near(m.s, s) && near(m.q, q)) {
+            starts.insert(zoomed.len(), found.start);
+            zoomed.push(found.outcome);
+        }
     }
     starts.extend(extra);
     progress.finish(&format!(
