@@ -69,7 +69,7 @@ use super::search::{
     merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, ValleyPoint,
 };
 use super::single::{fit_baseline, BaselineOptions, SingleLensFit};
-use super::zoom::{most_points, runner_up, MapRecipe, ZoomOptions, Zoomer};
+use super::zoom::{most_points, runner_up, same_point, MapRecipe, ZoomOptions, Zoomer};
 use crate::error::{Error, Result};
 use crate::lens::paczynski;
 use crate::map::read_fits;
@@ -639,9 +639,11 @@ fn refine_starts(
         })?;
         // Its walk can end on a map a local minimum's walk ended on (rebuilt from another
         // centre, its (s, q) can differ in the last bits): that map is refined once.
-        let near = |a: f64, b: f64| (a / b - 1.0).abs() < 1e-9;
-        let (s, q) = (found.start.0.s, found.start.0.q);
-        if !starts.iter().any(|(m, _)| near(m.s, s) && near(m.q, q)) {
+        let at = |m: &BinaryModel| (m.s, m.q);
+        if !starts
+            .iter()
+            .any(|(m, _)| same_point(at(m), at(&found.start.0)))
+        {
             starts.insert(zoomed.len(), found.start);
             zoomed.push(found.outcome);
         }

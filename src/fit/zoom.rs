@@ -153,11 +153,8 @@ impl Zoomer<'_> {
             let h = (steps.0 * scale, steps.1 * scale);
             let mut points = neighbours((capped.s, capped.q), h);
             for p in neighbours((plain.s, plain.q), h) {
-                let same = |a: &(f64, f64)| {
-                    (a.0 / p.0 - 1.0).abs() < 1e-9 && (a.1 / p.1 - 1.0).abs() < 1e-9
-                };
                 let centre = (capped.s, capped.q);
-                if !points.iter().any(same) && !same(&centre) {
+                if !points.iter().any(|&a| same_point(a, p)) && !same_point(centre, p) {
                     points.push(p);
                 }
             }
@@ -247,6 +244,12 @@ pub struct ZoomedStart {
     pub other: Option<(BinaryModel, f64)>,
     /// The end of the walk chosen (the capped walk's when the grid point's own start is).
     pub outcome: MapOutcome,
+}
+
+/// Whether two (s, q) points are the same map's: equal to 1e-9 relative (a point reached by
+/// another walk's steps can differ in the last bits).
+pub(super) fn same_point(a: (f64, f64), b: (f64, f64)) -> bool {
+    (a.0 / b.0 - 1.0).abs() < 1e-9 && (a.1 / b.1 - 1.0).abs() < 1e-9
 }
 
 /// The grid point to zoom besides the local minima `centres` (indices into `outcomes`), of
