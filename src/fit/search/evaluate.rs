@@ -43,6 +43,8 @@ pub(super) struct Scratch {
     /// radii together), kept for the capped chi^2 ([`GridRule::point_cap`]; empty without a
     /// cap, which never reads it).
     pub(super) curves: Vec<f64>,
+    /// One radius's curve at every point of a data set, for the capped chi^2.
+    pub(super) curve: Vec<f64>,
     /// The points the capped chi^2 sets apart.
     pub(super) apart: Vec<usize>,
     /// The off-map curve of the current line for each limb-darkening law, shared by its
@@ -234,13 +236,13 @@ impl Scratch {
         cap: f64,
     ) -> f64 {
         let mut apart = std::mem::take(&mut self.apart);
-        let chi2 = weighted.capped_chi2(sums, cap, &mut apart, |i| {
-            if (ka..kb).contains(&i) {
-                self.curves[(i - ka) * k + j]
-            } else {
-                self.point[i]
-            }
-        });
+        let mut curve = std::mem::take(&mut self.curve);
+        curve.clear();
+        curve.extend_from_slice(&self.point[..ka]);
+        curve.extend(self.curves.iter().skip(j).step_by(k).take(kb - ka));
+        curve.extend_from_slice(&self.point[kb..]);
+        let chi2 = weighted.capped_chi2(sums, cap, &mut apart, &curve);
+        self.curve = curve;
         self.apart = apart;
         chi2
     }

@@ -1,7 +1,6 @@
 //! chi^2 at the best fluxes from three sums over a curve: the data's own sums are taken once per
 //! data set, so that a trial curve costs one pass.
 
-use crate::fit::fluxes::capped_share;
 use crate::fit::photometry::DataSet;
 
 /// A data set with its weights and the flux sums that do not depend on the model, so that the
@@ -82,20 +81,19 @@ impl<'a> Weighted<'a> {
     /// a trimmed least-squares fit (common practice), whose trimmed points keep a share that
     /// still falls as they are fitted better. A caustic crossing a coarse map puts a little
     /// early costs its points a few times the cap, not their squared misfits of hundreds of
-    /// sigma. `value(i)` is the curve at point `i`, `c` its sums over every point; `apart` is
+    /// sigma. `curve` is the curve at every point, `c` its sums over every point; `apart` is
     /// working memory.
     pub(super) fn capped_chi2(
         &self,
         c: &CurveSums,
         cap: f64,
         apart: &mut Vec<usize>,
-        value: impl Fn(usize) -> f64,
+        curve: &[f64],
     ) -> f64 {
         let plain = self.chi2(c);
         if !cap.is_finite() || plain <= cap {
             return plain;
         }
-        let share = |r2: f64| capped_share(r2, cap);
         let mean = self.sf / self.sw;
         let caa = c.saa - c.sa * c.sa / self.sw;
         let (fs, fb) = if caa > 1e-12 * c.saa {
@@ -106,8 +104,7 @@ impl<'a> Weighted<'a> {
         };
         apart.clear();
         let mut sums = SetApart::default();
-        for (i, (&w, &f)) in self.w.iter().zip(&self.set.flux).enumerate() {
-            let a = value(i);
+        for (i, ((&w, &f), &a)) in self.w.iter().zip(&self.set.flux).zip(curve).enumerate() {
             let r = f - fs * a - fb;
             if w * r * r > cap {
                 let df = f - mean;
@@ -120,17 +117,13 @@ impl<'a> Weighted<'a> {
                 sums.curve.caf += w * a * df;
             }
         }
-        let at = |(fs, fb): (f64, f64), i: usize| {
-            let r = self.set.flux[i] - fs * value(i) - fb;
-            share(self.w[i] * r * r)
-        };
         if apart.is_empty() {
             return plain;
         }
         // The kept points' sums, centred on the whole set's mean: Sw, Sf', Sff', Sa, Saa, Saf'.
         let sw = self.sw - sums.sw;
         if apart.len() + 2 >= self.w.len() || sw <= 0.0 {
-            return (0..self.w.len()).map(|i| at((fs, fb), i)).sum();
+            return self.shares((fs, fb), 0..self.w.len(), curve, cap);
         }
         let sf = -sums.sf;
         let sff = self.cff - sums.sff;
@@ -148,7 +141,79 @@ impl<'a> Weighted<'a> {
             let sff = sff + 2.0 * sf * mean + sw * mean * mean;
             (sff - saf * saf / saa, (saf / saa, 0.0))
         };
-        kept.max(0.0) + apart.iter().map(|&i| at(fluxes, i)).sum::<f64>()
+        kept.max(0.0) + self.shares(fluxes, apart.iter().copied(), curve, cap)
+    }
+
+    /// The sum of [`crate::fit::fluxes::capped_share`] over the points `points` at the fluxes
+    /// `(fs, fb)`: the shares beyond the cap as `cap (n + ln prod r^2 - n ln cap)`, one
+    /// logarithm for them all ([`LogSum`]; two products, taken in turn, so that neither waits
+    /// on the other's last multiplication).
+    fn shares(
+        &self,
+        (fs, fb): (f64, f64),
+        points: impl Iterator<Item = usize>,
+        curve: &[f64],
+        cap: f64,
+    ) -> f64 {
+        let (mut below, mut beyond) = (0.0, 0usize);
+        let mut logs = [LogSum::default(); 2];
+        for i in points {
+            let r = self.set.flux[i] - fs * curve[i] - fb;
+            let r2 = self.w[i] * r * r;
+            if r2 > cap {
+                logs[beyond & 1].add(r2);
+                beyond += 1;
+            } else {
+                below += r2;
+            }
+        }
+        let n = beyond as f64;
+        below + cap * (n + (logs[0].ln() + logs[1].ln()) - n * cap.ln())
+    }
+}
+
+/// The sum of the natural logarithms of positive numbers as the logarithm of their product,
+/// its binary exponent kept apart so that it cannot overflow: one `ln` for the whole sum (numbers
+/// below 1 or beyond 1e150 are rare here and take their own).
+#[derive(Debug, Clone, Copy)]
+struct LogSum {
+    /// The product's mantissa, below `1e150` between additions.
+    mantissa: f64,
+    /// The product's binary exponent so far.
+    exponent: i64,
+    /// Logarithms of the numbers not multiplied in, summed directly.
+    direct: f64,
+}
+
+impl Default for LogSum {
+    fn default() -> Self {
+        LogSum {
+            mantissa: 1.0,
+            exponent: 0,
+            direct: 0.0,
+        }
+    }
+}
+
+impl LogSum {
+    /// Adds `ln(x)`, `x > 0`.
+    #[inline]
+    fn add(&mut self, x: f64) {
+        if !(1.0..1e150).contains(&x) {
+            self.direct += x.ln();
+            return;
+        }
+        self.mantissa *= x;
+        if self.mantissa >= 1e150 {
+            let bits = self.mantissa.to_bits();
+            self.exponent += ((bits >> 52) & 0x7ff) as i64 - 1023;
+            self.mantissa = f64::from_bits((bits & 0x000f_ffff_ffff_ffff) | (1023 << 52));
+        }
+    }
+
+    /// The sum of the logarithms added.
+    fn ln(&self) -> f64 {
+        self.exponent as f64 * std::f64::consts::LN_2 + self.mantissa.ln() + self.direct
     }
 }
 
@@ -258,7 +323,7 @@ mod tests {
         }
         let cap = 25.0;
         let mut apart = Vec::new();
-        let capped = weighted.capped_chi2(&sums, cap, &mut apart, |i| model[i]);
+        let capped = weighted.capped_chi2(&sums, cap, &mut apart, &model);
         let all = fit_fluxes(&set, &model);
         let r2 = |fit: &FluxFit, i: usize| {
             ((set.flux[i] - fit.fs * model[i] - fit.fb) / set.sigma(i)).powi(2)
@@ -292,8 +357,30 @@ mod tests {
         );
         // Far below the plain chi^2, and equal to it without a cap.
         assert!(capped < 0.2 * all.chi2, "{capped} against {}", all.chi2);
-        let plain = weighted.capped_chi2(&sums, f64::INFINITY, &mut apart, |i| model[i]);
+        let plain = weighted.capped_chi2(&sums, f64::INFINITY, &mut apart, &model);
         assert!((plain - all.chi2).abs() <= 1e-9 * all.chi2);
+    }
+
+    /// The logarithm of the running product against the sum of `f64::ln` of each number (the
+    /// identity ln(ab) = ln a + ln b), over products far beyond the range of f64 and with
+    /// numbers too large to multiply in.
+    #[test]
+    fn one_logarithm_of_the_product_is_the_sum_of_logarithms() {
+        let numbers: Vec<f64> = (0..5000)
+            .map(|i| 1.0 + (i as f64 * 0.37).sin().abs() * 10f64.powi(i % 13))
+            .chain([1.0, 2.0, 0.5, 1e-300, 1e149, 1e150, 1e300, 1.7e308])
+            .collect();
+        let mut logs = LogSum::default();
+        for &x in &numbers {
+            logs.add(x);
+        }
+        let direct: f64 = numbers.iter().map(|x| x.ln()).sum();
+        assert!(
+            (logs.ln() - direct).abs() <= 1e-12 * direct.abs(),
+            "{} against {direct}",
+            logs.ln()
+        );
+        assert_eq!(LogSum::default().ln(), 0.0);
     }
 
     /// The floor widens error bars in quadrature by a fraction of the flux above the set's
