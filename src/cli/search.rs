@@ -139,8 +139,9 @@ pub struct SearchArgs {
     /// Local minima of the (s, q) grid to refine.
     #[arg(long, value_name = "N", default_value_t = RefineOptions::default().candidates, allow_hyphen_values = true)]
     pub refine: usize,
-    /// Refine only the grid minima whose search chi2 is at most FACTOR times the best's
-    /// (inf: all of them).
+    /// Refine only the grid minima whose search chi2 is at most FACTOR times the best's, and
+    /// carry on past the first Levenberg-Marquardt passes only those whose chi2 is then at most
+    /// FACTOR times the best's (inf: all of them).
     #[arg(long, value_name = "FACTOR", default_value_t = RefineOptions::default().within, allow_hyphen_values = true)]
     pub refine_within: f64,
     /// Restarts per round from random perturbations of the best minimum once it converged, kept

@@ -58,6 +58,7 @@
 use super::hop::hop_best;
 use super::minima::{
     best_start, grid_starts, promising, refine_models, with_uncertainties, Minimum, RefineOptions,
+    Refinements,
 };
 use super::model::{BinaryModel, Trajectory};
 use super::motion::{fit_motion, MotionMinimum, MotionOptions};
@@ -289,9 +290,11 @@ pub fn fit_event(
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
     // The first refinements also start from a pass on the chi^2 the search ranked by.
-    let mut minima = refine_models(&searched, &starts, &options.refine, rule.point_cap, &|| {
+    let first = refine_models(&searched, &starts, &options.refine, rule.point_cap, &|| {
         progress.advance(1)
     })?;
+    note_given_up(&first, options.refine.within, &mut note);
+    let mut minima = first.minima;
     progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
     let (fitted, clipped, scales) = clean(
         &searched,
@@ -321,9 +324,11 @@ pub fn fit_event(
             simplex: false,
             ..options.refine
         };
-        minima = refine_models(&fitted, &starts, &again, f64::INFINITY, &|| {
+        let again = refine_models(&fitted, &starts, &again, f64::INFINITY, &|| {
             progress.advance(1)
         })?;
+        note_given_up(&again, options.refine.within, &mut note);
+        minima = again.minima;
         // The best once more with the simplex: the first pass walked a landscape that the
         // outliers and error bars shaped, and can have stopped in a basin the cleaned data
         // no longer hold it in.
@@ -417,6 +422,23 @@ pub fn fit_event(
         result.motion = fit_motion(data, &result, motion, progress)?;
     }
     Ok(result)
+}
+
+/// Says which starts a pass of refinements gave up after its first pass, and why.
+fn note_given_up(pass: &Refinements, within: f64, note: &mut dyn FnMut(String)) {
+    if pass.given_up.is_empty() {
+        return;
+    }
+    let chi2: Vec<String> = pass.given_up.iter().map(|c| format!("{c:.1}")).collect();
+    note(format!(
+        "refine: {} of {} starts given up after the first pass (chi2 {} above {} times the \
+         best's {:.1})",
+        pass.given_up.len(),
+        pass.given_up.len() + pass.minima.len(),
+        chi2.join(", "),
+        within,
+        pass.best_first
+    ));
 }
 
 /// `local` without the isolated outliers at the seed's single lens (each set's fluxes fitted to

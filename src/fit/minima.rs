@@ -4,7 +4,7 @@
 
 use super::model::BinaryModel;
 use super::photometry::DataSet;
-use super::refine::{close_wide, refine_until, same_minimum, uncertainties, Refined};
+use super::refine::{close_wide, first_pass, same_minimum, uncertainties, FirstPass, Refined};
 use super::search::{local_minima, MapOutcome};
 use crate::error::{Error, Result};
 use rayon::prelude::*;
@@ -40,7 +40,9 @@ pub struct RefineOptions {
     /// out each refinement returns what it has.
     pub budget: Option<Duration>,
     /// Only starts whose search chi^2 is at most this many times the best start's are refined
-    /// ([`promising`]; infinity refines them all).
+    /// ([`promising`]), and only those whose exact chi^2 after the first pass is at most this
+    /// many times the best's go on to the simplex stages ([`refine_models`]); infinity refines
+    /// them all.
     pub within: f64,
     /// Perturbed restarts per round around the best minimum after it converged (see
     /// [`super::hop`]); 0 for none.
@@ -120,7 +122,7 @@ pub fn refine_minima(
         .map(|i| best_start(&outcomes[i]))
         .collect();
     promising(&mut starts, options.within);
-    let minima = refine_models(data, &starts, options, cap, progress)?;
+    let minima = refine_models(data, &starts, options, cap, progress)?.minima;
     Ok(with_uncertainties(data, minima, options.tol, &|| {}))
 }
 
@@ -142,6 +144,18 @@ pub fn best_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
     (c.model, c.chi2)
 }
 
+/// The minima of one pass of refinements ([`refine_models`]) and the starts it gave up.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Refinements {
+    /// The distinct minima, best first.
+    pub minima: Vec<Minimum>,
+    /// The chi^2 after the first pass ([`super::refine::FirstPass::chi2`]) of each start
+    /// given up there, in the order of the starts.
+    pub given_up: Vec<f64>,
+    /// The least chi^2 after the first pass.
+    pub best_first: f64,
+}
+
 /// Refines each `(model, search chi^2)` of `starts` (in parallel, within the options' time
 /// budget), merges those that reach the same model, ranks them by chi^2 and marks close/wide
 /// pairs. Their uncertainties are left NaN (the curvature costs as much as a refinement's
@@ -149,26 +163,51 @@ pub fn best_start(outcome: &MapOutcome) -> (BinaryModel, f64) {
 /// stages and a finite `cap` (the search's point cap, by which it ranked the starts), each
 /// refinement also starts from the end of a pass on the capped chi^2 (see
 /// [`super::refine::refine_until`]). `progress` is called after each refinement.
+///
+/// Every start first goes through [`super::refine::first_pass`]; a start whose chi^2 then
+/// exceeds [`RefineOptions::within`] times the best start's is given up: the simplex stages
+/// cost the most on such a model (on an invented close planet, two starts at the grid's edges
+/// left the first pass at 2.7 times the best's chi^2 and took 460 s of a 500-second pass, their
+/// exact chi^2 ten times as costly as the best's).
 pub fn refine_models(
     data: &[DataSet],
     starts: &[(BinaryModel, f64)],
     options: &RefineOptions,
     cap: f64,
     progress: &(dyn Fn() + Sync),
-) -> Result<Vec<Minimum>> {
+) -> Result<Refinements> {
     let deadline = options.budget.map(|b| Instant::now() + b);
-    let refined: Vec<Minimum> = starts
+    let cap = if options.simplex { cap } else { f64::INFINITY };
+    let firsts: Vec<FirstPass> = starts
         .par_iter()
-        .map(|(model, chi2)| {
-            let r = refine_until(
+        .map(|(model, _)| {
+            first_pass(
                 data,
                 model,
                 options.tol,
                 options.max_iters,
                 options.simplex,
-                if options.simplex { cap } else { f64::INFINITY },
+                cap,
                 deadline,
-            );
+            )
+        })
+        .collect::<Result<_>>()?;
+    let best_first = firsts
+        .iter()
+        .map(FirstPass::chi2)
+        .fold(f64::INFINITY, f64::min);
+    let (kept, given_up): (Vec<_>, Vec<_>) = firsts
+        .into_iter()
+        .zip(starts)
+        .partition(|(f, _)| f.chi2() <= options.within * best_first);
+    let given_up: Vec<f64> = given_up.iter().map(|(f, _)| f.chi2()).collect();
+    for _ in &given_up {
+        progress();
+    }
+    let refined: Vec<Minimum> = kept
+        .into_par_iter()
+        .map(|(first, (_, chi2))| {
+            let r = first.finish(data, deadline);
             progress();
             r.map(|r| Minimum {
                 chi2_as_given: r.chi2,
@@ -178,7 +217,11 @@ pub fn refine_models(
             })
         })
         .collect::<Result<_>>()?;
-    Ok(distinct(refined))
+    Ok(Refinements {
+        minima: distinct(refined),
+        given_up,
+        best_first,
+    })
 }
 
 /// `minima` with the uncertainties of each measured from the curvature of chi^2 over `data`

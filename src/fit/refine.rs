@@ -196,6 +196,8 @@ pub(super) fn steps(model: &BinaryModel) -> [f64; 7] {
 /// a Levenberg-Marquardt pass on the capped chi^2 when `cap` is finite (the search's
 /// [`super::search::GridRule::point_cap`]: see the module documentation), stopped at `deadline`: from then on every trial counts as
 /// infeasible, so each stage ends at once with the best model it had.
+///
+/// The same as [`first_pass`] followed by [`FirstPass::finish`].
 pub fn refine_until(
     data: &[DataSet],
     start: &BinaryModel,
@@ -205,33 +207,133 @@ pub fn refine_until(
     cap: f64,
     deadline: Option<Instant>,
 ) -> Result<Refined> {
-    let evaluations = AtomicU64::new(0);
-    let late = || deadline.is_some_and(|d| Instant::now() >= d);
-    let chi2_to = |tol: f64| {
-        let evaluations = &evaluations;
-        move |p: &[f64]| {
+    first_pass(data, start, tol, max_iters, simplex, cap, deadline)?.finish(data, deadline)
+}
+
+/// A refinement after its first Levenberg-Marquardt passes (see [`first_pass`]).
+#[derive(Debug, Clone)]
+pub struct FirstPass {
+    /// The start with the radius of the ladder ([`ladder_start`]).
+    start: BinaryModel,
+    /// The end of the passes, in the minimiser's coordinates, and its chi^2.
+    end: super::optimize::Minimum,
+    tol: f64,
+    max_iters: u64,
+    simplex: bool,
+    evaluations: u64,
+}
+
+impl FirstPass {
+    /// The chi^2 reached (at the search stages' tolerance: [`COARSE_TOL`] when coarser than the
+    /// one asked for and the simplex stages follow).
+    pub fn chi2(&self) -> f64 {
+        self.end.value
+    }
+
+    /// The rest of [`refine_until`] from here: the simplex stages, Levenberg-Marquardt again
+    /// and the closing pass when the first pass was made with `simplex`, then the exact chi^2
+    /// at the end.
+    pub fn finish(self, data: &[DataSet], deadline: Option<Instant>) -> Result<Refined> {
+        let FirstPass {
+            start,
+            end,
+            tol,
+            max_iters,
+            simplex,
+            evaluations,
+        } = self;
+        let evaluations = AtomicU64::new(evaluations);
+        let late = || deadline.is_some_and(|d| Instant::now() >= d);
+        let coarse = if simplex { tol.max(COARSE_TOL) } else { tol };
+        let step = steps(&start);
+        let h: Vec<f64> = step.iter().map(|s| 0.02 * s).collect();
+        let lm_iters = LM_ITERATIONS.min(max_iters.max(1));
+        // The simplex from there: stop when its chi^2 values agree to 0.01; start afresh from
+        // the minimum (up to four rounds) while that still gains more than 0.1.
+        let objective = |p: &[f64]| {
             if late() {
                 return INFEASIBLE;
             }
             evaluations.fetch_add(1, Ordering::Relaxed);
             match from_vector(p) {
-                Ok(m) => exact_chi2(data, &m, tol).map_or(INFEASIBLE, |c| c.0),
+                Ok(m) => exact_chi2(data, &m, coarse).map_or(INFEASIBLE, |c| c.0),
                 Err(_) => INFEASIBLE,
             }
+        };
+        let mut found = end;
+        if simplex {
+            let polished = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
+            if polished.value < found.value {
+                found = polished;
+            }
         }
-    };
-    let start = &ladder_start(data, start, tol.max(COARSE_TOL)).map_or(*start, |(m, _)| m);
-    let step = steps(start);
+        for _ in 0..3 {
+            if late() || !simplex {
+                break;
+            }
+            let again = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
+            let gain = found.value - again.value;
+            if gain > 0.0 {
+                found = again;
+            }
+            if gain <= 0.1 {
+                break;
+            }
+        }
+        // A last Levenberg-Marquardt pass converges on the minimum the simplex stopped near.
+        if simplex {
+            let exact = counted_residuals(data, tol, &evaluations, deadline);
+            found.value = exact(&found.x).map_or(INFEASIBLE, |r| r.iter().map(|v| v * v).sum());
+            if let Ok(last) = least_squares(&exact, &found.x, &h, 1e-3, lm_iters) {
+                if last.value < found.value {
+                    found = last;
+                }
+            }
+        }
+        let x = if simplex {
+            close_in(data, &found.x, tol, lm_iters, &evaluations, deadline)
+        } else {
+            found.x
+        };
+        let model = canonical(&from_vector(&x)?);
+        let (chi2_min, fluxes) = exact_chi2(data, &model, tol)?;
+        Ok(Refined {
+            model,
+            sigma: [f64::NAN; 7],
+            chi2: chi2_min,
+            fluxes,
+            evaluations: evaluations.load(Ordering::Relaxed) + 1,
+        })
+    }
+}
+
+/// The first stages of [`refine_until`] (same arguments): the radius of the ladder, then
+/// Levenberg-Marquardt on the plain chi^2 and, with a finite `cap`, also from the end of a pass
+/// on the capped chi^2, the lower plain chi^2 kept. Its chi^2 ([`FirstPass::chi2`]) tells a
+/// start worth the simplex stages from one that is not (see
+/// [`super::minima::refine_models`]).
+pub fn first_pass(
+    data: &[DataSet],
+    start: &BinaryModel,
+    tol: f64,
+    max_iters: u64,
+    simplex: bool,
+    cap: f64,
+    deadline: Option<Instant>,
+) -> Result<FirstPass> {
+    let evaluations = AtomicU64::new(0);
+    let late = || deadline.is_some_and(|d| Instant::now() >= d);
+    let start = ladder_start(data, start, tol.max(COARSE_TOL)).map_or(*start, |(m, _)| m);
+    let step = steps(&start);
     let h: Vec<f64> = step.iter().map(|s| 0.02 * s).collect();
     let lm_iters = LM_ITERATIONS.min(max_iters.max(1));
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
-    // along. Its Jacobian steps are a fiftieth of the simplex's.
-    let residuals_to = |tol: f64| counted_residuals(data, tol, &evaluations, deadline);
-    // The search stages work at a coarser tolerance (contour integration costs less), the
-    // last Levenberg-Marquardt pass at the one asked for.
+    // along. Its Jacobian steps are a fiftieth of the simplex's. The search stages work at a
+    // coarser tolerance (contour integration costs less), the last Levenberg-Marquardt pass
+    // (in [`FirstPass::finish`]) at the one asked for.
     let coarse = if simplex { tol.max(COARSE_TOL) } else { tol };
-    let residuals = residuals_to(coarse);
+    let residuals = counted_residuals(data, coarse, &evaluations, deadline);
     let plain_from = |x0: &[f64]| -> Result<super::optimize::Minimum> {
         Ok(match least_squares(&residuals, x0, &h, 1e-4, lm_iters) {
             Ok(m) => m,
@@ -243,7 +345,7 @@ pub fn refine_until(
             },
         })
     };
-    let x0 = to_vector(start);
+    let x0 = to_vector(&start);
     let mut lm = plain_from(&x0)?;
     // With a cap, also from the end of a Levenberg-Marquardt pass on the capped chi^2: a
     // start the search's capped ranking chose can put a crossing a little off, its few points
@@ -259,52 +361,13 @@ pub fn refine_until(
             }
         }
     }
-    // Then the simplex from there: stop when its chi^2 values agree to 0.01; start afresh
-    // from the minimum (up to four rounds) while that still gains more than 0.1.
-    let objective = chi2_to(coarse);
-    let mut found = lm;
-    if simplex {
-        let polished = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
-        if polished.value < found.value {
-            found = polished;
-        }
-    }
-    for _ in 0..3 {
-        if late() || !simplex {
-            break;
-        }
-        let again = minimize(&objective, &found.x, &step, 0.01, max_iters)?;
-        let gain = found.value - again.value;
-        if gain > 0.0 {
-            found = again;
-        }
-        if gain <= 0.1 {
-            break;
-        }
-    }
-    // A last Levenberg-Marquardt pass converges on the minimum the simplex stopped near.
-    if simplex {
-        let exact = residuals_to(tol);
-        found.value = exact(&found.x).map_or(INFEASIBLE, |r| r.iter().map(|v| v * v).sum());
-        if let Ok(last) = least_squares(&exact, &found.x, &h, 1e-3, lm_iters) {
-            if last.value < found.value {
-                found = last;
-            }
-        }
-    }
-    let x = if simplex {
-        close_in(data, &found.x, tol, lm_iters, &evaluations, deadline)
-    } else {
-        found.x
-    };
-    let model = canonical(&from_vector(&x)?);
-    let (chi2_min, fluxes) = exact_chi2(data, &model, tol)?;
-    Ok(Refined {
-        model,
-        sigma: [f64::NAN; 7],
-        chi2: chi2_min,
-        fluxes,
-        evaluations: evaluations.load(Ordering::Relaxed) + 1,
+    Ok(FirstPass {
+        start,
+        end: lm,
+        tol,
+        max_iters,
+        simplex,
+        evaluations: evaluations.load(Ordering::Relaxed),
     })
 }
 

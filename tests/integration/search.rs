@@ -10,7 +10,7 @@
 use crate::common;
 
 use causeway::curve::time_range;
-use causeway::fit::minima::{refine_minima, Minimum, RefineOptions};
+use causeway::fit::minima::{refine_minima, refine_models, Minimum, RefineOptions};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
 use causeway::fit::refine::{close_wide, refine, Refined};
@@ -360,4 +360,43 @@ fn a_follow_up_set_over_the_anomaly_stays_out_of_the_valley() {
     // Exact fluxes: the valley's best is the truth's chi^2 outside the anomaly, about 0.
     assert!(best < 1.0, "valley chi2 {best}");
     assert!((seed.u0 - 0.6).abs() < 0.01, "{seed:?}");
+}
+
+/// A start that the first Levenberg-Marquardt passes leave far from the data (its peak 300 days
+/// after the event's, where the gradient vanishes) is given up before the simplex stages; the
+/// start at the truth is refined. With `within` infinite both are refined.
+/// About 30 s on two cores.
+#[test]
+fn a_start_far_from_the_data_is_given_up_after_the_first_pass() {
+    let truth = BinaryModel {
+        s: 1.2,
+        q: 1e-2,
+        rho: 4e-3,
+        trajectory: Trajectory::straight(0.0, 0.2, 20.0, 328.3f64.to_radians()).unwrap(),
+    };
+    let data = bright_event(&truth, 7);
+    let far = BinaryModel {
+        trajectory: Trajectory::straight(300.0, 0.2, 5.0, 328.3f64.to_radians()).unwrap(),
+        ..truth
+    };
+    let starts = [(truth, 600.0), (far, 900.0)];
+    let options = RefineOptions {
+        max_iters: 200,
+        ..RefineOptions::default()
+    };
+    let pass = refine_models(&data, &starts, &options, CAP, &|| {}).unwrap();
+    assert_eq!(pass.given_up.len(), 1, "{pass:?}");
+    assert!(pass.given_up[0] > options.within * pass.best_first, "{pass:?}");
+    assert_eq!(pass.minima.len(), 1);
+    // The 600 points' chi^2 as the noise gives (chi2_as_expected).
+    assert!(chi2_as_expected(pass.minima[0].refined.chi2), "{pass:?}");
+    // (Fewer iterations: only the count matters here.)
+    let all = RefineOptions {
+        within: f64::INFINITY,
+        max_iters: 10,
+        ..options
+    };
+    let pass = refine_models(&data, &starts, &all, CAP, &|| {}).unwrap();
+    assert!(pass.given_up.is_empty());
+    assert_eq!(pass.minima.len(), 2, "{pass:?}");
 }
