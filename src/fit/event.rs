@@ -58,7 +58,6 @@
 use super::hop::hop_best;
 use super::minima::{
     best_start, grid_starts, promising, refine_models, with_uncertainties, Minimum, RefineOptions,
-    Refinements,
 };
 use super::model::{BinaryModel, Trajectory};
 use super::motion::{fit_motion, MotionMinimum, MotionOptions};
@@ -293,7 +292,9 @@ pub fn fit_event(
     let first = refine_models(&searched, &starts, &options.refine, rule.point_cap, &|| {
         progress.advance(1)
     })?;
-    note_given_up(&first, options.refine.within, &mut note);
+    if let Some(m) = first.given_up_note(options.refine.within) {
+        note(m);
+    }
     let mut minima = first.minima;
     progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
     let (fitted, clipped, scales) = clean(
@@ -327,7 +328,9 @@ pub fn fit_event(
         let again = refine_models(&fitted, &starts, &again, f64::INFINITY, &|| {
             progress.advance(1)
         })?;
-        note_given_up(&again, options.refine.within, &mut note);
+        if let Some(m) = again.given_up_note(options.refine.within) {
+            note(m);
+        }
         minima = again.minima;
         // The best once more with the simplex: the first pass walked a landscape that the
         // outliers and error bars shaped, and can have stopped in a basin the cleaned data
@@ -422,23 +425,6 @@ pub fn fit_event(
         result.motion = fit_motion(data, &result, motion, progress)?;
     }
     Ok(result)
-}
-
-/// Says which starts a pass of refinements gave up after its first pass, and why.
-fn note_given_up(pass: &Refinements, within: f64, note: &mut dyn FnMut(String)) {
-    if pass.given_up.is_empty() {
-        return;
-    }
-    let chi2: Vec<String> = pass.given_up.iter().map(|c| format!("{c:.1}")).collect();
-    note(format!(
-        "refine: {} of {} starts given up after the first pass (chi2 {} above {} times the \
-         best's {:.1})",
-        pass.given_up.len(),
-        pass.given_up.len() + pass.minima.len(),
-        chi2.join(", "),
-        within,
-        pass.best_first
-    ));
 }
 
 /// `local` without the isolated outliers at the seed's single lens (each set's fluxes fitted to

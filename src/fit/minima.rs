@@ -156,6 +156,35 @@ pub struct Refinements {
     pub best_first: f64,
 }
 
+impl Refinements {
+    /// One line saying which starts were given up after the first pass and why (`within`: the
+    /// factor [`refine_models`] was given); `None` when none was.
+    ///
+    /// ```
+    /// use causeway::fit::minima::Refinements;
+    /// let pass = Refinements { minima: Vec::new(), given_up: vec![14249.5], best_first: 5209.8 };
+    /// assert_eq!(
+    ///     pass.given_up_note(2.0).unwrap(),
+    ///     "refine: 1 start(s) given up after the first pass (chi2 14249.5 above 2 times the \
+    ///      best's 5209.8)"
+    /// );
+    /// ```
+    pub fn given_up_note(&self, within: f64) -> Option<String> {
+        if self.given_up.is_empty() {
+            return None;
+        }
+        let chi2: Vec<String> = self.given_up.iter().map(|c| format!("{c:.1}")).collect();
+        Some(format!(
+            "refine: {} start(s) given up after the first pass (chi2 {} above {} times the \
+             best's {:.1})",
+            self.given_up.len(),
+            chi2.join(", "),
+            within,
+            self.best_first
+        ))
+    }
+}
+
 /// Refines each `(model, search chi^2)` of `starts` (in parallel, within the options' time
 /// budget), merges those that reach the same model, ranks them by chi^2 and marks close/wide
 /// pairs. Their uncertainties are left NaN (the curvature costs as much as a refinement's

@@ -214,14 +214,19 @@ fn a_central_caustic_and_its_close_wide_partner_are_recovered() {
 
 /// A source crossing the resonant caustic (one closed curve from the host towards the planet)
 /// of s = 1.2, q = 0.01, away from the peak.
-#[test]
-fn a_resonant_caustic_crossing_is_recovered() {
-    let truth = BinaryModel {
+fn resonant_crossing() -> BinaryModel {
+    BinaryModel {
         s: 1.2,
         q: 1e-2,
         rho: 4e-3,
         trajectory: Trajectory::straight(0.0, 0.2, 20.0, 328.3f64.to_radians()).unwrap(),
-    };
+    }
+}
+
+/// The crossing of [`resonant_crossing`] is recovered from a small library.
+#[test]
+fn a_resonant_caustic_crossing_is_recovered() {
+    let truth = resonant_crossing();
     let data = bright_event(&truth, 7);
     let library = Library {
         s: "[1.1, 1.3, 3]",
@@ -365,15 +370,9 @@ fn a_follow_up_set_over_the_anomaly_stays_out_of_the_valley() {
 /// A start that the first Levenberg-Marquardt passes leave far from the data (its peak 300 days
 /// after the event's, where the gradient vanishes) is given up before the simplex stages; the
 /// start at the truth is refined. With `within` infinite both are refined.
-/// About 30 s on two cores.
 #[test]
 fn a_start_far_from_the_data_is_given_up_after_the_first_pass() {
-    let truth = BinaryModel {
-        s: 1.2,
-        q: 1e-2,
-        rho: 4e-3,
-        trajectory: Trajectory::straight(0.0, 0.2, 20.0, 328.3f64.to_radians()).unwrap(),
-    };
+    let truth = resonant_crossing();
     let data = bright_event(&truth, 7);
     let far = BinaryModel {
         trajectory: Trajectory::straight(300.0, 0.2, 5.0, 328.3f64.to_radians()).unwrap(),
@@ -386,7 +385,10 @@ fn a_start_far_from_the_data_is_given_up_after_the_first_pass() {
     };
     let pass = refine_models(&data, &starts, &options, CAP, &|| {}).unwrap();
     assert_eq!(pass.given_up.len(), 1, "{pass:?}");
-    assert!(pass.given_up[0] > options.within * pass.best_first, "{pass:?}");
+    assert!(
+        pass.given_up[0] > options.within * pass.best_first,
+        "{pass:?}"
+    );
     assert_eq!(pass.minima.len(), 1);
     // The 600 points' chi^2 as the noise gives (chi2_as_expected).
     assert!(chi2_as_expected(pass.minima[0].refined.chi2), "{pass:?}");
