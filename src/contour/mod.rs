@@ -19,7 +19,7 @@
 //! - `crossings`: the caustics traced once per lens, and where a boundary crosses them;
 //! - `refine`: the adaptive sampling of one uniform disk;
 //! - `annuli`: limb darkening;
-//! - `shortcut`: the small-source shortcut and the quadrupole rule's five-point term.
+//! - `shortcut`: the small-source shortcut and the quadrupole rule's closed-form term.
 //!
 //! # Tolerance
 //!
@@ -55,23 +55,22 @@
 //! Nearer, a source whose centre is at distance `d >= QUADRUPOLE_CLEARANCE rho` (5 radii) from
 //! the caustics (the nearer of the traced caustic and the fold its images see, as in the far
 //! rule) with `QUADRUPOLE_SAFETY (rho / d)^4 <= tol` takes the point source plus its quadrupole
-//! term alone, `A0 + m2 A2` (`m2 = <r^2>/rho^2` of the profile, 1/2 for the uniform disk), from
-//! five image solves instead of the shortcut's thirteen: the centre and four points at `rho/2`
-//! on the axes, whose mean is `A0 + A2/4` up to terms of order `rho^4` (the circle-mean series
-//! `A0 + (r^2/4) ΔA + (r^4/64) Δ²A`, with `A2 = rho^2 ΔA / 4`), so `A2 = 4 (A_half+ - A0)`. The
-//! four points must have as many images as the centre. What is left out, the hexadecapole term
-//! and the `rho^4` part of the ring's mean, is `rho^4` times fourth derivatives of `A`: `(rho/d)^4
-//! A` times a number of order one beside a fold (`A ~ d^-1/2`) or a cusp (`A ~ 1/d`), and
-//! [`QUADRUPOLE_SAFETY`] = 10 times that is the reported error. A seeded sweep of 27,000 disks
-//! around the caustics of nine binaries (rho 1e-3 to 0.05, 4 to 40 radii from a caustic point,
-//! tolerances 0.1 to 1e-3; `quadrupole_bound_on_a_seeded_sweep` in
-//! `tests/integration/contour.rs` at 3,000 disks per lens) found the actual error at most 2.3
-//! `(rho/d)^4 A` (at the wide stellar binary s = 2.5, q = 0.5; above 1 only there) over the 5,758
-//! values the rule gave, against contours at 1e-9. With the traced
-//! distance alone it was 61 `(rho/d)^4 A` on the ridge that runs out along a cusp's axis (a
-//! wide planetary binary, 14 radii from the traced caustic): across the ridge the magnification
-//! varies on the scale of the radius, which the fold its images see tells and the trace does
-//! not. Five solves instead of thirteen for most of the points the far rule leaves (1,171 of
+//! term alone, `A0 + m2 A2` (`m2 = <r^2>/rho^2` of the profile, 1/2 for the uniform disk, and
+//! `A2 = rho^2 ΔA / 4`), from the one solve of the centre: `ΔA` comes in closed form from the
+//! centre's images and the lens equation's derivatives there (the derivation is in the
+//! `shortcut` module). What is left out, the hexadecapole term, is `rho^4` times fourth
+//! derivatives of `A`: `(rho/d)^4 A` times a number of order one beside a fold (`A ~ d^-1/2`)
+//! or a cusp (`A ~ 1/d`), and [`QUADRUPOLE_SAFETY`] = 10 times that is the reported error. A
+//! seeded sweep of 27,000 disks around the caustics of nine binaries (rho 1e-3 to 0.05, 4 to 40
+//! radii from a caustic point, tolerances 0.1 to 1e-3; `quadrupole_bound_on_a_seeded_sweep` in
+//! `tests/integration/contour.rs` at 3,000 disks per lens) found the actual error at most
+//! 4.8 `(rho/d)^4 A` over the 5,758 values the rule gave, against contours at 1e-9 (2.3 with
+//! the term from the mean of four solves at `rho/2`, which carried three eighths of a uniform
+//! disk's hexadecapole term by chance). With the traced distance alone it
+//! was 61 `(rho/d)^4 A` on the ridge that runs out along a cusp's axis (a wide planetary
+//! binary, 14 radii from the traced caustic): across the ridge the magnification varies on the
+//! scale of the radius, which the fold its images see tells and the trace does not. One solve
+//! instead of the shortcut's thirteen for most of the points the far rule leaves (1,171 of
 //! 1,879 of the recovery event wide-1 at tolerance 1e-3, 2,088 of 3,109 at 1e-4).
 //!
 //! ```
@@ -85,7 +84,7 @@
 //! let est = solver.magnification(Complex64::new(0.0, 0.0), &disk).unwrap();
 //! assert!((est.magnification - (1.0f64 + 400.0).sqrt()).abs() < 1e-5 * est.magnification);
 //! assert_eq!(est.method, Method::Contour);
-//! // Ten radii out, at tolerance 1e-2: the point source and its quadrupole term (five solves).
+//! // Ten radii out, at tolerance 1e-2: the point source and its quadrupole term (one solve).
 //! let mut solver = ContourSolver::new(&LensSystem::single(), 1e-2).unwrap();
 //! let est = solver.magnification(Complex64::new(1.0, 0.0), &disk).unwrap();
 //! assert_eq!(est.method, Method::Quadrupole);
@@ -139,7 +138,7 @@ pub enum Method {
     FarPoint,
     /// The small-source shortcut (point source plus quadrupole and hexadecapole).
     SmallSource,
-    /// The point source plus its quadrupole term, from five image solves (see
+    /// The point source plus its quadrupole term, from the one solve of the centre (see
     /// [the quadrupole rule](self#the-quadrupole-rule)).
     Quadrupole,
     /// Contour integration.
@@ -232,7 +231,6 @@ impl ContourSolver {
             };
             if far(d) || quadrupole(d) {
                 let images = self.solver.images(center)?;
-                let count = images.len();
                 let a0 = images.iter().map(|i| i.magnification).sum::<f64>();
                 // The nearer of the traced caustic and the fold the images see.
                 let near = d.min(fold_distance(&self.lens, images));
@@ -244,16 +242,13 @@ impl ContourSolver {
                     });
                 }
                 if quadrupole(near) {
-                    if let Some(a2) =
-                        shortcut::quadrupole(&mut self.solver, center, rho, a0, count)?
-                    {
-                        let magnification = a0 + source.moments().0 * a2;
-                        return Ok(Estimate {
-                            magnification,
-                            error: QUADRUPOLE_SAFETY * (rho / near).powi(4) * magnification,
-                            method: Method::Quadrupole,
-                        });
-                    }
+                    let a2 = shortcut::quadrupole(&self.lens, images, rho);
+                    let magnification = a0 + source.moments().0 * a2;
+                    return Ok(Estimate {
+                        magnification,
+                        error: QUADRUPOLE_SAFETY * (rho / near).powi(4) * magnification,
+                        method: Method::Quadrupole,
+                    });
                 }
             }
             let found = if d < shortcut::CLEARANCE * rho {

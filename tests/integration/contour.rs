@@ -353,7 +353,7 @@ fn error_estimates_bound_the_worst_cases() {
     assert!(failures.is_empty(), "{}", failures.join("\n"));
 }
 
-/// The quadrupole rule (point source plus its quadrupole term from five solves) on a single
+/// The quadrupole rule (point source plus its quadrupole term in closed form) on a single
 /// lens: every value it gives, at tolerances 0.1 to 1e-4, within its stated error
 /// `QUADRUPOLE_SAFETY (rho/d)^4 A` of Witt & Mao 1994 for uniform disks and of the 2-D
 /// scipy.integrate quadrature for limb-darkened ones (tests/reference/contour_single.csv), and
@@ -426,8 +426,9 @@ fn quadrupole_on_a_cusp_ridge() {
 /// 1e-2 or 1e-3. Every value the rule gives is within its error of contour integration at 1e-9
 /// without shortcuts (checked against lattice counts in `binaries_against_lattice_counts`),
 /// and the rule is taken for at least a sixth of the disks. The largest actual error in units of
-/// `(rho/d)^4 A` (the error over `QUADRUPOLE_SAFETY`) is printed: 2.0 over 305 values here, 2.3
-/// over 5,758 with 3,000 disks per lens (the figure of the `contour` module's doc).
+/// `(rho/d)^4 A` (the error over `QUADRUPOLE_SAFETY`) is printed: 4.1 over 305 values here, 4.8
+/// over 5,758 with 3,000 disks per lens (the figure of the `contour` module's doc; 2.0 and 2.3 with
+/// the term from four solves at `rho/2`).
 #[test]
 fn quadrupole_bound_on_a_seeded_sweep() {
     use rand::{Rng, SeedableRng};
