@@ -57,8 +57,8 @@
 //! rule) with `QUADRUPOLE_SAFETY (rho / d)^4 <= tol` takes the point source plus its quadrupole
 //! term alone, `A0 + m2 A2` (`m2 = <r^2>/rho^2` of the profile, 1/2 for the uniform disk, and
 //! `A2 = rho^2 ΔA / 4`), from the one solve of the centre: `ΔA` comes in closed form from the
-//! centre's images and the lens equation's derivatives there (the derivation is in the
-//! `shortcut` module). What is left out, the hexadecapole term, is `rho^4` times fourth
+//! centre's images and the lens equation's derivatives there (the derivation is in
+//! [`crate::solve::derivatives`]). What is left out, the hexadecapole term, is `rho^4` times fourth
 //! derivatives of `A`: `(rho/d)^4 A` times a number of order one beside a fold (`A ~ d^-1/2`)
 //! or a cusp (`A ~ 1/d`), and [`QUADRUPOLE_SAFETY`] = 10 times that is the reported error. A
 //! seeded sweep of 27,000 disks around the caustics of nine binaries (rho 1e-3 to 0.05, 4 to 40

@@ -19,7 +19,7 @@
 //! then has to catch it.
 //!
 //! The quadrupole rule's term ([`quadrupole`]) comes in closed form from the centre's images
-//! ([`laplacian`]); when it serves is stated in [the quadrupole rule](super#the-quadrupole-rule).
+//! ([`crate::solve::derivatives::laplacian`]); when it serves is stated in [the quadrupole rule](super#the-quadrupole-rule).
 
 use crate::error::Result;
 use crate::lens::LensSystem;
@@ -78,40 +78,9 @@ pub(crate) fn small_source(
 }
 
 /// The quadrupole term `A2 = rho^2 ΔA / 4` of a source whose centre has `images`, in closed
-/// form from those images alone ([`laplacian`]): no further solve.
+/// form from those images alone ([`crate::solve::derivatives::laplacian`]): no further solve.
 pub(crate) fn quadrupole(lens: &LensSystem, images: &[Image], rho: f64) -> f64 {
-    0.25 * rho * rho * laplacian(lens, images)
-}
-
-/// The Laplacian over the source plane, `ΔA = 4 ∂ζ ∂ζ̄ A`, of the point-source magnification
-/// `A = Σ 1/|D|` of a source whose images are `images` (the quadrupole term from one
-/// point-source solve, as in Cassan 2017, MNRAS 468, 3993; derived afresh here).
-///
-/// With `f(z) = Σ m_i / (z - z_i)` the lens equation is `ζ = z - conj(f(z))` and
-/// `D = 1 - |f'|²`. Its local inverse has `∂z/∂ζ = 1/D` and `∂z/∂ζ̄ = conj(f')/D`, whence
-/// `∂ζ̄ D = -P/D` with `P = f'' conj(f')² + f' conj(f'')`, and `∂ζ ∂ζ̄ (1/D)` is
-/// `[2 Re(conj(f')² f''') + |f''|² (1 + 2|f'|²)] / D⁴ + 3 |P|² / D⁵`; each image adds that
-/// times `4 sign(D)`.
-pub(crate) fn laplacian(lens: &LensSystem, images: &[Image]) -> f64 {
-    images
-        .iter()
-        .map(|im| {
-            let (mut f1, mut f2, mut f3) = (Complex64::ZERO, Complex64::ZERO, Complex64::ZERO);
-            for l in lens.lenses() {
-                let w = (im.position - l.position).inv();
-                let w2 = w * w;
-                f1 -= l.mass * w2;
-                f2 += 2.0 * l.mass * w2 * w;
-                f3 -= 6.0 * l.mass * w2 * w2;
-            }
-            let (g1, g2) = (f1.conj(), f2.conj());
-            let d = 1.0 - f1.norm_sqr();
-            let p = f2 * g1 * g1 + f1 * g2;
-            let d4 = (d * d) * (d * d);
-            let inner = 2.0 * (g1 * g1 * f3).re + f2.norm_sqr() * (1.0 + 2.0 * f1.norm_sqr());
-            4.0 * d.signum() * (inner / d4 + 3.0 * p.norm_sqr() / (d4 * d))
-        })
-        .sum()
+    0.25 * rho * rho * crate::solve::derivatives::laplacian(lens, images)
 }
 
 /// The mean point-source magnification of four points at `radius` from `center`, the first at
@@ -134,56 +103,4 @@ fn ring_mean(
         sum += images.iter().map(|i| i.magnification).sum::<f64>();
     }
     Ok(Some(0.25 * sum))
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn laplacian_at(lens: &LensSystem, zeta: Complex64) -> f64 {
-        let mut solver = ImageSolver::new(lens).unwrap();
-        laplacian(lens, solver.images(zeta).unwrap())
-    }
-
-    /// A point lens: `ΔA = A'' + A'/u` of Paczynski's `A(u) = (u²+2)/(u sqrt(u²+4))`
-    /// (Paczynski 1986), differentiated by hand: `8/(u³ (u²+4)^1.5) + 24/(u (u²+4)^2.5)`.
-    #[test]
-    fn single_lens_laplacian_is_paczynski_s() {
-        let lens = LensSystem::single();
-        for (u, angle) in [(0.3, 0.0), (1.0, 1.0), (2.5, -2.0)] {
-            let z = Complex64::from_polar(u, angle);
-            let u2: f64 = u * u + 4.0;
-            let expected = 8.0 / (u * u * u * u2.powf(1.5)) + 24.0 / (u * u2.powf(2.5));
-            let got = laplacian_at(&lens, z);
-            assert!(
-                (got - expected).abs() <= 1e-12 * expected,
-                "u {u}: {got} vs {expected}"
-            );
-        }
-    }
-
-    /// A binary, away from its caustics: the closed form against the five-point difference
-    /// of point-source magnifications (step 1e-3 of the distance to the lenses' scale).
-    #[test]
-    fn binary_laplacian_agrees_with_differences() {
-        for (s, q, zeta) in [
-            (1.0, 1.0, Complex64::new(0.3, 0.4)),
-            (1.35, 3e-3, Complex64::new(0.5, -0.2)),
-            (0.75, 5e-3, Complex64::new(-0.1, 0.25)),
-        ] {
-            let lens = LensSystem::binary(s, q).unwrap();
-            let mut solver = ImageSolver::new(&lens).unwrap();
-            let mut a = |z: Complex64| solver.magnification(z).unwrap();
-            let h = 1e-3;
-            let ring: f64 = (0..4)
-                .map(|k| a(zeta + Complex64::from_polar(h, k as f64 * std::f64::consts::FRAC_PI_2)))
-                .sum();
-            let differences = (ring - 4.0 * a(zeta)) / (h * h);
-            let closed = laplacian_at(&lens, zeta);
-            assert!(
-                (closed - differences).abs() <= 1e-4 * closed.abs().max(1.0),
-                "s {s} q {q} at {zeta}: {closed} vs {differences}"
-            );
-        }
-    }
 }

@@ -4,6 +4,8 @@
 //! - [`polynomial`]: small fixed-size complex polynomials; the lens-equation polynomial (Witt
 //!   1990), general and binary, and the parts of the critical-curve polynomial;
 //! - [`roots`]: the Aberth-Ehrlich simultaneous root finder;
+//! - [`derivatives`]: the magnification's gradient and Laplacian over the source plane, in
+//!   closed form from the images;
 //! - [`images`]: [`ImageSolver`], which turns roots into images (polishing on the lens equation,
 //!   residual check, counting and parity rules).
 //!
@@ -24,6 +26,7 @@
 //! assert_eq!(many[1], solve::magnification(&lens, sources[1]).unwrap());
 //! ```
 
+pub mod derivatives;
 pub mod images;
 pub mod polynomial;
 pub mod roots;
