@@ -6,9 +6,10 @@
 //! determinant at an image is `D = 1 - |f'|²`. The local inverse of the lens map has
 //! `∂z/∂ζ = 1/D` and `∂z/∂ζ̄ = conj(f')/D`, whence `∂ζ̄ D = -P/D` with
 //! `P = f'' conj(f')² + f' conj(f'')`. An image's magnification `1/|D|` then has
-//! `∂ζ̄ (1/D) = P / D³` and `∂ζ ∂ζ̄ (1/D) = [2 Re(conj(f')² f''') + |f''|² (1 + 2|f'|²)] / D⁴
-//! + 3 |P|² / D⁵`, each times `sign(D)`. (The quadrupole term from one point-source solve is
-//! also in Cassan 2017, MNRAS 468, 3993; derived afresh here.)
+//! `∂ζ̄ (1/D) = P / D³` and
+//! `∂ζ ∂ζ̄ (1/D) = [2 Re(conj(f')² f''') + |f''|² (1 + 2|f'|²)] / D⁴ + 3 |P|² / D⁵`,
+//! each times `sign(D)`. (The quadrupole term from one point-source solve is also in
+//! Cassan 2017, MNRAS 468, 3993; derived afresh here.)
 //!
 //! ```
 //! use causeway::lens::LensSystem;
@@ -26,17 +27,33 @@ use super::Image;
 use crate::lens::LensSystem;
 use num_complex::Complex64;
 
-/// `(f', f'', f''')` of `f(z) = Σ m_i / (z - z_i)` at `z`.
-fn lens_derivatives(lens: &LensSystem, z: Complex64) -> (Complex64, Complex64, Complex64) {
-    let (mut f1, mut f2, mut f3) = (Complex64::ZERO, Complex64::ZERO, Complex64::ZERO);
-    for l in lens.lenses() {
-        let w = (z - l.position).inv();
-        let w2 = w * w;
-        f1 -= l.mass * w2;
-        f2 += 2.0 * l.mass * w2 * w;
-        f3 -= 6.0 * l.mass * w2 * w2;
+/// What one image contributes to the derivatives (see the module documentation).
+struct ImageTerms {
+    /// `f'`, `f''` and `f'''` of `f(z) = Σ m_i / (z - z_i)` at the image.
+    f: [Complex64; 3],
+    /// `D = 1 - |f'|²`.
+    d: f64,
+    /// `P = f'' conj(f')² + f' conj(f'')`.
+    p: Complex64,
+}
+
+impl ImageTerms {
+    fn at(lens: &LensSystem, z: Complex64) -> ImageTerms {
+        let mut f = [Complex64::ZERO; 3];
+        for l in lens.lenses() {
+            let w = (z - l.position).inv();
+            let w2 = w * w;
+            f[0] -= l.mass * w2;
+            f[1] += 2.0 * l.mass * w2 * w;
+            f[2] -= 6.0 * l.mass * w2 * w2;
+        }
+        let g1 = f[0].conj();
+        ImageTerms {
+            d: 1.0 - f[0].norm_sqr(),
+            p: f[1] * g1 * g1 + f[0] * f[1].conj(),
+            f,
+        }
     }
-    (f1, f2, f3)
 }
 
 /// The gradient `(∂A/∂x, ∂A/∂y)`, as `∂A/∂x + i ∂A/∂y`, of the point-source magnification of a
@@ -45,10 +62,7 @@ pub fn gradient(lens: &LensSystem, images: &[Image]) -> Complex64 {
     images
         .iter()
         .map(|im| {
-            let (f1, f2, _) = lens_derivatives(lens, im.position);
-            let g1 = f1.conj();
-            let d = 1.0 - f1.norm_sqr();
-            let p = f2 * g1 * g1 + f1 * f2.conj();
+            let ImageTerms { d, p, .. } = ImageTerms::at(lens, im.position);
             p * (2.0 * d.signum() / (d * d * d))
         })
         .sum()
@@ -60,10 +74,12 @@ pub fn laplacian(lens: &LensSystem, images: &[Image]) -> f64 {
     images
         .iter()
         .map(|im| {
-            let (f1, f2, f3) = lens_derivatives(lens, im.position);
+            let ImageTerms {
+                f: [f1, f2, f3],
+                d,
+                p,
+            } = ImageTerms::at(lens, im.position);
             let g1 = f1.conj();
-            let d = 1.0 - f1.norm_sqr();
-            let p = f2 * g1 * g1 + f1 * f2.conj();
             let d4 = (d * d) * (d * d);
             let inner = 2.0 * (g1 * g1 * f3).re + f2.norm_sqr() * (1.0 + 2.0 * f1.norm_sqr());
             4.0 * d.signum() * (inner / d4 + 3.0 * p.norm_sqr() / (d4 * d))
