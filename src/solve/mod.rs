@@ -4,8 +4,8 @@
 //! - [`polynomial`]: small fixed-size complex polynomials; the lens-equation polynomial (Witt
 //!   1990), general and binary, and the parts of the critical-curve polynomial;
 //! - [`roots`]: the Aberth-Ehrlich simultaneous root finder;
-//! - [`derivatives`]: the magnification's gradient and Laplacian over the source plane, in
-//!   closed form from the images;
+//! - [`derivatives`]: the magnification's Laplacian over the source plane, in closed form from
+//!   the images;
 //! - [`images`]: [`ImageSolver`], which turns roots into images (polishing on the lens equation,
 //!   residual check, counting and parity rules).
 //!
