@@ -232,6 +232,7 @@ def fit_event(
     orbit: bool = True,
     ephemerides: Optional[Sequence[Optional[Ephemeris]]] = None,
     parallax_minima: int = 2,
+    time_limit: float = 780.0,
 ) -> dict[str, Any]: ...
 def simulate(
     s: float,

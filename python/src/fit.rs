@@ -5,7 +5,9 @@ use crate::light::{law, model};
 use crate::map::Map;
 use crate::parallax::{motion_dict, motion_options, moving_model, observer, Motion};
 use crate::store::Store;
-use causeway::fit::event::{fit_event as fit_whole, FitOptions, DEFAULT_CLIP_SIGMA};
+use causeway::fit::event::{
+    fit_event as fit_whole, FitOptions, DEFAULT_CLIP_SIGMA, DEFAULT_TIME_LIMIT,
+};
 use causeway::fit::fluxes::FluxFit;
 use causeway::fit::hop::HOPS;
 use causeway::fit::model::BinaryModel;
@@ -211,12 +213,13 @@ pub fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, 
 
 /// fit_event(data, maps, rhos=None, exclude=(), baseline=None, zoom_levels=2, zoom_points=2,
 /// refine=4, tol=1e-4, budget=600.0, clip=5.0, rescale_errors=True, adaptive_timing=True,
-/// hops=8, progress=None, threads=None) -> dict
+/// hops=8, progress=None, threads=None, time_limit=780.0) -> dict
 ///
 /// The whole fit of a list of DataSet with the binary-lens maps of `maps` (a Store: all its
 /// binary maps; or a list of Map): single-lens baseline, search of every map, zoom, exact
 /// refinement, outlier clipping (clip sigmas, 0 for none), error rescaling, refinement again,
-/// hops (`hops` perturbed restarts per round around the best minimum; 0 for none).
+/// hops (`hops` perturbed restarts per round around the best minimum; 0 for none). Every
+/// refinement pass stops `time_limit` seconds after the start (0 for no limit).
 /// Returns "minima" (best first; each a dict of "s", "q", "alpha" (degrees), "u0", "t0", "te"
 /// (days), "rho", "sigma" (dict of the same names), "chi2", "chi2_as_given", "search_chi2",
 /// "partner" (index of its close/wide partner or None), "fluxes"), "single" (the baseline's
@@ -230,7 +233,7 @@ pub fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, 
 ///     fit = causeway.fit_event(sets, store, ra="17:55:00", dec="-29:30:00", orbit=False)
 ///     fit["motion"][0]["pi_e_n"], fit["motion"][0]["delta_chi2_static"]
 #[pyfunction]
-#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, hops=HOPS, progress=None, threads=None, ra=None, dec=None, t0_par=None, orbit=true, ephemerides=None, parallax_minima=2))]
+#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, hops=HOPS, progress=None, threads=None, ra=None, dec=None, t0_par=None, orbit=true, ephemerides=None, parallax_minima=2, time_limit=DEFAULT_TIME_LIMIT.as_secs_f64()))]
 #[allow(clippy::too_many_arguments)]
 pub fn fit_event<'py>(
     py: Python<'py>,
@@ -256,13 +259,16 @@ pub fn fit_event<'py>(
     orbit: bool,
     ephemerides: Option<Vec<Option<Bound<'py, PyAny>>>>,
     parallax_minima: usize,
+    time_limit: f64,
 ) -> PyResult<Bound<'py, PyDict>> {
     if data.is_empty() {
         return Err(bad("data", "give at least one DataSet"));
     }
     let sets = data_sets(data);
-    if !(budget.is_finite() && budget >= 0.0) {
-        return Err(bad("budget", format!("must be >= 0 seconds, got {budget}")));
+    for (name, seconds) in [("budget", budget), ("time_limit", time_limit)] {
+        if !(seconds.is_finite() && seconds >= 0.0) {
+            return Err(bad(name, format!("must be >= 0 seconds, got {seconds}")));
+        }
     }
     if !(clip == 0.0 || (clip.is_finite() && clip >= 2.0)) {
         return Err(bad("clip", format!("must be 0 (off) or >= 2, got {clip}")));
@@ -307,6 +313,7 @@ pub fn fit_event<'py>(
     options.refine.tol = tol;
     options.refine.hops = hops;
     options.refine.budget = (budget > 0.0).then(|| Duration::from_secs_f64(budget));
+    options.time_limit = (time_limit > 0.0).then(|| Duration::from_secs_f64(time_limit));
     let forward = Forward(progress);
     let result = if let Ok(store) = maps.cast::<Store>() {
         let files = ok(maps_of_store(&store.get().inner))?;

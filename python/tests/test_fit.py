@@ -93,7 +93,7 @@ rule = "planetary"
     data = causeway.DataSet.read(tmp_path / "event.csv")
     fit = causeway.fit_event([data], store, rhos=[0.002, 0.003, 0.005], refine=2, zoom_levels=0,
                              clip=0, rescale_errors=False, budget=0,
-                             progress=lambda e, s: stages.append(e))
+                             time_limit=0, progress=lambda e, s: stages.append(e))
     best = fit["minima"][0]
     assert abs(best["s"] / 1.3 - 1) < 0.01 and abs(best["q"] / 3e-3 - 1) < 0.1
     # chi2/dof of a right model with Gaussian errors: 1 within a few sqrt(2/dof) (common practice).
@@ -102,7 +102,7 @@ rule = "planetary"
     assert "start" in stages and fit["single"]["chi2"] > best["chi2"]
     out = read_csv(cli("search", tmp_path / "event.csv", "--library", tmp_path / "maps", "--rho",
                        "0.002,0.003,0.005", "--refine", 2, "--zoom", 0, "--clip", 0,
-                       "--fixed-errors", "--budget", 0))
+                       "--fixed-errors", "--budget", 0, "--time-limit", 0))
     for ours, theirs in [("s", "s"), ("q", "q"), ("u0", "u0"), ("te", "tE"), ("rho", "rho"), ("chi2", "chi2")]:
         assert best[ours] == out[theirs][0], ours
 

@@ -6,7 +6,7 @@ use super::physical::PhysicalArgs;
 use super::progress::Reporter;
 use super::{NumberList, ThreadArgs};
 use crate::error::{Error, Result};
-use crate::fit::event::{fit_event, FitOptions, FitResult, DEFAULT_CLIP_SIGMA};
+use crate::fit::event::{fit_event, FitOptions, FitResult, DEFAULT_CLIP_SIGMA, DEFAULT_TIME_LIMIT};
 use crate::fit::minima::RefineOptions;
 use crate::fit::noise::Clipped;
 use crate::fit::photometry::{DataSet, DEFAULT_ZERO_POINT};
@@ -36,10 +36,13 @@ use std::time::Duration;
     each set's error bars, refines again, and prints the distinct minima as CSV (ranked by the \
     fit's chi2). --library takes a spec (TOML; its missing maps are built into the store first) \
     or a store directory (all its binary maps). Progress goes to stderr: bars on a terminal, a \
-    plain line every 5 s in a batch log.\n\nExamples:\n  \
+    plain line every 5 s in a batch log. The refinement's passes stop --time-limit seconds \
+    after the start (default 780: with the search and zoom of a broad library, a fit ends \
+    within a quarter of an hour on two cores) and report where they stood.\n\nExamples:\n  \
     causeway search site-a.csv site-b.csv --library planets.toml --ld 0.55,0.62 --out minima.csv --chi2-map chi2.png --plot best.png\n  \
     causeway search event.csv --library /shared/maps --rho 0.001,0.002 --refine 6 --exclude 8205.1,8206.3\n  \
     causeway search event.csv --library planets.toml --baseline 8210.5,0.12,31 --budget 120\n  \
+    causeway search event.csv --library broad.toml --time-limit 0   # refine for as long as it takes\n  \
     causeway search event.csv --library planets.toml --theta-star 0.6 --dl 4 --ds 8\n  \
     causeway search ground.csv space.csv --library planets.toml --ra 17:55:00 --dec -29:30:00 --ephemeris 2=space-orbit.csv\n\n\
     With --ra/--dec each of the best static minima is refined again with parallax (both signs \
@@ -162,6 +165,15 @@ pub struct SearchArgs {
         allow_hyphen_values = true
     )]
     pub budget: f64,
+    /// Wall time from the start after which every refinement pass stops and returns what it
+    /// has, seconds (0: no limit; the search and zoom are not cut).
+    #[arg(
+        long,
+        value_name = "SECONDS",
+        default_value_t = DEFAULT_TIME_LIMIT.as_secs_f64(),
+        allow_hyphen_values = true
+    )]
+    pub time_limit: f64,
     /// Write the table of minima here instead of stdout.
     #[arg(long, value_name = "FILE.csv")]
     pub out: Option<PathBuf>,
@@ -227,11 +239,12 @@ impl SearchArgs {
             ..GridRule::default()
         };
         rule.validate()?;
-        if !(self.budget.is_finite() && self.budget >= 0.0) {
-            return Err(Error::input(format!(
-                "--budget: must be >= 0 seconds, got {}",
-                self.budget
-            )));
+        for (name, seconds) in [("--budget", self.budget), ("--time-limit", self.time_limit)] {
+            if !(seconds.is_finite() && seconds >= 0.0) {
+                return Err(Error::input(format!(
+                    "{name}: must be >= 0 seconds, got {seconds}"
+                )));
+            }
         }
         if !(self.clip == 0.0 || (self.clip.is_finite() && self.clip >= 2.0)) {
             return Err(Error::input(format!(
@@ -282,6 +295,7 @@ impl SearchArgs {
             clip_sigma: (self.clip > 0.0).then_some(self.clip),
             rescale_errors: !self.fixed_errors,
             motion: self.motion.options(sets, self.tol)?,
+            time_limit: (self.time_limit > 0.0).then(|| Duration::from_secs_f64(self.time_limit)),
         })
     }
 

@@ -47,6 +47,13 @@
 //!    (Levenberg-Marquardt from seeded perturbations of the best, kept when one ends lower:
 //!    [`super::hop`], [`RefineOptions::hops`]) and **uncertainties**: the curvature of chi^2
 //!    at each minimum, measured once, on the data of the last refinement.
+//!
+//! Steps 6 to 8 also share one deadline, [`FitOptions::time_limit`] after the fit began
+//! (default [`DEFAULT_TIME_LIMIT`]): each pass's budget is cut to what is left, a pass still
+//! running then returns what it has, and the passes after it are cut short (with a note). A
+//! well-sampled stellar binary's crossings make the exact chi^2 costly, and its refinement,
+//! passes after passes, could otherwise run on long after a search and zoom of several minutes.
+//! The uncertainties are always measured.
 //! 9. **Parallax and orbital motion** ([`FitOptions::motion`], when the event's coordinates are
 //!    known): the best static minima refined again with microlens parallax, both members of the
 //!    ecliptic pair, then with lens orbital motion ([`super::motion`]); rows in
@@ -74,7 +81,7 @@ use crate::error::{Error, Result};
 use crate::lens::paczynski;
 use crate::map::read_fits;
 use crate::progress::Progress;
-use std::time::Instant;
+use std::time::{Duration, Instant};
 
 /// How [`fit_event`] runs.
 #[derive(Debug, Clone, PartialEq)]
@@ -103,6 +110,9 @@ pub struct FitOptions {
     /// Refine the best minima again with parallax and lens orbital motion (the stage of
     /// [`super::motion`]; `None`: static models only).
     pub motion: Option<MotionOptions>,
+    /// Wall time from the fit's start after which the refinement's passes stop (see the
+    /// module documentation); `None`: each pass has its own [`RefineOptions::budget`] alone.
+    pub time_limit: Option<Duration>,
 }
 
 impl Default for FitOptions {
@@ -117,9 +127,15 @@ impl Default for FitOptions {
             clip_sigma: Some(DEFAULT_CLIP_SIGMA),
             rescale_errors: true,
             motion: None,
+            time_limit: Some(DEFAULT_TIME_LIMIT),
         }
     }
 }
+
+/// The default [`FitOptions::time_limit`]: 13 minutes, so that a fit of the broad library on
+/// two cores (search and zoom up to about eight minutes for a stellar binary) ends within a
+/// quarter of an hour with its uncertainties measured.
+pub const DEFAULT_TIME_LIMIT: Duration = Duration::from_secs(780);
 
 /// The default outlier threshold, in robust standard deviations.
 pub const DEFAULT_CLIP_SIGMA: f64 = 5.0;
@@ -180,6 +196,8 @@ pub fn fit_event(
     progress: &dyn Progress,
 ) -> Result<FitResult> {
     validate(data, &maps, options)?;
+    let deadline = options.time_limit.map(|l| Instant::now() + l);
+    let within_limit = || cut_to(&options.refine, deadline);
     let mut notes = Vec::new();
     let mut note = |m: String| {
         progress.note(&m);
@@ -289,7 +307,7 @@ pub fn fit_event(
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
     // The first refinements also start from a pass on the chi^2 the search ranked by.
-    let first = refine_models(&searched, &starts, &options.refine, rule.point_cap, &|| {
+    let first = refine_models(&searched, &starts, &within_limit(), rule.point_cap, &|| {
         progress.advance(1)
     })?;
     if let Some(m) = first.given_up_note(options.refine.within) {
@@ -323,7 +341,7 @@ pub fn fit_event(
         // From minima already found, Levenberg-Marquardt alone converges.
         let again = RefineOptions {
             simplex: false,
-            ..options.refine
+            ..within_limit()
         };
         let again = refine_models(&fitted, &starts, &again, f64::INFINITY, &|| {
             progress.advance(1)
@@ -342,7 +360,7 @@ pub fn fit_event(
             options.refine.max_iters,
             true,
             f64::INFINITY,
-            options.refine.budget.map(|b| Instant::now() + b),
+            within_limit().budget.map(|b| Instant::now() + b),
         )?;
         if best.chi2 < minima[0].refined.chi2 {
             minima[0].refined = best;
@@ -355,9 +373,18 @@ pub fn fit_event(
     }
     // On the data the minima were refined on: their chi^2 values compare only there.
     let refined_on = if changed { &fitted } else { &searched };
-    converge_best(refined_on, &mut minima, &options.refine, progress)?;
-    if let Some(n) = hop_best(refined_on, &mut minima, &options.refine, progress)? {
+    converge_best(refined_on, &mut minima, &within_limit(), progress)?;
+    if let Some(n) = hop_best(refined_on, &mut minima, &within_limit(), progress)? {
         note(n);
+    }
+    if let (Some(limit), Some(d)) = (options.time_limit, deadline) {
+        if Instant::now() >= d {
+            note(format!(
+                "time limit: the fit reached its {:.0} s during the refinement; its passes were \
+                 cut short, so the minima are where they stood",
+                limit.as_secs_f64()
+            ));
+        }
     }
     progress.start("uncertainties", minima.len() as u64);
     let mut minima = with_uncertainties(refined_on, minima, options.refine.tol, &|| {
@@ -462,6 +489,18 @@ pub const CONVERGED_GAIN: f64 = 1.0;
 /// at [`crate::fit::refine::LM_ITERATIONS`] Jacobians, which a stellar binary's many crossing
 /// points can need more of: on one invented stellar binary three passes lowered chi^2 from
 /// 3293 to 3028), at most [`EXTRA_PASSES`] times and within the refinement's budget.
+/// `options` with its budget cut to the time left before `deadline` (none left: zero).
+fn cut_to(options: &RefineOptions, deadline: Option<Instant>) -> RefineOptions {
+    let Some(d) = deadline else {
+        return *options;
+    };
+    let left = d.saturating_duration_since(Instant::now());
+    RefineOptions {
+        budget: Some(options.budget.map_or(left, |b| b.min(left))),
+        ..*options
+    }
+}
+
 fn converge_best(
     data: &[DataSet],
     minima: &mut [Minimum],

@@ -63,12 +63,17 @@ fn data(t0: f64, scale: f64, outliers: &[usize]) -> Vec<DataSet> {
 }
 
 fn fit(data: &[DataSet], map: &MagnificationMap) -> FitResult {
+    fit_with(data, map, FitOptions::default())
+}
+
+/// `options` with the trial radii of these events.
+fn fit_with(data: &[DataSet], map: &MagnificationMap, options: FitOptions) -> FitResult {
     let options = FitOptions {
         rule: causeway::fit::search::GridRule {
             rhos: vec![2e-3, 3e-3, 4.5e-3],
             ..Default::default()
         },
-        ..FitOptions::default()
+        ..options
     };
     fit_event(
         data,
@@ -77,6 +82,34 @@ fn fit(data: &[DataSet], map: &MagnificationMap) -> FitResult {
         &Silent,
     )
     .unwrap()
+}
+
+/// A fit whose time limit has passed before its refinement began still ends: every pass
+/// returns what it has at once, the minima carry their uncertainties' stage, and a note says
+/// the limit was reached; the unlimited fit of the same data gains on it (its refinement ran)
+/// and carries no such note.
+#[test]
+fn a_fit_past_its_time_limit_reports_where_it_stood() {
+    let map = map();
+    let data = data(0.0, 1.0, &[]);
+    let limited = fit_with(
+        &data,
+        &map,
+        FitOptions {
+            time_limit: Some(std::time::Duration::from_millis(1)),
+            ..FitOptions::default()
+        },
+    );
+    assert!(!limited.minima.is_empty());
+    assert!(
+        limited.notes.iter().any(|n| n.starts_with("time limit:")),
+        "{:?}",
+        limited.notes
+    );
+    let full = fit(&data, &map);
+    assert!(!full.notes.iter().any(|n| n.starts_with("time limit:")));
+    let (cut, whole) = (limited.minima[0].refined.chi2, full.minima[0].refined.chi2);
+    assert!(whole < cut, "limited {cut}, unlimited {whole}");
 }
 
 #[test]
