@@ -47,17 +47,17 @@
 //!    (Levenberg-Marquardt from seeded perturbations of the best, kept when one ends lower:
 //!    [`super::hop`], [`RefineOptions::hops`]) and **uncertainties**: the curvature of chi^2
 //!    at each minimum, measured once, on the data of the last refinement.
-//!
-//! Steps 6 to 8 also share one deadline, [`FitOptions::time_limit`] after the fit began
-//! (default [`DEFAULT_TIME_LIMIT`]): each pass's budget is cut to what is left, a pass still
-//! running then returns what it has, and the passes after it are cut short (with a note). A
-//! well-sampled stellar binary's crossings make the exact chi^2 costly, and its refinement,
-//! passes after passes, could otherwise run on long after a search and zoom of several minutes.
-//! The uncertainties are always measured.
 //! 9. **Parallax and orbital motion** ([`FitOptions::motion`], when the event's coordinates are
 //!    known): the best static minima refined again with microlens parallax, both members of the
 //!    ecliptic pair, then with lens orbital motion ([`super::motion`]); rows in
 //!    [`FitResult::motion`].
+//!
+//! Steps 6 to 8 share one deadline, [`FitOptions::time_limit`] after the fit began (default
+//! [`DEFAULT_TIME_LIMIT`]): each pass's budget is cut to what is left, a pass still running
+//! then returns what it has, and the passes after it end at once (with a note). A well-sampled
+//! stellar binary's crossings make the exact chi^2 costly, and its refinement, pass after pass,
+//! could otherwise run on long after a search and zoom of several minutes. The uncertainties
+//! are always measured.
 //!
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
