@@ -176,7 +176,8 @@ pub fn refine(data: &[DataSet], start: &BinaryModel, tol: f64, max_iters: u64) -
 }
 
 /// The minimiser's steps at `model`: simplex steps; Levenberg-Marquardt's Jacobian steps are
-/// a fiftieth of them, the curvature's a twentieth.
+/// at most a fiftieth of them (shortened to the data: [`super::optimize::STEP_CHANGE`]), the
+/// curvature's a twentieth.
 pub(super) fn steps(model: &BinaryModel) -> [f64; 7] {
     let l = model.trajectory.line();
     [
@@ -329,7 +330,7 @@ pub fn first_pass(
     let lm_iters = LM_ITERATIONS.min(max_iters.max(1));
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
-    // along. Its Jacobian steps are a fiftieth of the simplex's. The search stages work at a
+    // along. Its Jacobian steps are at most a fiftieth of the simplex's. The search stages work at a
     // coarser tolerance (contour integration costs less), the last Levenberg-Marquardt pass
     // (in [`FirstPass::finish`]) at the one asked for.
     let coarse = if simplex { tol.max(COARSE_TOL) } else { tol };

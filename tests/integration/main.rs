@@ -27,6 +27,7 @@ mod fit_single;
 mod fits;
 mod galaxy;
 mod hop;
+mod optimize;
 mod parallax;
 mod polygon;
 mod recovery;
