@@ -87,10 +87,11 @@ pub fn minimize(
 /// Minimises the sum of squares of `residuals` from `x0` by Levenberg-Marquardt (Marquardt
 /// 1963; Press et al., Numerical Recipes, section 15.5): the Jacobian by forward differences
 /// (its columns evaluated in parallel) of steps at most `h`, each shortened where the residuals
-/// change by more than three times [`STEP_CHANGE`] over it (see there), steps from `(J^T J + lambda diag(J^T J)) dx = -J^T r`, `lambda` divided by 3
-/// after a step that lowers the sum and multiplied by 4 until one does. Stops when an accepted
-/// step gains less than `tolerance`, when `lambda` exceeds `1e10`, or after `max_iters`
-/// Jacobians. `residuals` returns `None` outside the model's domain.
+/// change by more than three times [`STEP_CHANGE`] over it (see there), steps from
+/// `(J^T J + lambda diag(J^T J)) dx = -J^T r`, `lambda` divided by 3 after a step that lowers
+/// the sum and multiplied by 4 until one does. Stops when an accepted step gains less than
+/// `tolerance`, when `lambda` exceeds `1e10`, or after `max_iters` Jacobians. `residuals`
+/// returns `None` outside the model's domain.
 ///
 /// ```
 /// use causeway::fit::optimize::least_squares;
@@ -331,8 +332,9 @@ pub fn covariance(
 
 /// Covariance `(J^T J)^-1` of the parameters at a least-squares minimum of `residuals`
 /// (normalised residuals, so that chi^2 is their sum of squares), with the Jacobian from
-/// forward differences of steps at most `h` (adapted as in [`least_squares`]): the Gauss-Newton approximation, `x.len()` evaluations
-/// instead of the Hessian's `2 n^2`. `None` where `J^T J` is singular.
+/// forward differences of steps at most `h` (adapted as in [`least_squares`]): the
+/// Gauss-Newton approximation, `x.len()` evaluations (more where a step is shortened) instead
+/// of the Hessian's `2 n^2`. `None` where `J^T J` is singular.
 ///
 /// ```
 /// use causeway::fit::optimize::gauss_newton_covariance;

@@ -330,9 +330,9 @@ pub fn first_pass(
     let lm_iters = LM_ITERATIONS.min(max_iters.max(1));
     // Levenberg-Marquardt on the normalised residuals first: it follows the curved valleys of
     // a caustic crossing (s, tE and u0 trading against one another) that a simplex crawls
-    // along. Its Jacobian steps are at most a fiftieth of the simplex's. The search stages work at a
-    // coarser tolerance (contour integration costs less), the last Levenberg-Marquardt pass
-    // (in [`FirstPass::finish`]) at the one asked for.
+    // along. Its Jacobian steps are at most a fiftieth of the simplex's. The search stages
+    // work at a coarser tolerance (contour integration costs less), the last
+    // Levenberg-Marquardt pass (in [`FirstPass::finish`]) at the one asked for.
     let coarse = if simplex { tol.max(COARSE_TOL) } else { tol };
     let residuals = counted_residuals(data, coarse, &evaluations, deadline);
     let plain_from = |x0: &[f64]| -> Result<super::optimize::Minimum> {
