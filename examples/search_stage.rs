@@ -1,6 +1,8 @@
 //! The fit's search stage alone on the recovery events, for speed work on the search: every
 //! `K`-th map of the broad library (`--every K`, default 1: the whole library), each event's
-//! seed as `fit_event` makes it, the refinement cut to one start and one iteration and no zoom.
+//! seed as `fit_event` makes it (or only the maps at `--at S,Q`, repeatable; their best
+//! trajectories then go to stderr as well), the refinement cut to one start and one iteration
+//! and no zoom.
 //!
 //! stdout lists what the search found on each map, one line per map (`s q trajectories |
 //! candidates' chi^2 | the plain chi^2's`, nine digits), so that two builds of the search can be
@@ -39,13 +41,29 @@ fn main() {
     let every = value("--every").unwrap_or(1).max(1) as usize;
     let names: Vec<&String> = args
         .iter()
-        .filter(|a| !a.starts_with("--") && a.parse::<f64>().is_err())
+        .filter(|a| !a.starts_with("--") && a.parse::<f64>().is_err() && !a.contains(','))
         .collect();
     let broad = LibrarySpec::parse(BROAD_LIBRARY, "broad library").unwrap();
     let store = Store::open(std::path::Path::new("target/recovery-store")).unwrap();
+    // `--at S,Q` (repeatable): only the maps within 1% of those (s, q).
+    let at: Vec<(f64, f64)> = args
+        .windows(2)
+        .filter(|w| w[0] == "--at")
+        .map(|w| {
+            let (s, q) = w[1].split_once(',').expect("--at takes S,Q");
+            (s.parse().expect("--at: s"), q.parse().expect("--at: q"))
+        })
+        .collect();
+    let near = |m: &causeway::fit::search::LibraryMap| {
+        at.is_empty()
+            || at
+                .iter()
+                .any(|&(s, q)| (m.s / s).ln().abs() < 0.01 && (m.q / q).ln().abs() < 0.01)
+    };
     let maps: Vec<_> = maps_of_spec(&store, &broad)
         .unwrap()
         .into_iter()
+        .filter(near)
         .step_by(every)
         .collect();
     let mut options = FitOptions {
@@ -77,6 +95,13 @@ fn main() {
                 .join(" ")
         };
         for o in &fit.outcomes {
+            if let Some(c) = o.candidates.first().filter(|_| !at.is_empty()) {
+                let l = c.model.trajectory.line();
+                eprintln!(
+                    "s {:.4} q {:.4e}: best alpha {:.4} u0 {:.4} t0 {:.4} tE {:.3} rho {:.2e}",
+                    o.s, o.q, l.alpha, l.u0, l.t0, l.te, c.model.rho
+                );
+            }
             println!(
                 "{} {} {} {} | {} | {}",
                 event.name,

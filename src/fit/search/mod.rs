@@ -38,7 +38,11 @@
 //!
 //! When the data show a caustic crossing ([`Seed::crossings`]: their sharpest rise and a later
 //! sharpest drop), every line through a caustic is also tried with the timing that puts its
-//! entry and exit at those times ([`anchor`]).
+//! entry and exit at those times ([`anchor`]), with its tE within a factor
+//! [`anchor::TE_REACH`] of the seed's. The best [`ANCHORED_KEEP`] of them are polished besides
+//! the map's best lines: before the polish, a line a little off the true path misfits the
+//! crossings' many points and ranks below blind lines that explain little, and the polish of
+//! those blind lines seldom finds the crossings.
 //!
 //! On a window that holds the host, the lines of [`GridRule::outer_lines`] are tried as well:
 //! lines that pass beside the window, out to a few of its half-diagonals, read wholly off the
@@ -138,7 +142,7 @@ use crate::store::library::LibrarySpec;
 use crate::store::Store;
 use anchor::{anchored_timings, inside_intervals};
 use evaluate::Scratch;
-use grid::{host_timing, strongest_feature, Line};
+use grid::{distinct, host_timing, strongest_feature, Line};
 use num_complex::Complex64;
 use polish::{best_lines, lowest, Measure, Polisher};
 use rayon::prelude::*;
@@ -155,6 +159,10 @@ pub const POLISH_TOLERANCE: f64 = 0.01;
 /// Lines kept per map by the plain search chi^2 beside the [`GridRule::keep`] by the capped
 /// one (see the module documentation).
 pub const PLAIN_KEEP: usize = 1;
+
+/// Lines timed on the data's crossings polished on each map besides the best by the search's
+/// chi^2 (when distinct from them).
+pub const ANCHORED_KEEP: usize = 3;
 /// Trial radii besides the grid's best at which each kept line is polished again.
 pub const RHO_RETRIES: usize = 2;
 
@@ -186,7 +194,8 @@ pub struct MapOutcome {
     /// Mass ratio.
     pub q: f64,
     /// The best distinct candidates by the search's chi^2, best first (empty if no trajectory
-    /// could be evaluated).
+    /// could be evaluated): the best [`GridRule::keep`] lines and up to [`ANCHORED_KEEP`]
+    /// lines timed on the data's crossings, each polished.
     pub candidates: Vec<Candidate>,
     /// With a point cap: the best [`PLAIN_KEEP`] candidates by the plain search chi^2 (no cap;
     /// their `chi2` is that), polished on it. Empty without a cap (then `candidates` ranks by
@@ -335,7 +344,7 @@ pub fn search_map(
     let readers = Readers::new(map, data, &rhos, &mut notes)?;
     let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
     all_times.sort_by(f64::total_cmp);
-    let lines = timed_lines(seed, map, rule, &readers, grid_rho, &all_times)?;
+    let (lines, anchored_count) = timed_lines(seed, map, rule, &readers, grid_rho, &all_times)?;
     let sets: Vec<Weighted> = data
         .iter()
         .map(|d| Weighted::new(d, rule.model_floor))
@@ -374,7 +383,18 @@ pub fn search_map(
         rho: rhos[r],
         trajectory: lines[i].trajectory,
     };
-    let kept = best_lines(&evaluated, Measure::Capped, rule.keep, steps, model_at);
+    let mut kept = best_lines(&evaluated, Measure::Capped, rule.keep, steps, model_at);
+    // The best anchored lines are polished even when blind timings rank above them (see "The
+    // grid rule"): their crossings sit on the data's, where a blind line's polish seldom gets.
+    let anchored = &evaluated[..anchored_count.min(evaluated.len())];
+    for (c, r) in best_lines(anchored, Measure::Capped, ANCHORED_KEEP, steps, model_at) {
+        if kept
+            .iter()
+            .all(|(k, _)| distinct(&k.model.trajectory, &c.model.trajectory, steps.0, steps.1))
+        {
+            kept.push((c, r));
+        }
+    }
     let kept_plain = if rule.point_cap.is_finite() {
         best_lines(&evaluated, Measure::Plain, PLAIN_KEEP, steps, model_at)
     } else {
@@ -461,7 +481,9 @@ pub fn trajectory_chi2_on_map(
 /// from the seed's valley about the host ([`host_timing`]) with every tE factor and t0 shift
 /// (in units of the line's tE), and, with [`GridRule::timed`] and a known anomaly, timed once
 /// more per tE factor so that its strongest feature on the smoothest reader falls at the
-/// anomaly. Only lines that cross the window at an observed time are kept.
+/// anomaly; the lines timed on the data's crossings ([`anchored_lines`]) come first, and
+/// their count is returned with the lines. Only lines that cross the window at an observed
+/// time are kept.
 fn timed_lines(
     seed: &Seed,
     map: &MagnificationMap,
@@ -469,7 +491,7 @@ fn timed_lines(
     readers: &Readers,
     grid_rho: f64,
     times: &[f64],
-) -> Result<Vec<Line>> {
+) -> Result<(Vec<Line>, usize)> {
     let smoothest = readers.convolved[0].iter().rev().flatten().next();
     let caustics: Vec<Vec<Complex64>> = if seed.crossings.is_empty() {
         Vec::new()
@@ -479,16 +501,10 @@ fn timed_lines(
             .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
             .collect()
     };
-    let mut lines = Vec::new();
+    let mut lines = anchored_lines(seed, map, rule, &caustics, grid_rho, times)?;
+    let anchored = lines.len();
     for (alpha, u0) in rule.lines_at(&map.window, seed, grid_rho) {
         let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
-        if !caustics.is_empty() {
-            let inside = inside_intervals(&caustics, alpha, u0);
-            for (t0, te) in anchored_timings(&inside, &seed.crossings, te) {
-                let tr = Trajectory::straight(t0, u0, te, alpha)?;
-                lines.extend(Line::observed(tr, &map.window, times));
-            }
-        }
         let base = Trajectory::straight(t0, u0, te, alpha)?;
         let feature = match (rule.timed, seed.anomaly, smoothest) {
             (true, Some(ta), Some(conv)) => {
@@ -516,6 +532,32 @@ fn timed_lines(
                 let tr = Trajectory::straight(t0 + shift * te * f, u0, te * f, alpha)?;
                 lines.push(Line::on(tr, &map.window));
             }
+        }
+    }
+    Ok((lines, anchored))
+}
+
+/// The lines through a caustic of `map` on the grid at `grid_rho`, each timed on the data's
+/// crossings ([`anchored_timings`]) with tE within [`anchor::TE_REACH`] of the seed's (not of
+/// the valley's at the line's impact parameter about the host, which runs to its bound where
+/// that nears 0, as a stellar binary's line through the caustic can pass close to the host).
+fn anchored_lines(
+    seed: &Seed,
+    map: &MagnificationMap,
+    rule: &GridRule,
+    caustics: &[Vec<Complex64>],
+    grid_rho: f64,
+    times: &[f64],
+) -> Result<Vec<Line>> {
+    let mut lines = Vec::new();
+    if caustics.is_empty() {
+        return Ok(lines);
+    }
+    for (alpha, u0) in rule.lines_at(&map.window, seed, grid_rho) {
+        let inside = inside_intervals(caustics, alpha, u0);
+        for (t0, te) in anchored_timings(&inside, &seed.crossings, seed.te) {
+            let tr = Trajectory::straight(t0, u0, te, alpha)?;
+            lines.extend(Line::observed(tr, &map.window, times));
         }
     }
     Ok(lines)
