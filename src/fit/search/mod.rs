@@ -136,7 +136,7 @@ use crate::error::{Error, Result};
 use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::photometry::DataSet;
 use crate::lens::LensSystem;
-use crate::map::{read_fits, MagnificationMap};
+use crate::map::{read_fits, MagnificationMap, Window};
 use crate::solve::ImageSolver;
 use crate::store::library::LibrarySpec;
 use crate::store::Store;
@@ -386,7 +386,7 @@ pub fn search_map(
     let mut kept = best_lines(&evaluated, Measure::Capped, rule.keep, steps, model_at);
     // The best anchored lines are polished even when blind timings rank above them (see "The
     // grid rule"): their crossings sit on the data's, where a blind line's polish seldom gets.
-    let anchored = &evaluated[..anchored_count.min(evaluated.len())];
+    let anchored = &evaluated[..anchored_count];
     for (c, r) in best_lines(anchored, Measure::Capped, ANCHORED_KEEP, steps, model_at) {
         if kept
             .iter()
@@ -501,9 +501,10 @@ fn timed_lines(
             .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
             .collect()
     };
-    let mut lines = anchored_lines(seed, map, rule, &caustics, grid_rho, times)?;
+    let grid = rule.lines_at(&map.window, seed, grid_rho);
+    let mut lines = anchored_lines(seed, &map.window, &grid, &caustics, times)?;
     let anchored = lines.len();
-    for (alpha, u0) in rule.lines_at(&map.window, seed, grid_rho) {
+    for &(alpha, u0) in &grid {
         let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
         let base = Trajectory::straight(t0, u0, te, alpha)?;
         let feature = match (rule.timed, seed.anomaly, smoothest) {
@@ -537,27 +538,26 @@ fn timed_lines(
     Ok((lines, anchored))
 }
 
-/// The lines through a caustic of `map` on the grid at `grid_rho`, each timed on the data's
+/// The lines of `grid` through a caustic, each timed on the data's
 /// crossings ([`anchored_timings`]) with tE within [`anchor::TE_REACH`] of the seed's (not of
 /// the valley's at the line's impact parameter about the host, which runs to its bound where
 /// that nears 0, as a stellar binary's line through the caustic can pass close to the host).
 fn anchored_lines(
     seed: &Seed,
-    map: &MagnificationMap,
-    rule: &GridRule,
+    window: &Window,
+    grid: &[(f64, f64)],
     caustics: &[Vec<Complex64>],
-    grid_rho: f64,
     times: &[f64],
 ) -> Result<Vec<Line>> {
     let mut lines = Vec::new();
     if caustics.is_empty() {
         return Ok(lines);
     }
-    for (alpha, u0) in rule.lines_at(&map.window, seed, grid_rho) {
+    for &(alpha, u0) in grid {
         let inside = inside_intervals(caustics, alpha, u0);
         for (t0, te) in anchored_timings(&inside, &seed.crossings, seed.te) {
             let tr = Trajectory::straight(t0, u0, te, alpha)?;
-            lines.extend(Line::observed(tr, &map.window, times));
+            lines.extend(Line::observed(tr, window, times));
         }
     }
     Ok(lines)
