@@ -174,24 +174,88 @@ pub fn inside_intervals(caustics: &[Vec<Complex64>], alpha: f64, u0: f64) -> Vec
     out
 }
 
-/// The `(t0, tE)` that put each stretch's entry and exit at each pair's times, with `tE` within
-/// [`TE_REACH`] of `te` either way.
+/// A line's timing on the data's crossings: an entry and an exit seen in the data at `times`
+/// `(T1, T2)`, and the stretch `taus` `(tau_a, tau_b)` of the line inside a caustic that they
+/// time. Cassan's (2008) coordinates of a crossing event: with `(alpha, u0)` they fix the line,
+/// and they are what the data fix best, so the polish of an anchored line moves in them.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Anchor {
+    /// Entry and exit times in the data (days).
+    pub times: (f64, f64),
+    /// Where along the line (in tE from its closest approach to the origin) it enters and leaves.
+    pub taus: (f64, f64),
+}
+
+impl Anchor {
+    /// The `(t0, tE)` that put the entry and exit at their times.
+    ///
+    /// ```
+    /// use causeway::fit::search::anchor::Anchor;
+    /// // Inside from tau = -0.1 to 0.3, seen at 100 and 108 d: tE 20 d, t0 102 d.
+    /// let a = Anchor { times: (100.0, 108.0), taus: (-0.1, 0.3) };
+    /// let (t0, te) = a.timing();
+    /// assert!((t0 - 102.0).abs() < 1e-9 && (te - 20.0).abs() < 1e-9);
+    /// ```
+    pub fn timing(&self) -> (f64, f64) {
+        let te = (self.times.1 - self.times.0) / (self.taus.1 - self.taus.0);
+        (self.times.0 - self.taus.0 * te, te)
+    }
+
+    /// The anchor of the line `(alpha, u0)` on the crossings at `times`: its stretch inside
+    /// `caustics` nearest this anchor's in tau (the same stretch, for a line moved a little).
+    /// `None` where the line misses every caustic or the times are not in order.
+    ///
+    /// ```
+    /// use causeway::fit::search::anchor::Anchor;
+    /// use num_complex::Complex64;
+    /// let square: Vec<Complex64> = [(-1.0, -1.0), (1.0, -1.0), (1.0, 1.0), (-1.0, 1.0), (-1.0, -1.0)]
+    ///     .iter()
+    ///     .map(|&(x, y)| Complex64::new(x, y))
+    ///     .collect();
+    /// let a = Anchor { times: (100.0, 108.0), taus: (-1.0, 1.0) };
+    /// // Turned by 45 degrees through the centre, the line runs sqrt 2 either way inside.
+    /// let b = a.moved(&[square.clone()], std::f64::consts::FRAC_PI_4, 0.0, (100.0, 110.0)).unwrap();
+    /// assert!((b.taus.0 + 2f64.sqrt()).abs() < 1e-12 && (b.taus.1 - 2f64.sqrt()).abs() < 1e-12);
+    /// assert!(a.moved(&[square], 0.0, 1.5, (100.0, 108.0)).is_none());
+    /// ```
+    pub fn moved(
+        &self,
+        caustics: &[Vec<Complex64>],
+        alpha: f64,
+        u0: f64,
+        times: (f64, f64),
+    ) -> Option<Anchor> {
+        if times.1 <= times.0 {
+            return None;
+        }
+        let off = |t: &(f64, f64)| (t.0 - self.taus.0).abs() + (t.1 - self.taus.1).abs();
+        let taus = inside_intervals(caustics, alpha, u0)
+            .into_iter()
+            .min_by(|a, b| off(a).total_cmp(&off(b)))?;
+        Some(Anchor { times, taus })
+    }
+}
+
+/// The anchors of each stretch with each pair's times whose tE is within [`TE_REACH`] of `te`
+/// either way.
 ///
 /// ```
 /// use causeway::fit::search::anchor::anchored_timings;
 /// // A line inside a caustic from tau = -0.1 to 0.3, crossings seen at 100 and 108 d: tE 20 d,
 /// // t0 102 d. A tE of 400 d is out of reach of a seed of 20 d.
-/// let timings = anchored_timings(&[(-0.1, 0.3), (0.5, 0.52)], &[(100.0, 108.0)], 20.0);
-/// assert_eq!(timings.len(), 1);
-/// assert!((timings[0].0 - 102.0).abs() < 1e-9 && (timings[0].1 - 20.0).abs() < 1e-9);
+/// let anchors = anchored_timings(&[(-0.1, 0.3), (0.5, 0.52)], &[(100.0, 108.0)], 20.0);
+/// assert_eq!(anchors.len(), 1);
+/// let (t0, te) = anchors[0].timing();
+/// assert!((t0 - 102.0).abs() < 1e-9 && (te - 20.0).abs() < 1e-9);
 /// ```
-pub fn anchored_timings(inside: &[(f64, f64)], pairs: &[(f64, f64)], te: f64) -> Vec<(f64, f64)> {
+pub fn anchored_timings(inside: &[(f64, f64)], pairs: &[(f64, f64)], te: f64) -> Vec<Anchor> {
     let mut out = Vec::new();
-    for &(ta, tb) in inside {
-        for &(t1, t2) in pairs {
-            let anchored = (t2 - t1) / (tb - ta);
+    for &taus in inside {
+        for &times in pairs {
+            let anchor = Anchor { times, taus };
+            let anchored = anchor.timing().1;
             if anchored >= te / TE_REACH && anchored <= te * TE_REACH {
-                out.push((t1 - ta * anchored, anchored));
+                out.push(anchor);
             }
         }
     }

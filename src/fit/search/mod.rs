@@ -42,7 +42,11 @@
 //! [`anchor::TE_REACH`] of the seed's. The best [`ANCHORED_KEEP`] of them are polished besides
 //! the map's best lines: before the polish, a line a little off the true path misfits the
 //! crossings' many points and ranks below blind lines that explain little, and the polish of
-//! those blind lines seldom finds the crossings.
+//! those blind lines seldom finds the crossings. An anchored line is polished in Cassan's
+//! crossing coordinates, `(alpha, u0, T1, T2)` with the timing following the crossing times
+//! ([`anchor::Anchor`]): in `(alpha, u0, t0, tE)` every step of the simplex moved the
+//! crossings off the data, and it stopped far from the minimum that the crossing coordinates
+//! reach (on the truth's neighbours of a stellar binary, chi^2 16,500 against 47,000).
 //!
 //! On a window that holds the host, the lines of [`GridRule::outer_lines`] are tried as well:
 //! lines that pass beside the window, out to a few of its half-diagonals, read wholly off the
@@ -121,6 +125,7 @@
 pub mod anchor;
 mod evaluate;
 mod grid;
+mod lines;
 mod polish;
 mod profile;
 mod readers;
@@ -136,15 +141,16 @@ use crate::error::{Error, Result};
 use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::photometry::DataSet;
 use crate::lens::LensSystem;
-use crate::map::{read_fits, MagnificationMap, Window};
+use crate::map::{read_fits, MagnificationMap};
 use crate::solve::ImageSolver;
 use crate::store::library::LibrarySpec;
 use crate::store::Store;
-use anchor::{anchored_timings, inside_intervals};
+use anchor::Anchor;
 use evaluate::Scratch;
-use grid::{distinct, host_timing, strongest_feature, Line};
+use grid::{distinct, Line};
+use lines::timed_lines;
 use num_complex::Complex64;
-use polish::{best_lines, lowest, Measure, Polisher};
+use polish::{best_lines, lowest, Kept, Measure, Polisher};
 use rayon::prelude::*;
 use readers::Readers;
 use std::path::PathBuf;
@@ -153,9 +159,11 @@ use sums::Weighted;
 
 /// Iteration limit of the polish of each kept candidate on its map.
 pub const POLISH_ITERATIONS: u64 = 300;
-/// Convergence of the polish: the spread (standard deviation) of chi^2 over the simplex. The
-/// search only ranks; the refinement fits exactly.
-pub const POLISH_TOLERANCE: f64 = 0.01;
+/// Convergence of the polish: the spread (standard deviation) of chi^2 over the simplex, one
+/// unit of chi^2. The search only ranks, with models whose own errors (a map's pixels, its
+/// (s, q) a grid step off) cost far more; the refinement fits exactly. (0.01 took twice the
+/// evaluations for the same ranking: docs/recovery.md.)
+pub const POLISH_TOLERANCE: f64 = 1.0;
 /// Lines kept per map by the plain search chi^2 beside the [`GridRule::keep`] by the capped
 /// one (see the module documentation).
 pub const PLAIN_KEEP: usize = 1;
@@ -344,7 +352,15 @@ pub fn search_map(
     let readers = Readers::new(map, data, &rhos, &mut notes)?;
     let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
     all_times.sort_by(f64::total_cmp);
-    let (lines, anchored_count) = timed_lines(seed, map, rule, &readers, grid_rho, &all_times)?;
+    let caustics: Vec<Vec<Complex64>> = if seed.crossings.is_empty() {
+        Vec::new()
+    } else {
+        caustic_curves(lens)?
+            .iter()
+            .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
+            .collect()
+    };
+    let (lines, anchors) = timed_lines(seed, map, rule, &readers, grid_rho, &caustics, &all_times)?;
     let sets: Vec<Weighted> = data
         .iter()
         .map(|d| Weighted::new(d, rule.model_floor))
@@ -383,20 +399,32 @@ pub fn search_map(
         rho: rhos[r],
         trajectory: lines[i].trajectory,
     };
-    let mut kept = best_lines(&evaluated, Measure::Capped, rule.keep, steps, model_at);
-    // The best anchored lines are polished even when blind timings rank above them (see "The
-    // grid rule"): their crossings sit on the data's, where a blind line's polish seldom gets.
-    let anchored = &evaluated[..anchored_count];
-    for (c, r) in best_lines(anchored, Measure::Capped, ANCHORED_KEEP, steps, model_at) {
-        if kept
-            .iter()
-            .all(|(k, _)| distinct(&k.model.trajectory, &c.model.trajectory, steps.0, steps.1))
-        {
-            kept.push((c, r));
+    // Lines timed on the data's crossings are polished in their crossing coordinates, and the
+    // best of them even when blind timings rank above them (see "The grid rule"): their
+    // crossings sit on the data's, where a blind line's polish seldom gets.
+    let anchor_of = |k: Kept| (k.candidate, k.radius, anchors.get(k.line).copied());
+    let mut kept: Vec<_> = best_lines(&evaluated, Measure::Capped, rule.keep, steps, model_at)
+        .into_iter()
+        .map(anchor_of)
+        .collect();
+    let anchored = &evaluated[..anchors.len()];
+    for k in best_lines(anchored, Measure::Capped, ANCHORED_KEEP, steps, model_at) {
+        if kept.iter().all(|(c, _, _)| {
+            distinct(
+                &c.model.trajectory,
+                &k.candidate.model.trajectory,
+                steps.0,
+                steps.1,
+            )
+        }) {
+            kept.push(anchor_of(k));
         }
     }
     let kept_plain = if rule.point_cap.is_finite() {
         best_lines(&evaluated, Measure::Plain, PLAIN_KEEP, steps, model_at)
+            .into_iter()
+            .map(anchor_of)
+            .collect()
     } else {
         Vec::new()
     };
@@ -407,13 +435,14 @@ pub fn search_map(
         rule,
         steps,
         window: &map.window,
+        caustics: &caustics,
         measure,
     };
-    let polish = |kept: &[(Candidate, usize)], measure| -> Result<Vec<Candidate>> {
+    let polish = |kept: &[(Candidate, usize, Option<Anchor>)], measure| -> Result<Vec<Candidate>> {
         let polisher = polisher(measure);
         let mut polished: Vec<Candidate> = kept
             .par_iter()
-            .map(|(c, r)| polisher.run(c, *r))
+            .map(|(c, r, a)| polisher.run(c, *r, *a))
             .collect::<Result<_>>()?;
         polished.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
         Ok(polished)
@@ -475,92 +504,6 @@ pub fn trajectory_chi2_on_map(
     let mut scratch = Scratch::default();
     scratch.trajectory_chi2(&mut solver, &sets, &readers, &line, rule, None)?;
     Ok(readers.rhos.iter().copied().zip(scratch.chi2).collect())
-}
-
-/// The grid's lines on `map` with their timings: each (alpha, u0) of [`GridRule::lines`] timed
-/// from the seed's valley about the host ([`host_timing`]) with every tE factor and t0 shift
-/// (in units of the line's tE), and, with [`GridRule::timed`] and a known anomaly, timed once
-/// more per tE factor so that its strongest feature on the smoothest reader falls at the
-/// anomaly; the lines timed on the data's crossings ([`anchored_lines`]) come first, and
-/// their count is returned with the lines. Only lines that cross the window at an observed
-/// time are kept.
-fn timed_lines(
-    seed: &Seed,
-    map: &MagnificationMap,
-    rule: &GridRule,
-    readers: &Readers,
-    grid_rho: f64,
-    times: &[f64],
-) -> Result<(Vec<Line>, usize)> {
-    let smoothest = readers.convolved[0].iter().rev().flatten().next();
-    let caustics: Vec<Vec<Complex64>> = if seed.crossings.is_empty() {
-        Vec::new()
-    } else {
-        caustic_curves(&map.provenance.lens)?
-            .iter()
-            .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
-            .collect()
-    };
-    let grid = rule.lines_at(&map.window, seed, grid_rho);
-    let mut lines = anchored_lines(seed, &map.window, &grid, &caustics, times)?;
-    let anchored = lines.len();
-    for &(alpha, u0) in &grid {
-        let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
-        let base = Trajectory::straight(t0, u0, te, alpha)?;
-        let feature = match (rule.timed, seed.anomaly, smoothest) {
-            (true, Some(ta), Some(conv)) => {
-                strongest_feature(&base, &map.window, conv, &readers.host, grid_rho)
-                    .map(|tau| (ta, tau))
-            }
-            _ => None,
-        };
-        for &f in &rule.te_factors {
-            let te = te * f;
-            for &shift in &rule.t0_shifts {
-                let tr = Trajectory::straight(t0 + shift * te, u0, te, alpha)?;
-                lines.extend(Line::observed(tr, &map.window, times));
-            }
-            if let Some((ta, tau)) = feature {
-                let tr = Trajectory::straight(ta - tau * te, u0, te, alpha)?;
-                lines.extend(Line::observed(tr, &map.window, times));
-            }
-        }
-    }
-    for (alpha, u0) in rule.outer_lines(&map.window, seed, readers.host.position) {
-        let (t0, te) = host_timing(seed, readers.host.position, alpha, u0);
-        for &f in &rule.te_factors {
-            for &shift in &rule.t0_shifts {
-                let tr = Trajectory::straight(t0 + shift * te * f, u0, te * f, alpha)?;
-                lines.push(Line::on(tr, &map.window));
-            }
-        }
-    }
-    Ok((lines, anchored))
-}
-
-/// The lines of `grid` through a caustic, each timed on the data's
-/// crossings ([`anchored_timings`]) with tE within [`anchor::TE_REACH`] of the seed's (not of
-/// the valley's at the line's impact parameter about the host, which runs to its bound where
-/// that nears 0, as a stellar binary's line through the caustic can pass close to the host).
-fn anchored_lines(
-    seed: &Seed,
-    window: &Window,
-    grid: &[(f64, f64)],
-    caustics: &[Vec<Complex64>],
-    times: &[f64],
-) -> Result<Vec<Line>> {
-    let mut lines = Vec::new();
-    if caustics.is_empty() {
-        return Ok(lines);
-    }
-    for &(alpha, u0) in grid {
-        let inside = inside_intervals(caustics, alpha, u0);
-        for (t0, te) in anchored_timings(&inside, &seed.crossings, seed.te) {
-            let tr = Trajectory::straight(t0, u0, te, alpha)?;
-            lines.extend(Line::observed(tr, window, times));
-        }
-    }
-    Ok(lines)
 }
 
 /// The distinct s and the distinct q values of the outcomes, each sorted: the axes of their

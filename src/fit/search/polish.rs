@@ -1,6 +1,7 @@
 //! The kept lines of a map: the best distinct lines of the grid by the capped and by the
 //! plain search chi^2, and the polish of each on its map.
 
+use super::anchor::Anchor;
 use super::evaluate::Scratch;
 use super::grid::{distinct, GridRule, Line};
 use super::readers::Readers;
@@ -11,6 +12,7 @@ use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::optimize::minimize;
 use crate::map::Window;
 use crate::solve::ImageSolver;
+use num_complex::Complex64;
 
 /// The lowest finite value of `chi2` and its index.
 pub(super) fn lowest(chi2: &[f64]) -> Option<(f64, usize)> {
@@ -28,16 +30,26 @@ pub(super) enum Measure {
     Plain,
 }
 
+/// A line of the grid kept for the polish.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Kept {
+    pub(super) candidate: Candidate,
+    /// Index of its best trial radius.
+    pub(super) radius: usize,
+    /// Index of the line in the grid.
+    pub(super) line: usize,
+}
+
 /// The `keep` best distinct lines by `measure` of the grid's evaluated lines (each its best
-/// capped and plain `(chi2, radius index)`), as candidates with their radius index; lines
-/// closer than the grid's `steps` in (alpha, u0) to a better one are skipped.
+/// capped and plain `(chi2, radius index)`); lines closer than the grid's `steps` in
+/// (alpha, u0) to a better one are skipped.
 pub(super) fn best_lines(
     evaluated: &[Option<[(f64, usize); 2]>],
     measure: Measure,
     keep: usize,
     steps: (f64, f64),
     model_at: impl Fn(usize, usize) -> BinaryModel,
-) -> Vec<(Candidate, usize)> {
+) -> Vec<Kept> {
     let m = measure as usize;
     let mut ranked: Vec<(f64, usize, usize)> = evaluated
         .iter()
@@ -45,14 +57,22 @@ pub(super) fn best_lines(
         .filter_map(|(i, e)| e.map(|e| (e[m].0, i, e[m].1)))
         .collect();
     ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-    let mut kept: Vec<(Candidate, usize)> = Vec::new();
-    for (chi2, i, r) in ranked {
-        let model = model_at(i, r);
-        if kept
-            .iter()
-            .all(|(c, _)| distinct(&c.model.trajectory, &model.trajectory, steps.0, steps.1))
-        {
-            kept.push((Candidate { model, chi2 }, r));
+    let mut kept: Vec<Kept> = Vec::new();
+    for (chi2, line, radius) in ranked {
+        let model = model_at(line, radius);
+        if kept.iter().all(|k| {
+            distinct(
+                &k.candidate.model.trajectory,
+                &model.trajectory,
+                steps.0,
+                steps.1,
+            )
+        }) {
+            kept.push(Kept {
+                candidate: Candidate { model, chi2 },
+                radius,
+                line,
+            });
             if kept.len() == keep {
                 break;
             }
@@ -70,6 +90,8 @@ pub(super) struct Polisher<'a> {
     /// The grid's steps in alpha and u0, the simplex's first steps.
     pub(super) steps: (f64, f64),
     pub(super) window: &'a Window,
+    /// The map's caustics, where lines are anchored on the data's crossings.
+    pub(super) caustics: &'a [Vec<Complex64>],
     /// The chi^2 it minimises.
     pub(super) measure: Measure,
 }
@@ -79,10 +101,17 @@ impl Polisher<'_> {
     /// chi^2 over (alpha, u0, t0, ln tE) at that radius. The polished line is then read at
     /// every trial radius and polished again at the [`RHO_RETRIES`] best others (a caustic
     /// crossing seen at a few points makes chi^2 rugged in rho, and the grid's best radius is
-    /// often not the one nearest the truth); the best of these is kept.
-    pub(super) fn run(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+    /// often not the one nearest the truth); the best of these is kept. A line timed on the
+    /// data's crossings (`anchor`) is polished in the crossing coordinates instead:
+    /// `(alpha, u0, T1, T2)`, its timing following the crossing times (see [`Anchor`]).
+    pub(super) fn run(
+        &self,
+        start: &Candidate,
+        r: usize,
+        anchor: Option<Anchor>,
+    ) -> Result<Candidate> {
         let trials = self.rule.rhos.len();
-        let mut best = self.polish_at(start, r)?;
+        let (mut best, anchor) = self.polish_at(start, r, anchor)?;
         let chi2 = self.chi2_all(&Line::on(best.model.trajectory, self.window));
         let mut others: Vec<usize> = (0..trials)
             .filter(|&i| i != r && chi2[i].is_finite())
@@ -103,7 +132,7 @@ impl Polisher<'_> {
                 },
                 chi2: chi2[i],
             };
-            let polished = self.polish_at(&at_trial, i)?;
+            let (polished, _) = self.polish_at(&at_trial, i, anchor)?;
             if polished.chi2 < best.chi2 || best.model.rho == from.model.rho && r >= trials {
                 best = polished;
             }
@@ -129,11 +158,45 @@ impl Polisher<'_> {
         }
     }
 
-    /// The polish at one radius; keeps the start if the minimisation finds nothing better.
-    fn polish_at(&self, start: &Candidate, r: usize) -> Result<Candidate> {
+    /// The polish at one radius, in the crossing coordinates of `anchor` where there is one;
+    /// keeps the start if the minimisation finds nothing better. Returns the polished line's
+    /// anchor with it.
+    fn polish_at(
+        &self,
+        start: &Candidate,
+        r: usize,
+        anchor: Option<Anchor>,
+    ) -> Result<(Candidate, Option<Anchor>)> {
+        let l = start.model.trajectory.line();
+        // The coordinates: (alpha, u0, t0, ln tE), or (alpha, u0, T1, T2) for an anchored line.
+        let trajectory = |p: &[f64]| -> Option<(Trajectory, Option<Anchor>)> {
+            let (t0, te, moved) = match anchor {
+                None => (p[2], p[3].exp(), None),
+                Some(a) => {
+                    let moved = a.moved(self.caustics, p[0], p[1], (p[2], p[3]))?;
+                    let (t0, te) = moved.timing();
+                    (t0, te, Some(moved))
+                }
+            };
+            Some((Trajectory::straight(t0, p[1], te, p[0]).ok()?, moved))
+        };
+        let (x0, step) = match anchor {
+            None => (
+                [l.alpha, l.u0, l.t0, l.te.ln()],
+                [self.steps.0, self.steps.1, 0.01 * l.te, 0.03],
+            ),
+            // The crossing times move by a source radius's crossing time at first.
+            Some(a) => {
+                let h = self.readers.rhos[r] * l.te;
+                (
+                    [l.alpha, l.u0, a.times.0, a.times.1],
+                    [self.steps.0, self.steps.1, h, h],
+                )
+            }
+        };
         let work = std::sync::Mutex::new((self.solver.clone(), Scratch::default()));
         let chi2 = |p: &[f64]| -> f64 {
-            let Ok(trajectory) = Trajectory::straight(p[2], p[1], p[3].exp(), p[0]) else {
+            let Some((trajectory, _)) = trajectory(p) else {
                 return f64::INFINITY;
             };
             let line = Line::on(trajectory, self.window);
@@ -151,20 +214,21 @@ impl Polisher<'_> {
                 Err(_) => f64::INFINITY,
             }
         };
-        let l = start.model.trajectory.line();
-        let x0 = [l.alpha, l.u0, l.t0, l.te.ln()];
-        let step = [self.steps.0, self.steps.1, 0.01 * l.te, 0.03];
         let found = minimize(&chi2, &x0, &step, POLISH_TOLERANCE, POLISH_ITERATIONS)?;
-        if found.value >= start.chi2 {
-            return Ok(*start);
-        }
-        let p = &found.x;
-        Ok(Candidate {
-            model: BinaryModel {
-                trajectory: Trajectory::straight(p[2], p[1], p[3].exp(), p[0])?,
-                ..start.model
+        let polished = trajectory(&found.x).filter(|_| found.value < start.chi2);
+        let Some((trajectory, moved)) = polished else {
+            return Ok((*start, anchor));
+        };
+        let model = BinaryModel {
+            trajectory,
+            ..start.model
+        };
+        Ok((
+            Candidate {
+                model,
+                chi2: found.value,
             },
-            chi2: found.value,
-        })
+            moved,
+        ))
     }
 }
