@@ -18,6 +18,10 @@
 //! cargo run --release --example recovery -- --variant 2       # each event observed another way
 //! ```
 //!
+//! `--drawn K` fits draw K of `fit::simulate::drawn::drawn_events` instead: eight events, one of
+//! each kind, with (s, q) and the path drawn afresh (named `wide`, `close`, `central`,
+//! `resonant`, `stellar`, `cusp`, `lowq`, `single`).
+//!
 //! `--point-cap CHI2` sets the search's point cap (`search --point-cap`).
 //!
 //! `--variant K` fits variant K of each event instead (`BenchEvent::variant`: the same lens and
@@ -31,6 +35,7 @@
 use causeway::cli::progress::Reporter;
 use causeway::fit::event::{fit_event, FitOptions};
 use causeway::fit::search::{maps_of_spec, LibraryMap, MapSource};
+use causeway::fit::simulate::drawn::drawn_events;
 use causeway::fit::simulate::events::{log_steps, recovery_events, BenchEvent, BROAD_LIBRARY};
 use causeway::store::library::{self, LibrarySpec};
 use causeway::store::Store;
@@ -53,8 +58,15 @@ fn main() {
         .iter()
         .filter(|a| !a.starts_with("--") && a.parse::<f64>().is_err())
         .collect();
-    let events: Vec<BenchEvent> = recovery_events()
-        .unwrap()
+    let drawn: Option<u64> = args
+        .iter()
+        .position(|a| a == "--drawn")
+        .map(|i| args[i + 1].parse().expect("--drawn takes a number"));
+    let catalogue = match drawn {
+        Some(k) => drawn_events(k).unwrap(),
+        None => recovery_events().unwrap(),
+    };
+    let events: Vec<BenchEvent> = catalogue
         .into_iter()
         .filter(|e| names.is_empty() || names.iter().any(|n| *n == e.name))
         .map(|e| e.variant(variant).unwrap())

@@ -90,7 +90,12 @@ pub struct BenchEvent {
 impl BenchEvent {
     /// The observing plan of the event (follow-up over its largest departure).
     pub fn plan(&self) -> Result<ObservingPlan> {
-        let t = departure_time(&self.truth, self.season)?;
+        // Point source (rho at most 1e-3): the departure's place, not its size, is wanted.
+        let point = BinaryModel {
+            rho: self.truth.rho.min(1e-3),
+            ..self.truth
+        };
+        let (t, _) = departure(&point, self.season)?;
         Ok(ObservingPlan::survey_with_followup(
             self.season,
             &[(t - 1.0, t + 1.5)],
@@ -145,17 +150,13 @@ impl BenchEvent {
 }
 
 /// The time where the light curve of `model` departs most from its host's own (Paczynski's
-/// curve about the heavier lens), sampled every 0.005 days over `season`.
-fn departure_time(model: &BinaryModel, season: (f64, f64)) -> Result<f64> {
+/// curve about the heavier lens), sampled every 0.005 days over `season`, and the departure
+/// there, `|ln(A / A_host)|`.
+pub(super) fn departure(model: &BinaryModel, season: (f64, f64)) -> Result<(f64, f64)> {
     let n = ((season.1 - season.0) / 0.005) as usize + 1;
     let times = time_range(season.0, season.1, n)?;
-    // Point source: the departure's place, not its size, is wanted.
-    let point = BinaryModel {
-        rho: model.rho.min(1e-3),
-        ..*model
-    };
-    let a = point.magnifications(&times, LimbDarkening::Uniform, 1e-3)?;
-    let host = point.lens()?.lenses()[0];
+    let a = model.magnifications(&times, LimbDarkening::Uniform, 1e-3)?;
+    let host = model.lens()?.lenses()[0];
     let mut best = (model.trajectory.line().t0, 0.0);
     for (&t, &a) in times.iter().zip(&a) {
         let (x, y) = model.trajectory.position(t);
@@ -165,7 +166,7 @@ fn departure_time(model: &BinaryModel, season: (f64, f64)) -> Result<f64> {
             best = (t, d);
         }
     }
-    Ok(best.0)
+    Ok(best)
 }
 
 /// The sixteen events of the recovery benchmark, two of each [`EventKind`], blending from 0

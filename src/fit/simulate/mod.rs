@@ -13,6 +13,7 @@
 //! - [`plan::ObservingPlan`]: several sites with nightly windows, lost nights, follow-up runs,
 //!   brightness-dependent errors, a true error scale, outliers and a time offset (see [`plan`]).
 
+pub mod drawn;
 pub mod events;
 mod observe;
 pub mod plan;
