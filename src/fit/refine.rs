@@ -152,16 +152,45 @@ pub(super) fn from_vector(p: &[f64]) -> Result<BinaryModel> {
     })
 }
 
-/// The same curve with `u0 >= 0` and alpha in `[0, 2 pi)` (the mirror twin when `u0 < 0`).
+/// The same curve with `q <= 1`, `u0 >= 0` and alpha in `[0, 2 pi)`.
+///
+/// A minimiser free in `ln q` can walk past `q = 1`: the binary of mass ratio `1/q` is the same
+/// lens with its masses named the other way, which is the lens turned by pi about the centre of
+/// mass, so `(q, alpha) -> (1/q, alpha + pi)` (s, tE and rho are in units of the total mass's
+/// Einstein radius and do not change). With `u0 < 0`, the mirror twin `(-u0, -alpha)` (the
+/// static model's [`Trajectory::mirrored`]).
+///
+/// ```
+/// use causeway::fit::model::{BinaryModel, Trajectory};
+/// use causeway::fit::refine::canonical;
+/// use causeway::source::LimbDarkening;
+/// let m = BinaryModel { s: 0.9, q: 2.5, rho: 2e-3,
+///     trajectory: Trajectory::straight(0.0, -0.1, 20.0, 1.0).unwrap() };
+/// let c = canonical(&m);
+/// assert!((c.q - 0.4).abs() < 1e-15 && c.trajectory.line().u0 == 0.1);
+/// // The same light curve.
+/// let times: Vec<f64> = (-40..=40).map(|k| k as f64 * 0.5).collect();
+/// let a = m.magnifications(&times, LimbDarkening::Uniform, 1e-4).unwrap();
+/// let b = c.magnifications(&times, LimbDarkening::Uniform, 1e-4).unwrap();
+/// for (x, y) in a.iter().zip(&b) {
+///     assert!((x / y - 1.0).abs() < 1e-3);
+/// }
+/// ```
 pub fn canonical(model: &BinaryModel) -> BinaryModel {
-    let tr = if model.trajectory.line().u0 < 0.0 {
-        model.trajectory.mirrored()
+    let (q, turn) = if model.q > 1.0 {
+        (1.0 / model.q, PI)
     } else {
-        model.trajectory
+        (model.q, 0.0)
     };
-    let l = *tr.line();
+    let l = *model.trajectory.line();
+    let (u0, alpha) = if l.u0 < 0.0 {
+        (-l.u0, -(l.alpha + turn))
+    } else {
+        (l.u0, l.alpha + turn)
+    };
     BinaryModel {
-        trajectory: Trajectory::straight(l.t0, l.u0, l.te, l.alpha.rem_euclid(TAU))
+        q,
+        trajectory: Trajectory::straight(l.t0, u0, l.te, alpha.rem_euclid(TAU))
             .expect("a valid trajectory stays valid"),
         ..*model
     }
