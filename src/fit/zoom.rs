@@ -15,24 +15,20 @@
 //! to the truth while the local minimum's grid point stays in a wrong one.
 //!
 //! The maps are made as the library's are ([`MapRecipe`]: engine, density and pixels of one of
-//! its maps, a window on every caustic), in memory, and not kept; of a binary's two windows
-//! (central caustic, the others) only those that the lines kept by the walks so far pass near
-//! ([`ZOOM_REACH`]): the other window's map could only serve lines the grid point did not
-//! rank among its best.
+//! its maps, a window on every caustic), in memory, and not kept.
 
 use super::minima::best_start;
 use super::model::BinaryModel;
 use super::photometry::DataSet;
 use super::refine::ladder_start;
 use super::search::{
-    grid_axes, merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed, OUTER_REACH,
+    grid_axes, merge_grid_points, search_maps, GridRule, MapOutcome, MapSource, Seed,
 };
 use crate::engine;
 use crate::error::Result;
 use crate::lens::LensSystem;
-use crate::map::{MagnificationMap, Window};
+use crate::map::MagnificationMap;
 use crate::store::library::WindowRule;
-use std::f64::consts::FRAC_1_SQRT_2;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// How far the fit zooms.
@@ -82,75 +78,17 @@ impl MapRecipe {
     /// The maps of the binary (s, q): one per caustic window ([`WindowRule::Caustics`], margin
     /// 1.5), kept in memory for the search, so without accuracy certificates.
     pub fn build(&self, s: f64, q: f64) -> Result<Vec<MagnificationMap>> {
-        self.build_near(s, q, &[])
-    }
-
-    /// As [`MapRecipe::build`], but only the windows that one of `lines` (straight paths,
-    /// `(alpha, u0)`) passes within [`ZOOM_REACH`] half-diagonals of; every window when none
-    /// does (or `lines` is empty).
-    ///
-    /// ```
-    /// use causeway::fit::zoom::MapRecipe;
-    /// let recipe = MapRecipe { engine: "polygon".into(), density: 0.2, pixels: 40 };
-    /// // A wide planet: a window on the central caustic and one on the planetary caustic.
-    /// assert_eq!(recipe.build(1.6, 1e-3).unwrap().len(), 2);
-    /// // A path along the axis at u0 = 0.01 passes both; one at u0 = 2 neither: both built.
-    /// assert_eq!(recipe.build_near(1.6, 1e-3, &[(0.0, 0.01)]).unwrap().len(), 2);
-    /// assert_eq!(recipe.build_near(1.6, 1e-3, &[(0.0, 2.0)]).unwrap().len(), 2);
-    /// // A path across the axis through the planetary caustic passes the central one far off.
-    /// let maps = recipe.build_near(1.6, 1e-3, &[(std::f64::consts::FRAC_PI_2, -0.97)]).unwrap();
-    /// assert_eq!(maps.len(), 1);
-    /// assert!(maps[0].window.center.0 > 0.5);
-    /// ```
-    pub fn build_near(
-        &self,
-        s: f64,
-        q: f64,
-        lines: &[(f64, f64)],
-    ) -> Result<Vec<MagnificationMap>> {
         let lens = LensSystem::binary(s, q)?;
         let engine = engine::by_name(&self.engine, self.density)?;
-        let windows = WindowRule::Caustics {
+        WindowRule::Caustics {
             margin: 1.5,
             pixels: self.pixels,
         }
-        .windows(&lens)?;
-        let passed: Vec<&Window> = windows.iter().filter(|w| passes_near(w, lines)).collect();
-        let chosen = if passed.is_empty() {
-            windows.iter().collect()
-        } else {
-            passed
-        };
-        chosen
-            .into_iter()
-            .map(|w| engine.build_certified(&lens, w, &(), false))
-            .collect()
+        .windows(&lens)?
+        .iter()
+        .map(|w| engine.build_certified(&lens, w, &(), false))
+        .collect()
     }
-}
-
-/// How near a zoom's start lines must pass a window's centre for the window to be built, in
-/// its half-diagonals: twice the reach of the search's lines beside a central window
-/// ([`OUTER_REACH`], plus the window itself), so that a caustic moved by the zoom's step
-/// stays within it.
-pub const ZOOM_REACH: f64 = 2.0 * (OUTER_REACH + 1.0);
-
-/// Whether one of `lines` (`(alpha, u0)`) passes within [`ZOOM_REACH`] half-diagonals of the
-/// centre of `window`.
-fn passes_near(window: &Window, lines: &[(f64, f64)]) -> bool {
-    let reach = ZOOM_REACH * window.width * FRAC_1_SQRT_2;
-    let (x, y) = window.center;
-    lines.iter().any(|&(alpha, u0)| {
-        let (sin, cos) = alpha.sin_cos();
-        (-x * sin + y * cos - u0).abs() <= reach
-    })
-}
-
-/// The paths `(alpha, u0)` of every candidate an outcome keeps.
-fn kept_lines(outcome: &MapOutcome) -> impl Iterator<Item = (f64, f64)> + '_ {
-    outcome.candidates.iter().chain(&outcome.plain).map(|c| {
-        let l = c.model.trajectory.line();
-        (l.alpha, l.u0)
-    })
 }
 
 /// The natural-log distance from `v` to its nearest other value on `axis` (0 if none).
@@ -220,15 +158,12 @@ impl Zoomer<'_> {
                     points.push(p);
                 }
             }
-            // Only the windows the walks' kept lines pass near are built: a wide planet's
-            // lines through its planetary caustic need no map of the central one.
-            let lines: Vec<(f64, f64)> = kept_lines(&capped).chain(kept_lines(&plain)).collect();
             // The maps of every point are searched together, so that the threads share them
             // (one map's polish of its few candidates would leave threads idle).
             let mut maps = Vec::new();
             let mut ends = Vec::new();
             for (s, q) in points {
-                let built = self.recipe.build_near(s, q, &lines)?;
+                let built = self.recipe.build(s, q)?;
                 if built.is_empty() {
                     progress();
                 } else {

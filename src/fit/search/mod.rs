@@ -133,7 +133,7 @@ mod seed;
 mod sums;
 
 pub use evaluate::{CLEARANCE_REACH, MAX_STRIDE};
-pub use grid::{GridRule, OUTER_REACH};
+pub use grid::GridRule;
 pub use seed::{Seed, ValleyPoint};
 
 use crate::caustics::caustic_curves;
