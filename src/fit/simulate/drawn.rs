@@ -9,20 +9,21 @@
 //! | --- | --- | --- | --- |
 //! | wide planet | 1.3 to 1.9 | 5e-4 to 5e-3 | through the planetary caustic |
 //! | close planet | 0.65 to 0.85 | 1e-3 to 1e-2 | through one of the two off-axis caustics |
-//! | central caustic | 0.75 to 0.9 or 1.15 to 1.4 | 3e-4 to 1e-3 | u0 0.001 to 0.01, through the central caustic |
+//! | central caustic | 0.75 to 0.9, 1.16 to 1.4 | 3e-4 to 1e-3 | through the central caustic |
 //! | resonant | 0.9 to 1.12 | 5e-3 to 3e-2 | through the one caustic |
 //! | stellar binary | 0.8 to 1.3 | 0.2 to 0.5 | through the largest caustic |
-//! | cusp approach | 1.3 to 1.8 | 1e-3 to 5e-3 | past the planetary caustic's outside, no crossing |
-//! | low q | 0.8 to 1.25 | 1e-4 to 2e-4 | through the central or a planetary caustic, rho 3e-3 to 6e-3 |
+//! | cusp approach | 1.3 to 1.8 | 1e-3 to 5e-3 | beside the planetary caustic, no crossing |
+//! | low q | 0.8 to 1.25 | 1e-4 to 2e-4 | through the central or a planetary caustic |
 //! | single lens | (8, 1e-6) | | u0 0.05 to 0.6 |
 //!
 //! (ranges log-uniform but q of the stellar binary; a path "through" a caustic passes a point
-//! between its centre and a random point of it, at a random angle). Every binary's largest
-//! departure from its host's curve must fall within 40 days of t0 and be at least 5% (1% for
-//! low q, with its own source size); a cusp approach must stay three source radii off every
-//! caustic. tE is 15 to 60 days, rho 1e-3 to 3e-3 (5e-4 to 1.5e-3 through a central caustic),
-//! t0 within 5 days of 9000, blending 0 to 3 as in the catalogue; the season and the observing
-//! plan are the catalogue's.
+//! between its centre and a random point of it, at a random angle, or for the central caustic
+//! has u0 drawn, 1e-3 to 1e-2, or 5e-4 to 5e-3 for low q, and must cross it). Every binary's
+//! largest departure from its host's curve must fall within 40 days of t0 and be at least 5%
+//! (1% for low q, with its own source size); a cusp approach must stay three source radii off
+//! every caustic. tE is 15 to 60 days, rho 1e-3 to 3e-3 (5e-4 to 1.5e-3 through a central
+//! caustic, 3e-3 to 6e-3 for low q), t0 within 5 days of 9000, blending 0 to 3 as in the
+//! catalogue's variants; the season and the observing plan are the catalogue's.
 
 use super::events::{departure, BenchEvent, EventKind};
 use crate::caustics::caustic_curves;
@@ -32,6 +33,9 @@ use crate::lens::LensSystem;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use std::f64::consts::PI;
+
+/// A caustic as a closed polyline.
+type Curve = [(f64, f64)];
 
 /// The kinds drawn, in order, with their names.
 const KINDS: [(EventKind, &str); 8] = [
@@ -134,16 +138,16 @@ fn draw(kind: EventKind, rng: &mut ChaCha8Rng) -> Result<Option<BinaryModel>> {
     let caustics = caustic_curves(&lens)?;
     let host = lens.lenses()[0].position;
     let host = (host.re, host.im);
-    let centre = |c: &[(f64, f64)]| {
+    let centre = |c: &Curve| {
         let n = c.len() as f64;
         let (x, y) = c.iter().fold((0.0, 0.0), |a, p| (a.0 + p.0, a.1 + p.1));
         (x / n, y / n)
     };
-    let from_host = |c: &[(f64, f64)]| {
+    let from_host = |c: &Curve| {
         let m = centre(c);
         (m.0 - host.0).hypot(m.1 - host.1)
     };
-    let by = |f: &dyn Fn(&[(f64, f64)]) -> f64| {
+    let by = |f: &dyn Fn(&Curve) -> f64| {
         (0..caustics.len())
             .max_by(|&a, &b| f(&caustics[a]).total_cmp(&f(&caustics[b])))
             .unwrap_or(0)
@@ -195,8 +199,8 @@ fn draw(kind: EventKind, rng: &mut ChaCha8Rng) -> Result<Option<BinaryModel>> {
         }
     };
     // Signed distances of a caustic's points from the path.
-    let distances = |c: &[(f64, f64)]| c.iter().map(|&p| through(p) - u0).collect::<Vec<_>>();
-    let crosses = |c: &[(f64, f64)]| {
+    let distances = |c: &Curve| c.iter().map(|&p| through(p) - u0).collect::<Vec<_>>();
+    let crosses = |c: &Curve| {
         let d = distances(c);
         d.windows(2).any(|w| w[0].signum() != w[1].signum())
     };
