@@ -168,7 +168,8 @@ pub(super) fn from_vector(p: &[f64]) -> Result<BinaryModel> {
 ///     trajectory: Trajectory::straight(0.0, -0.1, 20.0, 1.0).unwrap() };
 /// let c = canonical(&m);
 /// assert!((c.q - 0.4).abs() < 1e-15 && c.trajectory.line().u0 == 0.1);
-/// // The same light curve.
+/// // The same light curve: the lens equation is symmetric under the masses' exchange with the
+/// // frame turned by pi (common practice; from memory).
 /// let times: Vec<f64> = (-40..=40).map(|k| k as f64 * 0.5).collect();
 /// let a = m.magnifications(&times, LimbDarkening::Uniform, 1e-4).unwrap();
 /// let b = c.magnifications(&times, LimbDarkening::Uniform, 1e-4).unwrap();

@@ -246,6 +246,8 @@ mod tests {
     /// Each drawn event has its kind's feature: a path through a caustic for the crossing kinds,
     /// none for the cusp approach (checked here on the drawn path, independently of the draw's
     /// own test: every caustic point's side of the line).
+    /// A closed curve is crossed by a line iff its points lie on both sides of it (elementary
+    /// geometry; common practice).
     #[test]
     fn drawn_events_have_their_features() {
         for k in 1..=2 {
