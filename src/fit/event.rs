@@ -35,7 +35,8 @@
 //!    chi^2, the end closer to the data, and the other end as well when it is another map),
 //!    within the time budget ([`RefineOptions::budget`]);
 //!    starts whose search chi^2 is above [`RefineOptions::within`] times the best's are left
-//!    out (with a note).
+//!    out (with a note); when fewer than [`FEWEST_STARTS`] are left, the best start's map's
+//!    other kept lines within that factor are refined too.
 //! 7. **Noise.** At the best model, isolated outliers are clipped ([`FitOptions::clip_sigma`],
 //!    rule in [`super::noise::clip_outliers`]) and each data set's error bars are scaled by the
 //!    robust spread of its normalised residuals, capped by its point-to-point scatter
@@ -43,10 +44,12 @@
 //!    by more than 5%, every minimum is refined again on the cleaned, rescaled data (by
 //!    Levenberg-Marquardt alone: it starts at a minimum), and the best once more with the
 //!    simplex stages (the first pass can stop in a basin the cleaned data no longer hold).
-//! 8. **Converge** (Levenberg-Marquardt again from the best while it gains), **hop**
-//!    (Levenberg-Marquardt from seeded perturbations of the best, kept when one ends lower:
-//!    [`super::hop`], [`RefineOptions::hops`]) and **uncertainties**: the curvature of chi^2
-//!    at each minimum, measured once, on the data of the last refinement.
+//! 8. **Chords** (the other straight paths through the caustic crossings the best minimum
+//!    explains, refined by Levenberg-Marquardt: [`super::chords`]; the best end comes first
+//!    when it is lower), **converge** (Levenberg-Marquardt again from the best while it
+//!    gains), **hop** (Levenberg-Marquardt from seeded perturbations of the best, kept when
+//!    one ends lower: [`super::hop`], [`RefineOptions::hops`]) and **uncertainties**: the
+//!    curvature of chi^2 at each minimum, measured once, on the data of the last refinement.
 //! 9. **Parallax and orbital motion** ([`FitOptions::motion`], when the event's coordinates are
 //!    known): the best static minima refined again with microlens parallax, both members of the
 //!    ecliptic pair, then with lens orbital motion ([`super::motion`]); rows in
@@ -83,8 +86,8 @@ use crate::progress::Progress;
 use std::time::{Duration, Instant};
 
 mod passes;
-use passes::{converge_best, cut_to, refine_starts};
-pub use passes::{CONVERGED_GAIN, EXTRA_PASSES};
+use passes::{chord_best, converge_best, cut_to, other_lines, refine_starts};
+pub use passes::{CONVERGED_GAIN, EXTRA_PASSES, FEWEST_STARTS};
 
 /// How [`fit_event`] runs.
 #[derive(Debug, Clone, PartialEq)]
@@ -307,6 +310,12 @@ pub fn fit_event(
             options.refine.within
         ));
     }
+    let added = other_lines(&mut starts, &zoomed, &outcomes, options.refine.within);
+    if added > 0 {
+        note(format!(
+            "refine: {added} more line(s) of the best start's map refined as well"
+        ));
+    }
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
     // The first refinements also start from a pass on the chi^2 the search ranked by.
@@ -376,6 +385,15 @@ pub fn fit_event(
     }
     // On the data the minima were refined on: their chi^2 values compare only there.
     let refined_on = if changed { &fitted } else { &searched };
+    if let Some(n) = chord_best(
+        refined_on,
+        &seed.crossings,
+        &mut minima,
+        &within_limit(),
+        progress,
+    )? {
+        note(n);
+    }
     converge_best(refined_on, &mut minima, &within_limit(), progress)?;
     if let Some(n) = hop_best(refined_on, &mut minima, &within_limit(), progress)? {
         note(n);

@@ -12,6 +12,7 @@
 //! - `search`: the grid search over the maps of a library;
 //! - `zoom`: finer maps around the search's best (s, q) before the refinement;
 //! - `refine`: local refinement with exact magnifications;
+//! - `chords`: other paths through the data's caustic crossings, as refinement starts;
 //! - `hop`: seeded perturbed restarts that leave a nearby false minimum;
 //! - `minima`: from search outcomes to distinct refined minima, close/wide pairs;
 //! - `noise`: outliers clipped and error bars scaled at a fitted model;
@@ -19,6 +20,7 @@
 //! - `plots`: the chi^2 map over (s, q) and the best model over the data (PNG);
 //! - `event`: the whole fit of an event as one call (baseline, search, refinement, noise).
 
+pub mod chords;
 pub mod event;
 pub mod fluxes;
 pub mod hop;
