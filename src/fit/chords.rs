@@ -108,7 +108,8 @@ fn explained(
 ///     .iter()
 ///     .map(|&(x, y)| Complex64::new(x, y))
 ///     .collect();
-/// // In at (0, -1), out at (0, 1) 20 days later: alpha 90 degrees, u0 0, tE 10 d, t0 midway.
+/// // In at (0, -1), out at (0, 1) 20 days later: alpha 90 degrees, u0 0, tE 10 d, t0 midway
+/// // (worked by hand from the line's form above).
 /// let (a, b) = (Complex64::new(0.0, -1.0), Complex64::new(0.0, 1.0));
 /// let path = chord(&[square], a, b, (100.0, 120.0)).unwrap();
 /// let l = path.line();
@@ -169,7 +170,7 @@ pub fn chord(
 /// let at = |tau: f64| Complex64::new(tau * cs - 0.15 * sn, tau * sn + 0.15 * cs);
 /// let (ua, ub) = inside_intervals(&caustics, 4.4, 0.15)[0];
 /// let off = BinaryModel { trajectory: chord(&caustics, at(ua), at(ub), pair).unwrap(), ..truth };
-/// // The best chord through those times is near the truth.
+/// // The best chord through those times is near the truth (the path the data were made from).
 /// let chords = chord_starts(&data, &off, &[pair]).unwrap();
 /// let best = chords[0].0.trajectory.line();
 /// assert!((best.u0 - 0.1).abs() < 0.02 && (best.alpha - 4.4).abs() < 0.05, "{best:?}");
