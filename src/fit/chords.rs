@@ -29,8 +29,7 @@
 use super::model::{BinaryModel, Trajectory};
 use super::photometry::DataSet;
 use super::refine::{canonical, exact_chi2, COARSE_TOL};
-use super::search::anchor::{inside_intervals, Anchor};
-use crate::caustics::caustic_curves;
+use super::search::anchor::{caustic_polylines, inside_intervals, Anchor};
 use crate::error::Result;
 use num_complex::Complex64;
 use rayon::prelude::*;
@@ -43,14 +42,6 @@ pub const CHORDS_KEPT: usize = 3;
 pub const CHORD_TE_REACH: f64 = 2.0;
 /// Two kept paths differ by at least this in alpha (rad) or in u0 (Einstein radii).
 pub const CHORD_DISTINCT: (f64, f64) = (0.02, 0.005);
-
-/// The caustics of `model`'s lens as closed polylines.
-fn caustics(model: &BinaryModel) -> Result<Vec<Vec<Complex64>>> {
-    Ok(caustic_curves(&model.lens()?)?
-        .iter()
-        .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
-        .collect())
-}
 
 /// `n` points along the closed polyline `curve` at equal steps of arc length.
 fn along(curve: &[Complex64], n: usize) -> Vec<Complex64> {
@@ -142,11 +133,10 @@ pub fn chord(
 /// with its chi^2 at [`COARSE_TOL`].
 ///
 /// ```
-/// use causeway::caustics::caustic_curves;
 /// use causeway::fit::chords::{chord, chord_starts};
 /// use causeway::fit::model::{BinaryModel, Trajectory};
 /// use causeway::fit::photometry::DataSet;
-/// use causeway::fit::search::anchor::inside_intervals;
+/// use causeway::fit::search::anchor::{caustic_polylines, inside_intervals};
 /// use causeway::source::LimbDarkening;
 /// use num_complex::Complex64;
 /// // A stellar binary's path through its caustic, observed every 0.1 d.
@@ -159,9 +149,7 @@ pub fn chord(
 ///     text += &format!("{t},{a},0.01\n");
 /// }
 /// let data = [DataSet::parse(&text, "a.csv", 22.0).unwrap()];
-/// let caustics: Vec<Vec<Complex64>> = caustic_curves(&truth.lens().unwrap()).unwrap().iter()
-///     .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
-///     .collect();
+/// let caustics = caustic_polylines(&truth.lens().unwrap()).unwrap();
 /// let (ta, tb) = inside_intervals(&caustics, 4.4, 0.1)[0];
 /// let pair = (30.0 * ta, 30.0 * tb);
 /// // Another chord through the same crossing times: in and out where the path at u0 = 0.15
@@ -180,7 +168,7 @@ pub fn chord_starts(
     model: &BinaryModel,
     crossings: &[(f64, f64)],
 ) -> Result<Vec<(BinaryModel, f64)>> {
-    let caustics = caustics(model)?;
+    let caustics = caustic_polylines(&model.lens()?)?;
     let Some(times) = explained(model, &caustics, crossings) else {
         return Ok(Vec::new());
     };

@@ -17,7 +17,10 @@
 //! too gentle to stand out (a source much larger than the caustic). Those events keep the
 //! single-lens timings.
 
+use crate::caustics::caustic_curves;
+use crate::error::Result;
 use crate::fit::photometry::DataSet;
+use crate::lens::LensSystem;
 use num_complex::Complex64;
 
 /// Neighbouring points further apart than this (days) are not compared.
@@ -132,6 +135,15 @@ pub fn crossing_pairs(data: &[DataSet]) -> Vec<(f64, f64)> {
         .collect();
     pairs.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
     pairs
+}
+
+/// The caustics of `lens` as closed polylines of complex points, as [`inside_intervals`] takes
+/// them.
+pub fn caustic_polylines(lens: &LensSystem) -> Result<Vec<Vec<Complex64>>> {
+    Ok(caustic_curves(lens)?
+        .iter()
+        .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
+        .collect())
 }
 
 /// The stretches `(tau_a, tau_b)` of the line `(alpha, u0)` inside each closed caustic of

@@ -136,7 +136,6 @@ pub use evaluate::{CLEARANCE_REACH, MAX_STRIDE};
 pub use grid::GridRule;
 pub use seed::{Seed, ValleyPoint};
 
-use crate::caustics::caustic_curves;
 use crate::error::{Error, Result};
 use crate::fit::model::{BinaryModel, Trajectory};
 use crate::fit::photometry::DataSet;
@@ -355,10 +354,7 @@ pub fn search_map(
     let caustics: Vec<Vec<Complex64>> = if seed.crossings.is_empty() {
         Vec::new()
     } else {
-        caustic_curves(lens)?
-            .iter()
-            .map(|c| c.iter().map(|&(x, y)| Complex64::new(x, y)).collect())
-            .collect()
+        anchor::caustic_polylines(lens)?
     };
     let (lines, anchors) = timed_lines(seed, map, rule, &readers, grid_rho, &caustics, &all_times)?;
     let sets: Vec<Weighted> = data
