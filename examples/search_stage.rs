@@ -107,6 +107,15 @@ fn main() {
         rescale_errors: false,
         ..FitOptions::default()
     };
+    if let Some(n) = value("--budget") {
+        options.rule.max_trajectories = n as usize;
+    }
+    if let Some(n) = value("--beam") {
+        options.rule.beam = n as usize;
+    }
+    if let Some(n) = value("--divisions") {
+        options.rule.coarse_divisions = n as f64;
+    }
     let full = args.iter().any(|a| a == "--full");
     if !full {
         options.refine.candidates = 1;
@@ -148,8 +157,13 @@ fn main() {
             }
         }
         for map in &loaded {
-            let chi2 =
-                trajectory_chi2_on_map(&fit.data, map, &options.rule, &event.truth.trajectory);
+            let chi2 = trajectory_chi2_on_map(
+                &fit.data,
+                &fit.seed,
+                map,
+                &fit.rule,
+                &event.truth.trajectory,
+            );
             let (s, q) = map.provenance.lens.binary_parameters().unwrap();
             eprintln!(
                 "true path on the map of s {s:.4} q {q:.4e} at {:?}: (rho, chi2) {:.1?}",
@@ -164,7 +178,11 @@ fn main() {
                 .join(" ")
         };
         for o in &fit.outcomes {
-            if let Some(c) = o.candidates.first().filter(|_| !at.is_empty()) {
+            if let Some(c) = o
+                .candidates
+                .first()
+                .filter(|_| !(at.is_empty() && build.is_empty()))
+            {
                 let l = c.model.trajectory.line();
                 eprintln!(
                     "s {:.4} q {:.4e}: best alpha {:.4} u0 {:.4} t0 {:.4} tE {:.3} rho {:.2e}",

@@ -116,6 +116,12 @@ pub struct SearchArgs {
     /// Most trajectories tried on one map (the lines are spaced more widely beyond it).
     #[arg(long, value_name = "N", default_value_t = GridRule::default().max_trajectories, allow_hyphen_values = true)]
     pub max_trajectories: usize,
+    /// Where the lines are spaced for a source larger than every --rho (wide windows, or the
+    /// budget above), the best N lines of each finer level (spread over the window) are
+    /// surrounded by lines at half its spacing, down to 2.5 times the smallest --rho (0: no
+    /// finer levels).
+    #[arg(long, value_name = "N", default_value_t = GridRule::default().beam)]
+    pub beam: usize,
     /// The search's model error, a fraction of each point's flux above its set's tenth
     /// percentile added to its error bar in quadrature (0 = none; the refinement never uses it).
     #[arg(long, value_name = "FRACTION", default_value_t = GridRule::default().model_floor, allow_hyphen_values = true)]
@@ -234,6 +240,7 @@ impl SearchArgs {
             t0_shifts: self.t0_shifts.0.clone(),
             keep: self.keep,
             max_trajectories: self.max_trajectories,
+            beam: self.beam,
             model_floor: self.model_floor,
             point_cap: self.point_cap,
             ..GridRule::default()

@@ -286,7 +286,8 @@ fn the_zoom_finds_a_separation_between_grid_points() {
             .filter(|m| (m.s, m.q) == (o.s, o.q))
             .map(|m| {
                 let map = read_fits(&m.path).unwrap();
-                let chi2 = trajectory_chi2_on_map(&data, &map, &plain_rule, &c.model.trajectory);
+                let chi2 =
+                    trajectory_chi2_on_map(&data, &seed, &map, &plain_rule, &c.model.trajectory);
                 let at = chi2
                     .unwrap()
                     .into_iter()

@@ -38,6 +38,9 @@ pub struct GridRule {
     pub coarse_divisions: f64,
     /// Most trajectories (lines times timings) tried on one map before the polish.
     pub max_trajectories: usize,
+    /// Lines kept at each finer level of a grid laid out for a source larger than the trial
+    /// radii (see [`super::beam`]); 0: no finer levels.
+    pub beam: usize,
     /// The search's model error: each error bar is widened by this fraction of the point's
     /// flux above its data set's tenth percentile, so that a crossing a coarse map puts a
     /// little early does not outweigh the shape of the whole curve.
@@ -61,6 +64,7 @@ impl Default for GridRule {
             timed: false,
             coarse_divisions: 100.0,
             max_trajectories: 10_000,
+            beam: 24,
             model_floor: 0.03,
             point_cap: 25.0,
         }

@@ -28,6 +28,13 @@
 //! window lies within `rho_min` of a grid line: a caustic crossed by any line through the window
 //! is touched by the source of a grid trajectory, and no crossing is stepped over.
 //!
+//! Where the lines are spaced for a source larger than the smallest trial radius (a wide
+//! window, or a budget of [`GridRule::max_trajectories`] spread over many timings), finer
+//! levels follow ([`beam`]): the [`GridRule::beam`] best lines, spread over the window, are
+//! surrounded by lines at half the spacing, and so on down to a few trial radii. They find
+//! what the coarse grid ranks too low because it reads the map smoothed by its radius; they
+//! cannot find a path whose neighbourhood ranks below the survivors at every level.
+//!
 //! With [`GridRule::timed`] (off by default: it multiplies the lines by up to about four), each
 //! line is tried twice when the data show an anomaly ([`Seed::anomaly`], the time of
 //! their largest departure from the single-lens fit): once with the seed's t0, and once with
@@ -123,6 +130,7 @@
 //! ranks; the refinement ([`super::refine`]) recomputes every point exactly.
 
 pub mod anchor;
+pub mod beam;
 mod evaluate;
 mod grid;
 mod lines;
@@ -146,7 +154,7 @@ use crate::store::library::LibrarySpec;
 use crate::store::Store;
 use anchor::Anchor;
 use evaluate::Scratch;
-use grid::{distinct, Line};
+use grid::{distinct, host_timing, Line};
 use lines::timed_lines;
 use num_complex::Complex64;
 use polish::{best_lines, lowest, Kept, Measure, Polisher};
@@ -339,16 +347,8 @@ pub fn search_map(
         .binary_parameters()
         .ok_or_else(|| Error::input("search: library maps must be of binary lenses"))?;
     let mut notes = Vec::new();
-    // The lines are spaced for the grid's radius; when it exceeds every trial radius the map is
-    // also read smoothed by it (the last reader), and the kept lines move to the trial radii in
-    // the polish.
-    let grid_rho = rule.grid_rho(&map.window, seed);
-    let mut rhos = rule.rhos.clone();
-    let trial_max = rhos.iter().copied().fold(0.0, f64::max);
-    if grid_rho > trial_max * (1.0 + 1e-9) {
-        rhos.push(grid_rho);
-    }
-    let readers = Readers::new(map, data, &rhos, &mut notes)?;
+    let (readers, grid_rho) = search_readers(data, seed, map, rule, &mut notes)?;
+    let rhos = readers.rhos.clone();
     let mut all_times: Vec<f64> = data.iter().flat_map(|d| d.times.iter().copied()).collect();
     all_times.sort_by(f64::total_cmp);
     let caustics: Vec<Vec<Complex64>> = if seed.crossings.is_empty() {
@@ -363,38 +363,44 @@ pub fn search_map(
         .collect();
     let solver = ImageSolver::new(lens)?;
     let points = AtomicU64::new(0);
-    let evaluated: Vec<Option<[(f64, usize); 2]>> = lines
-        .par_iter()
-        .map_init(
-            || {
-                let scratch = Scratch {
-                    profiles: Some(Vec::new()),
-                    ..Scratch::default()
-                };
-                (solver.clone(), scratch)
-            },
-            |(solver, scratch), line| {
-                scratch
-                    .trajectory_chi2(solver, &sets, &readers, line, rule, None)
-                    .ok()?;
-                points.fetch_add(
-                    (scratch.chi2.len() * all_times.len()) as u64,
-                    Ordering::Relaxed,
-                );
-                Some([lowest(&scratch.chi2)?, lowest(&scratch.plain)?])
-            },
-        )
-        .collect();
-    let steps = (
-        2.0 * grid_rho * std::f64::consts::SQRT_2 / map.window.width,
-        2.0 * grid_rho,
-    );
-    let model_at = |i: usize, r: usize| BinaryModel {
+    let evaluate = |lines: &[Line]| evaluate_lines(lines, &solver, &sets, &readers, rule, &points);
+    let (mut lines, mut evaluated) = (lines, Vec::new());
+    evaluated.extend(evaluate(&lines));
+    let model_at = |lines: &[Line], i: usize, r: usize| BinaryModel {
         s,
         q,
         rho: rhos[r],
         trajectory: lines[i].trajectory,
     };
+    let steps_of = |rho: f64| {
+        (
+            2.0 * rho * std::f64::consts::SQRT_2 / map.window.width,
+            2.0 * rho,
+        )
+    };
+    // Finer levels where the lines were spaced for a source larger than the trial radii.
+    let mut spacing = grid_rho;
+    for rho in beam::levels(grid_rho, rule.rho_min()) {
+        let steps = steps_of(spacing);
+        let mut survivors = beam::survivors(&evaluated, &lines, 0, rule.beam, steps);
+        survivors.extend(beam::survivors(
+            &evaluated,
+            &lines,
+            1,
+            beam::plain_survivors(rule),
+            steps,
+        ));
+        if survivors.is_empty() {
+            break;
+        }
+        let valley = |alpha, u0| host_timing(seed, readers.host.position, alpha, u0);
+        let finer = beam::neighbours(&survivors, rho, &map.window, &all_times, valley)?;
+        evaluated.extend(evaluate(&finer));
+        lines.extend(finer);
+        spacing = rho;
+    }
+    let steps = steps_of(grid_rho);
+    let model_at = |i, r| model_at(&lines, i, r);
     // Lines timed on the data's crossings are polished in their crossing coordinates, and the
     // best of them even when blind timings rank above them (see "The grid rule"): their
     // crossings sit on the data's, where a blind line's polish seldom gets.
@@ -456,15 +462,68 @@ pub fn search_map(
     })
 }
 
-/// chi^2 of one trajectory on `map`, read as the search reads it, at each trial radius of
-/// `rule` (infinite where a radius cannot be read on this map): what the search would rank
-/// that trajectory at. Returns `(rho, chi2)` pairs.
+/// The map's readers as the search reads it, and the grid's radius: the lines are spaced for
+/// that radius, and when it exceeds every trial radius the map is also read smoothed by it
+/// (the last reader; the kept lines move to the trial radii in the polish). Each point is read
+/// on the map only inside the widest reader's margin, so the readers change every radius's
+/// values near the window's edge.
+fn search_readers(
+    data: &[DataSet],
+    seed: &Seed,
+    map: &MagnificationMap,
+    rule: &GridRule,
+    notes: &mut Vec<String>,
+) -> Result<(Readers, f64)> {
+    let grid_rho = rule.grid_rho(&map.window, seed);
+    let mut rhos = rule.rhos.clone();
+    let trial_max = rhos.iter().copied().fold(0.0, f64::max);
+    if grid_rho > trial_max * (1.0 + 1e-9) {
+        rhos.push(grid_rho);
+    }
+    Ok((Readers::new(map, data, &rhos, notes)?, grid_rho))
+}
+
+/// The search's best `(chi2, radius index)` of each line, capped and plain (`None` where it
+/// could not be evaluated), in the lines' order; the points read are counted into `points`.
+fn evaluate_lines(
+    lines: &[Line],
+    solver: &ImageSolver,
+    sets: &[Weighted],
+    readers: &Readers,
+    rule: &GridRule,
+    points: &AtomicU64,
+) -> Vec<Option<[(f64, usize); 2]>> {
+    let n_times: usize = sets.iter().map(|s| s.set.len()).sum();
+    lines
+        .par_iter()
+        .map_init(
+            || {
+                let scratch = Scratch {
+                    profiles: Some(Vec::new()),
+                    ..Scratch::default()
+                };
+                (solver.clone(), scratch)
+            },
+            |(solver, scratch), line| {
+                scratch
+                    .trajectory_chi2(solver, sets, readers, line, rule, None)
+                    .ok()?;
+                points.fetch_add((scratch.chi2.len() * n_times) as u64, Ordering::Relaxed);
+                Some([lowest(&scratch.chi2)?, lowest(&scratch.plain)?])
+            },
+        )
+        .collect()
+}
+
+/// chi^2 of one trajectory on `map`, read as the search with `seed` reads it, at each trial
+/// radius of `rule` (infinite where a radius cannot be read on this map): what the search
+/// would rank that trajectory at. Returns `(rho, chi2)` pairs.
 ///
 /// ```
 /// use causeway::engine::{Engine, PolygonMapping};
 /// use causeway::fit::model::{paczynski, Trajectory};
 /// use causeway::fit::photometry::DataSet;
-/// use causeway::fit::search::{trajectory_chi2_on_map, GridRule};
+/// use causeway::fit::search::{trajectory_chi2_on_map, GridRule, Seed};
 /// use causeway::lens::LensSystem;
 /// use causeway::map::Window;
 /// // A binary whose companion hardly matters far from it, and data of the host alone
@@ -479,18 +538,19 @@ pub fn search_map(
 /// let data = [DataSet::parse(&text, "a.csv", 22.0).unwrap()];
 /// let rule = GridRule { rhos: vec![2e-3, 4e-3], ..GridRule::default() };
 /// let line = Trajectory::straight(0.0, 0.3, 20.0, std::f64::consts::FRAC_PI_2).unwrap();
-/// let chi2 = trajectory_chi2_on_map(&data, &map, &rule, &line).unwrap();
+/// let seed = Seed::at(0.0, 0.3, 20.0);
+/// let chi2 = trajectory_chi2_on_map(&data, &seed, &map, &rule, &line).unwrap();
 /// assert_eq!(chi2.len(), 2);
 /// assert!(chi2.iter().all(|&(_, c)| c < 1.0), "{chi2:?}");
 /// ```
 pub fn trajectory_chi2_on_map(
     data: &[DataSet],
+    seed: &Seed,
     map: &MagnificationMap,
     rule: &GridRule,
     trajectory: &Trajectory,
 ) -> Result<Vec<(f64, f64)>> {
-    let mut notes = Vec::new();
-    let readers = Readers::new(map, data, &rule.rhos, &mut notes)?;
+    let (readers, _) = search_readers(data, seed, map, rule, &mut Vec::new())?;
     let sets: Vec<Weighted> = data
         .iter()
         .map(|d| Weighted::new(d, rule.model_floor))
@@ -499,7 +559,12 @@ pub fn trajectory_chi2_on_map(
     let line = Line::on(*trajectory, &map.window);
     let mut scratch = Scratch::default();
     scratch.trajectory_chi2(&mut solver, &sets, &readers, &line, rule, None)?;
-    Ok(readers.rhos.iter().copied().zip(scratch.chi2).collect())
+    let trials = rule.rhos.len();
+    Ok(readers.rhos[..trials]
+        .iter()
+        .copied()
+        .zip(scratch.chi2)
+        .collect())
 }
 
 /// The distinct s and the distinct q values of the outcomes, each sorted: the axes of their

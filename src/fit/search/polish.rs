@@ -214,10 +214,15 @@ impl Polisher<'_> {
                 Err(_) => f64::INFINITY,
             }
         };
+        // The start as the polish reads it (the grid's value shares its line's off-map curve).
+        let start = Candidate {
+            chi2: chi2(&x0),
+            ..*start
+        };
         let found = minimize(&chi2, &x0, &step, POLISH_TOLERANCE, POLISH_ITERATIONS)?;
         let polished = trajectory(&found.x).filter(|_| found.value < start.chi2);
         let Some((trajectory, moved)) = polished else {
-            return Ok((*start, anchor));
+            return Ok((start, anchor));
         };
         let model = BinaryModel {
             trajectory,
