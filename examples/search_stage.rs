@@ -24,6 +24,9 @@
 //! `--full` refines as `fit_event` does by default (still without the zoom) and lists the
 //! minima on stderr beside the true model's chi^2 on the same data.
 //!
+//! `--max-trajectories N`, `--divisions D` and `--beam N` set the grid rule's
+//! `max_trajectories`, `coarse_divisions` and `beam`.
+//!
 //! `--drawn K` takes the events of draw K (`fit::simulate::drawn::drawn_events`) instead of the
 //! sixteen catalogued ones.
 //!
@@ -46,11 +49,9 @@ fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let value = |flag: &str| -> Option<u64> {
         let i = args.iter().position(|a| a == flag)?;
-        Some(
-            args[i + 1]
-                .parse()
-                .expect("--variant, --every and --drawn take a number"),
-        )
+        Some(args[i + 1].parse().expect(
+            "--variant, --every, --drawn, --max-trajectories, --beam and --divisions take a number",
+        ))
     };
     let variant = value("--variant").unwrap_or(0);
     let every = value("--every").unwrap_or(1).max(1) as usize;
@@ -107,7 +108,7 @@ fn main() {
         rescale_errors: false,
         ..FitOptions::default()
     };
-    if let Some(n) = value("--budget") {
+    if let Some(n) = value("--max-trajectories") {
         options.rule.max_trajectories = n as usize;
     }
     if let Some(n) = value("--beam") {

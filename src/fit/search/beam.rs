@@ -7,15 +7,21 @@
 //! same caustics sharper, and the line nearest the truth can rank below lines that explain
 //! less at `g`, as the grid reads the map smoothed by it. So the [`GridRule::beam`] best
 //! distinct lines by the capped search chi^2 (and a quarter as many by the plain one) are each
-//! surrounded by lines a half spacing away in alpha, u0, t0 and tE (all 81 combinations of
+//! surrounded by lines a half spacing away in alpha, u0, t0 and tE (the other 80 combinations of
 //! -1, 0, +1 half steps), read at every trial radius; the best of all lines so far seed the
 //! next level, at half the spacing again, until it is within [`FINE_SPACING`] times the
 //! smallest trial radius. On a map at a drawn resonant binary's own (s, q), whose window is
-//! 0.8 wide and whose seed's timing was not trusted (20 timings a line, lines spaced for a
-//! source of 0.02), the grid's best had search chi^2 12,407 and the truth's path 11,240; four
-//! times the trajectories found 4,073, and three levels found it as well (docs/recovery.md).
+//! wide and whose seed's timing was not trusted (20 timings a line, so the budget of 10,000
+//! trajectories spaces the lines for a source many times the trial radii), the grid's best had
+//! search chi^2 12,407 and the truth's path about 11,000 to 11,700; a budget of 40,000 found
+//! 4,073, and the finer levels 4,606 with 17,036 trajectories against the grid's 8,219
+//! (docs/recovery.md).
+//! The survivors are spread in alpha and u0 (taken by their timing too, they were timings of a
+//! few lines, and the levels found nothing), and a neighbour is timed on its own valley (kept
+//! at its survivor's timing, a line one u0 step nearer the host had a tE many steps off, and
+//! the levels found nothing).
 
-use super::grid::{GridRule, Line};
+use super::grid::{grid_steps, GridRule, Line};
 use crate::error::Result;
 use crate::fit::model::Trajectory;
 use crate::map::Window;
@@ -44,6 +50,45 @@ pub fn levels(grid_rho: f64, rho_min: f64) -> Vec<f64> {
         out.push(rho);
     }
     out
+}
+
+/// What the finer levels of one map need.
+pub(super) struct Level<'a> {
+    pub(super) rule: &'a GridRule,
+    pub(super) window: &'a Window,
+    /// Every data point's time, sorted.
+    pub(super) times: &'a [f64],
+}
+
+impl Level<'_> {
+    /// The finer levels after a grid laid out for `grid_rho`: at each of [`levels`], the
+    /// survivors by the capped and the plain search chi^2 among all `lines` so far (spread at
+    /// the previous level's steps), and their [`neighbours`] appended to `lines` with their
+    /// values from `evaluate` appended to `evaluated`.
+    pub(super) fn descend(
+        &self,
+        lines: &mut Vec<Line>,
+        evaluated: &mut Vec<Option<[(f64, usize); 2]>>,
+        grid_rho: f64,
+        valley: impl Fn(f64, f64) -> (f64, f64) + Copy,
+        evaluate: impl Fn(&[Line]) -> Vec<Option<[(f64, usize); 2]>>,
+    ) -> Result<()> {
+        let mut spacing = grid_rho;
+        for rho in levels(grid_rho, self.rule.rho_min()) {
+            let steps = grid_steps(self.window, spacing);
+            let mut seeds = survivors(evaluated, lines, 0, self.rule.beam, steps);
+            let plain = plain_survivors(self.rule);
+            seeds.extend(survivors(evaluated, lines, 1, plain, steps));
+            if seeds.is_empty() {
+                break;
+            }
+            let finer = neighbours(&seeds, rho, self.window, self.times, valley)?;
+            evaluated.extend(evaluate(&finer));
+            lines.extend(finer);
+            spacing = rho;
+        }
+        Ok(())
+    }
 }
 
 /// The lines around each of `survivors` for a level spaced for `rho` on `window`: alpha by

@@ -307,6 +307,15 @@ pub(super) fn crossing(tr: &Trajectory, window: &Window) -> Option<(f64, f64)> {
     (lo <= hi).then_some((l.t0 + lo * l.te, l.t0 + hi * l.te))
 }
 
+/// The steps in alpha and u0 of lines spaced for a source of radius `rho` on `window`: `2 rho`
+/// at the window's half-diagonal, and `2 rho`.
+pub(super) fn grid_steps(window: &Window, rho: f64) -> (f64, f64) {
+    (
+        2.0 * rho * std::f64::consts::SQRT_2 / window.width,
+        2.0 * rho,
+    )
+}
+
 /// A grid line and the times during which it crosses the map's window (both infinite when it
 /// does not).
 pub(super) struct Line {

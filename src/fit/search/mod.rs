@@ -154,7 +154,7 @@ use crate::store::library::LibrarySpec;
 use crate::store::Store;
 use anchor::Anchor;
 use evaluate::Scratch;
-use grid::{distinct, host_timing, Line};
+use grid::{distinct, grid_steps, host_timing, Line};
 use lines::timed_lines;
 use num_complex::Complex64;
 use polish::{best_lines, lowest, Kept, Measure, Polisher};
@@ -364,43 +364,23 @@ pub fn search_map(
     let solver = ImageSolver::new(lens)?;
     let points = AtomicU64::new(0);
     let evaluate = |lines: &[Line]| evaluate_lines(lines, &solver, &sets, &readers, rule, &points);
-    let (mut lines, mut evaluated) = (lines, Vec::new());
-    evaluated.extend(evaluate(&lines));
-    let model_at = |lines: &[Line], i: usize, r: usize| BinaryModel {
+    let mut lines = lines;
+    let mut evaluated = evaluate(&lines);
+    // Finer levels where the lines were spaced for a source larger than the trial radii.
+    let level = beam::Level {
+        rule,
+        window: &map.window,
+        times: &all_times,
+    };
+    let valley = |alpha, u0| host_timing(seed, readers.host.position, alpha, u0);
+    level.descend(&mut lines, &mut evaluated, grid_rho, valley, evaluate)?;
+    let steps = grid_steps(&map.window, grid_rho);
+    let model_at = |i: usize, r: usize| BinaryModel {
         s,
         q,
         rho: rhos[r],
         trajectory: lines[i].trajectory,
     };
-    let steps_of = |rho: f64| {
-        (
-            2.0 * rho * std::f64::consts::SQRT_2 / map.window.width,
-            2.0 * rho,
-        )
-    };
-    // Finer levels where the lines were spaced for a source larger than the trial radii.
-    let mut spacing = grid_rho;
-    for rho in beam::levels(grid_rho, rule.rho_min()) {
-        let steps = steps_of(spacing);
-        let mut survivors = beam::survivors(&evaluated, &lines, 0, rule.beam, steps);
-        survivors.extend(beam::survivors(
-            &evaluated,
-            &lines,
-            1,
-            beam::plain_survivors(rule),
-            steps,
-        ));
-        if survivors.is_empty() {
-            break;
-        }
-        let valley = |alpha, u0| host_timing(seed, readers.host.position, alpha, u0);
-        let finer = beam::neighbours(&survivors, rho, &map.window, &all_times, valley)?;
-        evaluated.extend(evaluate(&finer));
-        lines.extend(finer);
-        spacing = rho;
-    }
-    let steps = steps_of(grid_rho);
-    let model_at = |i, r| model_at(&lines, i, r);
     // Lines timed on the data's crossings are polished in their crossing coordinates, and the
     // best of them even when blind timings rank above them (see "The grid rule"): their
     // crossings sit on the data's, where a blind line's polish seldom gets.
