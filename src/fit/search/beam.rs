@@ -21,11 +21,10 @@
 //! at its survivor's timing, a line one u0 step nearer the host had a tE many steps off, and
 //! the levels found nothing).
 
-use super::grid::{grid_steps, GridRule, Line};
+use super::grid::{alpha_gap, grid_steps, ranked, GridRule, Line};
 use crate::error::Result;
 use crate::fit::model::Trajectory;
 use crate::map::Window;
-use std::f64::consts::TAU;
 
 /// Survivors of a level differ in alpha or u0 by more than this many of its steps.
 pub const SURVIVOR_GAP: f64 = 2.0;
@@ -152,22 +151,15 @@ pub(super) fn survivors(
     count: usize,
     steps: (f64, f64),
 ) -> Vec<Trajectory> {
-    let mut ranked: Vec<(f64, usize)> = evaluated
-        .iter()
-        .enumerate()
-        .filter_map(|(i, e)| e.map(|e| (e[measure].0, i)))
-        .collect();
-    ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
     let mut kept: Vec<Trajectory> = Vec::new();
-    for (_, i) in ranked {
+    for (_, i, _) in ranked(evaluated, measure) {
         if kept.len() == count {
             break;
         }
         let l = lines[i].trajectory.line();
         let apart = |k: &Trajectory| {
             let m = k.line();
-            let da = (m.alpha - l.alpha).rem_euclid(TAU);
-            da.min(TAU - da) > SURVIVOR_GAP * steps.0
+            alpha_gap(m.alpha, l.alpha) > SURVIVOR_GAP * steps.0
                 || (m.u0 - l.u0).abs() > SURVIVOR_GAP * steps.1
         };
         if kept.iter().all(apart) {

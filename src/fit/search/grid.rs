@@ -389,9 +389,30 @@ pub(super) fn strongest_feature(
 /// or timed differently (t0 by more than 2% of tE, or tE by more than 5%).
 pub(super) fn distinct(a: &Trajectory, b: &Trajectory, d_alpha: f64, d_u0: f64) -> bool {
     let (a, b) = (a.line(), b.line());
-    let da = (a.alpha - b.alpha).rem_euclid(TAU);
-    da.min(TAU - da) > 5.0 * d_alpha
+    alpha_gap(a.alpha, b.alpha) > 5.0 * d_alpha
         || (a.u0 - b.u0).abs() > 5.0 * d_u0
         || (a.t0 - b.t0).abs() > 0.02 * a.te.min(b.te)
         || (a.te / b.te).ln().abs() > 0.05
+}
+
+/// The angle between two directions of motion (radians, in [0, pi]).
+pub(super) fn alpha_gap(a: f64, b: f64) -> f64 {
+    let d = (a - b).rem_euclid(TAU);
+    d.min(TAU - d)
+}
+
+/// The evaluated lines (each its best capped and plain `(chi2, radius index)`, `None` where
+/// nothing could be read) as `(chi2, line index, radius index)` by `measure` (0 capped, 1
+/// plain), best first, ties by line index.
+pub(super) fn ranked(
+    evaluated: &[Option<[(f64, usize); 2]>],
+    measure: usize,
+) -> Vec<(f64, usize, usize)> {
+    let mut ranked: Vec<(f64, usize, usize)> = evaluated
+        .iter()
+        .enumerate()
+        .filter_map(|(i, e)| e.map(|e| (e[measure].0, i, e[measure].1)))
+        .collect();
+    ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    ranked
 }

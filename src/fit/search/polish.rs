@@ -3,7 +3,7 @@
 
 use super::anchor::Anchor;
 use super::evaluate::Scratch;
-use super::grid::{distinct, GridRule, Line};
+use super::grid::{distinct, ranked, GridRule, Line};
 use super::readers::Readers;
 use super::sums::Weighted;
 use super::{Candidate, POLISH_ITERATIONS, POLISH_TOLERANCE, RHO_RETRIES};
@@ -50,15 +50,8 @@ pub(super) fn best_lines(
     steps: (f64, f64),
     model_at: impl Fn(usize, usize) -> BinaryModel,
 ) -> Vec<Kept> {
-    let m = measure as usize;
-    let mut ranked: Vec<(f64, usize, usize)> = evaluated
-        .iter()
-        .enumerate()
-        .filter_map(|(i, e)| e.map(|e| (e[m].0, i, e[m].1)))
-        .collect();
-    ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
     let mut kept: Vec<Kept> = Vec::new();
-    for (chi2, line, radius) in ranked {
+    for (chi2, line, radius) in ranked(evaluated, measure as usize) {
         let model = model_at(line, radius);
         if kept.iter().all(|k| {
             distinct(
