@@ -44,6 +44,11 @@
 //!    by more than 5%, every minimum is refined again on the cleaned, rescaled data (by
 //!    Levenberg-Marquardt alone: it starts at a minimum), and the best once more with the
 //!    simplex stages (the first pass can stop in a basin the cleaned data no longer hold).
+//!    Then the clipped points are offered back (`passes::readmit`): the best minimum is
+//!    refitted to all points (its rho at least the smallest trial rho) and the data cleaned
+//!    again there; when fewer points are clipped and the refit fits those data better, they
+//!    replace the cleaned data (a caustic crossing's lone survey points, missed by a wrong
+//!    first minimum, are otherwise clipped for good).
 //! 8. **Chords** (the other straight paths through the caustic crossings the best minimum
 //!    explains, refined by Levenberg-Marquardt: [`super::chords`]; the best end comes first
 //!    when it is lower), **converge** (Levenberg-Marquardt again from the best while it
@@ -86,7 +91,7 @@ use crate::progress::Progress;
 use std::time::{Duration, Instant};
 
 mod passes;
-use passes::{chord_best, converge_best, cut_to, other_lines, refine_starts};
+use passes::{chord_best, converge_best, cut_to, other_lines, readmit, refine_starts};
 pub use passes::{CONVERGED_GAIN, EXTRA_PASSES, FEWEST_STARTS};
 
 /// How [`fit_event`] runs.
@@ -327,7 +332,7 @@ pub fn fit_event(
     }
     let mut minima = first.minima;
     progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
-    let (fitted, clipped, scales) = clean(
+    let (mut fitted, mut clipped, scales) = clean(
         &searched,
         &minima[0].refined.model,
         options.clip_sigma,
@@ -382,6 +387,30 @@ pub fn fit_event(
             minima[0].refined.chi2,
             fitted.iter().map(DataSet::len).sum::<usize>()
         ));
+    }
+    if !clipped.is_empty() {
+        let rho_floor = rule.rhos.iter().copied().fold(f64::INFINITY, f64::min);
+        let best = &minima[0].refined.model;
+        let (sigma, refine) = (options.clip_sigma, within_limit());
+        let n = clipped.len();
+        if let Some((data, again, best)) =
+            readmit(&searched, &scales, best, n, rho_floor, sigma, &refine)?
+        {
+            note(format!(
+                "noise: {} of the {n} clipped points rejoin the data (a refit from the best \
+                 minimum explains them); best chi2 {:.1} for {} points",
+                n - again.len(),
+                best.chi2,
+                data.iter().map(DataSet::len).sum::<usize>()
+            ));
+            (fitted, clipped) = (data, again);
+            minima[0].refined = best;
+            for m in minima.iter_mut().skip(1) {
+                (m.refined.chi2, m.refined.fluxes) =
+                    exact_chi2(&fitted, &m.refined.model, options.refine.tol)?;
+            }
+            minima.sort_by(|a, b| a.refined.chi2.total_cmp(&b.refined.chi2));
+        }
     }
     // On the data the minima were refined on: their chi^2 values compare only there.
     let refined_on = if changed { &fitted } else { &searched };
@@ -577,6 +606,7 @@ fn baseline(
     if !trusted {
         seed.widen(&baseline, &visible, untrusted_u0_max(&seed));
         seed.u0_bounds = Some(baseline.u0_range);
+        seed.te_bounds = Some(baseline.te_range);
         note(format!(
             "baseline: its timing is not trusted (the anomaly at t = {:.3} covers the peak, or \
              a bound was hit)",

@@ -248,25 +248,30 @@ impl Anchor {
     }
 }
 
-/// The anchors of each stretch with each pair's times whose tE is within [`TE_REACH`] of `te`
-/// either way.
+/// The anchors of each stretch with each pair's times whose tE lies in `te_range` (days; see
+/// [`super::Seed::anchored_te`]).
 ///
 /// ```
 /// use causeway::fit::search::anchor::anchored_timings;
 /// // A line inside a caustic from tau = -0.1 to 0.3, crossings seen at 100 and 108 d: tE 20 d,
-/// // t0 102 d. A tE of 400 d is out of reach of a seed of 20 d.
-/// let anchors = anchored_timings(&[(-0.1, 0.3), (0.5, 0.52)], &[(100.0, 108.0)], 20.0);
+/// // t0 102 d. A tE of 400 d is out of reach of a seed of 20 d (4 to 100 d).
+/// let anchors =
+///     anchored_timings(&[(-0.1, 0.3), (0.5, 0.52)], &[(100.0, 108.0)], (4.0, 100.0));
 /// assert_eq!(anchors.len(), 1);
 /// let (t0, te) = anchors[0].timing();
 /// assert!((t0 - 102.0).abs() < 1e-9 && (te - 20.0).abs() < 1e-9);
 /// ```
-pub fn anchored_timings(inside: &[(f64, f64)], pairs: &[(f64, f64)], te: f64) -> Vec<Anchor> {
+pub fn anchored_timings(
+    inside: &[(f64, f64)],
+    pairs: &[(f64, f64)],
+    te_range: (f64, f64),
+) -> Vec<Anchor> {
     let mut out = Vec::new();
     for &taus in inside {
         for &times in pairs {
             let anchor = Anchor { times, taus };
             let anchored = anchor.timing().1;
-            if anchored >= te / TE_REACH && anchored <= te * TE_REACH {
+            if anchored >= te_range.0 && anchored <= te_range.1 {
                 out.push(anchor);
             }
         }

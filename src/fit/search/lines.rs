@@ -65,10 +65,10 @@ pub(super) fn timed_lines(
 }
 
 /// The lines of `grid` through a caustic, each timed on the data's crossings
-/// ([`anchored_timings`]) with tE within [`super::anchor::TE_REACH`] of the seed's (not of the
-/// valley's at the line's impact parameter about the host, which runs to its bound where that
-/// nears 0, as a stellar binary's line through the caustic can pass close to the host), with
-/// their anchors.
+/// ([`anchored_timings`]) with tE within [`super::anchor::TE_REACH`] of the seed's, or of its
+/// range when its timing is not trusted ([`Seed::anchored_te`]; not of the valley's at the
+/// line's impact parameter about the host, which runs to its bound where that nears 0, as a
+/// stellar binary's line through the caustic can pass close to the host), with their anchors.
 fn anchored_lines(
     seed: &Seed,
     window: &Window,
@@ -79,7 +79,7 @@ fn anchored_lines(
     let (mut lines, mut anchors) = (Vec::new(), Vec::new());
     for &(alpha, u0) in grid {
         let inside = inside_intervals(caustics, alpha, u0);
-        for anchor in anchored_timings(&inside, &seed.crossings, seed.te) {
+        for anchor in anchored_timings(&inside, &seed.crossings, seed.anchored_te()) {
             let (t0, te) = anchor.timing();
             let tr = Trajectory::straight(t0, u0, te, alpha)?;
             if let Some(line) = Line::observed(tr, window, times) {

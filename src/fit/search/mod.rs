@@ -46,7 +46,8 @@
 //! When the data show a caustic crossing ([`Seed::crossings`]: their sharpest rise and a later
 //! sharpest drop), every line through a caustic is also tried with the timing that puts its
 //! entry and exit at those times ([`anchor`]), with its tE within a factor
-//! [`anchor::TE_REACH`] of the seed's. The best [`ANCHORED_KEEP`] of them are polished besides
+//! [`anchor::TE_REACH`] of the seed's (of the baseline's range of tE when its timing is not
+//! trusted: [`Seed::anchored_te`]). The best [`ANCHORED_KEEP`] of them are polished besides
 //! the map's best lines: before the polish, a line a little off the true path misfits the
 //! crossings' many points and ranks below blind lines that explain little, and the polish of
 //! those blind lines seldom finds the crossings. An anchored line is polished in Cassan's

@@ -26,6 +26,10 @@ pub struct Seed {
     /// A range of `u0` the data could not narrow (the baseline's, when its `u0` is poorly
     /// fixed), searched whole; `None` when the valley decides.
     pub u0_bounds: Option<(f64, f64)>,
+    /// A range of tE the data could not narrow (the baseline's, when its timing is not
+    /// trusted); `None` when `te` decides. Lines timed on the data's crossings keep a tE within
+    /// [`super::anchor::TE_REACH`] of it ([`Seed::anchored_te`]).
+    pub te_bounds: Option<(f64, f64)>,
     /// Candidate (entry, exit) times of a caustic crossing in the data
     /// ([`super::anchor::crossing_pairs`]); the grid's lines through a caustic are also timed
     /// on them. Empty: no such timings.
@@ -64,8 +68,24 @@ impl Seed {
             valley: Vec::new(),
             misfit: 0.0,
             u0_bounds: None,
+            te_bounds: None,
             crossings: Vec::new(),
         }
+    }
+
+    /// The tE a line timed on the data's crossings may take: within
+    /// [`super::anchor::TE_REACH`] of [`Seed::te_bounds`] (or of `te` without them) either way.
+    ///
+    /// ```
+    /// let mut seed = causeway::fit::search::Seed::at(10.0, 0.1, 20.0);
+    /// assert_eq!(seed.anchored_te(), (4.0, 100.0));
+    /// seed.te_bounds = Some((1.0, 50.0));
+    /// assert_eq!(seed.anchored_te(), (0.2, 250.0));
+    /// ```
+    pub fn anchored_te(&self) -> (f64, f64) {
+        let (lo, hi) = self.te_bounds.unwrap_or((self.te, self.te));
+        let reach = super::anchor::TE_REACH;
+        (lo.min(self.te) / reach, hi.max(self.te) * reach)
     }
 
     /// The seed of a single-lens fit: its trajectory, the time where the data depart from it
@@ -102,6 +122,7 @@ impl Seed {
             valley: valley(data, fit.t0, fit.u0, fit.te),
             misfit: (fit.chi2 - fit.dof() as f64).max(0.0),
             u0_bounds: None,
+            te_bounds: None,
             crossings: Vec::new(),
         }
     }
