@@ -6,6 +6,7 @@ use super::physical::PhysicalArgs;
 use super::progress::Reporter;
 use super::{NumberList, ThreadArgs};
 use crate::error::{Error, Result};
+use crate::fit::bins::SEARCH_POINTS;
 use crate::fit::event::{fit_event, FitOptions, FitResult, DEFAULT_CLIP_SIGMA, DEFAULT_TIME_LIMIT};
 use crate::fit::minima::RefineOptions;
 use crate::fit::noise::Clipped;
@@ -180,6 +181,10 @@ pub struct SearchArgs {
         allow_hyphen_values = true
     )]
     pub time_limit: f64,
+    /// The most points the search and zoom read: longer data are merged for them, flat
+    /// stretches first (the refinement fits every point; 0: read every point).
+    #[arg(long, value_name = "N", default_value_t = SEARCH_POINTS)]
+    pub search_points: usize,
     /// Write the table of minima here instead of stdout.
     #[arg(long, value_name = "FILE.csv")]
     pub out: Option<PathBuf>,
@@ -303,6 +308,7 @@ impl SearchArgs {
             rescale_errors: !self.fixed_errors,
             motion: self.motion.options(sets, self.tol)?,
             time_limit: (self.time_limit > 0.0).then(|| Duration::from_secs_f64(self.time_limit)),
+            search_points: (self.search_points > 0).then_some(self.search_points),
         })
     }
 

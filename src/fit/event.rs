@@ -25,7 +25,10 @@
 //!    the chi^2 on the data as given: a minuscule caustic read with a point source could pass
 //!    through one alone and claim its chi^2 (on an invented single lens, +169 for a binary of
 //!    q 2e-7). An anomaly seen in one point only is left out with them.
-//! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged.
+//! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged. Data
+//!    of more than [`FitOptions::search_points`] points (default [`SEARCH_POINTS`]) are
+//!    merged down to that many for the search and the zoom, flat stretches first
+//!    ([`super::bins`]); the refinement fits every point.
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
 //!    half and a quarter of the library's step are built and searched ([`super::zoom`]); also
 //!    around the best grid point that is no local minimum when it ranks above the last of
@@ -70,6 +73,7 @@
 //! The result keeps the chi^2 the fit minimised (`refined.chi2`, on the cleaned, rescaled
 //! data) and the chi^2 on the data as given ([`Minimum::chi2_as_given`]).
 
+use super::bins::{merge_for_search, SEARCH_POINTS};
 use super::hop::hop_best;
 use super::minima::{
     best_start, promising, refine_models, with_uncertainties, Minimum, RefineOptions,
@@ -124,6 +128,9 @@ pub struct FitOptions {
     /// Wall time from the fit's start after which the refinement's passes stop (see the
     /// module documentation); `None`: each pass has its own [`RefineOptions::budget`] alone.
     pub time_limit: Option<Duration>,
+    /// The most points the search and the zoom read; longer data are merged for them
+    /// ([`super::bins`]; the refinement fits every point). `None`: every point.
+    pub search_points: Option<usize>,
 }
 
 impl Default for FitOptions {
@@ -139,6 +146,7 @@ impl Default for FitOptions {
             rescale_errors: true,
             motion: None,
             time_limit: Some(DEFAULT_TIME_LIMIT),
+            search_points: Some(SEARCH_POINTS),
         }
     }
 }
@@ -266,9 +274,17 @@ pub fn fit_event(
         }
     }
 
+    let merged = merge_for_search(&searched, options.search_points.unwrap_or(usize::MAX));
+    if merged.points.1 < merged.points.0 {
+        note(format!(
+            "search: {} points merged into {} for the search and zoom (flat stretches first; \
+             the refinement fits every point)",
+            merged.points.0, merged.points.1
+        ));
+    }
     progress.start("search", maps.len() as u64);
     let started = Instant::now();
-    let outcomes = search_maps(&searched, &seed, maps, &rule, &|| progress.advance(1))?;
+    let outcomes = search_maps(&merged.sets, &seed, maps, &rule, &|| progress.advance(1))?;
     let outcomes = merge_grid_points(outcomes, rule.keep);
     let search_seconds = started.elapsed().as_secs_f64();
     let trajectories: u64 = outcomes.iter().map(|o| o.trajectories).sum();
@@ -287,8 +303,15 @@ pub fn fit_event(
     }
 
     let started = Instant::now();
-    let (mut starts, zoomed) =
-        refine_starts(&searched, &seed, &rule, &maps, &outcomes, options, progress)?;
+    let (mut starts, zoomed) = refine_starts(
+        &merged.sets,
+        &seed,
+        &rule,
+        &maps,
+        &outcomes,
+        options,
+        progress,
+    )?;
     let zoom_seconds = started.elapsed().as_secs_f64();
     for (z, start) in zoomed.iter().zip(&starts) {
         let walk = if start.0 == best_start(z).0 {

@@ -9,6 +9,7 @@
 //! - `single`: the single-lens point-source fit that seeds the search;
 //! - `simulate`: synthetic photometry of a model;
 //! - `scales`: physical scales (theta_E, proper motion, masses, separation);
+//! - `bins`: long data merged into fewer points for the search;
 //! - `search`: the grid search over the maps of a library;
 //! - `zoom`: finer maps around the search's best (s, q) before the refinement;
 //! - `refine`: local refinement with exact magnifications;
@@ -20,6 +21,7 @@
 //! - `plots`: the chi^2 map over (s, q) and the best model over the data (PNG);
 //! - `event`: the whole fit of an event as one call (baseline, search, refinement, noise).
 
+pub mod bins;
 pub mod chords;
 pub mod event;
 pub mod fluxes;

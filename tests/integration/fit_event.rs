@@ -263,3 +263,46 @@ fn a_lone_outlier_is_not_explained_by_a_binary() {
         result.minima[0].refined.model
     );
 }
+
+/// Data merged for the search (500 points asked down to 200, `fit::bins`; 230 where the
+/// merges stop at their cost) lead to the minimum that every
+/// point does: the search only starts the refinement, which fits every point, and the merges
+/// take the flat stretches, not the caustic crossing. Within a tenth of the uncertainties in
+/// s and q and 0.1 in chi^2 (the minimiser's tolerance; the same data at the minimum), and
+/// the truth's (s, q) as in the test above.
+#[test]
+fn data_merged_for_the_search_reach_the_same_minimum() {
+    let map = map();
+    let data = data(0.0, 1.0, &[]);
+    let every = fit(&data, &map);
+    let merged = fit_with(
+        &data,
+        &map,
+        FitOptions {
+            search_points: Some(200),
+            ..FitOptions::default()
+        },
+    );
+    assert!(
+        merged
+            .notes
+            .iter()
+            .any(|n| n.contains("500 points merged into")),
+        "{:?}",
+        merged.notes
+    );
+    assert!(!every.notes.iter().any(|n| n.contains("merged into")));
+    let (a, b) = (&every.minima[0].refined, &merged.minima[0].refined);
+    let points = |f: &FitResult| f.data.iter().map(DataSet::len).sum::<usize>();
+    assert_eq!(points(&merged), points(&every));
+    assert!(
+        (a.model.s - b.model.s).abs() < 0.1 * a.sigma[0],
+        "{a:?}\n{b:?}"
+    );
+    assert!(
+        (a.model.q - b.model.q).abs() < 0.1 * a.sigma[1],
+        "{a:?}\n{b:?}"
+    );
+    assert!((a.chi2 - b.chi2).abs() < 0.1, "{a:?}\n{b:?}");
+    assert!((b.model.s / 1.3 - 1.0).abs() < 0.01, "{:?}", b.model);
+}
