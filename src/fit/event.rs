@@ -412,7 +412,7 @@ pub fn fit_event(
         ));
     }
     if !clipped.is_empty() {
-        let rho_floor = rule.rhos.iter().copied().fold(f64::INFINITY, f64::min);
+        let rho_floor = rule.rho_min();
         let best = &minima[0].refined.model;
         let (sigma, refine) = (options.clip_sigma, within_limit());
         let n = clipped.len();

@@ -135,7 +135,14 @@ impl GridRule {
         Ok(())
     }
 
-    pub(super) fn rho_min(&self) -> f64 {
+    /// The smallest trial radius.
+    ///
+    /// ```
+    /// use causeway::fit::search::GridRule;
+    /// let rule = GridRule { rhos: vec![2e-3, 1e-3, 4e-3], ..GridRule::default() };
+    /// assert_eq!(rule.rho_min(), 1e-3);
+    /// ```
+    pub fn rho_min(&self) -> f64 {
         self.rhos.iter().copied().fold(f64::INFINITY, f64::min)
     }
 
