@@ -22,7 +22,8 @@
 //! each kind, with (s, q) and the path drawn afresh (named `wide`, `close`, `central`,
 //! `resonant`, `stellar`, `cusp`, `lowq`, `single`).
 //!
-//! `--point-cap CHI2` sets the search's point cap (`search --point-cap`).
+//! `--point-cap CHI2` sets the search's point cap (`search --point-cap`); `--search-points N`
+//! the most points the search reads (`search --search-points`, 0 for every point).
 //!
 //! `--variant K` fits variant K of each event instead (`BenchEvent::variant`: the same lens and
 //! path, another tE, rho, blending, timing within the night and noise): events the fit was
@@ -53,6 +54,10 @@ fn main() {
     let mut options = FitOptions::default();
     if let Some(i) = args.iter().position(|a| a == "--point-cap") {
         options.rule.point_cap = args[i + 1].parse().expect("--point-cap takes a number");
+    }
+    if let Some(i) = args.iter().position(|a| a == "--search-points") {
+        let n: usize = args[i + 1].parse().expect("--search-points takes a number");
+        options.search_points = (n > 0).then_some(n);
     }
     let names: Vec<&String> = args
         .iter()
