@@ -181,9 +181,8 @@ pub struct SearchArgs {
         allow_hyphen_values = true
     )]
     pub time_limit: f64,
-    /// The most points the search, zoom and first refinement read: longer data are merged for
-    /// them, flat stretches first (the minima are refined again on every point; 0: read every
-    /// point).
+    /// The most points the search and zoom read: longer data are merged for them, flat
+    /// stretches first (the refinement fits every point; 0: read every point).
     #[arg(long, value_name = "N", default_value_t = SEARCH_POINTS)]
     pub search_points: usize,
     /// Write the table of minima here instead of stdout.

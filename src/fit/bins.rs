@@ -17,16 +17,15 @@
 //! chi^2 of a model on the merged data differs from that on every point by the groups' own
 //! scatter (the same for every model) and by the model's curvature within a group, which the
 //! cost rule keeps below the errors, so the search ranks trajectories as it would on every
-//! point. Only the search, the zoom and the first refinement read merged data; every minimum is
-//! refined again on every point.
+//! point. Only the search and the zoom read merged data; the refinement fits every point.
 
 use super::photometry::DataSet;
 use std::cmp::Reverse;
 use std::collections::BinaryHeap;
 
-/// The most points the search, the zoom and the first refinement read by default; larger data
-/// are merged down to it (measured on an invented close planet of 3,356 points, merged into
-/// 1,500: the fit 438 -> 314 s, the same minimum; docs/recovery.md).
+/// The most points the search and the zoom read by default; larger data are merged down to it
+/// (on an invented close planet of 3,356 points merged into 1,500: the search 124 -> 79 s, the
+/// zoom 105 -> 69 s, the same minimum; docs/recovery.md).
 pub const SEARCH_POINTS: usize = 1500;
 /// The largest chi^2 a merge may add (two standard errors between the groups' means).
 pub const MAX_MERGE_COST: f64 = 4.0;

@@ -27,8 +27,8 @@
 //!    q 2e-7). An anomaly seen in one point only is left out with them.
 //! 4. **Search** of every map ([`super::search`]); maps of the same (s, q) are merged. Data
 //!    of more than [`FitOptions::search_points`] points (default [`SEARCH_POINTS`]) are
-//!    merged down to that many for the search, the zoom and the first refinement, flat
-//!    stretches first ([`super::bins`]); the minima are refined again on every point (step 7).
+//!    merged down to that many for the search and the zoom, flat stretches first
+//!    ([`super::bins`]); the refinement fits every point.
 //! 5. **Zoom** ([`FitOptions::zoom`]): around the best few (s, q) local minima, finer maps at
 //!    half and a quarter of the library's step are built and searched ([`super::zoom`]); also
 //!    around the best grid point that is no local minimum when it ranks above the last of
@@ -44,8 +44,7 @@
 //!    rule in [`super::noise::clip_outliers`]) and each data set's error bars are scaled by the
 //!    robust spread of its normalised residuals, capped by its point-to-point scatter
 //!    ([`super::noise`]; [`FitOptions::rescale_errors`]); when either changed the data
-//!    by more than 5%, or the first refinement read merged data, every minimum is refined
-//!    again on the cleaned, rescaled data (by
+//!    by more than 5%, every minimum is refined again on the cleaned, rescaled data (by
 //!    Levenberg-Marquardt alone: it starts at a minimum), and the best once more with the
 //!    simplex stages (the first pass can stop in a basin the cleaned data no longer hold).
 //!    Then the clipped points are offered back (`passes::readmit`): the best minimum is
@@ -129,9 +128,8 @@ pub struct FitOptions {
     /// Wall time from the fit's start after which the refinement's passes stop (see the
     /// module documentation); `None`: each pass has its own [`RefineOptions::budget`] alone.
     pub time_limit: Option<Duration>,
-    /// The most points the search, the zoom and the first refinement read; longer data are
-    /// merged for them ([`super::bins`]; the minima are refined again on every point). `None`:
-    /// every point.
+    /// The most points the search and the zoom read; longer data are merged for them
+    /// ([`super::bins`]; the refinement fits every point). `None`: every point.
     pub search_points: Option<usize>,
 }
 
@@ -348,21 +346,15 @@ pub fn fit_event(
     }
     let started = Instant::now();
     progress.start("refine", starts.len() as u64);
-    // The starts are refined on the merged data too (every point again below); the first
-    // refinements also start from a pass on the chi^2 the search ranked by.
-    let was_merged = merged.points.1 < merged.points.0;
-    let first_on = if was_merged { &merged.sets } else { &searched };
-    let first = refine_models(first_on, &starts, &within_limit(), rule.point_cap, &|| {
+    // The first refinements also start from a pass on the chi^2 the search ranked by.
+    let first = refine_models(&searched, &starts, &within_limit(), rule.point_cap, &|| {
         progress.advance(1)
     })?;
     if let Some(m) = first.given_up_note(options.refine.within) {
         note(m);
     }
     let mut minima = first.minima;
-    progress.finish(&format!(
-        "refine: best chi2 {:.1} for {} points",
-        minima[0].refined.chi2, merged.points.1
-    ));
+    progress.finish(&format!("refine: best chi2 {:.1}", minima[0].refined.chi2));
     let (mut fitted, mut clipped, scales) = clean(
         &searched,
         &minima[0].refined.model,
@@ -381,13 +373,6 @@ pub fn fit_event(
                 .collect::<Vec<_>>()
                 .join(", ")
         ));
-    } else if was_merged {
-        note(
-            "refine: the minima refined on the merged data are refined again on every point".into(),
-        );
-        fitted = searched.clone();
-    }
-    if changed || was_merged {
         let starts: Vec<(BinaryModel, f64)> = minima
             .iter()
             .map(|m| (m.refined.model, m.search_chi2))
