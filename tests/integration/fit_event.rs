@@ -6,7 +6,7 @@ use causeway::engine::{Engine, PolygonMapping};
 use causeway::fit::event::{fit_event, FitOptions, FitResult};
 use causeway::fit::model::{BinaryModel, Trajectory};
 use causeway::fit::photometry::DataSet;
-use causeway::fit::refine::exact_chi2;
+use causeway::fit::refine::{exact_chi2, Refined};
 use causeway::fit::search::MapSource;
 use causeway::fit::simulate::{Noise, Simulation};
 use causeway::map::MagnificationMap;
@@ -60,6 +60,20 @@ fn data(t0: f64, scale: f64, outliers: &[usize]) -> Vec<DataSet> {
         s.values[i] += 0.3;
     }
     vec![DataSet::parse(&s.to_csv(), "site.csv", 22.0).unwrap()]
+}
+
+/// Asserts that `b` is the minimum `a`: s and q within `part` of `a`'s uncertainties, chi^2
+/// within `chi2`.
+fn assert_same_minimum(a: &Refined, b: &Refined, part: f64, chi2: f64) {
+    assert!(
+        (a.model.s - b.model.s).abs() < part * a.sigma[0],
+        "{a:?}\n{b:?}"
+    );
+    assert!(
+        (a.model.q - b.model.q).abs() < part * a.sigma[1],
+        "{a:?}\n{b:?}"
+    );
+    assert!((a.chi2 - b.chi2).abs() < chi2, "{a:?}\n{b:?}");
 }
 
 fn fit(data: &[DataSet], map: &MagnificationMap) -> FitResult {
@@ -128,15 +142,7 @@ fn times_on_a_jd_scale_give_the_same_minimum() {
     );
     // The rest the same to a hundredth of their uncertainties: the times' rounding (2e-10 d
     // at 2.46e6) moves where each minimiser stops within its own tolerance.
-    assert!(
-        (a.model.s - b.model.s).abs() < 0.01 * a.sigma[0],
-        "{a:?}\n{b:?}"
-    );
-    assert!(
-        (a.model.q - b.model.q).abs() < 0.01 * a.sigma[1],
-        "{a:?}\n{b:?}"
-    );
-    assert!((a.chi2 - b.chi2).abs() < 1e-3, "{a:?}\n{b:?}");
+    assert_same_minimum(a, b, 0.01, 1e-3);
     // And it is the truth: within one percent in s and 10% in q (the map is the truth's).
     assert!((a.model.s / 1.3 - 1.0).abs() < 0.01, "{:?}", a.model);
     assert!((a.model.q / 3e-3 - 1.0).abs() < 0.1, "{:?}", a.model);
@@ -295,14 +301,6 @@ fn data_merged_for_the_search_reach_the_same_minimum() {
     let (a, b) = (&every.minima[0].refined, &merged.minima[0].refined);
     let points = |f: &FitResult| f.data.iter().map(DataSet::len).sum::<usize>();
     assert_eq!(points(&merged), points(&every));
-    assert!(
-        (a.model.s - b.model.s).abs() < 0.1 * a.sigma[0],
-        "{a:?}\n{b:?}"
-    );
-    assert!(
-        (a.model.q - b.model.q).abs() < 0.1 * a.sigma[1],
-        "{a:?}\n{b:?}"
-    );
-    assert!((a.chi2 - b.chi2).abs() < 0.1, "{a:?}\n{b:?}");
+    assert_same_minimum(a, b, 0.1, 0.1);
     assert!((b.model.s / 1.3 - 1.0).abs() < 0.01, "{:?}", b.model);
 }
