@@ -233,6 +233,7 @@ def fit_event(
     ephemerides: Optional[Sequence[Optional[Ephemeris]]] = None,
     parallax_minima: int = 2,
     time_limit: float = 780.0,
+    search_points: int = 1500,
 ) -> dict[str, Any]: ...
 def simulate(
     s: float,

@@ -5,6 +5,7 @@ use crate::light::{law, model};
 use crate::map::Map;
 use crate::parallax::{motion_dict, motion_options, moving_model, observer, Motion};
 use crate::store::Store;
+use causeway::fit::bins::SEARCH_POINTS;
 use causeway::fit::event::{
     fit_event as fit_whole, FitOptions, DEFAULT_CLIP_SIGMA, DEFAULT_TIME_LIMIT,
 };
@@ -213,13 +214,15 @@ pub fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, 
 
 /// fit_event(data, maps, rhos=None, exclude=(), baseline=None, zoom_levels=2, zoom_points=2,
 /// refine=4, tol=1e-4, budget=600.0, clip=5.0, rescale_errors=True, adaptive_timing=True,
-/// hops=8, progress=None, threads=None, time_limit=780.0) -> dict
+/// hops=8, progress=None, threads=None, time_limit=780.0, search_points=1500) -> dict
 ///
 /// The whole fit of a list of DataSet with the binary-lens maps of `maps` (a Store: all its
 /// binary maps; or a list of Map): single-lens baseline, search of every map, zoom, exact
 /// refinement, outlier clipping (clip sigmas, 0 for none), error rescaling, refinement again,
 /// hops (`hops` perturbed restarts per round around the best minimum; 0 for none). Every
-/// refinement pass stops `time_limit` seconds after the start (0 for no limit).
+/// refinement pass stops `time_limit` seconds after the start (0 for no limit). Data of more
+/// than `search_points` points are merged down to that many for the search and the zoom (flat
+/// stretches first; 0 reads every point); the refinement fits every point.
 /// Returns "minima" (best first; each a dict of "s", "q", "alpha" (degrees), "u0", "t0", "te"
 /// (days), "rho", "sigma" (dict of the same names), "chi2", "chi2_as_given", "search_chi2",
 /// "partner" (index of its close/wide partner or None), "fluxes"), "single" (the baseline's
@@ -233,7 +236,7 @@ pub fn model_dict<'py>(py: Python<'py>, m: &BinaryModel) -> PyResult<Bound<'py, 
 ///     fit = causeway.fit_event(sets, store, ra="17:55:00", dec="-29:30:00", orbit=False)
 ///     fit["motion"][0]["pi_e_n"], fit["motion"][0]["delta_chi2_static"]
 #[pyfunction]
-#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, hops=HOPS, progress=None, threads=None, ra=None, dec=None, t0_par=None, orbit=true, ephemerides=None, parallax_minima=2, time_limit=DEFAULT_TIME_LIMIT.as_secs_f64()))]
+#[pyo3(signature = (data, maps, rhos=None, exclude=Vec::new(), baseline=None, zoom_levels=2, zoom_points=2, refine=4, tol=1e-4, budget=600.0, clip=DEFAULT_CLIP_SIGMA, rescale_errors=true, adaptive_timing=true, hops=HOPS, progress=None, threads=None, ra=None, dec=None, t0_par=None, orbit=true, ephemerides=None, parallax_minima=2, time_limit=DEFAULT_TIME_LIMIT.as_secs_f64(), search_points=SEARCH_POINTS))]
 #[allow(clippy::too_many_arguments)]
 pub fn fit_event<'py>(
     py: Python<'py>,
@@ -260,6 +263,7 @@ pub fn fit_event<'py>(
     ephemerides: Option<Vec<Option<Bound<'py, PyAny>>>>,
     parallax_minima: usize,
     time_limit: f64,
+    search_points: usize,
 ) -> PyResult<Bound<'py, PyDict>> {
     if data.is_empty() {
         return Err(bad("data", "give at least one DataSet"));
@@ -287,6 +291,7 @@ pub fn fit_event<'py>(
         }),
         clip_sigma: (clip > 0.0).then_some(clip),
         rescale_errors,
+        search_points: (search_points > 0).then_some(search_points),
         motion: match (&ra, &dec) {
             (Some(r), Some(d)) => Some(motion_options(
                 r,

@@ -91,9 +91,11 @@ rule = "planetary"
     causeway.build_library(spec, store)
     stages = []
     data = causeway.DataSet.read(tmp_path / "event.csv")
+    # The search reads 160 points merged into 120 (search_points; the refinement every point).
     fit = causeway.fit_event([data], store, rhos=[0.002, 0.003, 0.005], refine=2, zoom_levels=0,
-                             clip=0, rescale_errors=False, budget=0,
+                             clip=0, rescale_errors=False, budget=0, search_points=120,
                              time_limit=0, progress=lambda e, s: stages.append(e))
+    assert any("160 points merged into 120" in n for n in fit["notes"])
     best = fit["minima"][0]
     assert abs(best["s"] / 1.3 - 1) < 0.01 and abs(best["q"] / 3e-3 - 1) < 0.1
     # chi2/dof of a right model with Gaussian errors: 1 within a few sqrt(2/dof) (common practice).
@@ -102,7 +104,7 @@ rule = "planetary"
     assert "start" in stages and fit["single"]["chi2"] > best["chi2"]
     out = read_csv(cli("search", tmp_path / "event.csv", "--library", tmp_path / "maps", "--rho",
                        "0.002,0.003,0.005", "--refine", 2, "--zoom", 0, "--clip", 0,
-                       "--fixed-errors", "--budget", 0, "--time-limit", 0))
+                       "--fixed-errors", "--budget", 0, "--time-limit", 0, "--search-points", 120))
     for ours, theirs in [("s", "s"), ("q", "q"), ("u0", "u0"), ("te", "tE"), ("rho", "rho"), ("chi2", "chi2")]:
         assert best[ours] == out[theirs][0], ours
 

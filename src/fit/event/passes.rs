@@ -10,7 +10,7 @@ use crate::fit::minima::{best_start, grid_starts, refine_models, Minimum, Refine
 use crate::fit::model::BinaryModel;
 use crate::fit::noise::{clean, Clipped};
 use crate::fit::photometry::DataSet;
-use crate::fit::refine::{exact_chi2, refine_until, Refined};
+use crate::fit::refine::{exact_chi2, refine_until, Refined, COARSE_TOL};
 use crate::fit::search::{GridRule, MapOutcome, MapSource, Seed};
 use crate::fit::zoom::{most_points, runner_up, same_point, MapRecipe, Zoomer};
 use crate::map::read_fits;
@@ -285,20 +285,23 @@ pub(super) fn readmit(
         })
         .collect();
     let deadline = options.budget.map(|b| Instant::now() + b);
-    let refit = |data: &[DataSet], start: &BinaryModel| {
-        let (tol, iters) = (options.tol, options.max_iters);
+    let iters = options.max_iters;
+    let refit = |data: &[DataSet], start: &BinaryModel, tol: f64| {
         refine_until(data, start, tol, iters, false, f64::INFINITY, deadline)
     };
     let start = BinaryModel {
         rho: best.rho.max(rho_floor),
         ..*best
     };
-    let all = refit(&scaled, &start)?;
+    // The refit with every point only tells which points a minimum near `best` explains: at
+    // the refinement's search tolerance (contour integration costs less), the refit kept at
+    // the one asked for.
+    let all = refit(&scaled, &start, options.tol.max(COARSE_TOL))?;
     let (cleaned, again, _) = clean(&scaled, &all.model, clip_sigma, false, options.tol)?;
     if again.len() >= clipped {
         return Ok(None);
     }
-    let refined = refit(&cleaned, &all.model)?;
+    let refined = refit(&cleaned, &all.model, options.tol)?;
     // Kept only where it fits those data better than the minimum it came from.
     if refined.chi2 >= exact_chi2(&cleaned, best, options.tol)?.0 {
         return Ok(None);
