@@ -514,10 +514,30 @@ pub fn uncertainties(
     sigma
 }
 
+/// Below this source radius a refined model counts as a point source: two radii below it are
+/// one ([`same_minimum`]), and the report says the data did not fix it. Where nothing in the
+/// data fixes rho, the minimiser's steps in `ln rho` run without bound (to underflow).
+pub const POINT_SOURCE_RHO: f64 = 1e-6;
+
 /// Whether two refined models are the same minimum: every parameter within three times the
 /// larger of their uncertainties (at least a tenth of the fixed limits below), or, where those
 /// are unknown, within fixed limits: 1% in s, 5% in q, 0.01 rad in alpha, 1% of max(u0, 0.01)
-/// in u0, 1% of tE in t0 and tE, 10% in rho.
+/// in u0, 1% of tE in t0 and tE, 10% of the larger rho in rho (at least
+/// [`POINT_SOURCE_RHO`]).
+///
+/// ```
+/// use causeway::fit::model::{BinaryModel, Trajectory};
+/// use causeway::fit::refine::{same_minimum, Refined};
+/// let at = |rho: f64| Refined {
+///     model: BinaryModel { s: 1.27, q: 2.4e-3, rho,
+///         trajectory: Trajectory::straight(9.6, 0.12, 25.0, 0.55).unwrap() },
+///     sigma: [f64::NAN; 7], chi2: 100.0, fluxes: vec![], evaluations: 1 };
+/// // Two point sources (ln rho run to underflow, and not quite) are one minimum...
+/// assert!(same_minimum(&at(0.0), &at(4e-174)));
+/// // ...two radii a tenth apart are too, and a radius twice another is not.
+/// assert!(same_minimum(&at(2e-3), &at(2.1e-3)));
+/// assert!(!same_minimum(&at(2e-3), &at(4e-3)));
+/// ```
 pub fn same_minimum(a: &Refined, b: &Refined) -> bool {
     let (ma, mb) = (&a.model, &b.model);
     let (la, lb) = (ma.trajectory.line(), mb.trajectory.line());
@@ -541,7 +561,7 @@ pub fn same_minimum(a: &Refined, b: &Refined) -> bool {
         0.01 * la.u0.abs().max(0.01),
         0.01 * la.te,
         0.01 * la.te,
-        0.1 * ma.rho,
+        (0.1 * ma.rho.max(mb.rho)).max(POINT_SOURCE_RHO),
     ];
     diffs.iter().enumerate().all(|(i, &d)| {
         let sig = a.sigma[i].max(b.sigma[i]);

@@ -27,6 +27,7 @@ use super::minima::Minimum;
 use super::model::BinaryModel;
 use super::motion::MotionMinimum;
 use super::photometry::DataSet;
+use super::refine::POINT_SOURCE_RHO;
 use super::scales::{scales, LensValues, PhysicalInput, Scales, LENS_NAMES};
 use super::single::SingleLensFit;
 use crate::error::Result;
@@ -259,7 +260,7 @@ impl Report<'_> {
             let _ = writeln!(
                 out,
                 "#{}: s = {:.4} +- {:.1e}, q = {:.3e} +- {:.1e}, alpha = {:.2} deg, u0 = {:.5}, \
-                 t0 = {:.4}, tE = {:.3} d, rho = {:.2e}: chi2 = {:.1} ({:.3} per dof), \
+                 t0 = {:.4}, tE = {:.3} d, {}: chi2 = {:.1} ({:.3} per dof), \
                  delta chi2 = {:.1} (search {:.1}){}",
                 i + 1,
                 r.model.s,
@@ -270,7 +271,7 @@ impl Report<'_> {
                 l.u0,
                 l.t0,
                 l.te,
-                r.model.rho,
+                rho_text(r.model.rho),
                 chi2,
                 chi2 / self.dof().max(1) as f64,
                 self.single_chi2() - chi2,
@@ -311,6 +312,15 @@ impl Report<'_> {
             );
         }
         out
+    }
+}
+
+/// The summary's source radius: below [`POINT_SOURCE_RHO`] the data did not fix it.
+fn rho_text(rho: f64) -> String {
+    if rho < POINT_SOURCE_RHO {
+        format!("rho < {POINT_SOURCE_RHO:.0e} (a point source: the data do not fix it)")
+    } else {
+        format!("rho = {rho:.2e}")
     }
 }
 
