@@ -15,9 +15,12 @@
 //! Data within the target are left as they are. A caustic crossing, where the flux changes by
 //! many errors from point to point, is merged last or not at all; a flat stretch first. The
 //! chi^2 of a model on the merged data differs from that on every point by the groups' own
-//! scatter (the same for every model) and by the model's curvature within a group, which the
-//! cost rule keeps below the errors, so the search ranks trajectories as it would on every
-//! point. Only the search and the zoom read merged data; the refinement fits every point.
+//! scatter (the same for every model) and by the model's curvature within a group. The cost
+//! rule bounds the data's differences, not that curvature: on flat stretches it is below the
+//! errors, so the search ranks trajectories as it would on every point, but beside a caustic
+//! crossing it can exceed a merged point's smaller error (a refinement on merged data walked
+//! a stellar binary's rho to 1e-34; docs/recovery.md). So only the search and the zoom read
+//! merged data; the refinement fits every point.
 
 use super::photometry::DataSet;
 use std::cmp::Reverse;
