@@ -48,7 +48,7 @@ pub struct Minimum {
 /// let m = minimize(&rosen, &[-1.2, 1.0], &[0.1, 0.1], 1e-12, 5000).unwrap();
 /// assert!((m.x[0] - 1.0).abs() < 1e-4 && (m.x[1] - 1.0).abs() < 1e-4);
 /// // Every evaluation counted: from (-1.2, 1) the simplex needs some hundreds (common
-/// // practice; Nelder and Mead 1965 report the order for this function); 0 meant uncounted.
+/// // practice; Nelder and Mead 1965 report that order for it, from memory); 0 was uncounted.
 /// assert!(m.evaluations > 100 && m.evaluations < 20_000);
 /// ```
 pub fn minimize(
